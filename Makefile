@@ -1,0 +1,51 @@
+# ridgeflank: `make help` lists the targets.
+SHELL := /bin/bash
+export PATH := /usr/local/go/bin:$(PATH)
+GO ?= go
+ADDR ?= 127.0.0.1:8080
+DATA ?= ./data
+BIN := bin/ridgeflank
+VERSION ?= $(shell git describe --always --dirty 2>/dev/null || echo dev)
+LDFLAGS := -X main.version=$(VERSION)
+GO_TEST_FLAGS ?= -timeout 30m -p 2
+
+.PHONY: help run build web deps-build deps-test test test-go lint fmt bench clean
+
+help: ## list the targets
+	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sed -E 's/:.*## /\t/' | sort | column -t -s $$'\t'
+
+deps-build: ## install what the build needs (GDAL/PROJ dev files, gcc, npm) when missing
+	@scripts/setup-build.sh
+
+deps-test: deps-build ## install what the tests need (PostGIS, Chromium) and prepare the test database
+	@scripts/setup-test.sh
+
+web: ## install the page's npm packages (lockfile) and bundle the page into web/dist
+	@cd web && { [ -d node_modules ] && [ node_modules/.package-lock.json -nt package-lock.json ] || npm ci --no-audit --no-fund --loglevel=error; } && npm run --silent build
+
+build: deps-build web ## build bin/ridgeflank
+	$(GO) build -ldflags '$(LDFLAGS)' -o $(BIN) ./cmd/ridgeflank
+
+run: build ## build and serve on the embedded store in ./data (demo basin loaded on first start)
+	$(BIN) serve --addr $(ADDR) --data $(DATA)
+
+lint: ## fail on gofmt differences and go vet findings
+	@out=$$(gofmt -l $$(git ls-files '*.go' 2>/dev/null || find . -name '*.go' -not -path './web/node_modules/*')); \
+	  if [ -n "$$out" ]; then echo "gofmt would change:"; echo "$$out"; exit 1; fi
+	$(GO) vet ./...
+
+test: deps-test web lint test-go ## install test dependencies, bring up PostGIS, run every test
+
+test-go:
+	@mkdir -p build/screenshots
+	@set -a; eval "$$(scripts/test-db.sh --env)"; set +a; \
+	  RIDGEFLANK_SCREENSHOTS=$(CURDIR)/build/screenshots $(GO) test $(GO_TEST_FLAGS) ./...
+
+bench: deps-build web ## run the Go benchmarks (figures for the closing notes)
+	$(GO) test -run '^$$' -bench . -benchmem -benchtime 3x ./...
+
+fmt: ## gofmt every Go file
+	gofmt -w $$(git ls-files '*.go')
+
+clean: ## remove build outputs (keeps ./data)
+	rm -rf bin build web/dist/assets web/dist/*.js web/dist/*.css web/dist/*.html

@@ -1,0 +1,158 @@
+package main
+
+import (
+	"context"
+	"encoding/csv"
+	"encoding/json"
+	"fmt"
+	"io"
+	"text/tabwriter"
+
+	"ridgeflank/thermal"
+)
+
+var predictCmd = &command{
+	Name:    "predict",
+	Summary: "predict depth, heat flow and thickness of seafloor of given ages",
+	Usage: `Usage: ridgeflank predict --age LIST [--model ID | --params FILE] [--format table|csv|json]
+
+Predicts, for each seafloor age (Ma), the water depth (m), surface heat flow
+(mW/m²), thermal thickness of the lithosphere (km, where the temperature
+reaches 90 % of the mantle temperature), the depth of the 600 °C isotherm
+below the seafloor (km) and the subsidence rate (m/Myr), from the series
+solution of the chosen cooling model. At age 0 the heat flow and subsidence
+rate are infinite (printed as inf, or null in JSON).
+
+Limits: ages from 0 to 1000 Ma, at most 10000 per call; a --params file of at
+most 64 KB holding the JSON parameter object (id, name, kind,
+plate_thickness_km, mantle_temperature_c, ...).
+
+Example: ridgeflank predict --model gdh1 --age 0,10,50,100
+
+Predicted depths are model estimates, not for navigation.`,
+}
+
+// Run is set in init: runX refers to the command itself (for its help).
+func init() {
+	predictCmd.Run = runPredict
+	register(predictCmd)
+}
+
+// prediction is one row of predict's output.
+type prediction struct {
+	AgeMa                 jsonNumber `json:"age_ma"`
+	DepthM                jsonNumber `json:"depth_m"`
+	HeatFlowMWm2          jsonNumber `json:"heat_flow_mw_m2"`
+	ThicknessKm           jsonNumber `json:"thickness_km"`
+	Depth600CKm           jsonNumber `json:"depth_600c_km"`
+	SubsidenceRateMPerMyr jsonNumber `json:"subsidence_rate_m_per_myr"`
+}
+
+func predictRow(m thermal.Model, age float64) prediction {
+	return prediction{
+		AgeMa:                 jsonNumber(age),
+		DepthM:                jsonNumber(m.DepthM(age)),
+		HeatFlowMWm2:          jsonNumber(m.HeatFlowMWm2(age)),
+		ThicknessKm:           jsonNumber(m.ThermalThicknessKm(age)),
+		Depth600CKm:           jsonNumber(m.IsothermDepthKm(600, age)),
+		SubsidenceRateMPerMyr: jsonNumber(m.SubsidenceRateMPerMyr(age)),
+	}
+}
+
+func runPredict(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	fs := newFlags(predictCmd)
+	var mf modelFlags
+	mf.define(fs)
+	ageList := fs.String("age", "", "comma-separated seafloor ages in Ma, e.g. 0,10,50,100 (required)")
+	format := fs.String("format", "table", "output format: table, csv or json")
+	if err := parseFlags(ctx, predictCmd, fs, args, stdout, false); err != nil {
+		return err
+	}
+	if err := checkFormat(*format); err != nil {
+		return err
+	}
+	ages, err := parseAges(*ageList)
+	if err != nil {
+		return err
+	}
+	m, err := mf.model()
+	if err != nil {
+		return err
+	}
+	rows := make([]prediction, len(ages))
+	for i, a := range ages {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		rows[i] = predictRow(m, a)
+	}
+	switch *format {
+	case "json":
+		return writeErr(writePredictJSON(stdout, m, rows))
+	case "csv":
+		return writeErr(writePredictCSV(stdout, rows))
+	default:
+		return writeErr(writePredictTable(stdout, m, rows))
+	}
+}
+
+func writePredictJSON(w io.Writer, m thermal.Model, rows []prediction) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	enc.SetEscapeHTML(false)
+	return enc.Encode(struct {
+		Model       thermal.Params `json:"model"`
+		Caution     string         `json:"caution"`
+		Predictions []prediction   `json:"predictions"`
+	}{m.Params(), caution, rows})
+}
+
+var predictHeader = []string{"age_ma", "depth_m", "heat_flow_mw_m2", "thickness_km", "depth_600c_km", "subsidence_rate_m_per_myr"}
+
+func (p prediction) fields(decimals []int) []string {
+	vals := []float64{float64(p.AgeMa), float64(p.DepthM), float64(p.HeatFlowMWm2),
+		float64(p.ThicknessKm), float64(p.Depth600CKm), float64(p.SubsidenceRateMPerMyr)}
+	out := make([]string, len(vals))
+	for i, v := range vals {
+		if i == 0 {
+			out[i] = fmtNum(v, -1)
+			continue
+		}
+		out[i] = fmtNum(v, decimals[i])
+	}
+	return out
+}
+
+func writePredictCSV(w io.Writer, rows []prediction) error {
+	cw := csv.NewWriter(w)
+	if err := cw.Write(predictHeader); err != nil {
+		return err
+	}
+	for _, r := range rows {
+		if err := cw.Write(r.fields([]int{0, 2, 3, 3, 3, 4})); err != nil {
+			return err
+		}
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+func writePredictTable(w io.Writer, m thermal.Model, rows []prediction) error {
+	if _, err := fmt.Fprintln(w, modelLine(m)); err != nil {
+		return err
+	}
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintln(tw, "age (Ma)\tdepth (m)\theat flow (mW/m²)\tthickness (km)\t600 °C depth (km)\tsubsidence rate (m/Myr)\t")
+	for _, r := range rows {
+		f := r.fields([]int{0, 0, 1, 1, 1, 2})
+		for _, s := range f {
+			fmt.Fprint(tw, s, "\t")
+		}
+		fmt.Fprintln(tw)
+	}
+	if err := tw.Flush(); err != nil {
+		return err
+	}
+	_, err := fmt.Fprintln(w, caution)
+	return err
+}
