@@ -1,8 +1,9 @@
 #!/usr/bin/env bash
 # setup-test.sh: everything `make test` needs beyond the build: PostGIS (a running cluster and a
-# template database), and Debian's Chromium for the page tests. Idempotent.
+# template database), Debian's Chromium for the page tests and netcdf-bin (ncdump, used to inspect
+# written netCDF files independently of GDAL). Idempotent.
 set -euo pipefail
 here=$(cd "$(dirname "$0")" && pwd)
 "$here/setup-build.sh"
-"$here/apt-ensure.sh" chromium
+"$here/apt-ensure.sh" chromium netcdf-bin
 "$here/test-db.sh"

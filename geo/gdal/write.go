@@ -1,0 +1,262 @@
+package gdal
+
+/*
+#include <stdlib.h>
+#include <cpl_vsi.h>
+#include "rfgdal.h"
+*/
+import "C"
+
+import (
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"regexp"
+	"sort"
+	"strings"
+	"sync/atomic"
+	"time"
+	"unsafe"
+
+	"ridgeflank/geo"
+)
+
+// NetCDFFillFloat is the netCDF default fill value for float variables (NC_FILL_FLOAT,
+// netCDF User Guide), stored for NaN cells when Meta.NoData is nil.
+const NetCDFFillFloat = 9.969209968386869e36
+
+// WriteCOG writes g as a Cloud-Optimized GeoTIFF: float32, DEFLATE with the floating-point
+// predictor, 512×512 tiles, averaged overviews, EPSG:4326, no-data NaN (or Meta.NoData). Units,
+// name, long name, title, source, history, registration and vertical sense are stored as GDAL
+// metadata items (band unit type and description, dataset items) and the title as the TIFF
+// image description. Node grids are marked AREA_OR_POINT=Point. The file is written next to
+// path and renamed into place.
+func WriteCOG(path string, g *geo.Grid, m Meta) error {
+	return writeAtomic(path, ".tif", func(tmp string) error { return writeRaster("COG", tmp, g, m) })
+}
+
+// WriteNetCDF writes g as a CF-1.8 netCDF-4 (classic model) file with DEFLATE compression:
+// lon/lat coordinate variables (degrees_east/degrees_north), one float variable named Meta.Name
+// (default "z") with units, long_name and _FillValue (Meta.NoData, default NetCDFFillFloat), a
+// WGS84 grid mapping, and global attributes Conventions, title, source, history (a line is
+// appended) and grid_registration. Rows are stored south to north as netCDF readers expect;
+// Read returns them north first again. A grid containing NaN is copied once to store the fill
+// value (so peak memory is about twice the grid); the caller's grid is never modified.
+func WriteNetCDF(path string, g *geo.Grid, m Meta) error {
+	return writeAtomic(path, ".nc", func(tmp string) error { return writeRaster("netCDF", tmp, g, m) })
+}
+
+var vsiSeq atomic.Uint64
+
+// EncodeCOG returns the bytes of WriteCOG's file, built in GDAL's in-memory file system.
+func EncodeCOG(g *geo.Grid, m Meta) ([]byte, error) {
+	ensureInit()
+	name := fmt.Sprintf("/vsimem/ridgeflank-%d-%d.tif", os.Getpid(), vsiSeq.Add(1))
+	cn := C.CString(name)
+	defer C.free(unsafe.Pointer(cn))
+	if err := writeRaster("COG", name, g, m); err != nil {
+		C.VSIUnlink(cn)
+		return nil, err
+	}
+	var n C.ulonglong
+	p := C.rf_vsimem_take(cn, &n)
+	if p == nil {
+		return nil, fmt.Errorf("encode COG: in-memory file %s vanished", name)
+	}
+	defer C.VSIFree(unsafe.Pointer(p))
+	return append([]byte(nil), unsafe.Slice((*byte)(unsafe.Pointer(p)), int(n))...), nil
+}
+
+// EncodeNetCDF returns the bytes of WriteNetCDF's file. The netCDF library cannot write to
+// GDAL's in-memory file system, so a temporary file is used and removed.
+func EncodeNetCDF(g *geo.Grid, m Meta) ([]byte, error) {
+	f, err := os.CreateTemp("", "ridgeflank-*.nc")
+	if err != nil {
+		return nil, fmt.Errorf("encode netCDF: %w", err)
+	}
+	name := f.Name()
+	f.Close()
+	defer os.Remove(name)
+	if err := writeRaster("netCDF", name, g, m); err != nil {
+		return nil, err
+	}
+	return os.ReadFile(name)
+}
+
+// writeAtomic runs write on a temporary name in path's directory and renames it to path. The
+// temporary name ends in ext because GDAL's netCDF driver only recognises a netCDF-4 file by
+// its extension when it reopens what it wrote.
+func writeAtomic(path, ext string, write func(tmp string) error) error {
+	dir, base := filepath.Split(path)
+	if dir == "" {
+		dir = "."
+	}
+	tmp := filepath.Join(dir, fmt.Sprintf(".%s.tmp-%d-%d%s", base, os.Getpid(), vsiSeq.Add(1), ext))
+	if err := write(tmp); err != nil {
+		os.Remove(tmp)
+		return err
+	}
+	if err := os.Rename(tmp, path); err != nil {
+		os.Remove(tmp)
+		return fmt.Errorf("write grid %s: %w", path, err)
+	}
+	return nil
+}
+
+var ncNameRE = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*$`)
+
+func writeRaster(driver, path string, g *geo.Grid, m Meta) error {
+	ensureInit()
+	if err := g.Validate(); err != nil {
+		return fmt.Errorf("write grid %s: %w", path, err)
+	}
+	netcdf := driver == "netCDF"
+	name := m.Name
+	if name == "" {
+		name = "z"
+	}
+	if netcdf && !ncNameRE.MatchString(name) {
+		return fmt.Errorf("write grid %s: variable name %q must be letters, digits and _ (not starting with a digit)", path, name)
+	}
+	// no-data
+	hasND := true
+	nd := math.NaN()
+	if m.NoData != nil {
+		nd = *m.NoData
+	} else if netcdf {
+		nd = NetCDFFillFloat
+	}
+	data := g.Data
+	if !math.IsNaN(nd) {
+		nd32 := float32(nd)
+		var cp []float32
+		for i, v := range data {
+			if v != v {
+				if cp == nil {
+					cp = append([]float32(nil), data...)
+				}
+				cp[i] = nd32
+			}
+		}
+		if cp != nil {
+			data = cp
+		}
+	}
+	gt := [6]C.double{C.double(g.West - g.DX/2), C.double(g.DX), 0, C.double(g.North + g.DY/2), 0, C.double(-g.DY)}
+	history := strings.TrimRight(m.History, "\n")
+	line := time.Now().UTC().Format(time.RFC3339) + " ridgeflank: written as " + map[bool]string{true: "CF netCDF", false: "COG"}[netcdf]
+	if history != "" {
+		history += "\n"
+	}
+	history += line
+	global := map[string]string{
+		"title":             m.Title,
+		"source":            m.Source,
+		"history":           history,
+		"grid_registration": g.Registration.String(),
+	}
+	if m.Sense != geo.SenseUnknown {
+		global["vertical_sense"] = m.Sense.String()
+	}
+	var dsMD, bandMD []string
+	add := func(list *[]string, k, v string) {
+		if v != "" {
+			*list = append(*list, k+"="+v)
+		}
+	}
+	extra := sortedKeys(m.Metadata)
+	if netcdf {
+		global["Conventions"] = "CF-1.8"
+		for _, k := range extra {
+			if strings.Contains(k, "#") {
+				continue // attributes of other variables in the source file
+			}
+			if _, ours := global[k]; !ours {
+				global[k] = m.Metadata[k]
+			}
+		}
+		for _, k := range sortedKeys(global) {
+			add(&dsMD, "NC_GLOBAL#"+k, global[k])
+		}
+		add(&bandMD, "NETCDF_VARNAME", name)
+		add(&bandMD, "long_name", m.LongName)
+		add(&bandMD, "units", m.Units)
+		if m.Sense != geo.SenseUnknown {
+			add(&bandMD, "vertical_sense", m.Sense.String())
+		}
+		for _, k := range sortedKeys(m.BandMetadata) {
+			switch k {
+			case "NETCDF_VARNAME", "_FillValue", "grid_mapping", "units", "long_name", "vertical_sense", "missing_value", "scale_factor", "add_offset":
+				continue
+			}
+			add(&bandMD, k, m.BandMetadata[k])
+		}
+	} else {
+		for _, k := range extra {
+			if strings.Contains(k, "#") || strings.HasPrefix(k, "AREA_OR_POINT") {
+				continue
+			}
+			if _, ours := global[k]; !ours {
+				global[k] = m.Metadata[k]
+			}
+		}
+		global["units"] = m.Units
+		global["long_name"] = m.LongName
+		for _, k := range sortedKeys(global) {
+			add(&dsMD, k, global[k])
+		}
+		add(&dsMD, "TIFFTAG_IMAGEDESCRIPTION", m.Title)
+		add(&dsMD, "TIFFTAG_SOFTWARE", "ridgeflank")
+		if g.Registration == geo.Node {
+			add(&dsMD, "AREA_OR_POINT", "Point")
+		} else {
+			add(&dsMD, "AREA_OR_POINT", "Area")
+		}
+	}
+	var copts []string
+	if netcdf {
+		copts = []string{"FORMAT=NC4C", "COMPRESS=DEFLATE", "ZLEVEL=4", "WRITE_BOTTOMUP=YES",
+			"WRITE_GDAL_HISTORY=NO", "WRITE_GDAL_VERSION=NO"}
+	} else {
+		copts = []string{"COMPRESS=DEFLATE", "PREDICTOR=YES", "BLOCKSIZE=512", "BIGTIFF=IF_SAFER",
+			"NUM_THREADS=ALL_CPUS", "RESAMPLING=AVERAGE", "OVERVIEWS=AUTO"}
+	}
+	cDriver, cPath := C.CString(driver), C.CString(path)
+	cUnits, cDesc := C.CString(m.Units), C.CString(name)
+	defer C.free(unsafe.Pointer(cDriver))
+	defer C.free(unsafe.Pointer(cPath))
+	defer C.free(unsafe.Pointer(cUnits))
+	defer C.free(unsafe.Pointer(cDesc))
+	cds, cband, copt := cStrings(dsMD), cStrings(bandMD), cStrings(copts)
+	defer freeCStrings(cds)
+	defer freeCStrings(cband)
+	defer freeCStrings(copt)
+	if netcdf {
+		hdfMu.Lock()
+		defer hdfMu.Unlock()
+	}
+	ndFlag := 0
+	if hasND {
+		ndFlag = 1
+	}
+	var e C.rf_err
+	ok := C.rf_write(cDriver, cPath, (*C.float)(unsafe.Pointer(&data[0])), C.int(g.NX), C.int(g.NY), &gt[0],
+		C.int(ndFlag), C.double(nd), cUnits, cDesc, cds, cband, copt, &e)
+	if ok == 0 {
+		if err := cErr(&e, "write grid "+path); err != nil {
+			return err
+		}
+		return fmt.Errorf("write grid %s: GDAL failed", path)
+	}
+	return nil
+}
+
+func sortedKeys(m map[string]string) []string {
+	keys := make([]string, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	return keys
+}
