@@ -38,7 +38,7 @@ test: deps-test web lint test-go ## install test dependencies, bring up PostGIS,
 
 test-go:
 	@mkdir -p build/screenshots
-	@set -a; eval "$$(scripts/test-db.sh --env)"; set +a; \
+	@set -a; eval "$$(scripts/test-db.sh)"; set +a; \
 	  RIDGEFLANK_SCREENSHOTS=$(CURDIR)/build/screenshots $(GO) test $(GO_TEST_FLAGS) ./...
 
 bench: deps-build web ## run the Go benchmarks (figures for the closing notes)

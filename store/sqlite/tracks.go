@@ -1,0 +1,135 @@
+package sqlite
+
+import (
+	"context"
+	"database/sql"
+	"encoding/json"
+	"errors"
+	"fmt"
+
+	"github.com/paulmach/orb"
+	"github.com/paulmach/orb/encoding/wkb"
+
+	"ridgeflank/store"
+)
+
+const trackCols = `id, name, description, waypoints, params, created_at, updated_at, version`
+
+func scanTrack(sc scanner) (store.Track, error) {
+	var t store.Track
+	var wp []byte
+	var params string
+	var created, updated int64
+	if err := sc.Scan(&t.ID, &t.Name, &t.Description, &wp, &params, &created, &updated, &t.Version); err != nil {
+		return t, err
+	}
+	g, err := wkb.Unmarshal(wp)
+	if err != nil {
+		return t, fmt.Errorf("track %s: waypoints: %w", t.ID, err)
+	}
+	ls, ok := g.(orb.LineString)
+	if !ok {
+		return t, fmt.Errorf("track %s: waypoints stored as %s", t.ID, g.GeoJSONType())
+	}
+	t.Waypoints = ls
+	t.Params = json.RawMessage(params)
+	t.CreatedAt, t.UpdatedAt = fromMicros(created), fromMicros(updated)
+	return t, nil
+}
+
+// CreateTrack implements store.Store.
+func (s *Store) CreateTrack(ctx context.Context, t store.Track) (store.Track, error) {
+	if err := t.Validate(); err != nil {
+		return store.Track{}, err
+	}
+	if t.ID == "" {
+		t.ID = store.NewID(store.PrefixTrack)
+	}
+	wp, err := wkb.Marshal(t.Waypoints)
+	if err != nil {
+		return store.Track{}, fmt.Errorf("%w: track waypoints: %v", store.ErrInvalid, err)
+	}
+	t.Params = store.NormaliseParams(t.Params)
+	t.CreatedAt = store.Now()
+	t.UpdatedAt = t.CreatedAt
+	t.Version = 1
+	err = s.write(ctx, func(tx *sql.Tx) error {
+		_, err := tx.ExecContext(ctx, `INSERT INTO tracks (`+trackCols+`) VALUES (?, ?, ?, ?, ?, ?, ?, ?)`,
+			t.ID, t.Name, t.Description, wp, string(t.Params), micros(t.CreatedAt), micros(t.UpdatedAt), t.Version)
+		return mapErr(err)
+	})
+	if err != nil {
+		return store.Track{}, fmt.Errorf("creating track: %w", err)
+	}
+	return t, nil
+}
+
+// GetTrack implements store.Store.
+func (s *Store) GetTrack(ctx context.Context, id string) (store.Track, error) {
+	t, err := scanTrack(s.db.QueryRowContext(ctx, `SELECT `+trackCols+` FROM tracks WHERE id = ?`, id))
+	if errors.Is(err, sql.ErrNoRows) {
+		return store.Track{}, notFound("track", id)
+	}
+	return t, err
+}
+
+// ListTracks implements store.Store.
+func (s *Store) ListTracks(ctx context.Context, p store.Page) ([]store.Track, error) {
+	if err := p.Validate(); err != nil {
+		return nil, err
+	}
+	rows, err := s.db.QueryContext(ctx, `SELECT `+trackCols+` FROM tracks ORDER BY created_at, id LIMIT ? OFFSET ?`, p.EffectiveLimit(), p.Offset)
+	if err != nil {
+		return nil, fmt.Errorf("listing tracks: %w", err)
+	}
+	defer rows.Close()
+	out := []store.Track{}
+	for rows.Next() {
+		t, err := scanTrack(rows)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, t)
+	}
+	return out, rows.Err()
+}
+
+// UpdateTrack implements store.Store.
+func (s *Store) UpdateTrack(ctx context.Context, t store.Track) (store.Track, error) {
+	if t.ID == "" {
+		return store.Track{}, fmt.Errorf("%w: track id is required", store.ErrInvalid)
+	}
+	if err := t.Validate(); err != nil {
+		return store.Track{}, err
+	}
+	wp, err := wkb.Marshal(t.Waypoints)
+	if err != nil {
+		return store.Track{}, fmt.Errorf("%w: track waypoints: %v", store.ErrInvalid, err)
+	}
+	t.Params = store.NormaliseParams(t.Params)
+	t.UpdatedAt = store.Now()
+	expected := t.Version
+	err = s.write(ctx, func(tx *sql.Tx) error {
+		var created int64
+		err := tx.QueryRowContext(ctx, `UPDATE tracks SET name = ?, description = ?, waypoints = ?, params = ?, updated_at = ?, version = version + 1
+			WHERE id = ? AND version = ? RETURNING created_at, version`,
+			t.Name, t.Description, wp, string(t.Params), micros(t.UpdatedAt), t.ID, expected).Scan(&created, &t.Version)
+		if errors.Is(err, sql.ErrNoRows) {
+			return versionCheck(ctx, tx, "tracks", "track", t.ID, expected)
+		}
+		if err != nil {
+			return mapErr(err)
+		}
+		t.CreatedAt = fromMicros(created)
+		return nil
+	})
+	if err != nil {
+		return store.Track{}, fmt.Errorf("updating track: %w", err)
+	}
+	return t, nil
+}
+
+// DeleteTrack implements store.Store.
+func (s *Store) DeleteTrack(ctx context.Context, id string, expectedVersion int64) error {
+	return s.deleteVersioned(ctx, "tracks", "track", id, expectedVersion)
+}
