@@ -1,0 +1,988 @@
+package geo
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"runtime"
+	"sync"
+	"sync/atomic"
+
+	"github.com/paulmach/orb"
+
+	"ridgeflank/thermal"
+)
+
+// Outputs selects the quantities Evaluate computes; combine them with |. Quantities not asked
+// for are not computed.
+type Outputs uint32
+
+const (
+	// OutPredictedDepth is the model's predicted water depth, depth_m (positive down).
+	OutPredictedDepth Outputs = 1 << iota
+	// OutHeatFlow is the model's surface heat flow, heat_flow_mw_m2.
+	OutHeatFlow
+	// OutThermalThickness is the model's thermal lithosphere thickness, thickness_km.
+	OutThermalThickness
+	// OutDepth600C is the depth below the seafloor of the 600 °C isotherm, depth_km.
+	OutDepth600C
+	// OutCorrectedDepth is the observed depth corrected for sediment (and crust when a crustal
+	// thickness grid is given), depth_m positive down. Needs Inputs.Depth.
+	OutCorrectedDepth
+	// OutResidualDepth is predicted − corrected depth, depth_m: POSITIVE MEANS SHALLOWER THAN
+	// THE MODEL. Needs Inputs.Depth.
+	OutResidualDepth
+
+	outAll = OutPredictedDepth | OutHeatFlow | OutThermalThickness | OutDepth600C | OutCorrectedDepth | OutResidualDepth
+)
+
+// MaxResidualWorkers bounds the number of worker goroutines of one evaluation.
+const MaxResidualWorkers = 256
+
+// Inputs are the grids and parameters of a residual-depth evaluation.
+//
+// The output lattice is Age's lattice, or the part of it selected by Window. Depth, Sediment
+// and Crust may lie on any lattice: one whose sample positions coincide with the output's (same
+// spacing, origin offset by whole cells, same longitude convention) is read by direct index;
+// any other is sampled bilinearly (Grid.SampleBilinear) at the output sample positions, one row
+// at a time. Samples outside a grid's extent are no data (NaN), and a NaN in any grid used for
+// a quantity makes that quantity NaN: no-data sediment is not taken as zero thickness.
+type Inputs struct {
+	// Age is the seafloor age grid in Ma (required).
+	Age *Grid
+	// Depth is the observed seafloor in metres, in the vertical sense DepthSense declares
+	// (optional; required for corrected and residual depth).
+	Depth *Grid
+	// DepthSense declares Depth's sign convention: DepthPositiveDown or ElevationPositiveUp.
+	// SenseUnknown is refused: declare it, or detect it with DetectVerticalSense first.
+	DepthSense VerticalSense
+	// Sediment is sediment thickness in metres (optional; no sediment correction without it).
+	Sediment *Grid
+	// Crust is igneous crustal thickness in km (optional; no crust correction without it).
+	Crust *Grid
+	// CrustDensityKgM3 is the mean crust density for the crust correction; 0 means
+	// thermal.DefaultCrustDensityKgM3.
+	CrustDensityKgM3 float64
+	// Model is the cooling model (required); predictions come from thermal.TableFor(Model).
+	Model thermal.Model
+	// Compaction is the sediment porosity–depth parameter set (required with Sediment).
+	Compaction thermal.Compaction
+	// Window, if non-nil, restricts the evaluation to the part of Age inside the bound
+	// (the selection rule of Grid.Window; a copy of that part of Age is made).
+	Window *orb.Bound
+	// Mask, if it has any cells, must have one per cell of the output lattice (Age, or its
+	// window when Window is set; see GridMask); cells not in it are no data in every output.
+	Mask Mask
+	// Region, if not empty, restricts the evaluation to the cells of the output lattice whose
+	// sample positions GridMask puts inside it (combined with Mask when both are given).
+	Region orb.MultiPolygon
+	// Workers is the number of goroutines; 0 means GOMAXPROCS.
+	Workers int
+	// Progress, if non-nil, is called after each row block with the number of output rows done
+	// and the total; calls are serialised and rowsDone increases.
+	Progress func(rowsDone, rowsTotal int)
+}
+
+// Result holds the grids Evaluate computed; the fields not asked for are nil. All grids share
+// the output lattice (Age, or its window).
+type Result struct {
+	PredictedDepthM    *Grid // depth_m, positive down
+	HeatFlowMWm2       *Grid // heat_flow_mw_m2
+	ThermalThicknessKm *Grid // thickness_km
+	Depth600CKm        *Grid // depth of the 600 °C isotherm below the seafloor, km
+	CorrectedDepthM    *Grid // observed depth corrected for sediment (and crust), depth_m positive down
+	ResidualDepthM     *Grid // predicted − corrected, m; positive = shallower than the model
+}
+
+// RowBlock is one block of consecutive output rows passed to an EvaluateRows callback. The
+// slices hold Rows·Lattice.NX values row-major (nil when not asked for) and are reused after the
+// callback returns: copy what you keep.
+type RowBlock struct {
+	// Lattice describes the whole output lattice (its Data is nil).
+	Lattice *Grid
+	// Row0 is the first output row of the block; Rows the number of rows.
+	Row0, Rows int
+
+	PredictedDepthM    []float32
+	HeatFlowMWm2       []float32
+	ThermalThicknessKm []float32
+	Depth600CKm        []float32
+	CorrectedDepthM    []float32
+	ResidualDepthM     []float32
+}
+
+// ErrNoOutputs is returned when no output is asked for.
+var ErrNoOutputs = errors.New("no residual-depth output asked for")
+
+// Evaluate computes the asked-for outputs over the whole output lattice in memory, in parallel
+// over row blocks, and returns them as grids. It checks ctx between row blocks and returns
+// ctx.Err() when cancelled.
+//
+// Predictions use the model's lookup table (thermal.TableFor; for residual-only evaluations a
+// float32 resampling of it at coinciding nodes, error < 1 cm, so the whole residual is one
+// fused pass). The sediment correction is
+// thermal.SedimentCorrectionM (Sclater & Christie 1980 compaction, Airy isostasy with the
+// model's mantle and water densities) through its tabulated form thermal.SedimentCorrector, and
+// the crust correction thermal.CrustCorrectionM (Airy isostasy, relative to 7 km of crust);
+// corrected depth = observed depth (positive down) + sediment correction + crust correction, and
+// residual depth = predicted − corrected, as thermal.ResidualDepthM defines it (positive =
+// shallower than the model).
+//
+// Predicted depths are model estimates, not navigation data.
+func Evaluate(ctx context.Context, in Inputs, want Outputs) (*Result, error) {
+	p, err := newResidualPlan(in, want)
+	if err != nil {
+		return nil, err
+	}
+	res := &Result{}
+	alloc := func(o Outputs) *Grid {
+		if want&o == 0 {
+			return nil
+		}
+		g := *p.lat
+		g.Data = make([]float32, g.NX*g.NY)
+		return &g
+	}
+	res.PredictedDepthM = alloc(OutPredictedDepth)
+	res.HeatFlowMWm2 = alloc(OutHeatFlow)
+	res.ThermalThicknessKm = alloc(OutThermalThickness)
+	res.Depth600CKm = alloc(OutDepth600C)
+	res.CorrectedDepthM = alloc(OutCorrectedDepth)
+	res.ResidualDepthM = alloc(OutResidualDepth)
+	if err := p.evaluateInto(ctx, res); err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+// EvaluateInto is Evaluate writing into grids the caller provides and may reuse: it computes
+// exactly the non-nil fields of dst (at least one), each of which must have the output
+// lattice's size (Age's, or its window's). The grids' headers are not changed.
+func EvaluateInto(ctx context.Context, in Inputs, dst *Result) error {
+	if dst == nil {
+		return errors.New("EvaluateInto: nil result")
+	}
+	var want Outputs
+	for _, f := range []struct {
+		g *Grid
+		o Outputs
+	}{
+		{dst.PredictedDepthM, OutPredictedDepth}, {dst.HeatFlowMWm2, OutHeatFlow},
+		{dst.ThermalThicknessKm, OutThermalThickness}, {dst.Depth600CKm, OutDepth600C},
+		{dst.CorrectedDepthM, OutCorrectedDepth}, {dst.ResidualDepthM, OutResidualDepth},
+	} {
+		if f.g != nil {
+			want |= f.o
+		}
+	}
+	p, err := newResidualPlan(in, want)
+	if err != nil {
+		return err
+	}
+	for _, g := range []*Grid{dst.PredictedDepthM, dst.HeatFlowMWm2, dst.ThermalThicknessKm, dst.Depth600CKm, dst.CorrectedDepthM, dst.ResidualDepthM} {
+		if g != nil && (g.NX != p.lat.NX || g.NY != p.lat.NY || len(g.Data) != g.NX*g.NY) {
+			return fmt.Errorf("EvaluateInto: output grid %d×%d (%d values), want %d×%d", g.NX, g.NY, len(g.Data), p.lat.NX, p.lat.NY)
+		}
+	}
+	return p.evaluateInto(ctx, dst)
+}
+
+func (p *residualPlan) evaluateInto(ctx context.Context, res *Result) error {
+	nx, ny := p.lat.NX, p.lat.NY
+	slice := func(g *Grid, r0, r1 int) []float32 {
+		if g == nil {
+			return nil
+		}
+		return g.Data[r0*nx : r1*nx]
+	}
+	var mu sync.Mutex
+	done := 0
+	return p.run(ctx, defaultRowsPerBlock(nx), func(w *residualWorker, r0, r1 int) error {
+		dst := residualDst{
+			pred:  slice(res.PredictedDepthM, r0, r1),
+			hf:    slice(res.HeatFlowMWm2, r0, r1),
+			thick: slice(res.ThermalThicknessKm, r0, r1),
+			d600:  slice(res.Depth600CKm, r0, r1),
+			corr:  slice(res.CorrectedDepthM, r0, r1),
+			res:   slice(res.ResidualDepthM, r0, r1),
+		}
+		p.block(w, r0, r1, &dst)
+		if p.progress != nil {
+			mu.Lock()
+			done += r1 - r0
+			p.progress(done, ny)
+			mu.Unlock()
+		}
+		return nil
+	})
+}
+
+// EvaluateRows computes the asked-for outputs block by block and calls fn once per block of
+// rowsPerBlock rows (the last may be shorter), in row order and never concurrently, while the
+// next blocks are computed in parallel. Memory stays bounded by about 2·workers blocks, so it
+// suits grids too large to hold every output at once (exports, statistics). rowsPerBlock ≤ 0
+// picks a block of about 256 Ki cells. An error from fn stops the evaluation and is returned;
+// ctx is checked between blocks.
+func EvaluateRows(ctx context.Context, in Inputs, want Outputs, rowsPerBlock int, fn func(block RowBlock) error) error {
+	p, err := newResidualPlan(in, want)
+	if err != nil {
+		return err
+	}
+	if fn == nil {
+		return errors.New("EvaluateRows: nil callback")
+	}
+	nx, ny := p.lat.NX, p.lat.NY
+	if rowsPerBlock <= 0 {
+		rowsPerBlock = defaultRowsPerBlock(nx)
+	}
+	rowsPerBlock = min(rowsPerBlock, ny)
+	nBlocks := (ny + rowsPerBlock - 1) / rowsPerBlock
+
+	parent := ctx
+	ctx, cancel := context.WithCancel(parent)
+	defer cancel()
+
+	// Buffers: a worker takes a free buffer before claiming the next block index, so the block
+	// the consumer waits for is always either unclaimed or held by a worker with a buffer: no
+	// deadlock with a pool smaller than the number of blocks.
+	nBuf := min(2*p.workers, nBlocks)
+	free := make(chan *RowBlock, nBuf)
+	for range nBuf {
+		b := &RowBlock{Lattice: p.lat}
+		mk := func(o Outputs) []float32 {
+			if want&o == 0 {
+				return nil
+			}
+			return make([]float32, rowsPerBlock*nx)
+		}
+		b.PredictedDepthM = mk(OutPredictedDepth)
+		b.HeatFlowMWm2 = mk(OutHeatFlow)
+		b.ThermalThicknessKm = mk(OutThermalThickness)
+		b.Depth600CKm = mk(OutDepth600C)
+		b.CorrectedDepthM = mk(OutCorrectedDepth)
+		b.ResidualDepthM = mk(OutResidualDepth)
+		free <- b
+	}
+	type doneBlock struct {
+		idx int
+		b   *RowBlock
+	}
+	ready := make(chan doneBlock, nBuf)
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	workers := min(p.workers, nBlocks)
+	for range workers {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			w := p.newWorker()
+			for {
+				var b *RowBlock
+				select {
+				case b = <-free:
+				case <-ctx.Done():
+					return
+				}
+				k := int(next.Add(1) - 1)
+				if k >= nBlocks || ctx.Err() != nil {
+					return
+				}
+				r0 := k * rowsPerBlock
+				r1 := min(r0+rowsPerBlock, ny)
+				n := (r1 - r0) * nx
+				cut := func(s []float32) []float32 {
+					if s == nil {
+						return nil
+					}
+					return s[:n]
+				}
+				b.Row0, b.Rows = r0, r1-r0
+				dst := residualDst{
+					pred: cut(b.PredictedDepthM), hf: cut(b.HeatFlowMWm2), thick: cut(b.ThermalThicknessKm),
+					d600: cut(b.Depth600CKm), corr: cut(b.CorrectedDepthM), res: cut(b.ResidualDepthM),
+				}
+				p.block(w, r0, r1, &dst)
+				select {
+				case ready <- doneBlock{k, b}:
+				case <-ctx.Done():
+					return
+				}
+			}
+		}()
+	}
+	go func() { wg.Wait(); close(ready) }()
+
+	pending := make(map[int]*RowBlock, nBuf)
+	want0 := 0
+	var cbErr error
+	for want0 < nBlocks && cbErr == nil {
+		d, ok := <-ready
+		if !ok {
+			break
+		}
+		pending[d.idx] = d.b
+		for cbErr == nil {
+			b, ok := pending[want0]
+			if !ok {
+				break
+			}
+			delete(pending, want0)
+			cut := func(s []float32) []float32 {
+				if s == nil {
+					return nil
+				}
+				return s[:b.Rows*nx]
+			}
+			out := RowBlock{
+				Lattice: p.lat, Row0: b.Row0, Rows: b.Rows,
+				PredictedDepthM: cut(b.PredictedDepthM), HeatFlowMWm2: cut(b.HeatFlowMWm2),
+				ThermalThicknessKm: cut(b.ThermalThicknessKm), Depth600CKm: cut(b.Depth600CKm),
+				CorrectedDepthM: cut(b.CorrectedDepthM), ResidualDepthM: cut(b.ResidualDepthM),
+			}
+			if cbErr = fn(out); cbErr == nil {
+				if p.progress != nil {
+					p.progress(b.Row0+b.Rows, ny)
+				}
+				free <- b
+				want0++
+			}
+		}
+	}
+	cancel()
+	for range ready { // drain so every worker exits
+	}
+	if cbErr != nil {
+		return cbErr
+	}
+	if want0 < nBlocks {
+		if err := parent.Err(); err != nil {
+			return err
+		}
+		return errors.New("residual evaluation stopped early")
+	}
+	return nil
+}
+
+// defaultRowsPerBlock aims at about 256 Ki cells per block (1 MiB per float32 output), small
+// enough to stay in the last-level cache and numerous enough to balance the workers.
+func defaultRowsPerBlock(nx int) int {
+	return max(1, (1<<18)/max(nx, 1))
+}
+
+// residualPlan is everything a worker needs, fixed before the first block.
+type residualPlan struct {
+	lat      *Grid // output lattice (Data: the age values of that lattice)
+	lons     []float64
+	want     Outputs
+	needPred bool
+	needCorr bool
+	tbl      *thermal.Table
+	depth    residualSource
+	sed      residualSource
+	crust    residualSource
+	sign     float32
+	sedTab   *sedTable
+	depthTab *depthTable
+	// densities for the crust correction (kg/m³)
+	crustKgM3, mantleKgM3, waterKgM3 float64
+	mask                             Mask
+	hasMask                          bool
+	workers                          int
+	progress                         func(done, total int)
+}
+
+// residualSource maps output rows to rows of one input grid.
+type residualSource struct {
+	g      *Grid
+	direct bool
+	colOff int // input column = output column + colOff (direct mode)
+	rowOff int // input row = output row + rowOff (direct mode)
+}
+
+type residualWorker struct {
+	pred, corr             []float32 // chunk scratch
+	depth, sed, crust, age []float32 // row scratch
+	mask                   []bool    // row scratch
+}
+
+type residualDst struct {
+	pred, hf, thick, d600, corr, res []float32
+}
+
+func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
+	if want&outAll == 0 {
+		return nil, ErrNoOutputs
+	}
+	if want&^outAll != 0 {
+		return nil, fmt.Errorf("unknown residual-depth outputs %#x", uint32(want&^outAll))
+	}
+	if in.Age == nil {
+		return nil, errors.New("an age grid is required")
+	}
+	if err := in.Age.Validate(); err != nil {
+		return nil, fmt.Errorf("age grid: %w", err)
+	}
+	if in.Model == nil {
+		return nil, errors.New("a cooling model is required")
+	}
+	p := &residualPlan{want: want, progress: in.Progress}
+	p.lat = in.Age
+	if in.Window != nil {
+		w, err := in.Age.Window(*in.Window)
+		if err != nil {
+			return nil, err
+		}
+		p.lat = w
+	}
+	nx, ny := p.lat.NX, p.lat.NY
+	if in.Mask.Len() != 0 {
+		if in.Mask.Len() != nx*ny {
+			return nil, fmt.Errorf("mask has %d cells, the evaluated grid %d×%d=%d", in.Mask.Len(), nx, ny, nx*ny)
+		}
+		p.mask, p.hasMask = in.Mask, true
+	}
+	if len(in.Region) > 0 {
+		hdr := *p.lat
+		hdr.Data = nil
+		rm, err := GridMask(&hdr, in.Region)
+		if err != nil {
+			return nil, fmt.Errorf("region: %w", err)
+		}
+		if p.hasMask {
+			both := NewMask(nx * ny)
+			for i := range nx * ny {
+				if rm.Get(i) && p.mask.Get(i) {
+					both.Set(i, true)
+				}
+			}
+			rm = both
+		}
+		p.mask, p.hasMask = rm, true
+	}
+	p.needCorr = want&(OutCorrectedDepth|OutResidualDepth) != 0
+	p.needPred = want&(OutPredictedDepth|OutResidualDepth) != 0
+	p.tbl = thermal.TableFor(in.Model)
+	if want&OutResidualDepth != 0 {
+		p.depthTab = depthTableFor(p.tbl)
+	}
+	p.lons = make([]float64, nx)
+	for i := range p.lons {
+		p.lons[i] = p.lat.Lon(i)
+	}
+	if p.needCorr {
+		if in.Depth == nil {
+			return nil, errors.New("corrected and residual depth need an observed depth grid")
+		}
+		switch in.DepthSense {
+		case DepthPositiveDown:
+			p.sign = 1
+		case ElevationPositiveUp:
+			p.sign = -1
+		default:
+			return nil, errors.New("the observed depth grid's vertical sense is unknown: declare depth (positive down) or elevation (positive up)")
+		}
+		pr := in.Model.Params()
+		p.mantleKgM3, p.waterKgM3 = pr.MantleDensityKgM3, pr.WaterDensityKgM3
+		var err error
+		if p.depth, err = newResidualSource("observed depth", in.Depth, p.lat); err != nil {
+			return nil, err
+		}
+		if in.Sediment != nil {
+			if p.sed, err = newResidualSource("sediment thickness", in.Sediment, p.lat); err != nil {
+				return nil, err
+			}
+			c := in.Compaction
+			if c == (thermal.Compaction{}) {
+				return nil, errors.New("a sediment thickness grid needs a compaction law (shale, sand or shaly-sand)")
+			}
+			if p.sedTab, err = sedTableFor(c, p.mantleKgM3, p.waterKgM3); err != nil {
+				return nil, fmt.Errorf("sediment correction: %w", err)
+			}
+		}
+		if in.Crust != nil {
+			if p.crust, err = newResidualSource("crustal thickness", in.Crust, p.lat); err != nil {
+				return nil, err
+			}
+			p.crustKgM3 = in.CrustDensityKgM3
+			if p.crustKgM3 == 0 {
+				p.crustKgM3 = thermal.DefaultCrustDensityKgM3
+			}
+			if !(p.crustKgM3 > p.waterKgM3 && p.crustKgM3 < p.mantleKgM3) {
+				return nil, fmt.Errorf("crust density %g kg/m³ must lie between the water (%g) and mantle (%g) densities", p.crustKgM3, p.waterKgM3, p.mantleKgM3)
+			}
+		}
+	}
+	p.workers = in.Workers
+	if p.workers <= 0 {
+		p.workers = runtime.GOMAXPROCS(0)
+	}
+	p.workers = min(p.workers, MaxResidualWorkers)
+	return p, nil
+}
+
+// newResidualSource decides between direct indexing and bilinear sampling of g on lattice out.
+func newResidualSource(what string, g, out *Grid) (residualSource, error) {
+	if err := g.Validate(); err != nil {
+		return residualSource{}, fmt.Errorf("%s grid: %w", what, err)
+	}
+	s := residualSource{g: g}
+	const tol = 1e-6 // of a cell
+	if math.Abs(g.DX-out.DX) > tol*out.DX/float64(max(out.NX, g.NX)) ||
+		math.Abs(g.DY-out.DY) > tol*out.DY/float64(max(out.NY, g.NY)) {
+		return s, nil
+	}
+	fc := (out.West - g.West) / g.DX
+	fr := (g.North - out.North) / g.DY
+	c, r := math.Round(fc), math.Round(fr)
+	if math.Abs(fc-c) > tol || math.Abs(fr-r) > tol {
+		return s, nil
+	}
+	s.colOff, s.rowOff = int(c), int(r)
+	// A global input that the output runs past would need wrapping: sample it instead.
+	if g.IsGlobalLon() && (s.colOff < 0 || s.colOff+out.NX > g.NX) {
+		return s, nil
+	}
+	s.direct = true
+	return s, nil
+}
+
+// row returns the input values along output row r (len nx), using scratch when it cannot hand
+// out a slice of the input directly.
+func (s *residualSource) row(p *residualPlan, r int, scratch []float32) []float32 {
+	nx := len(p.lons)
+	if !s.direct {
+		lat := p.lat.Lat(r)
+		for i, lon := range p.lons {
+			scratch[i] = s.g.SampleBilinear(lon, lat)
+		}
+		return scratch
+	}
+	g := s.g
+	sr := r + s.rowOff
+	c0 := s.colOff
+	if sr >= 0 && sr < g.NY && c0 >= 0 && c0+nx <= g.NX {
+		return g.Data[sr*g.NX+c0 : sr*g.NX+c0+nx]
+	}
+	nan := float32(math.NaN())
+	for i := range scratch {
+		scratch[i] = nan
+	}
+	if sr < 0 || sr >= g.NY {
+		return scratch
+	}
+	lo, hi := max(0, -c0), min(nx, g.NX-c0)
+	if lo < hi {
+		copy(scratch[lo:hi], g.Data[sr*g.NX+c0+lo:sr*g.NX+c0+hi])
+	}
+	return scratch
+}
+
+func (p *residualPlan) newWorker() *residualWorker {
+	nx := p.lat.NX
+	w := &residualWorker{}
+	if p.needPred {
+		w.pred = make([]float32, residualChunk)
+	}
+	if p.needCorr {
+		w.corr = make([]float32, residualChunk)
+		w.depth = make([]float32, nx)
+		if p.sed.g != nil {
+			w.sed = make([]float32, nx)
+		}
+		if p.crust.g != nil {
+			w.crust = make([]float32, nx)
+		}
+	}
+	if p.hasMask {
+		w.age = make([]float32, nx)
+		w.mask = make([]bool, nx)
+	}
+	return w
+}
+
+// run hands blocks of rowsPerBlock rows to p.workers goroutines; each calls do(w, r0, r1).
+func (p *residualPlan) run(ctx context.Context, rowsPerBlock int, do func(w *residualWorker, r0, r1 int) error) error {
+	ny := p.lat.NY
+	nBlocks := (ny + rowsPerBlock - 1) / rowsPerBlock
+	workers := min(p.workers, nBlocks)
+	var next atomic.Int64
+	var firstErr error
+	var errOnce sync.Once
+	var stop atomic.Bool
+	var wg sync.WaitGroup
+	for range workers {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			w := p.newWorker()
+			for !stop.Load() {
+				if err := ctx.Err(); err != nil {
+					errOnce.Do(func() { firstErr = err })
+					stop.Store(true)
+					return
+				}
+				k := int(next.Add(1) - 1)
+				if k >= nBlocks {
+					return
+				}
+				r0 := k * rowsPerBlock
+				if err := do(w, r0, min(r0+rowsPerBlock, ny)); err != nil {
+					errOnce.Do(func() { firstErr = err })
+					stop.Store(true)
+					return
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	if firstErr == nil && int(next.Load()) < nBlocks {
+		// stopped before all blocks were claimed without recording why (cannot happen)
+		return errors.New("residual evaluation stopped early")
+	}
+	return firstErr
+}
+
+// block computes output rows r0..r1-1 into dst (slices covering those rows).
+func (p *residualPlan) block(w *residualWorker, r0, r1 int, dst *residualDst) {
+	nx := p.lat.NX
+	for r := r0; r < r1; r++ {
+		o := (r - r0) * nx
+		cut := func(s []float32) []float32 {
+			if s == nil {
+				return nil
+			}
+			return s[o : o+nx : o+nx]
+		}
+		p.row(w, r, cut(dst.pred), cut(dst.hf), cut(dst.thick), cut(dst.d600), cut(dst.corr), cut(dst.res))
+	}
+}
+
+// residualChunk is the number of cells processed together: the chunk's inputs, scratch and
+// outputs (about 6 × 2 KiB) stay in the L1 cache between the passes over it.
+const residualChunk = 512
+
+func subRow(s []float32, a, b int) []float32 {
+	if s == nil {
+		return nil
+	}
+	return s[a:b:b]
+}
+
+// row computes one output row. Nil destination slices are not computed.
+func (p *residualPlan) row(w *residualWorker, r int, pred, hf, thick, d600, corr, res []float32) {
+	nx := p.lat.NX
+	age := p.lat.Data[r*nx : (r+1)*nx]
+	var mask []bool
+	if p.hasMask {
+		mask = w.mask
+		for i := range mask {
+			mask[i] = p.mask.Get(r*nx + i)
+		}
+		a := w.age
+		nan := float32(math.NaN())
+		for i, v := range age {
+			if !mask[i] {
+				v = nan
+			}
+			a[i] = v
+		}
+		age = a
+	}
+	var obs, sed, crust []float32
+	if p.needCorr {
+		obs = p.depth.row(p, r, w.depth)
+		if p.sedTab != nil {
+			sed = p.sed.row(p, r, w.sed)
+		}
+		if p.crust.g != nil {
+			crust = p.crust.row(p, r, w.crust)
+		}
+	}
+	for c0 := 0; c0 < nx; c0 += residualChunk {
+		c1 := min(c0+residualChunk, nx)
+		var m []bool
+		if mask != nil {
+			m = mask[c0:c1]
+		}
+		p.chunk(w, subRow(age, c0, c1), subRow(obs, c0, c1), subRow(sed, c0, c1), subRow(crust, c0, c1), m,
+			subRow(pred, c0, c1), subRow(hf, c0, c1), subRow(thick, c0, c1), subRow(d600, c0, c1), subRow(corr, c0, c1), subRow(res, c0, c1))
+	}
+}
+
+// chunk computes the outputs of up to residualChunk cells. Inputs obs, sed, crust are nil when
+// not used; outputs are nil when not asked for; mask is nil or the chunk's mask.
+func (p *residualPlan) chunk(w *residualWorker, age, obs, sed, crust []float32, mask []bool, pred, hf, thick, d600, corr, res []float32) {
+	n := len(age)
+	// The hot path (residual only, from age, observed depth and sediment) runs as one fused
+	// pass; it does not need the predicted depths stored.
+	fused := res != nil && pred == nil && corr == nil && crust == nil && sed != nil
+	if p.needPred && !fused {
+		if pred == nil {
+			pred = w.pred[:n]
+		}
+		p.tbl.DepthsM(age, pred)
+	}
+	if hf != nil {
+		p.tbl.HeatFlowsMWm2(age, hf)
+	}
+	if thick != nil {
+		p.tbl.ThermalThicknessesKm(age, thick)
+	}
+	if d600 != nil {
+		for i, a := range age {
+			d600[i] = float32(p.tbl.Depth600CKm(float64(a)))
+		}
+	}
+	if !p.needCorr {
+		return
+	}
+	if fused {
+		residualFusedChunk(res, age, obs, sed, p.sign, p.depthTab, p.sedTab)
+		return
+	}
+	if res != nil && corr == nil && crust == nil {
+		// Residual (and predicted depth) without a corrected-depth output: one pass.
+		if sed != nil {
+			residualSedChunk(res, pred, obs, sed, p.sign, p.sedTab)
+		} else {
+			pred, obs := pred[:n], obs[:n]
+			for i := range res {
+				res[i] = pred[i] - p.sign*obs[i]
+			}
+		}
+		return
+	}
+	if corr == nil {
+		corr = w.corr[:n]
+	}
+	p.correctedChunk(corr, obs, sed, crust)
+	if res != nil {
+		pred = pred[:n]
+		for i, c := range corr[:n] {
+			res[i] = pred[i] - c
+		}
+	}
+	// Cells the mask removes have NaN age and so NaN prediction, but the corrected depth does
+	// not depend on age: blank it explicitly.
+	if mask != nil {
+		nan := float32(math.NaN())
+		for i, ok := range mask {
+			if !ok {
+				corr[i] = nan
+			}
+		}
+	}
+}
+
+// residualFusedChunk is the hot loop: res = predicted(age) − (sign·obs + sediment
+// correction(sed)), the prediction interpolated from depthTable (thermal's table resampled) and
+// the correction from sedTable, in one pass without branches except for no-data and
+// out-of-table values.
+func residualFusedChunk(res, age, obs, sed []float32, sign float32, dt *depthTable, st *sedTable) {
+	n := len(res)
+	age, obs, sed = age[:n], obs[:n], sed[:n]
+	dv := dt.v
+	dd := dt.d[:len(dv)]
+	dinv := dt.inv
+	sv := st.v
+	sd := st.d[:len(sv)]
+	sinv := st.inv
+	nan := float32(math.NaN())
+	for i := range res {
+		a := age[i]
+		x := float32(math.Sqrt(float64(a))) * dinv
+		j := int(x)
+		var pd float32
+		if uint(j) < uint(len(dv)) {
+			pd = dv[j] + (x-float32(j))*dd[j]
+		} else if a >= 0 {
+			pd = dt.slow(a) // older than the table
+		} else {
+			pd = nan // NaN or negative age
+		}
+		s := sed[i]
+		y := s*sinv + 1
+		k := int(y)
+		var c float32
+		if uint(k) < uint(len(sv)) {
+			c = sv[k] + (y-float32(k))*sd[k]
+		} else if y > 1 {
+			c = st.slow(s) // thicker than the table
+		} else {
+			c = nan // NaN or negative
+		}
+		res[i] = pd - (sign*obs[i] + c)
+	}
+}
+
+// depthTable resamples a thermal.Table's predicted depth for the fused loop: v[k] is the depth
+// at age (k·h)² and d[k] the step to the next node, h = √TableMaxAgeMa / depthTableIntervals
+// (uniform in √age like the thermal table, so the half-space √age law is interpolated well).
+// With depthTableIntervals a multiple of the thermal table's node count the nodes coincide and
+// the resampling adds only float32 rounding (checked against Table.DepthM in the tests).
+type depthTable struct {
+	tbl  *thermal.Table
+	inv  float32 // intervals per Ma^½
+	v, d []float32
+}
+
+const depthTableIntervals = 4096
+
+func (t *depthTable) slow(a float32) float32 { return float32(t.tbl.DepthM(float64(a))) }
+
+var depthTables struct {
+	sync.Mutex
+	m map[*thermal.Table]*depthTable
+}
+
+// depthTableFor returns the (cached) resampled depth table of t.
+func depthTableFor(t *thermal.Table) *depthTable {
+	depthTables.Lock()
+	dt, ok := depthTables.m[t]
+	depthTables.Unlock()
+	if ok {
+		return dt
+	}
+	h := math.Sqrt(thermal.TableMaxAgeMa) / depthTableIntervals
+	dt = &depthTable{tbl: t, inv: float32(1 / h), v: make([]float32, depthTableIntervals), d: make([]float32, depthTableIntervals)}
+	for k := range dt.v {
+		s0, s1 := float64(k)*h, float64(k+1)*h
+		v0, v1 := t.DepthM(s0*s0), t.DepthM(math.Min(s1*s1, thermal.TableMaxAgeMa))
+		dt.v[k], dt.d[k] = float32(v0), float32(v1-v0)
+	}
+	depthTables.Lock()
+	if depthTables.m == nil {
+		depthTables.m = make(map[*thermal.Table]*depthTable)
+	}
+	if len(depthTables.m) < maxSedTables {
+		depthTables.m[t] = dt
+	}
+	depthTables.Unlock()
+	return dt
+}
+
+// residualSedChunk is the residual loop when predicted depths are computed anyway: res = pred − (sign·obs + sediment correction(sed)),
+// with the sediment correction interpolated from the float32 copy of thermal's table.
+func residualSedChunk(res, pred, obs, sed []float32, sign float32, t *sedTable) {
+	n := len(res)
+	pred, obs, sed = pred[:n], obs[:n], sed[:n]
+	v := t.v
+	d := t.d[:len(v)]
+	inv := t.inv
+	nan := float32(math.NaN())
+	for i := range res {
+		s := sed[i]
+		x := s*inv + 1
+		k := int(x)
+		var c float32
+		if uint(k) < uint(len(v)) {
+			c = v[k] + (x-float32(k))*d[k]
+		} else if x > 1 {
+			c = t.slow(s) // thicker than the table
+		} else {
+			c = nan // NaN or negative
+		}
+		res[i] = pred[i] - (sign*obs[i] + c)
+	}
+}
+
+// correctedChunk writes corrected depth = sign·obs + sediment correction + crust correction.
+func (p *residualPlan) correctedChunk(corr, obs, sed, crust []float32) {
+	n := len(corr)
+	obs = obs[:n]
+	sign := p.sign
+	if sed != nil {
+		sed = sed[:n]
+		for i, o := range obs {
+			corr[i] = sign*o + p.sedTab.at(sed[i])
+		}
+	} else {
+		for i, o := range obs {
+			corr[i] = sign * o
+		}
+	}
+	if crust != nil {
+		crust = crust[:n]
+		rc, rm, rw := p.crustKgM3, p.mantleKgM3, p.waterKgM3
+		for i, c := range crust {
+			corr[i] += float32(thermal.CrustCorrectionM(float64(c), rc, rm, rw))
+		}
+	}
+}
+
+// sedTable is a float32 copy of thermal.SedimentCorrector's table for the fused hot loop:
+// v[k] is the correction at thickness (k−1)·sedTableStepM and d[k] the step to the next node,
+// for k = 1..; v[0] = d[0] = NaN is a sentinel that catches thicknesses in (−step, 0), so a
+// single index test sends every negative or NaN thickness to NaN. Thicknesses beyond the table
+// (thermal.MaxSedimentTableM) are handed to the corrector itself.
+type sedTable struct {
+	corr *thermal.SedimentCorrector
+	inv  float32
+	v, d []float32
+}
+
+// sedTableStepM is the node spacing of thermal.SedimentCorrector (5 m), so the float32 copy
+// interpolates between the same node values (checked against thermal in the tests).
+const sedTableStepM = 5
+
+func (t *sedTable) at(s float32) float32 {
+	x := s*t.inv + 1
+	k := int(x)
+	if uint(k) < uint(len(t.v)) {
+		return t.v[k] + (x-float32(k))*t.d[k]
+	}
+	return t.slow(s)
+}
+
+// slow handles sediment outside the table: NaN or negative (NaN) and very thick (thermal).
+func (t *sedTable) slow(s float32) float32 {
+	return float32(t.corr.CorrectionM(float64(s)))
+}
+
+type sedKey struct {
+	c      thermal.Compaction
+	rm, rw float64
+}
+
+var sedTables struct {
+	sync.Mutex
+	m map[sedKey]*sedTable
+}
+
+// maxSedTables bounds the caches of sediment tables (one per law and pair of densities) and of
+// resampled depth tables (one per thermal table).
+const maxSedTables = 64
+
+// sedTableFor returns the (cached) sediment table of a compaction law and densities.
+func sedTableFor(c thermal.Compaction, rm, rw float64) (*sedTable, error) {
+	key := sedKey{c, rm, rw}
+	sedTables.Lock()
+	t, ok := sedTables.m[key]
+	sedTables.Unlock()
+	if ok {
+		return t, nil
+	}
+	sc, err := thermal.NewSedimentCorrector(c, rm, rw)
+	if err != nil {
+		return nil, err
+	}
+	n := int(math.Round(thermal.MaxSedimentTableM / sedTableStepM))
+	t = &sedTable{corr: sc, inv: 1.0 / sedTableStepM, v: make([]float32, n+1), d: make([]float32, n+1)}
+	nan := float32(math.NaN())
+	t.v[0], t.d[0] = nan, nan
+	for k := 1; k <= n; k++ {
+		v0 := sc.CorrectionM(float64(k-1) * sedTableStepM)
+		v1 := sc.CorrectionM(float64(k) * sedTableStepM)
+		t.v[k], t.d[k] = float32(v0), float32(v1-v0)
+	}
+	sedTables.Lock()
+	if sedTables.m == nil {
+		sedTables.m = make(map[sedKey]*sedTable)
+	}
+	if len(sedTables.m) < maxSedTables {
+		sedTables.m[key] = t
+	}
+	sedTables.Unlock()
+	return t, nil
+}
