@@ -14,6 +14,39 @@ func sedimentClosedForm(S float64, c Compaction, rm, rw float64) float64 {
 	return ((rm-c.GrainDensityKgM3)*S + (c.GrainDensityKgM3-rw)*c.SurfacePorosity*(1-math.Exp(-ck*S))/ck) / (rm - rw)
 }
 
+// Densities used by the correction tests: mantle 3330 kg/m³ (the PSM/GDH1
+// value, Stein & Stein 1992 Table 1, from memory) and sea water 1030 kg/m³
+// (common practice, no source).
+const testMantleKgM3, testSeaWaterKgM3 = 3330.0, 1030.0
+
+// The published Sclater & Christie (1980) porosity–depth parameters, from
+// memory: shale φ0 0.63, c 0.51 /km, grains 2720 kg/m³; sand 0.49, 0.27 /km,
+// 2650 kg/m³; shaly sand 0.56, 0.39 /km, 2680 kg/m³. Exact match required
+// (they are typed-in constants).
+func TestCompactionPublishedValues(t *testing.T) {
+	for _, tc := range []struct {
+		name           string
+		phi0, c, grain float64
+	}{
+		{"shale", 0.63, 0.51, 2720},
+		{"sand", 0.49, 0.27, 2650},
+		{"shaly-sand", 0.56, 0.39, 2680},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			c, err := CompactionByName(tc.name)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if c.SurfacePorosity != tc.phi0 || c.DecayPerKm != tc.c || c.GrainDensityKgM3 != tc.grain {
+				t.Errorf("%s = %+v, want φ0 %g, c %g /km, grains %g kg/m³", tc.name, c, tc.phi0, tc.c, tc.grain)
+			}
+		})
+	}
+	if n := CompactionNames(); len(n) != 3 {
+		t.Errorf("CompactionNames() = %v, want the three Sclater & Christie types", n)
+	}
+}
+
 // The quadrature (gonum) agrees with the closed form to 1e-6 m for every
 // named law and thicknesses up to 15 km.
 func TestSedimentCorrectionClosedForm(t *testing.T) {
@@ -24,7 +57,8 @@ func TestSedimentCorrectionClosedForm(t *testing.T) {
 		}
 		for _, S := range []float64{0, 1, 100, 500, 1000, 3000, 8000, 15000} {
 			t.Run(fmt.Sprintf("%s/%gm", name, S), func(t *testing.T) {
-				near(t, "correction_m", SedimentCorrectionM(S, c, 3330, 1030), sedimentClosedForm(S, c, 3330, 1030), 1e-6)
+				near(t, "correction_m", SedimentCorrectionM(S, c, testMantleKgM3, testSeaWaterKgM3),
+					sedimentClosedForm(S, c, testMantleKgM3, testSeaWaterKgM3), 1e-6)
 			})
 		}
 	}
@@ -37,7 +71,7 @@ func TestSedimentCorrectionClosedForm(t *testing.T) {
 // sediment adds (ρm − ρb)/(ρm − ρw) per metre, tending to (ρm − ρg)/(ρm − ρw).
 func TestSedimentCorrectionLimits(t *testing.T) {
 	c, _ := CompactionByName("shale")
-	rm, rw := 3330.0, 1030.0
+	rm, rw := testMantleKgM3, testSeaWaterKgM3
 	rb0 := c.SurfacePorosity*rw + (1-c.SurfacePorosity)*c.GrainDensityKgM3
 	near(t, "thin-layer ratio", SedimentCorrectionM(1, c, rm, rw), (rm-rb0)/(rm-rw), 1e-3)
 	for _, S := range []float64{10, 1000, 5000, 12000} {
@@ -55,12 +89,13 @@ func TestSedimentCorrectionLimits(t *testing.T) {
 	}
 }
 
-// The tabulated corrector matches the direct integral within 4 mm (its
-// documented bound), in float64 and float32 form.
+// The tabulated corrector matches the closed form within 4 mm (its
+// documented interpolation bound), in float64 and float32 form (plus float32
+// rounding, 2e-7 relative).
 func TestSedimentCorrector(t *testing.T) {
 	for _, name := range CompactionNames() {
 		c, _ := CompactionByName(name)
-		sc, err := NewSedimentCorrector(c, 3330, 1030)
+		sc, err := NewSedimentCorrector(c, testMantleKgM3, testSeaWaterKgM3)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -72,7 +107,7 @@ func TestSedimentCorrector(t *testing.T) {
 			out := make([]float32, len(hs))
 			sc.CorrectionsM(hs, out)
 			for i, h := range hs {
-				want := sedimentClosedForm(float64(h), c, 3330, 1030)
+				want := sedimentClosedForm(float64(h), c, testMantleKgM3, testSeaWaterKgM3)
 				near(t, fmt.Sprintf("CorrectionM(%g)", h), sc.CorrectionM(float64(h)), want, 0.004)
 				near(t, fmt.Sprintf("CorrectionsM(%g)", h), float64(out[i]), want, 0.004+2e-7*want)
 			}
@@ -108,7 +143,10 @@ func TestCompactionByName(t *testing.T) {
 // compensation depth D (water, crust, mantle), solved by bisection for the
 // water depth of the thick-crust column. The correction that reduces it to
 // the 7 km reference crust (common practice, no source) equals
-// CrustCorrectionM; tolerance 1e-6 m.
+// CrustCorrectionM; tolerance 1e-6 m. Inputs: sea water 1030 and crust
+// 2900 kg/m³ (common practice, no source), mantle 3330 kg/m³ (Stein & Stein
+// 1992, from memory); the 4000 m reference water depth and D = 100 km are
+// arbitrary (the answer does not depend on them).
 func TestCrustCorrectionAgainstColumnBalance(t *testing.T) {
 	const rw, rc, rm, D = 1030.0, 2900.0, 3330.0, 100e3
 	mass := func(water, crust float64) float64 {
@@ -141,8 +179,9 @@ func TestCrustCorrectionAgainstColumnBalance(t *testing.T) {
 }
 
 // The residual-depth sign convention: positive means the seafloor is
-// shallower than the model predicts (the convention of the residual depth
-// literature, e.g. swells have positive residual depth).
+// shallower than the model predicts, so swells have positive residual depth
+// (the project's stated convention, common practice in the residual-depth
+// literature; no single source). The depths are arbitrary SYNTHETIC values.
 func TestResidualDepthSign(t *testing.T) {
 	for _, tc := range []struct {
 		name                string
@@ -172,7 +211,7 @@ func TestResidualDepthSign(t *testing.T) {
 	// the observed seafloor, so the residual shrinks.
 	m := mustBuiltin(t, IDGDH1)
 	c, _ := CompactionByName("shale")
-	corrected := 5000 + SedimentCorrectionM(500, c, 3330, 1030)
+	corrected := 5000 + SedimentCorrectionM(500, c, testMantleKgM3, testSeaWaterKgM3)
 	if r0, r1 := ResidualDepthM(m.DepthM(100), 5000), ResidualDepthM(m.DepthM(100), corrected); !(r1 < r0 && r0 > 0) {
 		t.Errorf("residual before correction %g, after %g: want positive and shrinking", r0, r1)
 	}

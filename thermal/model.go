@@ -5,6 +5,10 @@ package thermal
 //
 // Ages are in Ma (million years), depths below the seafloor in km, water
 // depths in m (positive down), temperatures in °C and heat flow in mW/m².
+//
+// Predicted depths are model estimates of the average seafloor of a given
+// age, not for navigation: defer to nautical charts, surveys and the local
+// hydrographic authority.
 type Model interface {
 	// Params returns the parameter set the model was built from.
 	Params() Params

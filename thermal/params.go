@@ -21,7 +21,8 @@ const (
 const (
 	// SecondsPerMyr is one million Julian years (365.25 days) in seconds.
 	SecondsPerMyr = 1e6 * 365.25 * 86400
-	// GravityMs2 is the acceleration of gravity used for forces (m/s²).
+	// GravityMs2 is the acceleration of gravity used for forces (m/s²; the
+	// rounded standard value, common practice).
 	GravityMs2 = 9.81
 	// ThicknessFraction is the fraction of the mantle temperature excess
 	// (T − Ts)/(Tm − Ts) that defines the thermal thickness of the

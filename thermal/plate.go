@@ -136,11 +136,19 @@ func sumOdd(y float64, pow int) float64 {
 // thetaSeries returns the normalised plate temperature θ = (T − Ts)/(Tm − Ts)
 // at zr = z/a in [0, 1] and its derivative dθ/dzr, for y > 0.
 func thetaSeries(zr, y float64) (theta, dtheta float64) {
+	theta, dtheta, _ = thetaSeriesTerms(zr, y)
+	return theta, dtheta
+}
+
+// thetaSeriesTerms is thetaSeries that also reports how many terms the error
+// bound let it sum.
+func thetaSeriesTerms(zr, y float64) (theta, dtheta float64, terms int) {
 	term := math.Exp(-y)
 	ratio := math.Exp(-3 * y)
 	e2 := math.Exp(-2 * y)
 	var s, c float64
-	for n := 1; n < maxSeriesTerms; n++ {
+	n := 1
+	for ; n < maxSeriesTerms; n++ {
 		fn := float64(n)
 		sn, cn := math.Sincos(fn * math.Pi * zr)
 		s += sn * term / fn
@@ -153,7 +161,7 @@ func thetaSeries(zr, y float64) (theta, dtheta float64) {
 		term = next
 		ratio *= e2
 	}
-	return zr + 2/math.Pi*s, 1 + 2*c
+	return zr + 2/math.Pi*s, 1 + 2*c, n
 }
 
 // TemperatureC is the plate temperature; Tm below the plate, NaN for negative

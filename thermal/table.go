@@ -27,7 +27,8 @@ const (
 // Table is a lookup table of one model over 0..TableMaxAgeMa with linear
 // interpolation in √age. It is read-only after construction and safe for
 // concurrent use. Every method accepts any age: NaN and negative ages give
-// NaN, ages above TableMaxAgeMa fall back to the model.
+// NaN, ages above TableMaxAgeMa fall back to the model. Like the model's, its
+// depths are estimates, not for navigation (see Model).
 type Table struct {
 	model Model
 	invH  float64 // intervals per Ma^½
