@@ -19,6 +19,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"time"
 	"unsafe"
 
 	"ridgeflank/geo"
@@ -74,6 +75,10 @@ type Meta struct {
 	Title    string   // dataset title (CF title)
 	Source   string   // provenance: how the data were produced (CF source)
 	History  string   // processing history (CF history); writers append a line
+	// Written, when set, stamps the appended history line with this time (UTC, RFC 3339).
+	// Left zero, the line has no time stamp, so the same grid and metadata always give the same
+	// COG bytes and the store's content hash recognises a re-import.
+	Written time.Time
 	// Sense is the vertical sense the file declares (BAG elevation; CF standard_name or
 	// positive attribute), SenseUnknown otherwise. Writers record it.
 	Sense geo.VerticalSense

@@ -145,7 +145,10 @@ func writeRaster(driver, path string, g *geo.Grid, m Meta) error {
 	}
 	gt := [6]C.double{C.double(g.West - g.DX/2), C.double(g.DX), 0, C.double(g.North + g.DY/2), 0, C.double(-g.DY)}
 	history := strings.TrimRight(m.History, "\n")
-	line := time.Now().UTC().Format(time.RFC3339) + " ridgeflank: written as " + map[bool]string{true: "CF netCDF", false: "COG"}[netcdf]
+	line := "ridgeflank: written as " + map[bool]string{true: "CF netCDF", false: "COG"}[netcdf]
+	if !m.Written.IsZero() {
+		line = m.Written.UTC().Format(time.RFC3339) + " " + line
+	}
 	if history != "" {
 		history += "\n"
 	}
