@@ -12,7 +12,7 @@ GO_TEST_FLAGS ?= -timeout 30m -p 2
 .PHONY: help run build web deps-build deps-test test test-go lint fmt bench clean
 
 help: ## list the targets
-	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sed -E 's/:.*## /\t/' | sort | column -t -s $$'\t'
+	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sort | awk -F ':.*## ' '{printf "  %-11s %s\n", $$1, $$2}'
 
 deps-build: ## install what the build needs (GDAL/PROJ dev files, gcc, npm) when missing
 	@scripts/setup-build.sh
