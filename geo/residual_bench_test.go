@@ -131,3 +131,76 @@ func BenchmarkResidualGlobal(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkResidualFusedChunk times the fused hot loop alone on one chunk whose inputs stay in
+// the L1 cache (no memory traffic): the compute floor per cell of the residual pass.
+func BenchmarkResidualFusedChunk(b *testing.B) {
+	m, err := thermal.Builtin("gdh1")
+	if err != nil {
+		b.Fatal(err)
+	}
+	sh, err := thermal.CompactionByName("shale")
+	if err != nil {
+		b.Fatal(err)
+	}
+	st, err := sedTableFor(sh, m.Params().MantleDensityKgM3, m.Params().WaterDensityKgM3)
+	if err != nil {
+		b.Fatal(err)
+	}
+	dt := depthTableFor(thermal.TableFor(m))
+	// Synthetic inputs (no real data): ages sweeping 0..180 Ma, sediment 0..2 km.
+	age := make([]float32, residualChunk)
+	obs := make([]float32, residualChunk)
+	sed := make([]float32, residualChunk)
+	res := make([]float32, residualChunk)
+	for i := range age {
+		a := 180 * float64(i) / residualChunk
+		age[i] = float32(a)
+		obs[i] = float32(-(2600 + 300*math.Sqrt(a)))
+		sed[i] = float32(10*a + 200)
+	}
+	b.Run("fused", func(b *testing.B) {
+		b.ReportAllocs()
+		for i := 0; i < b.N; i++ {
+			residualFusedChunk(res, age, obs, sed, -1, dt, st)
+		}
+		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/residualChunk, "ns/cell")
+	})
+	b.Run("stream", func(b *testing.B) {
+		b.ReportAllocs()
+		for i := 0; i < b.N; i++ {
+			for j := range res {
+				res[j] = age[j] - (-obs[j] + sed[j])
+			}
+		}
+		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/residualChunk, "ns/cell")
+	})
+}
+
+// BenchmarkResidualTableBuild times building the fused loop's two tables (done once per model
+// and per compaction law and densities, then cached).
+func BenchmarkResidualTableBuild(b *testing.B) {
+	m, err := thermal.Builtin("gdh1")
+	if err != nil {
+		b.Fatal(err)
+	}
+	sh, err := thermal.CompactionByName("shale")
+	if err != nil {
+		b.Fatal(err)
+	}
+	tbl := thermal.TableFor(m)
+	b.Run("depth", func(b *testing.B) {
+		b.ReportAllocs()
+		for i := 0; i < b.N; i++ {
+			newDepthTable(tbl)
+		}
+	})
+	b.Run("sediment", func(b *testing.B) {
+		b.ReportAllocs()
+		for i := 0; i < b.N; i++ {
+			if _, err := newSedTable(sh, 3330, 1000); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+}

@@ -658,3 +658,147 @@ func TestResidualFusedDepthTable(t *testing.T) {
 		}
 	})
 }
+
+func TestResidualFusedSweep(t *testing.T) {
+	// The fused loop's bit-indexed tables against the point functions over dense sweeps:
+	// predicted depth (observed depth and sediment 0) within 1 cm of thermal's Table.DepthM
+	// everywhere (tolerance common practice, no source: float32 rounding of ~6 km is 0.5 mm)
+	// and within 0.5 m of the model's own Model.DepthM over 0–300 Ma (the thermal package's
+	// bound for its table); ages outside the table (NaN, negative, −0, beyond 512 Ma, infinite)
+	// must give what Table.DepthM gives. Every sweep also runs the ages in one chunk mixed with
+	// out-of-table values, so the recomputation pass is exercised next to table cells.
+	specials := []float64{math.NaN(), math.Copysign(0, -1), -1e-30, -1e-6, -1, -400, math.Inf(-1), math.Inf(1),
+		399.99, 400, 400.01, 511.9, 512, 512.5, 600, 1e4, 1e-40, 1e-30, 1e-12, 1e-9}
+	var ages []float64
+	for k := 0; k <= 80000; k++ {
+		ages = append(ages, 0.005*float64(k)) // 0..400 Ma by 5 ka
+	}
+	for e := -40.0; e <= 0; e += 0.125 {
+		ages = append(ages, math.Pow(10, e)) // young ages 1e-40..1 Ma, where √age is steepest
+	}
+	for i, a := range specials {
+		ages = append(ages, a) // grouped at the end, and interleaved below
+		if j := 97 * (i + 1); j < len(ages) {
+			ages[j], ages[len(ages)-1] = ages[len(ages)-1], ages[j]
+		}
+	}
+	if math.Float32bits(depthTableMaxAgeMa) != depthTableEndBits || math.Float32bits(sedTableMaxM) != sedTableEndBits {
+		t.Fatal("table end bit patterns do not match the table ends")
+	}
+	sh := resShale(t)
+	for _, id := range thermal.BuiltinIDs() {
+		t.Run(id, func(t *testing.T) {
+			m := resModel(t, id)
+			pr := m.Params()
+			tbl := thermal.TableFor(m)
+			dt := depthTableFor(tbl)
+			st, err := sedTableFor(sh, pr.MantleDensityKgM3, pr.WaterDensityKgM3)
+			if err != nil {
+				t.Fatal(err)
+			}
+			a32 := make([]float32, len(ages))
+			for i, a := range ages {
+				a32[i] = float32(a)
+			}
+			zero := make([]float32, len(ages))
+			res := make([]float32, len(ages))
+			for c0 := 0; c0 < len(ages); c0 += residualChunk {
+				c1 := min(c0+residualChunk, len(ages))
+				residualFusedChunk(res[c0:c1], a32[c0:c1], zero[c0:c1], zero[c0:c1], 1, dt, st)
+			}
+			bad := 0
+			var maxTbl, maxModel float64
+			defer func() {
+				t.Logf("max |fused − Table.DepthM| %.2g m, max |fused − Model.DepthM| (0–300 Ma) %.2g m", maxTbl, maxModel)
+			}()
+			for i := range ages {
+				a := float64(a32[i])
+				got := float64(res[i])
+				want := tbl.DepthM(a)
+				if math.IsNaN(want) || math.IsInf(want, 0) {
+					if !(math.IsNaN(got) && math.IsNaN(want)) && got != want {
+						t.Errorf("age %g Ma: fused %g, thermal table %g", a, got, want)
+						bad++
+					}
+				} else if maxTbl = max(maxTbl, math.Abs(got-want)); !(math.Abs(got-want) <= 0.01) {
+					t.Errorf("age %g Ma: fused %.4f m, thermal table %.4f m", a, got, want)
+					bad++
+				}
+				if a >= 0 && a <= 300 {
+					mw := m.DepthM(a)
+					maxModel = max(maxModel, math.Abs(got-mw))
+					if !(math.Abs(got-mw) <= 0.5) {
+						t.Errorf("age %g Ma: fused %.4f m, model %.4f m", a, got, mw)
+						bad++
+					}
+				}
+				if bad > 10 {
+					t.Fatal("too many failures")
+				}
+			}
+		})
+	}
+}
+
+func TestResidualFusedSedimentSweep(t *testing.T) {
+	// The fused loop's sediment table against the closed form of the Sclater & Christie (1980)
+	// exponential-porosity correction (sedimentClosedFormM) for every built-in compaction law,
+	// over 0–40 km by 0.37 m (beyond the 32 768 m table end, where thermal's quadrature takes
+	// over): within 1 cm (tolerance common practice, no source). NaN, negative and infinite
+	// thicknesses must give what thermal's SedimentCorrector gives (NaN, NaN, +Inf).
+	const rm, rw = 3330, 1000 // kg/m³, GDH1's mantle and water densities (Stein & Stein 1992)
+	for _, name := range thermal.CompactionNames() {
+		t.Run(name, func(t *testing.T) {
+			c, err := thermal.CompactionByName(name)
+			if err != nil {
+				t.Fatal(err)
+			}
+			st, err := sedTableFor(c, rm, rw)
+			if err != nil {
+				t.Fatal(err)
+			}
+			dt := depthTableFor(thermal.TableFor(resModel(t, "gdh1")))
+			var sed []float32
+			for s := 0.0; s <= 40000; s += 0.37 {
+				sed = append(sed, float32(s))
+			}
+			specials := []float32{float32(math.NaN()), -0.001, -5, float32(math.Inf(-1)), float32(math.Inf(1)), 1e-30, 32767.9, 32768}
+			for i, s := range specials {
+				sed[4096*i+7] = s // among table cells, in different chunks
+			}
+			age := make([]float32, len(sed)) // age 0: predicted depth = Table.DepthM(0)
+			obs := make([]float32, len(sed))
+			res := make([]float32, len(sed))
+			for c0 := 0; c0 < len(sed); c0 += residualChunk {
+				c1 := min(c0+residualChunk, len(sed))
+				residualFusedChunk(res[c0:c1], age[c0:c1], obs[c0:c1], sed[c0:c1], 1, dt, st)
+			}
+			sc, err := thermal.NewSedimentCorrector(c, rm, rw)
+			if err != nil {
+				t.Fatal(err)
+			}
+			d0 := thermal.TableFor(resModel(t, "gdh1")).DepthM(0)
+			bad := 0
+			var maxErr float64
+			defer func() { t.Logf("max |fused − closed form| %.2g m", maxErr) }()
+			for i, s32 := range sed {
+				s := float64(s32)
+				got := d0 - float64(res[i]) // the correction the loop applied
+				var want float64
+				if s >= 0 && !math.IsInf(s, 1) {
+					want = sedimentClosedFormM(s, c, rm, rw)
+					maxErr = max(maxErr, math.Abs(got-want))
+				} else {
+					want = sc.CorrectionM(s)
+				}
+				ok := math.Abs(got-want) <= 0.01 || (math.IsNaN(got) && math.IsNaN(want)) || (math.IsInf(want, 0) && math.IsInf(got, 0) && math.Signbit(got) == math.Signbit(want))
+				if !ok {
+					t.Errorf("sediment %g m: fused correction %.4f m, want %.4f m", s, got, want)
+					if bad++; bad > 10 {
+						t.Fatal("too many failures")
+					}
+				}
+			}
+		})
+	}
+}
