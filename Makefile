@@ -9,7 +9,7 @@ VERSION ?= $(shell git describe --always --dirty 2>/dev/null || echo dev)
 LDFLAGS := -X main.version=$(VERSION)
 GO_TEST_FLAGS ?= -timeout 30m -p 2
 
-.PHONY: help run build web deps-build deps-test test test-go lint fmt bench clean
+.PHONY: help run build web deps-build deps-test test test-web test-go lint fmt bench clean
 
 help: ## list the targets
 	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sort | awk -F ':.*## ' '{printf "  %-11s %s\n", $$1, $$2}'
@@ -34,7 +34,10 @@ lint: ## fail on gofmt differences and go vet findings
 	  if [ -n "$$out" ]; then echo "gofmt would change:"; echo "$$out"; exit 1; fi
 	$(GO) vet ./...
 
-test: deps-test web lint test-go ## install test dependencies, bring up PostGIS, run every test
+test: deps-test web lint test-web test-go ## install test dependencies, bring up PostGIS, run every test
+
+test-web:
+	@cd web && npm test --silent
 
 test-go:
 	@mkdir -p build/screenshots

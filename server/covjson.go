@@ -1,0 +1,146 @@
+package server
+
+import (
+	"ridgeflank/geo"
+)
+
+// CoverageJSON 1.0 (OGC Community Standard 21-069r2) documents, built as
+// plain structs so encoding is predictable. Custom members carry the
+// "ridgeflank:" prefix, as the standard recommends for extensions.
+
+type covI18n map[string]string
+
+type covUnit struct {
+	Label  covI18n   `json:"label"`
+	Symbol covSymbol `json:"symbol"`
+}
+
+type covSymbol struct {
+	Value string `json:"value"`
+	Type  string `json:"type"`
+}
+
+type covObservedProperty struct {
+	ID          string  `json:"id,omitempty"`
+	Label       covI18n `json:"label"`
+	Description covI18n `json:"description,omitempty"`
+}
+
+type covParameter struct {
+	Type             string              `json:"type"`
+	Description      covI18n             `json:"description,omitempty"`
+	ObservedProperty covObservedProperty `json:"observedProperty"`
+	Unit             covUnit             `json:"unit"`
+}
+
+type covRefSystem struct {
+	Type string `json:"type"`
+	ID   string `json:"id"`
+}
+
+type covReferencing struct {
+	Coordinates []string     `json:"coordinates"`
+	System      covRefSystem `json:"system"`
+}
+
+type covAxis struct {
+	Values      any      `json:"values,omitempty"`
+	DataType    string   `json:"dataType,omitempty"`
+	Coordinates []string `json:"coordinates,omitempty"`
+	Start       *float64 `json:"start,omitempty"`
+	Stop        *float64 `json:"stop,omitempty"`
+	Num         int      `json:"num,omitempty"`
+}
+
+type covDomain struct {
+	Type        string             `json:"type"`
+	DomainType  string             `json:"domainType"`
+	Axes        map[string]covAxis `json:"axes"`
+	Referencing []covReferencing   `json:"referencing"`
+}
+
+type covNdArray struct {
+	Type      string      `json:"type"`
+	DataType  string      `json:"dataType"`
+	AxisNames []string    `json:"axisNames,omitempty"`
+	Shape     []int       `json:"shape,omitempty"`
+	Values    []jsonFloat `json:"values"`
+}
+
+type coverage struct {
+	Type       string                  `json:"type"`
+	Domain     covDomain               `json:"domain"`
+	Parameters map[string]covParameter `json:"parameters"`
+	Ranges     map[string]covNdArray   `json:"ranges"`
+	Provenance *Provenance             `json:"ridgeflank:provenance,omitempty"`
+	Caution    string                  `json:"ridgeflank:caution,omitempty"`
+	Stats      map[string]geo.Stats    `json:"ridgeflank:statistics,omitempty"`
+	Extra      map[string]any          `json:"ridgeflank:samples,omitempty"`
+}
+
+// crs84 is the lon/lat WGS84 CRS with longitude first.
+var crs84 = []covReferencing{{
+	Coordinates: []string{"x", "y"},
+	System:      covRefSystem{Type: "GeographicCRS", ID: "http://www.opengis.net/def/crs/OGC/1.3/CRS84"},
+}}
+
+func covParameters(ps []paramInfo) map[string]covParameter {
+	out := make(map[string]covParameter, len(ps))
+	for _, p := range ps {
+		out[p.ID] = covParameter{
+			Type:             "Parameter",
+			Description:      covI18n{"en": p.Description},
+			ObservedProperty: covObservedProperty{ID: p.ID, Label: covI18n{"en": p.Label}},
+			Unit:             covUnit{Label: covI18n{"en": p.UnitLabel}, Symbol: covSymbol{Value: p.Unit, Type: "http://www.opengis.net/def/uom/UCUM/"}},
+		}
+	}
+	return out
+}
+
+func f64(v float64) *float64 { return &v }
+
+// pointCoverage is a Point (one position) or MultiPoint coverage; values[i]
+// holds parameter i's value at every position.
+func pointCoverage(lons, lats []float64, ps []paramInfo, values [][]float64) coverage {
+	c := coverage{Type: "Coverage", Parameters: covParameters(ps), Ranges: map[string]covNdArray{}}
+	if len(lons) == 1 {
+		c.Domain = covDomain{Type: "Domain", DomainType: "Point", Referencing: crs84, Axes: map[string]covAxis{
+			"x": {Values: []jsonFloat{jsonFloat(lons[0])}},
+			"y": {Values: []jsonFloat{jsonFloat(lats[0])}},
+		}}
+		for i, p := range ps {
+			c.Ranges[p.ID] = covNdArray{Type: "NdArray", DataType: "float", Values: floats(values[i])}
+		}
+		return c
+	}
+	tuples := make([][2]jsonFloat, len(lons))
+	for i := range lons {
+		tuples[i] = [2]jsonFloat{jsonFloat(lons[i]), jsonFloat(lats[i])}
+	}
+	c.Domain = covDomain{Type: "Domain", DomainType: "MultiPoint", Referencing: crs84, Axes: map[string]covAxis{
+		"composite": {DataType: "tuple", Coordinates: []string{"x", "y"}, Values: tuples},
+	}}
+	for i, p := range ps {
+		c.Ranges[p.ID] = covNdArray{Type: "NdArray", DataType: "float", AxisNames: []string{"composite"}, Shape: []int{len(lons)}, Values: floats(values[i])}
+	}
+	return c
+}
+
+// gridCoverage is a Grid coverage on g's lattice with one grid per parameter.
+func gridCoverage(lattice *geo.Grid, ps []paramInfo, grids []*geo.Grid) coverage {
+	c := coverage{Type: "Coverage", Parameters: covParameters(ps), Ranges: map[string]covNdArray{}}
+	west, east := geo.LonTo180(lattice.Lon(0)), lattice.Lon(lattice.NX-1)
+	east = west + (east - lattice.Lon(0)) // keep x monotonic across the antimeridian
+	c.Domain = covDomain{Type: "Domain", DomainType: "Grid", Referencing: crs84, Axes: map[string]covAxis{
+		"x": {Start: f64(roundSig(west)), Stop: f64(roundSig(east)), Num: lattice.NX},
+		"y": {Start: f64(roundSig(lattice.Lat(0))), Stop: f64(roundSig(lattice.Lat(lattice.NY - 1))), Num: lattice.NY},
+	}}
+	for i, p := range ps {
+		vals := make([]jsonFloat, len(grids[i].Data))
+		for j, v := range grids[i].Data {
+			vals[j] = jsonFloat(float64(v))
+		}
+		c.Ranges[p.ID] = covNdArray{Type: "NdArray", DataType: "float", AxisNames: []string{"y", "x"}, Shape: []int{lattice.NY, lattice.NX}, Values: vals}
+	}
+	return c
+}

@@ -1,0 +1,474 @@
+package server
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"net/http"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/go-chi/chi/v5"
+	"github.com/paulmach/orb"
+
+	"ridgeflank/geo"
+	"ridgeflank/jobs"
+	"ridgeflank/store"
+	"ridgeflank/thermal"
+)
+
+// ---- custom models (store adapters) ----
+
+func (s *server) customModel(ctx context.Context, id string) (thermal.Params, error) {
+	if s.deps.Store == nil {
+		return thermal.Params{}, store.ErrNotFound
+	}
+	m, err := s.deps.Store.GetModel(ctx, id)
+	if err != nil {
+		return thermal.Params{}, err
+	}
+	var p thermal.Params
+	if err := json.Unmarshal(m.Params, &p); err != nil {
+		return p, fmt.Errorf("stored model %s: %w", id, err)
+	}
+	p.ID = m.ID
+	return p, nil
+}
+
+func (s *server) listCustomModels(ctx context.Context) ([]thermal.Params, error) {
+	if s.deps.Store == nil {
+		return nil, nil
+	}
+	ms, err := s.deps.Store.ListModels(ctx, store.Page{})
+	if err != nil {
+		return nil, err
+	}
+	out := make([]thermal.Params, 0, len(ms))
+	for _, m := range ms {
+		var p thermal.Params
+		if err := json.Unmarshal(m.Params, &p); err != nil {
+			continue
+		}
+		p.ID = m.ID
+		out = append(out, p)
+	}
+	return out, nil
+}
+
+func (s *server) saveCustomModel(ctx context.Context, p thermal.Params) error {
+	raw, err := json.Marshal(p)
+	if err != nil {
+		return err
+	}
+	_, err = s.deps.Store.CreateModel(ctx, store.Model{ID: p.ID, Name: p.Name, Description: p.Source, Params: raw})
+	if errors.Is(err, store.ErrConflict) {
+		return problem(CodeConflict, "a model with id %q already exists", p.ID).withCause(err)
+	}
+	return err
+}
+
+// ---- regions ----
+
+// regionFeature is a region as a GeoJSON Feature; the version is both a
+// property and the ETag.
+func (s *server) regionFeature(r *http.Request, rg store.Region) map[string]any {
+	return map[string]any{
+		"type":     "Feature",
+		"id":       rg.ID,
+		"geometry": geometryJSON(rg.Geometry),
+		"properties": map[string]any{
+			"name":        rg.Name,
+			"description": rg.Description,
+			"tags":        rg.Tags,
+			"owner":       rg.Owner,
+			"version":     rg.Version,
+			"area_km2":    jsonFloat(geo.SphericalAreaKm2(rg.Geometry)),
+			"created_at":  rg.CreatedAt.UTC().Format(time.RFC3339Nano),
+			"updated_at":  rg.UpdatedAt.UTC().Format(time.RFC3339Nano),
+		},
+		"links": []link{{Href: s.baseURL(r) + "/api/regions/" + rg.ID, Rel: "self", Type: MediaGeoJSON}},
+	}
+}
+
+func etag(version int64) string { return `"` + strconv.FormatInt(version, 10) + `"` }
+
+// parseIfMatch reads a version from If-Match ("3", "\"3\"" or W/"3").
+func parseIfMatch(r *http.Request) (int64, bool, error) {
+	v := strings.TrimSpace(r.Header.Get("If-Match"))
+	if v == "" {
+		return 0, false, nil
+	}
+	if v == "*" {
+		return 0, true, nil
+	}
+	v = strings.TrimPrefix(v, "W/")
+	v = strings.Trim(v, `"`)
+	n, err := strconv.ParseInt(v, 10, 64)
+	if err != nil || n < 1 {
+		return 0, true, problem(CodePreconditionFailed, "If-Match %q is not a version this API issued (an ETag like \"3\")", r.Header.Get("If-Match"))
+	}
+	return n, true, nil
+}
+
+// regionInput is the body of POST/PUT /api/regions: a GeoJSON Feature with
+// a Polygon or MultiPolygon and name/description/tags properties.
+type regionInput struct {
+	ID          string
+	Name        string
+	Description string
+	Tags        []string
+	Geometry    orb.MultiPolygon
+}
+
+func (s *server) readRegion(r *http.Request) (regionInput, error) {
+	var in regionInput
+	var raw struct {
+		Type       string          `json:"type"`
+		ID         any             `json:"id"`
+		Geometry   json.RawMessage `json:"geometry"`
+		Properties struct {
+			Name        string   `json:"name"`
+			Description string   `json:"description"`
+			Tags        []string `json:"tags"`
+		} `json:"properties"`
+	}
+	body, err := readAllLimited(r)
+	if err != nil {
+		return in, err
+	}
+	if err := json.Unmarshal(body, &raw); err != nil {
+		return in, problem(CodeInvalidGeoJSON, "the body is not a GeoJSON Feature: %v", err).withCause(err)
+	}
+	if raw.Type != "Feature" {
+		return in, problem(CodeInvalidGeoJSON, "the body must be a GeoJSON Feature, got type %q", raw.Type)
+	}
+	mp, err := geo.ParseRegion(raw.Geometry, s.limits.MaxVertices)
+	if err != nil {
+		if strings.Contains(err.Error(), "vertices") && strings.Contains(err.Error(), "limit") {
+			return in, limitProblem(http.StatusUnprocessableEntity, "max_vertices", int64(s.limits.MaxVertices), "%v", err).withCause(err)
+		}
+		return in, problem(CodeInvalidGeoJSON, "%v", err).withCause(err)
+	}
+	in.Geometry = mp
+	if id, ok := raw.ID.(string); ok {
+		in.ID = id
+	}
+	in.Name, in.Description, in.Tags = strings.TrimSpace(raw.Properties.Name), raw.Properties.Description, raw.Properties.Tags
+	if in.Name == "" {
+		return in, problem(CodeInvalidGeoJSON, "properties.name is required").withParam("name")
+	}
+	return in, nil
+}
+
+func readAllLimited(r *http.Request) ([]byte, error) {
+	ct := r.Header.Get("Content-Type")
+	if ct != "" && !strings.Contains(ct, "json") {
+		return nil, problem(CodeUnsupportedMedia, "expected a JSON body, got Content-Type %q", ct)
+	}
+	return io.ReadAll(r.Body) // bounded by the bodyLimit middleware
+}
+
+func (s *server) listRegions(w http.ResponseWriter, r *http.Request) error {
+	f := store.RegionFilter{Tag: r.URL.Query().Get("tag")}
+	if bb := r.URL.Query().Get("bbox"); bb != "" {
+		b, err := parseBBox(bb)
+		if err != nil {
+			return err
+		}
+		f.BBox = &b
+	}
+	rs, err := s.deps.Store.ListRegions(r.Context(), f)
+	if err != nil {
+		return err
+	}
+	feats := make([]any, len(rs))
+	for i, rg := range rs {
+		feats[i] = s.regionFeature(r, rg)
+	}
+	return writeJSON(w, http.StatusOK, MediaGeoJSON, map[string]any{"type": "FeatureCollection", "features": feats})
+}
+
+func parseBBox(v string) (orb.Bound, error) {
+	parts := strings.Split(v, ",")
+	if len(parts) != 4 {
+		return orb.Bound{}, problem(CodeInvalidParameter, "bbox=%q: want west,south,east,north", v).withParam("bbox")
+	}
+	var n [4]float64
+	for i, p := range parts {
+		f, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
+		if err != nil {
+			return orb.Bound{}, problem(CodeInvalidParameter, "bbox=%q: %q is not a number", v, p).withParam("bbox")
+		}
+		n[i] = f
+	}
+	if n[1] > n[3] || n[1] < -90 || n[3] > 90 {
+		return orb.Bound{}, problem(CodeInvalidParameter, "bbox=%q: need −90 ≤ south ≤ north ≤ 90", v).withParam("bbox")
+	}
+	return orb.Bound{Min: orb.Point{n[0], n[1]}, Max: orb.Point{n[2], n[3]}}, nil
+}
+
+func (s *server) createRegion(w http.ResponseWriter, r *http.Request) error {
+	in, err := s.readRegion(r)
+	if err != nil {
+		return err
+	}
+	if in.ID != "" && !validID(in.ID) {
+		return problem(CodeInvalidParameter, "id %q must be 1 to 64 characters from a-z, 0-9, '-' and '_'", in.ID).withParam("id")
+	}
+	owner := ""
+	if p := principalOf(r.Context()); p.Token != nil {
+		owner = p.Token.Name
+	}
+	rg, err := s.deps.Store.CreateRegion(r.Context(), store.Region{ID: in.ID, Name: in.Name, Description: in.Description, Tags: in.Tags, Geometry: in.Geometry, Owner: owner})
+	if err != nil {
+		return err
+	}
+	w.Header().Set("Location", s.baseURL(r)+"/api/regions/"+rg.ID)
+	w.Header().Set("ETag", etag(rg.Version))
+	return writeJSON(w, http.StatusCreated, MediaGeoJSON, s.regionFeature(r, rg))
+}
+
+func (s *server) getRegion(w http.ResponseWriter, r *http.Request) error {
+	rg, err := s.deps.Store.GetRegion(r.Context(), chi.URLParam(r, "regionId"))
+	if err != nil {
+		return err
+	}
+	w.Header().Set("ETag", etag(rg.Version))
+	return writeJSON(w, http.StatusOK, MediaGeoJSON, s.regionFeature(r, rg))
+}
+
+// updateRegion replaces a region. If-Match with the version last read is
+// required (428 without it, 412 when someone else wrote first).
+func (s *server) updateRegion(w http.ResponseWriter, r *http.Request) error {
+	id := chi.URLParam(r, "regionId")
+	ver, present, err := parseIfMatch(r)
+	if err != nil {
+		return err
+	}
+	if !present {
+		return problem(CodePreconditionNeeded, "send If-Match with the region's ETag (its version) to update it")
+	}
+	in, err := s.readRegion(r)
+	if err != nil {
+		return err
+	}
+	if in.ID != "" && in.ID != id {
+		return problem(CodeConflict, "the body's id %q differs from the path's %q", in.ID, id)
+	}
+	cur, err := s.deps.Store.GetRegion(r.Context(), id)
+	if err != nil {
+		return err
+	}
+	if ver == 0 {
+		ver = cur.Version
+	}
+	rg, err := s.deps.Store.UpdateRegion(r.Context(), store.Region{ID: id, Name: in.Name, Description: in.Description, Tags: in.Tags, Geometry: in.Geometry, Owner: cur.Owner, Version: ver})
+	if err != nil {
+		return err
+	}
+	w.Header().Set("ETag", etag(rg.Version))
+	return writeJSON(w, http.StatusOK, MediaGeoJSON, s.regionFeature(r, rg))
+}
+
+func (s *server) deleteRegion(w http.ResponseWriter, r *http.Request) error {
+	ver, _, err := parseIfMatch(r)
+	if err != nil {
+		return err
+	}
+	if err := s.deps.Store.DeleteRegion(r.Context(), chi.URLParam(r, "regionId"), ver); err != nil {
+		return err
+	}
+	w.WriteHeader(http.StatusNoContent)
+	return nil
+}
+
+// ---- grids ----
+
+func (s *server) gridJSON(r *http.Request, g store.Grid) map[string]any {
+	return map[string]any{
+		"id": g.ID, "name": g.Name, "kind": g.Kind, "units": g.Units, "vertical_sense": g.VerticalSense,
+		"footprint": geometryJSON(g.Footprint), "resolution_deg": g.ResolutionDeg,
+		"registration": g.Registration, "provenance": g.Provenance, "licence": g.Licence,
+		"sha256": g.ContentHash, "size_bytes": g.SizeBytes, "created_at": g.CreatedAt.UTC().Format(time.RFC3339Nano),
+		"links": []link{{Href: s.baseURL(r) + "/api/grids/" + g.ID, Rel: "self", Type: "application/json"}},
+	}
+}
+
+func (s *server) listGrids(w http.ResponseWriter, r *http.Request) error {
+	f := store.GridFilter{Kind: store.GridKind(r.URL.Query().Get("kind"))}
+	gs, err := s.deps.Store.ListGrids(r.Context(), f)
+	if err != nil {
+		return err
+	}
+	out := make([]any, len(gs))
+	for i, g := range gs {
+		out[i] = s.gridJSON(r, g)
+	}
+	return writeJSON(w, http.StatusOK, "", map[string]any{"grids": out})
+}
+
+func (s *server) getGrid(w http.ResponseWriter, r *http.Request) error {
+	g, err := s.deps.Store.GetGrid(r.Context(), chi.URLParam(r, "gridId"))
+	if err != nil {
+		return err
+	}
+	w.Header().Set("ETag", `"`+g.ContentHash+`"`)
+	return writeJSON(w, http.StatusOK, "", s.gridJSON(r, g))
+}
+
+func (s *server) deleteGrid(w http.ResponseWriter, r *http.Request) error {
+	defer s.forgetDatasets()
+	err := s.deps.Store.DeleteGrid(r.Context(), chi.URLParam(r, "gridId"))
+	if errors.Is(err, store.ErrConflict) {
+		return problem(CodeConflict, "grid %s is used by a dataset: delete or change the dataset first", chi.URLParam(r, "gridId")).withCause(err)
+	}
+	if err != nil {
+		return err
+	}
+	w.WriteHeader(http.StatusNoContent)
+	return nil
+}
+
+// ---- datasets ----
+
+func (s *server) datasetJSON(r *http.Request, d store.Dataset) map[string]any {
+	b := s.baseURL(r)
+	return map[string]any{
+		"id": d.ID, "name": d.Name, "description": d.Description,
+		"age_grid_id": d.AgeGridID, "depth_grid_id": d.DepthGridID, "sediment_grid_id": d.SedimentGridID,
+		"crust_grid_id": d.CrustGridID, "age_uncertainty_grid_id": d.AgeUncertaintyGridID,
+		"version": d.Version, "created_at": d.CreatedAt.UTC().Format(time.RFC3339Nano), "updated_at": d.UpdatedAt.UTC().Format(time.RFC3339Nano),
+		"links": []link{
+			{Href: b + "/api/datasets/" + d.ID, Rel: "self", Type: "application/json"},
+			{Href: b + "/api/collections/" + d.ID, Rel: "related", Type: "application/json", Title: "as an EDR collection"},
+		},
+	}
+}
+
+type datasetInput struct {
+	ID                   string `json:"id"`
+	Name                 string `json:"name"`
+	Description          string `json:"description"`
+	AgeGridID            string `json:"age_grid_id"`
+	DepthGridID          string `json:"depth_grid_id"`
+	SedimentGridID       string `json:"sediment_grid_id"`
+	CrustGridID          string `json:"crust_grid_id"`
+	AgeUncertaintyGridID string `json:"age_uncertainty_grid_id"`
+}
+
+func (s *server) listDatasets(w http.ResponseWriter, r *http.Request) error {
+	ds, err := s.deps.Store.ListDatasets(r.Context(), store.Page{})
+	if err != nil {
+		return err
+	}
+	out := make([]any, len(ds))
+	for i, d := range ds {
+		out[i] = s.datasetJSON(r, d)
+	}
+	return writeJSON(w, http.StatusOK, "", map[string]any{"datasets": out})
+}
+
+func (s *server) createDataset(w http.ResponseWriter, r *http.Request) error {
+	defer s.forgetDatasets()
+	var in datasetInput
+	if err := decodeJSON(r, &in); err != nil {
+		return err
+	}
+	if in.ID != "" && !validID(in.ID) {
+		return problem(CodeInvalidParameter, "id %q must be 1 to 64 characters from a-z, 0-9, '-' and '_'", in.ID).withParam("id")
+	}
+	if in.AgeGridID == "" {
+		return problem(CodeInvalidParameter, "age_grid_id is required").withParam("age_grid_id")
+	}
+	d, err := s.deps.Store.CreateDataset(r.Context(), store.Dataset{
+		ID: in.ID, Name: in.Name, Description: in.Description, AgeGridID: in.AgeGridID, DepthGridID: in.DepthGridID,
+		SedimentGridID: in.SedimentGridID, CrustGridID: in.CrustGridID, AgeUncertaintyGridID: in.AgeUncertaintyGridID,
+	})
+	if err != nil {
+		if errors.Is(err, store.ErrNotFound) || errors.Is(err, store.ErrInvalid) {
+			return problem(CodeInvalidParameter, "%v", err).withCause(err).withStatus(http.StatusUnprocessableEntity)
+		}
+		return err
+	}
+	w.Header().Set("Location", s.baseURL(r)+"/api/datasets/"+d.ID)
+	w.Header().Set("ETag", etag(d.Version))
+	return writeJSON(w, http.StatusCreated, "", s.datasetJSON(r, d))
+}
+
+func (s *server) getDataset(w http.ResponseWriter, r *http.Request) error {
+	d, err := s.deps.Store.GetDataset(r.Context(), chi.URLParam(r, "datasetId"))
+	if err != nil {
+		return err
+	}
+	w.Header().Set("ETag", etag(d.Version))
+	return writeJSON(w, http.StatusOK, "", s.datasetJSON(r, d))
+}
+
+func (s *server) deleteDataset(w http.ResponseWriter, r *http.Request) error {
+	defer s.forgetDatasets()
+	ver, _, err := parseIfMatch(r)
+	if err != nil {
+		return err
+	}
+	if err := s.deps.Store.DeleteDataset(r.Context(), chi.URLParam(r, "datasetId"), ver); err != nil {
+		return err
+	}
+	w.WriteHeader(http.StatusNoContent)
+	return nil
+}
+
+// ---- jobs ----
+
+func (s *server) getJob(w http.ResponseWriter, r *http.Request) error {
+	if s.deps.Jobs == nil {
+		return problem(CodeUnavailable, "this server runs no job queue")
+	}
+	id, err := strconv.ParseInt(chi.URLParam(r, "jobId"), 10, 64)
+	if err != nil || id < 1 {
+		return problem(CodeNotFound, "no job %q", chi.URLParam(r, "jobId"))
+	}
+	st, err := s.deps.Jobs.Get(r.Context(), id)
+	if errors.Is(err, jobs.ErrNotFound) {
+		return problem(CodeNotFound, "no job %d", id)
+	}
+	if err != nil {
+		return err
+	}
+	w.Header().Set("Cache-Control", "no-store")
+	return writeJSON(w, http.StatusOK, "", jobJSON(s.baseURL(r), st))
+}
+
+func jobJSON(base string, st jobs.Status) map[string]any {
+	out := map[string]any{
+		"id": st.ID, "kind": st.Kind, "state": st.State, "attempt": st.Attempt, "max_attempts": st.MaxAttempt,
+		"progress": st.Progress, "message": st.Message, "created_at": st.CreatedAt.UTC().Format(time.RFC3339Nano),
+		"links": []link{{Href: fmt.Sprintf("%s/api/jobs/%d", base, st.ID), Rel: "self", Type: "application/json"}},
+	}
+	if st.StartedAt != nil {
+		out["started_at"] = st.StartedAt.UTC().Format(time.RFC3339Nano)
+	}
+	if st.FinishedAt != nil {
+		out["finished_at"] = st.FinishedAt.UTC().Format(time.RFC3339Nano)
+	}
+	if len(st.Result) > 0 {
+		out["result"] = st.Result
+	}
+	if st.Kind == jobs.KindExport && st.State == jobs.StateSucceeded {
+		out["links"] = append(out["links"].([]link), link{Href: fmt.Sprintf("%s/api/jobs/%d/result", base, st.ID), Rel: "enclosure", Title: "the exported file"})
+	}
+	if len(st.Errors) > 0 {
+		out["errors"] = st.Errors
+	}
+	return out
+}
+
+// geometryJSON is a GeoJSON MultiPolygon geometry object.
+func geometryJSON(mp orb.MultiPolygon) map[string]any {
+	if mp == nil {
+		mp = orb.MultiPolygon{}
+	}
+	return map[string]any{"type": "MultiPolygon", "coordinates": mp}
+}

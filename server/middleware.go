@@ -1,0 +1,213 @@
+package server
+
+import (
+	"context"
+	"crypto/rand"
+	"encoding/hex"
+	"fmt"
+	"io/fs"
+	"net"
+	"net/http"
+	"runtime/debug"
+	"strings"
+	"time"
+
+	"github.com/go-chi/chi/v5/middleware"
+	"github.com/go-chi/cors"
+	"github.com/go-chi/httprate"
+)
+
+type ctxKey int
+
+const (
+	ctxRequestID ctxKey = iota
+	ctxPrincipal
+)
+
+// requestID returns the request id stored by requestIDMiddleware.
+func requestID(ctx context.Context) string {
+	id, _ := ctx.Value(ctxRequestID).(string)
+	return id
+}
+
+// requestIDMiddleware keeps a sane incoming X-Request-ID (≤ 64 characters
+// from [A-Za-z0-9._-]) or makes a random one, and echoes it in the response.
+func (s *server) requestIDMiddleware(next http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		id := r.Header.Get("X-Request-ID")
+		if !saneRequestID(id) {
+			var b [12]byte
+			_, _ = rand.Read(b[:])
+			id = hex.EncodeToString(b[:])
+		}
+		w.Header().Set("X-Request-ID", id)
+		next.ServeHTTP(w, r.WithContext(context.WithValue(r.Context(), ctxRequestID, id)))
+	})
+}
+
+func saneRequestID(id string) bool {
+	if id == "" || len(id) > 64 {
+		return false
+	}
+	for _, c := range id {
+		if !(c >= 'a' && c <= 'z' || c >= 'A' && c <= 'Z' || c >= '0' && c <= '9' || c == '-' || c == '_' || c == '.') {
+			return false
+		}
+	}
+	return true
+}
+
+// accessLog writes one structured log line per request.
+func (s *server) accessLog(next http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		start := time.Now()
+		ww := middleware.NewWrapResponseWriter(w, r.ProtoMajor)
+		next.ServeHTTP(ww, r)
+		status := ww.Status()
+		if status == 0 {
+			status = http.StatusOK
+		}
+		s.log.LogAttrs(r.Context(), levelFor(status), "http request",
+			slogStr("request_id", requestID(r.Context())),
+			slogStr("method", r.Method),
+			slogStr("path", r.URL.Path),
+			slogStr("route", routePattern(r)),
+			slogInt("status", status),
+			slogInt("bytes", ww.BytesWritten()),
+			slogDur("duration", time.Since(start)),
+			slogStr("remote", r.RemoteAddr),
+		)
+	})
+}
+
+// recoverer turns a panic into a logged stack and a 500 problem.
+func (s *server) recoverer(next http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		defer func() {
+			v := recover()
+			if v == nil {
+				return
+			}
+			if v == http.ErrAbortHandler {
+				panic(v)
+			}
+			s.log.ErrorContext(r.Context(), "panic", "request_id", requestID(r.Context()),
+				"panic", fmt.Sprint(v), "stack", string(debug.Stack()))
+			if ww, ok := w.(middleware.WrapResponseWriter); ok && ww.Status() != 0 {
+				return
+			}
+			writeProblem(w, r, problem(CodeInternal, "an internal error occurred; the request id identifies it in the server log"))
+		}()
+		next.ServeHTTP(w, r)
+	})
+}
+
+// timeout gives every request a deadline carried by its context down to the
+// store and the grid computation. A POST to skipPath (the upload route, which
+// has its own longer limit) is left alone.
+func (s *server) timeout(d time.Duration, skipPath string) func(http.Handler) http.Handler {
+	return func(next http.Handler) http.Handler {
+		return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+			if skipPath != "" && r.Method == http.MethodPost && strings.TrimSuffix(r.URL.Path, "/") == skipPath {
+				next.ServeHTTP(w, r)
+				return
+			}
+			ctx, cancel := context.WithTimeout(r.Context(), d)
+			defer cancel()
+			next.ServeHTTP(w, r.WithContext(ctx))
+		})
+	}
+}
+
+// bodyLimit caps the request body; reading past it fails with
+// *http.MaxBytesError, which the adapter answers 413 stating the limit.
+func (s *server) bodyLimit(n int64) func(http.Handler) http.Handler {
+	return func(next http.Handler) http.Handler {
+		return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+			if r.ContentLength > n {
+				writeProblem(w, r, limitProblem(http.StatusRequestEntityTooLarge, "max_body_bytes", n,
+					"the request body (%d bytes) is larger than the limit of %d bytes", r.ContentLength, n))
+				return
+			}
+			r.Body = http.MaxBytesReader(w, r.Body, n)
+			next.ServeHTTP(w, r)
+		})
+	}
+}
+
+// rateLimit allows RateLimitPerMinute×mult requests per client IP per minute.
+func (s *server) rateLimit(mult int) func(http.Handler) http.Handler {
+	n := s.deps.Config.RateLimitPerMinute
+	if n < 0 {
+		return func(next http.Handler) http.Handler { return next }
+	}
+	return httprate.LimitBy(n*mult, time.Minute, func(r *http.Request) (string, error) {
+		host, _, err := net.SplitHostPort(r.RemoteAddr)
+		if err != nil {
+			host = r.RemoteAddr
+		}
+		return httprate.CanonicalizeIP(host), nil
+	}, httprate.WithLimitHandler(func(w http.ResponseWriter, r *http.Request) {
+		lim := int64(n * mult)
+		writeProblem(w, r, limitProblem(http.StatusTooManyRequests, "requests_per_minute", lim,
+			"more than %d requests per minute from this address", lim).withCode(CodeRateLimited))
+	}))
+}
+
+func (p *Problem) withCode(code string) *Problem {
+	k := problemKinds[code]
+	p.Code, p.Type, p.Title = code, k.Type, k.Title
+	return p
+}
+
+// corsMiddleware allows the configured origins.
+func (s *server) corsMiddleware() func(http.Handler) http.Handler {
+	return cors.Handler(cors.Options{
+		AllowedOrigins:   s.deps.Config.CORSOrigins,
+		AllowedMethods:   []string{"GET", "HEAD", "POST", "PUT", "DELETE", "OPTIONS"},
+		AllowedHeaders:   []string{"Accept", "Authorization", "Content-Type", "If-Match", "If-None-Match", "X-Request-ID"},
+		ExposedHeaders:   []string{"ETag", "Location", "X-Request-ID", "Ridgeflank-Provenance", "Ridgeflank-Caution", "Ridgeflank-Colour-Scale"},
+		AllowCredentials: false,
+		MaxAge:           600,
+	})
+}
+
+// assets serves the page. Unknown paths fall through to the router's 404.
+func (s *server) assets() http.Handler {
+	fsrv := http.FileServerFS(s.deps.Assets)
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		p := strings.TrimPrefix(r.URL.Path, "/")
+		if p == "" {
+			p = "."
+		}
+		if _, err := fs.Stat(s.deps.Assets, p); err != nil {
+			writeProblem(w, r, problem(CodeNotFound, "no resource at %s", r.URL.Path))
+			return
+		}
+		fsrv.ServeHTTP(w, r)
+	})
+}
+
+// needStore answers 503 for endpoints that need a store when none is
+// configured (a server built for the age-only endpoints, as in examples).
+func (s *server) needStore(next http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		if s.deps.Store == nil && !storeFree(r.URL.Path, r.Method) {
+			writeProblem(w, r, problem(CodeUnavailable, "this server has no store configured"))
+			return
+		}
+		next.ServeHTTP(w, r)
+	})
+}
+
+func storeFree(p, method string) bool {
+	p = strings.TrimSuffix(p, "/")
+	switch p {
+	case "/api", "/api/openapi.json", "/api/conformance", "/api/colour-scales", "/api/problems":
+		return true
+	}
+	if strings.HasPrefix(p, "/api/problems/") {
+		return true
+	}
+	return method == http.MethodGet && strings.HasPrefix(p, "/api/models")
+}

@@ -1,0 +1,374 @@
+package server
+
+import (
+	"context"
+	"encoding/csv"
+	"errors"
+	"fmt"
+	"math"
+	"net/http"
+	"strconv"
+	"strings"
+	"sync"
+
+	"github.com/go-chi/chi/v5"
+
+	"ridgeflank/thermal"
+)
+
+// DefaultModel is the model used when a query gives no model=.
+const DefaultModel = thermal.IDGDH1
+
+// maxAgeMa is the oldest age accepted by the age-only endpoints (the span of
+// the model lookup tables; today's oceans are younger than about 200 Ma).
+const maxAgeMa = thermal.TableMaxAgeMa
+
+// modelCache keeps the Model built for each stored custom parameter set, so
+// thermal.TableFor (keyed by parameters) is reused across requests.
+type modelCache struct {
+	mu sync.Mutex
+	m  map[thermal.Params]thermal.Model
+}
+
+func newModelCache() *modelCache { return &modelCache{m: map[thermal.Params]thermal.Model{}} }
+
+func (c *modelCache) get(p thermal.Params) (thermal.Model, error) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if m, ok := c.m[p]; ok {
+		return m, nil
+	}
+	m, err := thermal.NewModel(p)
+	if err != nil {
+		return nil, err
+	}
+	if len(c.m) > 1024 {
+		clear(c.m)
+	}
+	c.m[p] = m
+	return m, nil
+}
+
+func isBuiltin(id string) bool {
+	for _, b := range thermal.BuiltinIDs() {
+		if strings.EqualFold(b, strings.TrimSpace(id)) {
+			return true
+		}
+	}
+	return false
+}
+
+// resolveModel finds a built-in or stored custom model. A missing model is a
+// *Problem with code unknown-model (status 400 for query parameters; the
+// caller turns it into 404 for path segments).
+func (s *server) resolveModel(ctx context.Context, id string) (thermal.Model, error) {
+	if id == "" {
+		id = DefaultModel
+	}
+	if isBuiltin(id) {
+		return thermal.Builtin(id)
+	}
+	p, err := s.customModel(ctx, id)
+	if err != nil {
+		if isNotFound(err) {
+			return nil, problem(CodeUnknownModel, "no model %q; built-in models are %s, or store a custom one with POST /api/models",
+				id, strings.Join(thermal.BuiltinIDs(), ", ")).withParam("model")
+		}
+		return nil, err
+	}
+	return s.models.get(p)
+}
+
+// modelFromPath resolves {modelId}, answering 404 when it does not exist.
+func (s *server) modelFromPath(r *http.Request) (thermal.Model, error) {
+	m, err := s.resolveModel(r.Context(), chi.URLParam(r, "modelId"))
+	var p *Problem
+	if errors.As(err, &p) && p.Code == CodeUnknownModel {
+		return nil, problem(CodeNotFound, "%s", p.Detail)
+	}
+	return m, err
+}
+
+type modelJSON struct {
+	ID      string         `json:"id"`
+	Name    string         `json:"name"`
+	Kind    string         `json:"kind"`
+	Builtin bool           `json:"builtin"`
+	Params  thermal.Params `json:"params"`
+	Links   []link         `json:"links"`
+}
+
+func (s *server) modelJSON(r *http.Request, p thermal.Params, builtin bool) modelJSON {
+	base := s.baseURL(r) + "/api/models/" + p.ID
+	return modelJSON{ID: p.ID, Name: p.Name, Kind: p.Kind, Builtin: builtin, Params: p, Links: []link{
+		{Href: base, Rel: "self", Type: "application/json"},
+		{Href: base + "/curve?ages=0:200:1", Rel: "related", Type: "application/json", Title: "depth, heat flow and thickness against age"},
+		{Href: base + "/geotherm?age=50", Rel: "related", Type: "application/json", Title: "temperature against depth at 50 Ma"},
+	}}
+}
+
+func (s *server) listModels(w http.ResponseWriter, r *http.Request) error {
+	out := struct {
+		Models []modelJSON `json:"models"`
+	}{Models: []modelJSON{}}
+	for _, id := range thermal.BuiltinIDs() {
+		m, err := thermal.Builtin(id)
+		if err != nil {
+			return err
+		}
+		out.Models = append(out.Models, s.modelJSON(r, m.Params(), true))
+	}
+	custom, err := s.listCustomModels(r.Context())
+	if err != nil {
+		return err
+	}
+	for _, p := range custom {
+		out.Models = append(out.Models, s.modelJSON(r, p, false))
+	}
+	return writeJSON(w, http.StatusOK, "", out)
+}
+
+func (s *server) getModel(w http.ResponseWriter, r *http.Request) error {
+	m, err := s.modelFromPath(r)
+	if err != nil {
+		return err
+	}
+	return writeJSON(w, http.StatusOK, "", s.modelJSON(r, m.Params(), isBuiltin(m.Params().ID)))
+}
+
+// createModel stores a custom parameter set (thermal.Params as JSON). Its id
+// must not collide with a built-in model.
+func (s *server) createModel(w http.ResponseWriter, r *http.Request) error {
+	var p thermal.Params
+	if err := decodeJSON(r, &p); err != nil {
+		return err
+	}
+	p.ID = strings.TrimSpace(p.ID)
+	if !validID(p.ID) {
+		return problem(CodeInvalidModelParams, "id %q must be 1 to 64 characters from a-z, 0-9, '-' and '_'", p.ID).withParam("id")
+	}
+	if isBuiltin(p.ID) {
+		return problem(CodeConflict, "%q is a built-in model id", p.ID)
+	}
+	if err := p.Validate(); err != nil {
+		var pe *thermal.ParamError
+		q := problem(CodeInvalidModelParams, "%v", err).withCause(err)
+		if errors.As(err, &pe) {
+			q.Parameter = pe.Field
+		}
+		return q
+	}
+	if err := s.saveCustomModel(r.Context(), p); err != nil {
+		return err
+	}
+	w.Header().Set("Location", s.baseURL(r)+"/api/models/"+p.ID)
+	return writeJSON(w, http.StatusCreated, "", s.modelJSON(r, p, false))
+}
+
+// validID accepts ids of 1..64 characters from [a-z0-9_-] (stored ids of
+// models, regions, grids and datasets).
+func validID(id string) bool {
+	if id == "" || len(id) > 64 {
+		return false
+	}
+	for _, c := range id {
+		if !(c >= 'a' && c <= 'z' || c >= '0' && c <= '9' || c == '-' || c == '_') {
+			return false
+		}
+	}
+	return true
+}
+
+// parseRange reads "start:stop:step" (inclusive of stop when it falls on a
+// step) or a single number.
+func parseRange(name, v string, maxPoints int) ([]float64, error) {
+	parts := strings.Split(v, ":")
+	nums := make([]float64, len(parts))
+	for i, p := range parts {
+		f, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
+		if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
+			return nil, problem(CodeInvalidParameter, "%s=%q: %q is not a number (expected start:stop:step)", name, v, p).withParam(name)
+		}
+		nums[i] = f
+	}
+	switch len(nums) {
+	case 1:
+		return nums, nil
+	case 3:
+	default:
+		return nil, problem(CodeInvalidParameter, "%s=%q: expected start:stop:step or one number", name, v).withParam(name)
+	}
+	start, stop, step := nums[0], nums[1], nums[2]
+	if step <= 0 || stop < start {
+		return nil, problem(CodeInvalidParameter, "%s=%q: need start ≤ stop and step > 0", name, v).withParam(name)
+	}
+	n := int(math.Floor((stop-start)/step+1e-9)) + 1
+	if n > maxPoints {
+		return nil, limitProblem(http.StatusUnprocessableEntity, "max_curve_points", int64(maxPoints),
+			"%s=%q asks for %d values; the limit is %d", name, v, n, maxPoints).withParam(name)
+	}
+	out := make([]float64, n)
+	for i := range out {
+		out[i] = start + float64(i)*step
+	}
+	return out, nil
+}
+
+func checkAges(name string, ages []float64) error {
+	for _, a := range ages {
+		if a < 0 || a > maxAgeMa {
+			return problem(CodeAgeOutOfRange, "%s: age %g Ma is outside 0 to %g Ma", name, a, maxAgeMa).withParam(name)
+		}
+	}
+	return nil
+}
+
+// wantCSV reads f= for endpoints that answer JSON (default) or CSV.
+func wantCSV(r *http.Request) (bool, error) {
+	switch f := strings.ToLower(r.URL.Query().Get("f")); f {
+	case "", "json", "application/json":
+		return false, nil
+	case "csv", "text/csv":
+		return true, nil
+	default:
+		return false, problem(CodeUnsupportedFormat, "f=%q: this endpoint answers json or csv", f).withParam("f")
+	}
+}
+
+func (s *server) modelCurve(w http.ResponseWriter, r *http.Request) error {
+	m, err := s.modelFromPath(r)
+	if err != nil {
+		return err
+	}
+	q := r.URL.Query()
+	spec := q.Get("ages")
+	if spec == "" {
+		spec = "0:200:1"
+	}
+	ages, err := parseRange("ages", spec, s.limits.MaxCurvePoints)
+	if err != nil {
+		return err
+	}
+	if err := checkAges("ages", ages); err != nil {
+		return err
+	}
+	asCSV, err := wantCSV(r)
+	if err != nil {
+		return err
+	}
+	n := len(ages)
+	depth, hf, thick, iso, rate := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
+	for i, a := range ages {
+		if err := r.Context().Err(); err != nil {
+			return err
+		}
+		depth[i] = m.DepthM(a)
+		hf[i] = m.HeatFlowMWm2(a)
+		thick[i] = m.ThermalThicknessKm(a)
+		iso[i] = m.IsothermDepthKm(600, a)
+		rate[i] = m.SubsidenceRateMPerMyr(a)
+	}
+	prov := s.provenance(m)
+	prov.Caution = Caution
+	prov.setHeaders(w)
+	if asCSV {
+		return writeCSV(w, "curve-"+m.Params().ID+".csv",
+			[]string{"age_ma", "depth_m", "heat_flow_mw_m2", "thermal_thickness_km", "depth_600c_km", "subsidence_rate_m_per_myr"},
+			ages, depth, hf, thick, iso, rate)
+	}
+	return writeJSON(w, http.StatusOK, "", map[string]any{
+		"model":                     m.Params().ID,
+		"age_ma":                    floats(ages),
+		"depth_m":                   floats(depth),
+		"heat_flow_mw_m2":           floats(hf),
+		"thermal_thickness_km":      floats(thick),
+		"depth_600c_km":             floats(iso),
+		"subsidence_rate_m_per_myr": floats(rate),
+		"provenance":                prov,
+	})
+}
+
+func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
+	m, err := s.modelFromPath(r)
+	if err != nil {
+		return err
+	}
+	q := r.URL.Query()
+	ageStr := q.Get("age")
+	if ageStr == "" {
+		return problem(CodeInvalidParameter, "age= is required (Ma)").withParam("age")
+	}
+	age, err := strconv.ParseFloat(ageStr, 64)
+	if err != nil || math.IsNaN(age) {
+		return problem(CodeInvalidParameter, "age=%q is not a number", ageStr).withParam("age")
+	}
+	if err := checkAges("age", []float64{age}); err != nil {
+		return err
+	}
+	spec := q.Get("depths")
+	if spec == "" {
+		maxKm := 150.0
+		if a := m.Params().PlateThicknessKm; a > 0 {
+			maxKm = math.Ceil(a * 1.2)
+		}
+		spec = fmt.Sprintf("0:%g:1", maxKm)
+	}
+	depths, err := parseRange("depths", spec, s.limits.MaxCurvePoints)
+	if err != nil {
+		return err
+	}
+	if depths[0] < 0 || depths[len(depths)-1] > 1000 {
+		return problem(CodeInvalidParameter, "depths must lie within 0 to 1000 km").withParam("depths")
+	}
+	asCSV, err := wantCSV(r)
+	if err != nil {
+		return err
+	}
+	temps := make([]float64, len(depths))
+	for i, z := range depths {
+		temps[i] = m.TemperatureC(z, age)
+	}
+	prov := s.provenance(m)
+	prov.setHeaders(w)
+	if asCSV {
+		return writeCSV(w, "geotherm-"+m.Params().ID+".csv", []string{"depth_km", "temperature_c"}, depths, temps)
+	}
+	return writeJSON(w, http.StatusOK, "", map[string]any{
+		"model":                m.Params().ID,
+		"age_ma":               jsonFloat(age),
+		"depth_km":             floats(depths),
+		"temperature_c":        floats(temps),
+		"thermal_thickness_km": jsonFloat(m.ThermalThicknessKm(age)),
+		"depth_600c_km":        jsonFloat(m.IsothermDepthKm(600, age)),
+		"provenance":           prov,
+	})
+}
+
+// writeCSV writes equal-length columns with a header row. Non-finite values
+// are written as empty fields.
+func writeCSV(w http.ResponseWriter, filename string, header []string, cols ...[]float64) error {
+	w.Header().Set("Content-Type", "text/csv; charset=utf-8; header=present")
+	w.Header().Set("Content-Disposition", `attachment; filename="`+filename+`"`)
+	cw := csv.NewWriter(w)
+	if err := cw.Write(header); err != nil {
+		return err
+	}
+	row := make([]string, len(cols))
+	for i := range cols[0] {
+		for j, c := range cols {
+			row[j] = formatCSVFloat(c[i])
+		}
+		if err := cw.Write(row); err != nil {
+			return err
+		}
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+func formatCSVFloat(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return ""
+	}
+	return strconv.FormatFloat(roundSig(v), 'g', -1, 64)
+}

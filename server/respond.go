@@ -1,0 +1,94 @@
+package server
+
+import (
+	"bytes"
+	"encoding/json"
+	"math"
+	"net/http"
+	"strconv"
+	"strings"
+)
+
+// jsonFloat encodes NaN and ±Inf as null (JSON has no such numbers).
+type jsonFloat float64
+
+func (f jsonFloat) MarshalJSON() ([]byte, error) {
+	v := float64(f)
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return []byte("null"), nil
+	}
+	return strconv.AppendFloat(nil, roundSig(v), 'g', -1, 64), nil
+}
+
+// roundSig keeps 7 significant digits: more than any input grid or model
+// parameter carries, and it keeps responses small.
+func roundSig(v float64) float64 {
+	if v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
+		return v
+	}
+	f, _ := strconv.ParseFloat(strconv.FormatFloat(v, 'g', 7, 64), 64)
+	return f
+}
+
+func floats(v []float64) []jsonFloat {
+	out := make([]jsonFloat, len(v))
+	for i, x := range v {
+		out[i] = jsonFloat(x)
+	}
+	return out
+}
+
+// writeJSON writes v with the given media type and status.
+func writeJSON(w http.ResponseWriter, status int, mediaType string, v any) error {
+	var buf bytes.Buffer
+	enc := json.NewEncoder(&buf)
+	enc.SetEscapeHTML(false)
+	if err := enc.Encode(v); err != nil {
+		return err
+	}
+	if mediaType == "" {
+		mediaType = "application/json"
+	}
+	w.Header().Set("Content-Type", mediaType)
+	w.WriteHeader(status)
+	_, err := w.Write(buf.Bytes())
+	return err
+}
+
+// link is an OGC API link object.
+type link struct {
+	Href  string `json:"href"`
+	Rel   string `json:"rel"`
+	Type  string `json:"type,omitempty"`
+	Title string `json:"title,omitempty"`
+}
+
+// baseURL is the absolute URL prefix for links.
+func (s *server) baseURL(r *http.Request) string {
+	if s.deps.Config.PublicURL != "" {
+		return strings.TrimSuffix(s.deps.Config.PublicURL, "/")
+	}
+	scheme := "http"
+	if r.TLS != nil {
+		scheme = "https"
+	}
+	return scheme + "://" + r.Host
+}
+
+// decodeJSON reads a JSON body strictly (unknown fields are refused).
+func decodeJSON(r *http.Request, v any) error {
+	ct := r.Header.Get("Content-Type")
+	if ct != "" && !strings.Contains(ct, "json") {
+		return problem(CodeUnsupportedMedia, "expected a JSON body, got Content-Type %q", ct)
+	}
+	dec := json.NewDecoder(r.Body)
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(v); err != nil {
+		var mbe *http.MaxBytesError
+		if asMaxBytes(err, &mbe) {
+			return err
+		}
+		return problem(CodeBadRequest, "the JSON body could not be read: %v", err).withCause(err)
+	}
+	return nil
+}

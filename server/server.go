@@ -1,0 +1,274 @@
+package server
+
+import (
+	"context"
+	"io/fs"
+	"log/slog"
+	"net/http"
+	"sync"
+	"time"
+
+	"github.com/go-chi/chi/v5"
+	"github.com/go-chi/chi/v5/middleware"
+	"github.com/prometheus/client_golang/prometheus"
+
+	"ridgeflank/jobs"
+	"ridgeflank/store"
+)
+
+// Limits are the documented request limits. A request over one of them is
+// answered 413 (bodies) or 422 (everything else) with a problem naming the
+// limit and its value. Zero fields take DefaultLimits' value.
+type Limits struct {
+	MaxBodyBytes    int64         // JSON bodies (regions, models, trajectories), bytes
+	MaxUploadBytes  int64         // multipart grid uploads, bytes
+	MaxPositions    int           // points in one position query
+	MaxVertices     int           // vertices of one polygon/multipolygon/trajectory
+	MaxAreaCells    int           // output cells of one area query
+	MaxTrackSamples int           // samples along one trajectory
+	MaxCurvePoints  int           // ages in one /curve request
+	MaxParameters   int           // entries in parameter-name
+	RequestTimeout  time.Duration // every API request except uploads
+	UploadTimeout   time.Duration // grid uploads (streamed to disk)
+	MaxTileZoom     int           // deepest tile zoom served
+	MaxInputCells   int           // input cells read by one area/locations query
+	SyncExportCells int           // COG/netCDF area answers above this many cells become export jobs
+	GridCacheCells  int           // grid cells kept in memory across requests (float32 each)
+}
+
+// DefaultLimits are the limits used when Deps.Limits leaves a field zero.
+var DefaultLimits = Limits{
+	MaxBodyBytes:    4 << 20,
+	MaxUploadBytes:  2 << 30,
+	MaxPositions:    1000,
+	MaxVertices:     10000,
+	MaxAreaCells:    4_000_000,
+	MaxTrackSamples: 100_000,
+	MaxCurvePoints:  10_001,
+	MaxParameters:   9,
+	RequestTimeout:  30 * time.Second,
+	UploadTimeout:   30 * time.Minute,
+	MaxTileZoom:     14,
+	MaxInputCells:   20_000_000,
+	SyncExportCells: 1_000_000,
+	GridCacheCells:  150_000_000,
+}
+
+func (l Limits) withDefaults() Limits {
+	d := DefaultLimits
+	set64 := func(v *int64, dv int64) {
+		if *v <= 0 {
+			*v = dv
+		}
+	}
+	set := func(v *int, dv int) {
+		if *v <= 0 {
+			*v = dv
+		}
+	}
+	setD := func(v *time.Duration, dv time.Duration) {
+		if *v <= 0 {
+			*v = dv
+		}
+	}
+	set64(&l.MaxBodyBytes, d.MaxBodyBytes)
+	set64(&l.MaxUploadBytes, d.MaxUploadBytes)
+	set(&l.MaxPositions, d.MaxPositions)
+	set(&l.MaxVertices, d.MaxVertices)
+	set(&l.MaxAreaCells, d.MaxAreaCells)
+	set(&l.MaxTrackSamples, d.MaxTrackSamples)
+	set(&l.MaxCurvePoints, d.MaxCurvePoints)
+	set(&l.MaxParameters, d.MaxParameters)
+	setD(&l.RequestTimeout, d.RequestTimeout)
+	setD(&l.UploadTimeout, d.UploadTimeout)
+	set(&l.MaxTileZoom, d.MaxTileZoom)
+	set(&l.MaxInputCells, d.MaxInputCells)
+	set(&l.GridCacheCells, d.GridCacheCells)
+	set(&l.SyncExportCells, d.SyncExportCells)
+	return l
+}
+
+// Config holds the deployment choices of the HTTP layer.
+type Config struct {
+	// CORSOrigins lists the origins allowed by CORS; empty disables CORS headers.
+	CORSOrigins []string
+	// RateLimitPerMinute is the number of API requests one client IP may make
+	// per minute (tiles get four times as many); 0 means 600, negative disables.
+	RateLimitPerMinute int
+	// ReadAuth requires a token with role reader or above on every read.
+	ReadAuth bool
+	// TileMaxAgeSeconds is the Cache-Control max-age of tiles (0 means 3600).
+	TileMaxAgeSeconds int
+	// UploadDir is where grid uploads are streamed before their import job.
+	UploadDir string
+	// ExportDir holds the files of export jobs (default: the system's
+	// temporary directory).
+	ExportDir string
+	// PublicURL is the externally visible base URL (for absolute links); empty
+	// means links are built from the request's Host.
+	PublicURL string
+}
+
+// Deps are everything the handlers need; New keeps no global state.
+type Deps struct {
+	Store    store.Store // required except by the age-only model endpoints and the API description
+	Logger   *slog.Logger
+	Version  string
+	Limits   Limits
+	Jobs     JobQueue
+	Assets   fs.FS
+	Config   Config
+	Registry *prometheus.Registry // nil: a fresh registry per handler
+}
+
+// server carries the dependencies shared by the handlers.
+type server struct {
+	deps      Deps
+	log       *slog.Logger
+	limits    Limits
+	metrics   *metrics
+	models    *modelCache
+	grids     *gridCache
+	sedTabs   sync.Map // sedKey -> *thermal.SedimentCorrector
+	dsCache   sync.Map // dataset id -> cachedDataset
+	modelRefs sync.Map // thermal.Params -> *ModelRef
+}
+
+// New builds the HTTP handler: the EDR API under /api, tiles under /tiles,
+// health and metrics, and the page's assets at /.
+func New(deps Deps) http.Handler {
+	return newServer(deps).routes()
+}
+
+func newServer(deps Deps) *server {
+	if deps.Logger == nil {
+		deps.Logger = slog.New(slog.DiscardHandler)
+	}
+	if deps.Version == "" {
+		deps.Version = "dev"
+	}
+	if deps.Config.TileMaxAgeSeconds <= 0 {
+		deps.Config.TileMaxAgeSeconds = 3600
+	}
+	if deps.Config.RateLimitPerMinute == 0 {
+		deps.Config.RateLimitPerMinute = 600
+	}
+	s := &server{
+		deps:   deps,
+		log:    deps.Logger,
+		limits: deps.Limits.withDefaults(),
+		models: newModelCache(),
+		grids:  newGridCache(deps.Limits.withDefaults().GridCacheCells),
+	}
+	s.metrics = newMetrics(deps.Registry)
+	return s
+}
+
+// handlerFunc is the shape of every handler: it returns an error instead of
+// writing one, and the single adapter h turns errors into problem details.
+type handlerFunc func(w http.ResponseWriter, r *http.Request) error
+
+// h adapts a handlerFunc to http.HandlerFunc, writing any returned error as
+// RFC 9457 application/problem+json.
+func (s *server) h(fn handlerFunc) http.HandlerFunc {
+	return func(w http.ResponseWriter, r *http.Request) {
+		err := fn(w, r)
+		if err == nil {
+			return
+		}
+		p := asProblem(err)
+		if p.Status >= 500 {
+			s.log.ErrorContext(r.Context(), "request failed", "request_id", requestID(r.Context()),
+				"method", r.Method, "path", r.URL.Path, "err", err)
+		}
+		if ww, ok := w.(interface{ Status() int }); ok && ww.Status() != 0 {
+			// The response has started: nothing sane can be written any more.
+			s.log.WarnContext(r.Context(), "error after response started", "err", err)
+			return
+		}
+		writeProblem(w, r, p)
+	}
+}
+
+func (s *server) routes() http.Handler {
+	r := chi.NewRouter()
+	r.Use(s.requestIDMiddleware, s.accessLog, s.recoverer, s.metrics.middleware, middleware.GetHead)
+	if len(s.deps.Config.CORSOrigins) > 0 {
+		r.Use(s.corsMiddleware())
+	}
+	r.NotFound(s.h(func(w http.ResponseWriter, r *http.Request) error {
+		return problem(CodeNotFound, "no resource at %s", r.URL.Path)
+	}))
+	r.MethodNotAllowed(s.h(func(w http.ResponseWriter, r *http.Request) error {
+		return problem(CodeMethodNotAllowed, "%s is not allowed on %s", r.Method, r.URL.Path)
+	}))
+
+	r.Get("/healthz", s.h(s.healthz))
+	r.Get("/readyz", s.h(s.readyz))
+	r.Get("/metrics", s.metrics.handler().ServeHTTP)
+
+	r.Route("/api", func(r chi.Router) {
+		r.Use(s.rateLimit(1), s.timeout(s.limits.RequestTimeout, "/api/grids"), s.needStore, s.authenticate)
+		r.Get("/", s.h(s.landing))
+		r.Get("/openapi.json", s.h(s.openAPI))
+		r.Get("/conformance", s.h(s.conformance))
+		r.Get("/problems", s.h(s.problems))
+		r.Get("/problems/{code}", s.h(s.problemDoc))
+		r.Get("/colour-scales", s.h(s.colourScales))
+
+		r.Get("/collections", s.h(s.collections))
+		r.Route("/collections/{datasetId}", func(r chi.Router) {
+			r.Get("/", s.h(s.collection))
+			r.Get("/position", s.h(s.position))
+			r.Get("/area", s.h(s.area))
+			r.Get("/trajectory", s.h(s.trajectory))
+			r.With(s.bodyLimit(s.limits.MaxBodyBytes)).Post("/trajectory", s.h(s.trajectoryPost))
+			r.Get("/locations", s.h(s.locationsList))
+			r.Get("/locations/{regionId}", s.h(s.location))
+		})
+
+		r.Get("/models", s.h(s.listModels))
+		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Post("/models", s.h(s.createModel))
+		r.Get("/models/{modelId}", s.h(s.getModel))
+		r.Get("/models/{modelId}/curve", s.h(s.modelCurve))
+		r.Get("/models/{modelId}/geotherm", s.h(s.modelGeotherm))
+
+		r.Get("/regions", s.h(s.listRegions))
+		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Post("/regions", s.h(s.createRegion))
+		r.Get("/regions/{regionId}", s.h(s.getRegion))
+		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Put("/regions/{regionId}", s.h(s.updateRegion))
+		r.With(s.require(RoleEditor)).Delete("/regions/{regionId}", s.h(s.deleteRegion))
+
+		r.Get("/grids", s.h(s.listGrids))
+		r.With(s.require(RoleEditor), s.timeout(s.limits.UploadTimeout, ""), s.bodyLimit(s.limits.MaxUploadBytes)).Post("/grids", s.h(s.uploadGrid))
+		r.Get("/grids/{gridId}", s.h(s.getGrid))
+		r.With(s.require(RoleEditor)).Delete("/grids/{gridId}", s.h(s.deleteGrid))
+
+		r.Get("/datasets", s.h(s.listDatasets))
+		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Post("/datasets", s.h(s.createDataset))
+		r.Get("/datasets/{datasetId}", s.h(s.getDataset))
+		r.With(s.require(RoleEditor)).Delete("/datasets/{datasetId}", s.h(s.deleteDataset))
+
+		r.Get("/jobs/{jobId}", s.h(s.getJob))
+		r.Get("/jobs/{jobId}/result", s.h(s.jobResult))
+		r.Get("/whoami", s.h(s.whoami))
+	})
+
+	r.Route("/tiles", func(r chi.Router) {
+		r.Use(s.rateLimit(4), s.timeout(s.limits.RequestTimeout, ""), s.needStore, s.authenticate)
+		r.Get("/{datasetId}/{parameter}/{z}/{x}/{y}.png", s.h(s.tile))
+	})
+
+	if s.deps.Assets != nil {
+		r.Get("/*", s.assets().ServeHTTP)
+	}
+	return r
+}
+
+// JobQueue is the durable queue the handlers use (jobs.Queue implements it).
+type JobQueue interface {
+	EnqueueImport(ctx context.Context, a jobs.ImportArgs) (int64, error)
+	EnqueueExport(ctx context.Context, a jobs.ExportArgs) (int64, error)
+	Get(ctx context.Context, id int64) (jobs.Status, error)
+	Ready(ctx context.Context) error
+}

@@ -1,0 +1,62 @@
+// Builds the browser page into web/dist: bundles src/main.js (with Leaflet's
+// and uPlot's CSS and images) through esbuild, copies index.html, and copies the
+// Natural Earth land outline (public domain, via the world-atlas npm package) so
+// the page needs no network beyond the ridgeflank service itself.
+import * as esbuild from "esbuild";
+import { copyFile, mkdir, readFile, readdir, rm, writeFile } from "node:fs/promises";
+import { dirname, join } from "node:path";
+import { fileURLToPath } from "node:url";
+
+const root = join(dirname(fileURLToPath(import.meta.url)), "..");
+const dist = join(root, "dist");
+const watch = process.argv.includes("--watch");
+
+// Empty dist but keep the committed .keep file (go:embed needs the folder).
+await mkdir(dist, { recursive: true });
+for (const name of await readdir(dist)) {
+  if (name !== ".keep") await rm(join(dist, name), { recursive: true, force: true });
+}
+await writeFile(join(dist, ".keep"), "");
+
+const options = {
+  entryPoints: [join(root, "src", "main.js")],
+  bundle: true,
+  format: "esm",
+  target: ["es2022"],
+  minify: !watch,
+  sourcemap: watch,
+  outdir: dist,
+  entryNames: "app",
+  assetNames: "assets/[name]-[hash]",
+  loader: { ".png": "file", ".svg": "file" },
+  legalComments: "none",
+  logLevel: "info",
+};
+
+await copyFile(join(root, "src", "index.html"), join(dist, "index.html"));
+await copyFile(
+  join(root, "node_modules", "world-atlas", "land-50m.json"),
+  join(dist, "land-50m.json"),
+);
+
+// Licence texts of everything bundled or copied into dist.
+const notices = [
+  ["leaflet", "map"],
+  ["uplot", "charts"],
+  ["topojson-client", "TopoJSON decoding"],
+  ["world-atlas", "Natural Earth land outline (the data itself is public domain)"],
+];
+let text = "Third-party software and data bundled in this page\n\n";
+for (const [pkg, use] of notices) {
+  const meta = JSON.parse(await readFile(join(root, "node_modules", pkg, "package.json"), "utf8"));
+  const licence = await readFile(join(root, "node_modules", pkg, "LICENSE"), "utf8");
+  text += `== ${pkg} ${meta.version} (${meta.license}); used for: ${use}\n\n${licence.trim()}\n\n`;
+}
+await writeFile(join(dist, "THIRD-PARTY-NOTICES.txt"), text);
+
+if (watch) {
+  const ctx = await esbuild.context(options);
+  await ctx.watch();
+} else {
+  await esbuild.build(options);
+}

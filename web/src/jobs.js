@@ -1,0 +1,148 @@
+// jobs.js: grid uploads, import progress and datasets. A grid file is sent to
+// POST /api/grids (multipart: file, kind, name, variable); the service answers
+// with an import job, polled at GET /api/jobs/{id} until it succeeds or fails.
+// Stored grids can then be combined into a dataset (POST /api/datasets).
+
+import { request } from "./api.js";
+import * as messages from "./messages.js";
+
+const $ = (id) => document.getElementById(id);
+const POLL_MS = 1000;
+
+/** jobIdFrom finds the job id in an upload answer (body or Location header). */
+export function jobIdFrom(body, location) {
+  const id = body?.job?.id ?? body?.job_id ?? body?.jobId ?? (body?.kind || body?.state ? body?.id : undefined);
+  if (id !== undefined && id !== null) return String(id);
+  const m = /\/jobs\/([^/?#]+)/.exec(location || "");
+  return m ? decodeURIComponent(m[1]) : "";
+}
+
+/** progressOf reads a job document into {state, fraction, message, done, failed}. */
+export function progressOf(job) {
+  const st = String(job?.state ?? job?.status ?? "unknown").toLowerCase();
+  let fraction = Number(job?.progress ?? job?.fraction);
+  if (fraction > 1) fraction /= 100;
+  const done = ["succeeded", "completed", "complete", "success", "done", "finished"].includes(st);
+  const failed = ["failed", "error", "discarded", "cancelled", "canceled"].includes(st);
+  const errs = Array.isArray(job?.errors) ? job.errors : [];
+  return {
+    state: st,
+    fraction: Number.isFinite(fraction) ? fraction : done ? 1 : NaN,
+    message: job?.error || (failed && errs.length ? errs[errs.length - 1] : "") || job?.message || "",
+    done,
+    failed,
+  };
+}
+
+export class JobsPanel {
+  constructor({ onDatasetCreated = () => {} } = {}) {
+    this.onDatasetCreated = onDatasetCreated;
+    $("upload-form").addEventListener("submit", (e) => {
+      e.preventDefault();
+      messages.guard(() => this.upload());
+    });
+    $("dataset-form").addEventListener("submit", (e) => {
+      e.preventDefault();
+      messages.guard(() => this.createDataset());
+    });
+    $("dataset-details").addEventListener("toggle", () => {
+      if ($("dataset-details").open) messages.guard(() => this.loadGrids());
+    });
+  }
+
+  async upload() {
+    const form = $("upload-form");
+    const file = $("upload-file").files[0];
+    if (!file) {
+      messages.show("Choose a grid file to upload first.", "warning");
+      return;
+    }
+    const fd = new FormData();
+    // Text fields first, so the service knows what the file is before it streams it.
+    for (const name of ["kind", "name", "variable"]) {
+      const v = form.elements[name].value.trim();
+      if (v) fd.append(name, v);
+    }
+    fd.append("file", file, file.name);
+    const res = await request("/api/grids", { method: "POST", body: fd, write: true, what: `Uploading ${file.name}`, raw: true });
+    const body = res.headers.get("Content-Type")?.includes("json") ? await res.json() : null;
+    const id = jobIdFrom(body, res.headers.get("Location"));
+    form.reset();
+    if (!id) {
+      messages.show(`${file.name} uploaded.`, "info");
+      return;
+    }
+    this.track(id, file.name, body?.grid_id);
+  }
+
+  /** track adds a progress row for job id and polls it to the end. */
+  track(id, label, gridId = "") {
+    const li = document.createElement("li");
+    li.dataset.jobId = id;
+    const name = document.createElement("span");
+    name.textContent = `${label} (import job ${id}${gridId ? `, grid ${gridId}` : ""})`;
+    const bar = document.createElement("progress");
+    bar.max = 1;
+    bar.setAttribute("aria-label", `Import progress of ${label}`);
+    const st = document.createElement("span");
+    st.className = "job-state";
+    li.append(name, bar, st);
+    $("job-list").prepend(li);
+    const poll = async () => {
+      let job;
+      try {
+        job = await request(`/api/jobs/${encodeURIComponent(id)}`, { what: `Checking import job ${id}` });
+      } catch (err) {
+        st.textContent = err.message;
+        li.dataset.state = "error";
+        return;
+      }
+      const p = progressOf(job);
+      li.dataset.state = p.state;
+      if (Number.isFinite(p.fraction)) bar.value = p.fraction;
+      else bar.removeAttribute("value");
+      st.textContent = `${p.state}${Number.isFinite(p.fraction) ? ` · ${Math.round(p.fraction * 100)} %` : ""}${p.message ? ` · ${p.message}` : ""}`;
+      if (p.done) {
+        messages.show(`${label} imported${gridId ? ` as grid ${gridId}` : ""}. Combine grids into a dataset below to map them.`, "info");
+        if ($("dataset-details").open) messages.guard(() => this.loadGrids());
+      } else if (p.failed) {
+        messages.show(`Import of ${label} failed${p.message ? `: ${p.message}` : "."}`, "error");
+      } else {
+        setTimeout(poll, POLL_MS);
+      }
+    };
+    poll();
+  }
+
+  /** loadGrids fills the dataset form's grid choices from GET /api/grids. */
+  async loadGrids() {
+    const body = await request("/api/grids", { what: "Listing stored grids" });
+    const grids = body?.grids || [];
+    const fill = (sel, kinds, optional) => {
+      const el = $(sel);
+      el.replaceChildren();
+      if (optional) el.add(new Option("(none)", ""));
+      for (const g of grids.filter((g) => kinds.includes(g.kind))) el.add(new Option(`${g.name || g.id} (${g.kind})`, g.id));
+    };
+    fill("ds-age", ["age"], false);
+    fill("ds-depth", ["depth", "elevation"], true);
+    fill("ds-sediment", ["sediment_thickness"], true);
+  }
+
+  async createDataset() {
+    const f = $("dataset-form");
+    const body = {};
+    for (const name of ["name", "age_grid_id", "depth_grid_id", "sediment_grid_id"]) {
+      const v = f.elements[name].value.trim();
+      if (v) body[name] = v;
+    }
+    if (!body.age_grid_id) {
+      messages.show("A dataset needs an age grid: upload one first.", "warning");
+      return;
+    }
+    const d = await request("/api/datasets", { method: "POST", write: true, body, what: "Creating the dataset" });
+    messages.show(`Dataset "${d?.name || body.name}" created.`, "info");
+    f.reset();
+    this.onDatasetCreated(d?.id);
+  }
+}

@@ -1,0 +1,201 @@
+// main.js: starts the page. Wires the map, the dataset/layer/model choices,
+// the legend, the read-out, regions, tracks, imports and the write token.
+
+import "./style.css";
+import L from "leaflet";
+import { request } from "./api.js";
+import { createMap, DataLayer, setReady } from "./mapview.js";
+import { Graticule } from "./graticule.js";
+import { LandLayer } from "./coastline.js";
+import { loadColourScales } from "./colourscales.js";
+import { renderLegend } from "./legend.js";
+import { LAYERS, layerById } from "./layers.js";
+import { Readout } from "./readout.js";
+import { Drawer } from "./draw.js";
+import { RegionsPanel } from "./regions.js";
+import { TracksPanel } from "./tracks.js";
+import { JobsPanel } from "./jobs.js";
+import { mapToCanvas, downloadCanvas } from "./snapshot.js";
+import { askForToken, getToken, setToken } from "./token.js";
+import { state, update, onChange } from "./state.js";
+import * as messages from "./messages.js";
+
+const $ = (id) => document.getElementById(id);
+const CAUTION = "Predicted depths are model estimates, not for navigation: use official charts and surveys and defer to the local hydrographic authority.";
+
+setReady(false);
+
+const map = createMap("map");
+new Graticule(map).addTo();
+const land = new LandLayer(map);
+const data = new DataLayer(map);
+const drawer = new Drawer(map);
+const readout = new Readout(map, $("readout"), { isBusy: () => drawer.drawing || Boolean(regions?.editor) });
+const regions = new RegionsPanel(map, drawer);
+const tracks = new TracksPanel(map, drawer);
+new JobsPanel({ onDatasetCreated: (id) => messages.guard(() => loadCollections(id)) });
+let scales = new Map();
+
+// ---- choices -------------------------------------------------------------
+
+for (const l of LAYERS) $("layer-select").add(new Option(l.label, l.id));
+
+function readHash() {
+  const h = new URLSearchParams(location.hash.slice(1));
+  return { datasetId: h.get("dataset") || "", layer: h.get("layer") || "", model: h.get("model") || "" };
+}
+
+function writeHash() {
+  const h = new URLSearchParams();
+  if (state.datasetId) h.set("dataset", state.datasetId);
+  h.set("layer", state.layer);
+  h.set("model", state.model);
+  history.replaceState(null, "", `#${h}`);
+}
+
+function collectionBounds(c) {
+  const bb = c?.extent?.spatial?.bbox?.[0];
+  if (!bb || bb.length < 4 || !bb.every(Number.isFinite)) return null;
+  const [w, s, e, n] = bb.length === 6 ? [bb[0], bb[1], bb[3], bb[4]] : bb;
+  return L.latLngBounds([s, w], [n, e]);
+}
+
+function redraw() {
+  const layer = layerById(state.layer);
+  renderLegend($("legend"), scales.get(layer.id) || null, layer);
+  $("model-select").disabled = !state.datasetId;
+  $("model-note").textContent = layer.modelDependent ? "" : "This layer does not depend on the cooling model.";
+  const bounds = collectionBounds(state.collection);
+  data.show(state.datasetId, layer.id, state.model, bounds, Number($("opacity").value));
+  document.body.dataset.layer = layer.id;
+  document.body.dataset.model = state.model;
+  document.body.dataset.dataset = state.datasetId;
+  writeHash();
+}
+
+let started = false; // no drawing until the initial choices are loaded
+
+onChange((changed) => {
+  if (!started) return;
+  if (changed.some((k) => ["datasetId", "layer", "model", "collection"].includes(k))) redraw();
+  if (changed.includes("model") || changed.includes("datasetId") || changed.includes("collection")) {
+    readout.refresh();
+    regions.refresh();
+    tracks.refresh();
+  }
+});
+
+$("layer-select").addEventListener("change", (e) => update({ layer: e.target.value }));
+$("model-select").addEventListener("change", (e) => update({ model: e.target.value }));
+$("dataset-select").addEventListener("change", (e) => messages.guard(() => chooseDataset(e.target.value, true)));
+$("opacity").addEventListener("input", (e) => data.setOpacity(Number(e.target.value)));
+$("land-toggle").addEventListener("change", (e) => messages.guard(() => (e.target.checked ? land.show() : land.hide())));
+
+// ---- datasets ------------------------------------------------------------
+
+async function chooseDataset(id, fit) {
+  if (!id) {
+    update({ datasetId: "", collection: null });
+    $("dataset-info").textContent = "No dataset is loaded yet. Upload grids below, or start the service with the synthetic demo basin.";
+    return;
+  }
+  const c = await request(`/api/collections/${encodeURIComponent(id)}`, { what: `Opening dataset ${id}` });
+  $("dataset-info").textContent = [c.title, c.description].filter(Boolean).join(" — ");
+  const b = collectionBounds(c);
+  if (fit && b) map.fitBounds(b, { padding: [10, 10], animate: false });
+  // Offer only the layers this dataset can draw (an age-only dataset has no
+  // observed or residual depth).
+  const avail = c.parameter_names ? Object.keys(c.parameter_names) : null;
+  for (const opt of $("layer-select").options) opt.disabled = Boolean(avail) && !avail.includes(opt.value);
+  let layer = state.layer;
+  if (avail && avail.length && !avail.includes(layer)) {
+    layer = avail.includes("seafloor_age") ? "seafloor_age" : avail[0];
+    messages.show(`${c.title || id} has no ${layerById(state.layer).label.toLowerCase()}; showing ${layerById(layer).label.toLowerCase()}.`, "info");
+    $("layer-select").value = layer;
+  }
+  update({ datasetId: id, collection: c, layer });
+}
+
+async function loadCollections(prefer = "") {
+  const body = await request("/api/collections", { what: "Listing datasets" });
+  const list = body?.collections || [];
+  const sel = $("dataset-select");
+  const current = prefer || state.datasetId || readHash().datasetId;
+  sel.replaceChildren();
+  for (const c of list) sel.add(new Option(c.title ? `${c.title}` : c.id, c.id));
+  if (!list.length) sel.add(new Option("(no datasets)", ""));
+  const pick = list.find((c) => c.id === current) ? current : list[0]?.id || "";
+  sel.value = pick;
+  await chooseDataset(pick, !state.datasetId || pick !== state.datasetId);
+}
+
+async function loadModels() {
+  const body = await request("/api/models", { what: "Listing cooling models" });
+  const list = Array.isArray(body) ? body : body?.models || body?.items || [];
+  const sel = $("model-select");
+  sel.replaceChildren();
+  for (const m of list) {
+    const id = m.id || m.params?.id;
+    sel.add(new Option(m.name ? `${m.name}` : id, id));
+  }
+  const wanted = readHash().model || state.model;
+  const pick = list.some((m) => (m.id || m.params?.id) === wanted) ? wanted : list[0]?.id || "gdh1";
+  sel.value = pick;
+  update({ models: list, model: pick });
+}
+
+// ---- token, snapshot -----------------------------------------------------
+
+function showTokenState() {
+  $("token-state").textContent = getToken() ? "Write token set" : "No write token";
+  $("token-forget").hidden = !getToken();
+}
+document.addEventListener("ridgeflank:token", showTokenState);
+$("token-button").addEventListener("click", () => askForToken("Paste the write token the service printed at start-up (or one made for you)."));
+$("token-forget").addEventListener("click", () => setToken(""));
+showTokenState();
+
+function snapshotCanvas() {
+  const layer = layerById(state.layer);
+  const scale = scales.get(layer.id);
+  return mapToCanvas(map, {
+    title: `${state.collection?.title || state.datasetId || "no dataset"} · ${layer.label} · model ${state.model}`,
+    legendCanvas: $("legend").querySelector("canvas"),
+    legendText: scale ? `${scale.min} to ${scale.max} ${scale.units}${scale.note ? ` (${scale.note})` : ""}` : "",
+    caution: CAUTION,
+  });
+}
+
+$("snapshot").addEventListener("click", () =>
+  messages.guard(() => downloadCanvas(snapshotCanvas(), `ridgeflank-${state.datasetId || "map"}-${state.layer}-${state.model}.png`)),
+);
+
+// A small scripting surface for tests and power users: the Leaflet map and
+// the map snapshot as a PNG data URL.
+window.ridgeflank = { map, state, snapshotDataURL: () => snapshotCanvas().toDataURL("image/png") };
+
+// ---- start ---------------------------------------------------------------
+
+async function start() {
+  const h = readHash();
+  if (LAYERS.some((l) => l.id === h.layer)) update({ layer: h.layer });
+  $("layer-select").value = state.layer;
+  const land0 = $("land-toggle").checked ? land.show().catch(messages.error) : null;
+  const [sc] = await Promise.all([
+    loadColourScales().catch((e) => (messages.error(e), new Map())),
+    messages.guard(loadModels),
+  ]);
+  scales = sc;
+  await messages.guard(loadCollections);
+  started = true;
+  redraw();
+  await messages.guard(() => regions.load());
+  await land0;
+}
+
+window.addEventListener("unhandledrejection", (e) => {
+  messages.error(e.reason);
+  e.preventDefault();
+});
+
+start();

@@ -1,0 +1,77 @@
+// profile.js: the track profile chart (uPlot): distance along the track
+// against observed depth, corrected depth, predicted depth for the chosen
+// model with its uncertainty band, and residual depth on a second axis.
+// Depths are positive down, so the depth axis grows downward.
+
+import uPlot from "uplot";
+import "uplot/dist/uPlot.min.css";
+
+/**
+ * drawProfile draws p = {distanceKm, observed, corrected, predicted, bandLow,
+ * bandHigh, residual, bandLabel} into el; onHover(index|null) follows the
+ * cursor. Returns the uPlot instance.
+ */
+export function drawProfile(el, p, onHover) {
+  el.replaceChildren();
+  const width = Math.max(320, el.clientWidth || 600);
+  const hasBand = p.bandLow?.some(Number.isFinite);
+  const nul = (a) => (a ? a.map((v) => (Number.isFinite(v) ? v : null)) : p.distanceKm.map(() => null));
+  // Drawing order: band, predicted, corrected, observed on top, residual.
+  const data = [p.distanceKm, nul(p.bandHigh), nul(p.bandLow), nul(p.predicted), nul(p.corrected), nul(p.observed), nul(p.residual)];
+  const opts = {
+    width,
+    height: 190,
+    legend: { show: false },
+    cursor: { y: false, drag: { x: true, y: false } },
+    scales: {
+      x: { time: false },
+      depth: { dir: -1 },
+      res: {},
+    },
+    axes: [
+      { label: "Distance along track (km)", labelSize: 18, size: 36, stroke: "#222" },
+      { scale: "depth", label: "Depth (m)", labelSize: 18, size: 56, stroke: "#222" },
+      { scale: "res", side: 1, label: "Residual (m)", labelSize: 18, size: 56, stroke: "#7a4a14", grid: { show: false } },
+    ],
+    series: [
+      { label: "Distance (km)" },
+      { label: "Band upper", scale: "depth", stroke: "rgba(179,0,95,0.35)", width: 0.5, show: hasBand, points: { show: false } },
+      { label: "Band lower", scale: "depth", stroke: "rgba(179,0,95,0.35)", width: 0.5, show: hasBand, points: { show: false } },
+      { label: "Predicted depth (m)", scale: "depth", stroke: "#b3005f", width: 2, points: { show: false } },
+      { label: "Corrected depth (m)", scale: "depth", stroke: "#1b8a6b", width: 1.2, dash: [6, 3], points: { show: false } },
+      { label: "Observed depth (m)", scale: "depth", stroke: "#0d2a5c", width: 1.6, points: { show: false } },
+      { label: "Residual (m)", scale: "res", stroke: "#c0650f", width: 1, points: { show: false } },
+    ],
+    bands: hasBand ? [{ series: [1, 2], fill: "rgba(179,0,95,0.18)" }] : [],
+    hooks: {
+      setCursor: [
+        (u) => {
+          const i = u.cursor.idx;
+          onHover?.(i === null || i === undefined ? null : i);
+        },
+      ],
+    },
+  };
+  const chart = new uPlot(opts, data, el);
+  const legend = document.getElementById("profile-legend");
+  if (legend) {
+    legend.replaceChildren();
+    const items = [
+      ["Observed depth", "#0d2a5c", "solid"],
+      ["Corrected depth", "#1b8a6b", "dashed"],
+      ["Predicted depth", "#b3005f", "solid"],
+      ...(hasBand ? [[`Band: ${p.bandLabel || "uncertainty"}`, "rgba(179,0,95,0.3)", "band"]] : []),
+      ["Residual, right axis (+ = shallower than the model)", "#c0650f", "solid"],
+    ];
+    for (const [label, colour, style] of items) {
+      const li = document.createElement("li");
+      const sw = document.createElement("span");
+      sw.className = `swatch swatch-${style}`;
+      sw.style.setProperty("--c", colour);
+      li.append(sw, document.createTextNode(label));
+      legend.append(li);
+    }
+  }
+  el.dataset.points = String(p.distanceKm.length);
+  return chart;
+}

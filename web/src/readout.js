@@ -1,0 +1,139 @@
+// readout.js: the point read-out. Hovering the map (throttled) or clicking it
+// asks the service's EDR position query for every read-out parameter and
+// shows the answer; a click pins the point until the next click or Escape.
+// Each value cell carries data-value with the full-precision number.
+
+import L from "leaflet";
+import { request, query } from "./api.js";
+import { coverages, rangeValues } from "./coveragejson.js";
+import { READOUT_PARAMS } from "./layers.js";
+import { fmt, fmtLatLon, fmtSigned, wrapLon } from "./format.js";
+import { state, availableParameters } from "./state.js";
+import * as messages from "./messages.js";
+
+const HOVER_DELAY_MS = 250;
+
+export class Readout {
+  constructor(map, el, { isBusy = () => false } = {}) {
+    this.map = map;
+    this.el = el;
+    this.isBusy = isBusy;
+    this.seq = 0;
+    this.pinned = null;
+    this.marker = L.circleMarker([0, 0], { radius: 6, color: "#111", weight: 2, fillColor: "#ffd400", fillOpacity: 1, interactive: false, pane: "markerPane" });
+    this.hoverTimer = 0;
+    this.controller = null;
+    this.buildTable();
+    map.on("click", (e) => {
+      if (this.isBusy()) return;
+      this.pin(e.latlng);
+    });
+    map.on("mousemove", (e) => {
+      if (this.pinned || this.isBusy()) return;
+      clearTimeout(this.hoverTimer);
+      this.hoverTimer = setTimeout(() => this.lookup(e.latlng, "hover"), HOVER_DELAY_MS);
+    });
+    map.getContainer().addEventListener("mouseleave", () => clearTimeout(this.hoverTimer));
+    // Keyboard: with the map focused, Enter pins the point at the map centre.
+    map.getContainer().addEventListener("keydown", (e) => {
+      if (e.key === "Enter" && e.target === map.getContainer() && !this.isBusy()) this.pin(map.getCenter());
+    });
+    document.addEventListener("keydown", (e) => {
+      if (e.key === "Escape" && this.pinned && !this.isBusy()) this.unpin();
+    });
+    el.querySelector("#readout-unpin")?.addEventListener("click", () => this.unpin());
+  }
+
+  buildTable() {
+    const tbody = this.el.querySelector("tbody");
+    tbody.replaceChildren();
+    for (const p of READOUT_PARAMS) {
+      const tr = document.createElement("tr");
+      const th = document.createElement("th");
+      th.scope = "row";
+      th.textContent = p.label;
+      const td = document.createElement("td");
+      td.dataset.param = p.id;
+      td.textContent = "–";
+      tr.append(th, td);
+      tbody.append(tr);
+    }
+  }
+
+  /** pin shows the read-out for latlng and keeps it until unpinned. */
+  pin(latlng) {
+    if (!state.datasetId) return this.lookup(latlng, "click"); // says there is nothing to read
+    this.pinned = latlng;
+    this.marker.setLatLng(latlng).addTo(this.map);
+    this.el.dataset.pinned = "true";
+    this.el.querySelector("#readout-unpin").hidden = false;
+    return this.lookup(latlng, "click");
+  }
+
+  unpin() {
+    this.pinned = null;
+    this.marker.remove();
+    this.el.dataset.pinned = "false";
+    this.el.querySelector("#readout-unpin").hidden = true;
+  }
+
+  /** refresh repeats the pinned query (after a model or dataset change). */
+  refresh() {
+    if (this.pinned) this.lookup(this.pinned, "click");
+  }
+
+  async lookup(latlng, how) {
+    if (!state.datasetId) {
+      this.el.querySelector("#readout-status").textContent = "No dataset is chosen, so there is nothing to read here.";
+      return;
+    }
+    const seq = ++this.seq;
+    if (this.controller) this.controller.abort?.();
+    const lon = wrapLon(latlng.lng);
+    const lat = latlng.lat;
+    const status = this.el.querySelector("#readout-status");
+    this.el.dataset.state = "loading";
+    const offered = availableParameters();
+    const params = READOUT_PARAMS.map((p) => p.id).filter((id) => !offered || offered.includes(id));
+    this.el.querySelector("#readout-position").textContent = fmtLatLon(lat, lon);
+    this.el.dataset.lon = String(lon);
+    this.el.dataset.lat = String(lat);
+    try {
+      const doc = await request(
+        `/api/collections/${encodeURIComponent(state.datasetId)}/position${query({
+          coords: `POINT(${lon.toFixed(6)} ${lat.toFixed(6)})`,
+          "parameter-name": params.join(","),
+          model: state.model,
+        })}`,
+        { what: "Reading values at this point", headers: { Accept: "application/vnd.cov+json, application/problem+json" } },
+      );
+      if (seq !== this.seq) return; // a newer request superseded this one
+      const cov = coverages(doc)[0];
+      let any = false;
+      for (const p of READOUT_PARAMS) {
+        const td = this.el.querySelector(`td[data-param="${p.id}"]`);
+        const vals = cov ? rangeValues(cov, p.id) : null;
+        const v = vals && vals.length ? vals[0] : null;
+        if (!offered || offered.includes(p.id)) {
+          td.dataset.value = v === null ? "" : String(v);
+          const f = p.id === "residual_depth" ? fmtSigned : fmt;
+          td.textContent = vals ? f(v, p.digits, p.units) : "not in this dataset";
+          if (v !== null) any = true;
+        } else {
+          td.dataset.value = "";
+          td.textContent = "not in this dataset";
+        }
+      }
+      status.textContent = any
+        ? `${how === "click" ? "Pinned point" : "Under the pointer"} · model ${state.model}`
+        : "No data at this point.";
+      this.el.dataset.state = "done";
+      this.el.dataset.model = state.model;
+    } catch (err) {
+      if (seq !== this.seq) return;
+      this.el.dataset.state = "error";
+      status.textContent = err.message;
+      if (how === "click") messages.error(err);
+    }
+  }
+}
