@@ -251,6 +251,20 @@ func (g *Grid) colPos(lon float64, p int) (fx float64, ok bool) {
 	return math.Min(math.Max(fx, lo), hi), true
 }
 
+// samplePos is (lon, lat) as a continuous column and row position (colPos, rowPos) with the
+// grid's longitude period p (periodCols); ok is false when the point is outside the grid.
+func (g *Grid) samplePos(lon, lat float64) (fx, fy float64, p int, ok bool) {
+	p = g.periodCols()
+	if fx, ok = g.colPos(lon, p); !ok {
+		return 0, 0, p, false
+	}
+	fy, ok = g.rowPos(lat)
+	return fx, fy, p, ok
+}
+
+// wrapCol maps column c of a grid global in longitude into 0..p−1 (p = periodCols() > 0).
+func wrapCol(c, p int) int { return ((c % p) + p) % p }
+
 // rowPos maps lat to a continuous row position. Latitudes beyond ±90 (by more than rounding
 // error) or outside the grid's extent give ok=false; a query at a pole the grid reaches is kept.
 func (g *Grid) rowPos(lat float64) (fy float64, ok bool) {
@@ -270,18 +284,13 @@ func (g *Grid) rowPos(lat float64) (fy float64, ok bool) {
 // when the point is outside the grid or that sample has no data. Longitudes in −180..180 and
 // 0..360 both work; global grids wrap at their seam.
 func (g *Grid) SampleNearest(lon, lat float64) float32 {
-	p := g.periodCols()
-	fx, ok := g.colPos(lon, p)
-	if !ok {
-		return float32(math.NaN())
-	}
-	fy, ok := g.rowPos(lat)
+	fx, fy, p, ok := g.samplePos(lon, lat)
 	if !ok {
 		return float32(math.NaN())
 	}
 	c := int(math.Floor(fx + 0.5))
 	if p > 0 {
-		c = ((c % p) + p) % p
+		c = wrapCol(c, p)
 	} else {
 		c = min(max(c, 0), g.NX-1)
 	}
@@ -298,12 +307,7 @@ func (g *Grid) SampleNearest(lon, lat float64) float32 {
 // is held constant along that axis (clamped), so a pole gives a value, never NaN; at a pole the
 // answer depends on the longitude asked because a lon/lat raster has no single polar sample.
 func (g *Grid) SampleBilinear(lon, lat float64) float32 {
-	p := g.periodCols()
-	fx, ok := g.colPos(lon, p)
-	if !ok {
-		return float32(math.NaN())
-	}
-	fy, ok := g.rowPos(lat)
+	fx, fy, p, ok := g.samplePos(lon, lat)
 	if !ok {
 		return float32(math.NaN())
 	}
@@ -313,7 +317,7 @@ func (g *Grid) SampleBilinear(lon, lat float64) float32 {
 		f := math.Floor(fx)
 		tx = fx - f
 		i := int(f)
-		c0 = ((i % p) + p) % p
+		c0 = wrapCol(i, p)
 		c1 = (c0 + 1) % p
 	} else {
 		c0, c1, tx = gridAxisPair(fx, g.NX)
@@ -432,7 +436,7 @@ func (g *Grid) Window(b orb.Bound) (*Grid, error) {
 		if n <= 0 {
 			return nil, fmt.Errorf("%w: longitudes %g..%g", ErrEmptyWindow, minX, maxX)
 		}
-		c0 = ((c0 % p) + p) % p
+		c0 = wrapCol(c0, p)
 		cols = make([]int, n)
 		for i := range cols {
 			cols[i] = (c0 + i) % p
@@ -565,7 +569,7 @@ func (g *Grid) ToNode() (*Grid, error) {
 				}
 				for _, c := range [2]int{i - 1, i} {
 					if p > 0 {
-						c = ((c % p) + p) % p
+						c = wrapCol(c, p)
 					} else if c < 0 || c >= g.NX {
 						continue
 					}

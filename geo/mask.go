@@ -1,6 +1,7 @@
 package geo
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"math/bits"
@@ -163,15 +164,7 @@ func GridMask(g *Grid, mp orb.MultiPolygon) (Mask, error) {
 		if len(edges) == 0 {
 			continue
 		}
-		slices.SortFunc(edges, func(a, b maskEdge) int {
-			switch {
-			case a.yhi > b.yhi:
-				return -1
-			case a.yhi < b.yhi:
-				return 1
-			}
-			return 0
-		})
+		slices.SortFunc(edges, func(a, b maskEdge) int { return cmp.Compare(b.yhi, a.yhi) }) // highest first
 		r0 := int(math.Ceil((g.North-maxY)/g.DY - maskEps))
 		r1 := int(math.Floor((g.North-minY)/g.DY + maskEps))
 		r0 = max(r0, 0)

@@ -1,6 +1,7 @@
 package geo
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"slices"
@@ -311,15 +312,7 @@ func checkRingSimple(r orb.Ring) error {
 		a, b := r[i], r[i+1]
 		segs[i] = ringSeg{math.Min(a[0], b[0]), math.Max(a[0], b[0]), math.Min(a[1], b[1]), math.Max(a[1], b[1]), i}
 	}
-	slices.SortFunc(segs, func(a, b ringSeg) int {
-		switch {
-		case a.minX < b.minX:
-			return -1
-		case a.minX > b.minX:
-			return 1
-		}
-		return 0
-	})
+	slices.SortFunc(segs, func(a, b ringSeg) int { return cmp.Compare(a.minX, b.minX) })
 	budget := SelfIntersectionPairBudget
 	for ii := range segs {
 		si := segs[ii]

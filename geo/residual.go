@@ -612,6 +612,10 @@ func (p *residualPlan) run(ctx context.Context, rowsPerBlock int, do func(w *res
 	var errOnce sync.Once
 	var stop atomic.Bool
 	var wg sync.WaitGroup
+	fail := func(err error) {
+		errOnce.Do(func() { firstErr = err })
+		stop.Store(true)
+	}
 	for range workers {
 		wg.Add(1)
 		go func() {
@@ -619,8 +623,7 @@ func (p *residualPlan) run(ctx context.Context, rowsPerBlock int, do func(w *res
 			w := p.newWorker()
 			for !stop.Load() {
 				if err := ctx.Err(); err != nil {
-					errOnce.Do(func() { firstErr = err })
-					stop.Store(true)
+					fail(err)
 					return
 				}
 				k := int(next.Add(1) - 1)
@@ -629,8 +632,7 @@ func (p *residualPlan) run(ctx context.Context, rowsPerBlock int, do func(w *res
 				}
 				r0 := k * rowsPerBlock
 				if err := do(w, r0, min(r0+rowsPerBlock, ny)); err != nil {
-					errOnce.Do(func() { firstErr = err })
-					stop.Store(true)
+					fail(err)
 					return
 				}
 			}
@@ -823,8 +825,7 @@ func fusedChunkTables(res []float32, ageBits []uint32, obs []float32, sedBits []
 		ab := ageBits[i]
 		var pd float32
 		if j := uint(ab >> nodeFracBits); j < uint(len(dn)) {
-			e := dn[j]
-			pd = e.v + float32(ab&nodeFracMask)*e.d
+			pd = dn[j].at(ab)
 		} else {
 			pd = nan
 			if ab&^signBit32 <= infBits32 {
@@ -834,8 +835,7 @@ func fusedChunkTables(res []float32, ageBits []uint32, obs []float32, sedBits []
 		sb := sedBits[i]
 		var c float32
 		if k := uint(sb >> nodeFracBits); k < uint(len(sn)) {
-			e := sn[k]
-			c = e.v + float32(sb&nodeFracMask)*e.d
+			c = sn[k].at(sb)
 		} else {
 			c = nan
 			if sb&^signBit32 <= infBits32 {
@@ -860,6 +860,21 @@ func fusedChunkTables(res []float32, ageBits []uint32, obs []float32, sedBits []
 // (127+E)·256 nodes of 8 bytes (about 280 KiB for E = 9 or 15), of which a grid's ages or
 // thicknesses touch a few octaves.
 type tableNode struct{ v, d float32 }
+
+// at interpolates inside the node's interval at the float32 whose bits are bits (the node
+// being number bits>>nodeFracBits).
+func (e tableNode) at(bits uint32) float32 { return e.v + float32(bits&nodeFracMask)*e.d }
+
+// fillNodes sets every node from f (x in the table's unit) at the start of its interval and
+// of the next one.
+func fillNodes(n []tableNode, f func(x float64) float64) {
+	v0 := f(0)
+	for j := range n {
+		v1 := f(nodeX(j + 1))
+		n[j] = tableNode{float32(v0), float32((v1 - v0) / (1 << nodeFracBits))}
+		v0 = v1
+	}
+}
 
 const (
 	nodeFracBits = 15
@@ -897,8 +912,7 @@ func (t *depthTable) slow(a float32) float32 { return float32(t.tbl.DepthM(float
 func (t *depthTable) at(a float32) float32 {
 	ab := math.Float32bits(a)
 	if j := uint(ab >> nodeFracBits); j < uint(len(t.n)) {
-		e := t.n[j]
-		return e.v + float32(ab&nodeFracMask)*e.d
+		return t.n[j].at(ab)
 	}
 	if a >= 0 {
 		return t.slow(a)
@@ -912,12 +926,7 @@ func nodeX(j int) float64 { return float64(math.Float32frombits(uint32(j) << nod
 // newDepthTable builds the depth table of t (about 35 000 calls of Table.DepthM).
 func newDepthTable(t *thermal.Table) *depthTable {
 	dt := &depthTable{tbl: t, n: new(depthNodes)}
-	v0 := t.DepthM(0)
-	for j := range dt.n {
-		v1 := t.DepthM(nodeX(j + 1))
-		dt.n[j] = tableNode{float32(v0), float32((v1 - v0) / (1 << nodeFracBits))}
-		v0 = v1
-	}
+	fillNodes(dt.n[:], t.DepthM)
 	return dt
 }
 
@@ -1007,8 +1016,7 @@ type sedNodes [sedTableEndBits >> nodeFracBits]tableNode
 func (t *sedTable) at(s float32) float32 {
 	sb := math.Float32bits(s)
 	if k := uint(sb >> nodeFracBits); k < uint(len(t.n)) {
-		e := t.n[k]
-		return e.v + float32(sb&nodeFracMask)*e.d
+		return t.n[k].at(sb)
 	}
 	return t.slow(s)
 }
@@ -1064,11 +1072,6 @@ func newSedTable(c thermal.Compaction, rm, rw float64) (*sedTable, error) {
 		return nil, err
 	}
 	t := &sedTable{corr: sc, n: new(sedNodes)}
-	v0 := sc.CorrectionM(0)
-	for k := range t.n {
-		v1 := sc.CorrectionM(nodeX(k + 1))
-		t.n[k] = tableNode{float32(v0), float32((v1 - v0) / (1 << nodeFracBits))}
-		v0 = v1
-	}
+	fillNodes(t.n[:], sc.CorrectionM)
 	return t, nil
 }

@@ -1,6 +1,7 @@
 package geo
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"slices"
@@ -39,8 +40,8 @@ type StatsOptions struct {
 	HistogramMin, HistogramMax float64
 }
 
-// Histogram holds bin edges, counts and area-weighted fractions. Bin i covers
-// [Edges[i], Edges[i+1]), the last bin also includes its upper edge.
+// Histogram holds bin edges (in the grid's unit), counts and area-weighted fractions. Bin i
+// covers [Edges[i], Edges[i+1]), the last bin also includes its upper edge.
 type Histogram struct {
 	Edges         []float64 `json:"edges"`
 	Counts        []int     `json:"counts"`
@@ -49,9 +50,11 @@ type Histogram struct {
 	Above         int       `json:"above"`          // valid cells above the last edge
 }
 
-// Stats summarises grid values over a region. Values are in the grid's own unit (metres for
-// depth and residual-depth grids). With no valid cell (or zero total weight) the value fields
-// are NaN.
+// Stats summarises grid values over a region. Mean, Std, Min, Max, Median, the percentiles
+// and the histogram's Edges are in the grid's own unit (metres for depth and residual-depth
+// grids, Ma for age grids, ...); the type is generic over grids, so its field names carry no
+// unit and whoever publishes the values should name it (the HTTP API writes mean_m, p95_ma,
+// edges_m, ...). With no valid cell (or zero total weight) the value fields are NaN.
 type Stats struct {
 	Count     int        `json:"count"`      // valid (non-NaN) cells inside the mask
 	NoData    int        `json:"no_data"`    // NaN cells inside the mask
@@ -304,15 +307,7 @@ func AreaWeightedStats(values *Grid, mask Mask, opt StatsOptions) (Stats, error)
 			}
 		}
 		for _, s := range vals {
-			slices.SortFunc(s, func(a, b vw) int {
-				switch {
-				case a.v < b.v:
-					return -1
-				case a.v > b.v:
-					return 1
-				}
-				return 0
-			})
+			slices.SortFunc(s, func(a, b vw) int { return cmp.Compare(a.v, b.v) })
 		}
 		for i, wt := range wants {
 			si, ok := slot[wt.bin]

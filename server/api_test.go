@@ -292,11 +292,11 @@ func TestAPI(t *testing.T) {
 			st := r.json(t)["ridgeflank:statistics"].(map[string]any)[PResidualDepth].(map[string]any)
 			// Over the swell region the mean residual is positive (the swell is
 			// a positive Gaussian of 400 m amplitude, demobasin.SwellAmplitudeM).
-			if mean := num(t, st["mean"]); !(mean > 50 && mean < demobasin.SwellAmplitudeM) {
+			if mean := num(t, st["mean_m"]); !(mean > 50 && mean < demobasin.SwellAmplitudeM) {
 				t.Errorf("mean residual over the swell %.1f m, want between 50 and %g", mean, demobasin.SwellAmplitudeM)
 			}
 			hist := st["histogram"].(map[string]any)
-			edges := hist["edges"].([]any)
+			edges := hist["edges_m"].([]any)
 			if w := num(t, edges[1]) - num(t, edges[0]); w != 50 || math.Mod(num(t, edges[0]), 50) != 0 {
 				t.Errorf("histogram edges %v…: want 50 m bins on multiples of 50", edges[:2])
 			}
@@ -306,6 +306,31 @@ func TestAPI(t *testing.T) {
 			}
 			if math.Abs(total-1) > 1e-9 {
 				t.Errorf("histogram area fractions sum to %g, want 1", total)
+			}
+			// Without parameter-name every parameter comes with statistics whose
+			// names carry that parameter's unit (project rule: units in every
+			// name; UCUM symbols Ma, m, mW/m2, km as in parameterList). Every
+			// answer is also checked against the per-unit OpenAPI schemas.
+			all := e.get(ds + "/locations/" + demobasin.RegionID + "?resolution-x=0.2&resolution-y=0.2")
+			e.want(all, 200)
+			stats := all.json(t)["ridgeflank:statistics"].(map[string]any)
+			for _, c := range []struct{ param, suffix string }{
+				{PSeafloorAge, "_ma"}, {PObservedDepth, "_m"}, {PSedimentThickness, "_m"}, {PPredictedDepth, "_m"},
+				{PHeatFlow, "_mw_m2"}, {PThermalThickness, "_km"}, {PCorrectedDepth, "_m"}, {PResidualDepth, "_m"}, {PDepth600C, "_km"},
+			} {
+				st, ok := stats[c.param].(map[string]any)
+				if !ok {
+					t.Errorf("no statistics for %s", c.param)
+					continue
+				}
+				for _, k := range []string{"mean", "std", "min", "max", "median", "p05", "p25", "p75", "p95"} {
+					if _, ok := st[k+c.suffix]; !ok {
+						t.Errorf("%s statistics lack %s%s: %v", c.param, k, c.suffix, st)
+					}
+				}
+				if _, ok := st["histogram"].(map[string]any)["edges"+c.suffix]; !ok {
+					t.Errorf("%s histogram lacks edges%s", c.param, c.suffix)
+				}
 			}
 			wantProblem(t, e.get(ds+"/locations/nope"), 404, CodeNotFound)
 		})
@@ -786,6 +811,18 @@ func TestOpenAPIChecksBite(t *testing.T) {
 	resp.Request = req
 	if ok, _ := v.ValidateHttpResponse(req, resp); ok {
 		t.Error("a health answer with a numeric status passed response validation")
+	}
+	// Statistics without the unit in their names break the Coverage schema.
+	rec = httptest.NewRecorder()
+	rec.Header().Set("Content-Type", MediaCovJSON)
+	rec.WriteHeader(200)
+	rec.WriteString(`{"type":"Coverage","domain":{},"parameters":{},"ranges":{},"ridgeflank:statistics":{"residual_depth":
+		{"count":1,"no_data":0,"weight_sum":1,"mean":1,"std":0,"min":1,"max":1,"median":1,"p05":1,"p25":1,"p75":1,"p95":1}}}`)
+	resp = rec.Result()
+	req, _ = http.NewRequest("GET", "http://x/api/collections/d/locations/r", nil)
+	resp.Request = req
+	if ok, _ := v.ValidateHttpResponse(req, resp); ok {
+		t.Error("statistics named mean, p05… (no unit) passed response validation")
 	}
 	// A Grid coverage without its y axis breaks CoverageJSON 1.0 (§ Grid domain).
 	badCov := `{"type":"Coverage","domain":{"type":"Domain","domainType":"Grid","axes":{"x":{"values":[1]}},

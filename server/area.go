@@ -119,21 +119,12 @@ func parseResolution(r *http.Request, name string) (float64, error) {
 }
 
 func (s *server) area(w http.ResponseWriter, r *http.Request) error {
-	d, err := s.datasetFromPath(r)
+	d, g, err := s.datasetAndCoords(r)
 	if err != nil {
 		return err
 	}
-	g, err := parseCoords(r)
-	if err != nil {
-		return err
-	}
-	var mp orb.MultiPolygon
-	switch t := g.(type) {
-	case orb.Polygon:
-		mp = orb.MultiPolygon{t}
-	case orb.MultiPolygon:
-		mp = t
-	default:
+	mp, ok := asMultiPolygon(g)
+	if !ok {
 		return problem(CodeInvalidCoords, "area queries take POLYGON or MULTIPOLYGON, not %s", g.GeoJSONType()).withParam("coords")
 	}
 	if err := s.checkVertices(mp); err != nil {
@@ -222,7 +213,7 @@ func (s *server) answerArea(w http.ResponseWriter, r *http.Request, d *dataset, 
 	c.Provenance = &prov
 	c.Caution = prov.Caution
 	if withStats != nil && *withStats {
-		c.Stats = map[string]geo.Stats{}
+		c.Stats = map[string]unitStats{}
 		for i, p := range o.Params {
 			st, err := regionStats(res.grids[i], res.mask, p)
 			if err != nil {
@@ -231,7 +222,7 @@ func (s *server) answerArea(w http.ResponseWriter, r *http.Request, d *dataset, 
 			if st.Count == 0 {
 				return problem(CodeNoData, "no cell of the region has a %s value in dataset %q", p.ID, d.Row.ID)
 			}
-			c.Stats[p.ID] = st
+			c.Stats[p.ID] = newUnitStats(st, p)
 		}
 	}
 	return writeJSON(w, http.StatusOK, covType, c)
@@ -353,23 +344,11 @@ func (s *server) computeArea(ctx context.Context, d *dataset, o queryOpts, mp or
 			g = ageW.Clone()
 		case PObservedDepth:
 			g = sampleOnto(ageW, depthW)
-			for i, v := range g.Data {
-				g.Data[i] = float32(geo.ToDepthM(float64(v), d.DepthSense))
-			}
+			toDepthM(g, d.DepthSense)
 		case PSedimentThickness:
 			g = sampleOnto(ageW, sedW)
-		case PPredictedDepth:
-			g = ev.PredictedDepthM
-		case PHeatFlow:
-			g = ev.HeatFlowMWm2
-		case PThermalThickness:
-			g = ev.ThermalThicknessKm
-		case PDepth600C:
-			g = ev.Depth600CKm
-		case PCorrectedDepth:
-			g = ev.CorrectedDepthM
-		case PResidualDepth:
-			g = ev.ResidualDepthM
+		default:
+			g = modelGrid(ev, p.ID)
 		}
 		if !p.Predicted {
 			for i := range g.Data {
@@ -382,6 +361,34 @@ func (s *server) computeArea(ctx context.Context, d *dataset, o queryOpts, mp or
 	}
 	s.metrics.cells.Add(float64(len(ageW.Data)))
 	return res, nil
+}
+
+// modelGrid is the grid of model output parameter id in ev (nil for a
+// parameter the model does not compute).
+func modelGrid(ev *geo.Result, id string) *geo.Grid {
+	switch id {
+	case PPredictedDepth:
+		return ev.PredictedDepthM
+	case PHeatFlow:
+		return ev.HeatFlowMWm2
+	case PThermalThickness:
+		return ev.ThermalThicknessKm
+	case PDepth600C:
+		return ev.Depth600CKm
+	case PCorrectedDepth:
+		return ev.CorrectedDepthM
+	case PResidualDepth:
+		return ev.ResidualDepthM
+	}
+	return nil
+}
+
+// toDepthM converts observed bathymetry in sense to depth in metres,
+// positive down, in place.
+func toDepthM(g *geo.Grid, sense geo.VerticalSense) {
+	for i, v := range g.Data {
+		g.Data[i] = float32(geo.ToDepthM(float64(v), sense))
+	}
 }
 
 func ceilDiv(a, b int) int { return (a + b - 1) / b }

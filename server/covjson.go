@@ -1,6 +1,9 @@
 package server
 
 import (
+	"bytes"
+	"encoding/json"
+
 	"ridgeflank/geo"
 )
 
@@ -74,8 +77,73 @@ type coverage struct {
 	Ranges     map[string]covNdArray   `json:"ranges"`
 	Provenance *Provenance             `json:"ridgeflank:provenance,omitempty"`
 	Caution    string                  `json:"ridgeflank:caution,omitempty"`
-	Stats      map[string]geo.Stats    `json:"ridgeflank:statistics,omitempty"`
+	Stats      map[string]unitStats    `json:"ridgeflank:statistics,omitempty"`
 	Extra      map[string]any          `json:"ridgeflank:samples,omitempty"`
+}
+
+// unitStats is geo.Stats as the API writes it (CoverageJSON member
+// ridgeflank:statistics, one per parameter): every field that carries the
+// parameter's unit has the unit in its name, e.g. mean_m, p95_ma,
+// median_mw_m2, max_km and the histogram's edges_m. count, no_data and the
+// histogram's counts are cell counts; weight_sum (Σ cos latitude, the weight
+// regionStats uses) and area_fractions are dimensionless.
+type unitStats struct {
+	Unit  string // name suffix, unitSuffix of the parameter's UCUM unit
+	Stats geo.Stats
+}
+
+func newUnitStats(st geo.Stats, p paramInfo) unitStats {
+	return unitStats{Unit: unitSuffix(p.Unit), Stats: st}
+}
+
+// MarshalJSON writes the fields in a fixed order, with unit-suffixed names
+// where they carry the unit. Values are as computed (not rounded).
+func (u unitStats) MarshalJSON() ([]byte, error) {
+	s, sfx := u.Stats, "_"+u.Unit
+	obj := orderedJSON{
+		{"count", s.Count}, {"no_data", s.NoData}, {"weight_sum", s.WeightSum},
+		{"mean" + sfx, s.Mean}, {"std" + sfx, s.Std}, {"min" + sfx, s.Min}, {"max" + sfx, s.Max},
+		{"median" + sfx, s.Median}, {"p05" + sfx, s.P05}, {"p25" + sfx, s.P25}, {"p75" + sfx, s.P75}, {"p95" + sfx, s.P95},
+	}
+	if h := s.Histogram; h != nil {
+		obj = append(obj, member{"histogram", orderedJSON{
+			{"edges" + sfx, h.Edges}, {"counts", h.Counts}, {"area_fractions", h.AreaFractions},
+			{"below", h.Below}, {"above", h.Above},
+		}})
+	}
+	return obj.MarshalJSON()
+}
+
+// member is one name and value of an orderedJSON object.
+type member struct {
+	Name  string
+	Value any
+}
+
+// orderedJSON is a JSON object whose members keep their order.
+type orderedJSON []member
+
+func (o orderedJSON) MarshalJSON() ([]byte, error) {
+	var b bytes.Buffer
+	b.WriteByte('{')
+	for i, m := range o {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		k, err := json.Marshal(m.Name)
+		if err != nil {
+			return nil, err
+		}
+		v, err := json.Marshal(m.Value)
+		if err != nil {
+			return nil, err
+		}
+		b.Write(k)
+		b.WriteByte(':')
+		b.Write(v)
+	}
+	b.WriteByte('}')
+	return b.Bytes(), nil
 }
 
 // crs84 is the lon/lat WGS84 CRS with longitude first.

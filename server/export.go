@@ -12,12 +12,8 @@ import (
 	"net/url"
 	"os"
 	"path/filepath"
-	"strconv"
 	"strings"
 	"time"
-
-	"github.com/go-chi/chi/v5"
-	"github.com/paulmach/orb"
 
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
@@ -93,13 +89,8 @@ func ExportWorker(deps Deps) func(ctx context.Context, a jobs.ExportArgs, progre
 		if err != nil {
 			return nil, jobs.Permanent(err)
 		}
-		var mp orb.MultiPolygon
-		switch t := g.(type) {
-		case orb.Polygon:
-			mp = orb.MultiPolygon{t}
-		case orb.MultiPolygon:
-			mp = t
-		default:
+		mp, ok := asMultiPolygon(g)
+		if !ok {
 			return nil, jobs.Permanent(errors.New("export needs a polygon"))
 		}
 		norm, err := geo.NormalizeRegion(mp, s.limits.MaxVertices)
@@ -164,20 +155,11 @@ func permanentIfProblem(err error) error {
 
 // jobResult downloads the file of a succeeded export job.
 func (s *server) jobResult(w http.ResponseWriter, r *http.Request) error {
-	if s.deps.Jobs == nil {
-		return problem(CodeUnavailable, "this server runs no job queue")
-	}
-	id, err := strconv.ParseInt(chi.URLParam(r, "jobId"), 10, 64)
-	if err != nil || id < 1 {
-		return problem(CodeNotFound, "no job %q", chi.URLParam(r, "jobId"))
-	}
-	st, err := s.deps.Jobs.Get(r.Context(), id)
-	if errors.Is(err, jobs.ErrNotFound) {
-		return problem(CodeNotFound, "no job %d", id)
-	}
+	st, err := s.jobFromPath(r)
 	if err != nil {
 		return err
 	}
+	id := st.ID
 	if st.Kind != jobs.KindExport {
 		return problem(CodeNotFound, "job %d is a %s job and has no file to download", id, st.Kind)
 	}

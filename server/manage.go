@@ -423,22 +423,28 @@ func (s *server) deleteDataset(w http.ResponseWriter, r *http.Request) error {
 // ---- jobs ----
 
 func (s *server) getJob(w http.ResponseWriter, r *http.Request) error {
-	if s.deps.Jobs == nil {
-		return problem(CodeUnavailable, "this server runs no job queue")
-	}
-	id, err := strconv.ParseInt(chi.URLParam(r, "jobId"), 10, 64)
-	if err != nil || id < 1 {
-		return problem(CodeNotFound, "no job %q", chi.URLParam(r, "jobId"))
-	}
-	st, err := s.deps.Jobs.Get(r.Context(), id)
-	if errors.Is(err, jobs.ErrNotFound) {
-		return problem(CodeNotFound, "no job %d", id)
-	}
+	st, err := s.jobFromPath(r)
 	if err != nil {
 		return err
 	}
 	w.Header().Set("Cache-Control", "no-store")
 	return writeJSON(w, http.StatusOK, "", jobJSON(s.baseURL(r), st))
+}
+
+// jobFromPath is the job named by the path's jobId.
+func (s *server) jobFromPath(r *http.Request) (jobs.Status, error) {
+	if s.deps.Jobs == nil {
+		return jobs.Status{}, problem(CodeUnavailable, "this server runs no job queue")
+	}
+	id, err := strconv.ParseInt(chi.URLParam(r, "jobId"), 10, 64)
+	if err != nil || id < 1 {
+		return jobs.Status{}, problem(CodeNotFound, "no job %q", chi.URLParam(r, "jobId"))
+	}
+	st, err := s.deps.Jobs.Get(r.Context(), id)
+	if errors.Is(err, jobs.ErrNotFound) {
+		return jobs.Status{}, problem(CodeNotFound, "no job %d", id)
+	}
+	return st, err
 }
 
 func jobJSON(base string, st jobs.Status) map[string]any {

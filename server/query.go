@@ -143,6 +143,29 @@ func visit(g orb.Geometry, fn func(orb.Point)) {
 	}
 }
 
+// datasetAndCoords are the dataset the path names and the geometry of the
+// query's coords.
+func (s *server) datasetAndCoords(r *http.Request) (*dataset, orb.Geometry, error) {
+	d, err := s.datasetFromPath(r)
+	if err != nil {
+		return nil, nil, err
+	}
+	g, err := parseCoords(r)
+	return d, g, err
+}
+
+// asMultiPolygon returns a Polygon or MultiPolygon as a MultiPolygon; ok is
+// false for any other geometry.
+func asMultiPolygon(g orb.Geometry) (mp orb.MultiPolygon, ok bool) {
+	switch t := g.(type) {
+	case orb.Polygon:
+		return orb.MultiPolygon{t}, true
+	case orb.MultiPolygon:
+		return t, true
+	}
+	return nil, false
+}
+
 func countVertices(g orb.Geometry) int {
 	n := 0
 	visit(g, func(orb.Point) { n++ })
@@ -160,11 +183,7 @@ func (s *server) checkVertices(g orb.Geometry) error {
 // ---- position ----
 
 func (s *server) position(w http.ResponseWriter, r *http.Request) error {
-	d, err := s.datasetFromPath(r)
-	if err != nil {
-		return err
-	}
-	g, err := parseCoords(r)
+	d, g, err := s.datasetAndCoords(r)
 	if err != nil {
 		return err
 	}
@@ -310,11 +329,7 @@ func pointsGeoJSON(ps []paramInfo, lons, lats, distKm []float64, values [][]floa
 // ---- trajectory ----
 
 func (s *server) trajectory(w http.ResponseWriter, r *http.Request) error {
-	d, err := s.datasetFromPath(r)
-	if err != nil {
-		return err
-	}
-	g, err := parseCoords(r)
+	d, g, err := s.datasetAndCoords(r)
 	if err != nil {
 		return err
 	}

@@ -163,9 +163,7 @@ func (s *server) renderTile(r *http.Request, d *dataset, o queryOpts, p paramInf
 		}
 		vals = sampleOnto(win, src)
 		if p.ID == PObservedDepth {
-			for i, v := range vals.Data {
-				vals.Data[i] = float32(geo.ToDepthM(float64(v), d.DepthSense))
-			}
+			toDepthM(vals, d.DepthSense)
 		}
 	default:
 		in := geo.Inputs{Age: win, Model: o.Model, Compaction: o.Sediment, Workers: 1}
@@ -187,10 +185,7 @@ func (s *server) renderTile(r *http.Request, d *dataset, o queryOpts, p paramInf
 		if err != nil {
 			return nil, err
 		}
-		vals = map[string]*geo.Grid{
-			PPredictedDepth: res.PredictedDepthM, PHeatFlow: res.HeatFlowMWm2, PThermalThickness: res.ThermalThicknessKm,
-			PDepth600C: res.Depth600CKm, PCorrectedDepth: res.CorrectedDepthM, PResidualDepth: res.ResidualDepthM,
-		}[p.ID]
+		vals = modelGrid(res, p.ID)
 	}
 	s.metrics.cells.Add(float64(len(vals.Data)))
 	ramp, _ := colour.RampByID(b.Ramp)

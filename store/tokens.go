@@ -68,3 +68,16 @@ func HashToken(plaintext string) string {
 	h := sha256.Sum256([]byte(plaintext))
 	return hex.EncodeToString(h[:])
 }
+
+// NewToken checks name and role and makes a token with a new id, the creation time (now) and
+// a new secret (NewTokenSecret): plaintext goes to the caller once, sha256Hex to the store.
+func NewToken(name string, role Role) (t Token, plaintext, sha256Hex string, err error) {
+	if err := ValidateTokenName(name); err != nil {
+		return Token{}, "", "", err
+	}
+	if !role.Valid() {
+		return Token{}, "", "", fmt.Errorf("%w: role %q: want reader, editor or admin", ErrInvalid, role)
+	}
+	plaintext, sha256Hex = NewTokenSecret()
+	return Token{ID: NewID(PrefixToken), Name: name, Role: role, CreatedAt: Now()}, plaintext, sha256Hex, nil
+}

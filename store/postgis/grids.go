@@ -6,7 +6,6 @@ import (
 	"fmt"
 
 	"github.com/jackc/pgx/v5"
-	"github.com/paulmach/orb"
 
 	"ridgeflank/store"
 	"ridgeflank/store/internal/gridimport"
@@ -22,7 +21,7 @@ func scanGrid(row pgx.Row) (store.Grid, error) {
 	if err != nil {
 		return g, err
 	}
-	if g.Footprint, err = decodeMultiPolygon(fp); err != nil {
+	if g.Footprint, err = store.MultiPolygonFromWKB(fp); err != nil {
 		return g, fmt.Errorf("grid %s: %w", g.ID, err)
 	}
 	g.CreatedAt = g.CreatedAt.UTC()
@@ -70,19 +69,9 @@ func (s *Store) GetGridByHash(ctx context.Context, sha256Hex string) (store.Grid
 
 // ListGrids implements store.Store.
 func (s *Store) ListGrids(ctx context.Context, f store.GridFilter) ([]store.Grid, error) {
-	if err := f.Page.Validate(); err != nil {
+	boxes, err := f.Prepare()
+	if err != nil {
 		return nil, err
-	}
-	if f.Kind != "" && !f.Kind.Valid() {
-		return nil, fmt.Errorf("%w: grid kind %q", store.ErrInvalid, f.Kind)
-	}
-	var boxes []orb.Bound
-	if f.BBox != nil {
-		p, err := store.SplitBBox(*f.BBox)
-		if err != nil {
-			return nil, err
-		}
-		boxes = p
 	}
 	var args sqlArgs
 	where, err := spatialPredicate("footprint", &args, boxes, nil)
@@ -98,16 +87,7 @@ func (s *Store) ListGrids(ctx context.Context, f store.GridFilter) ([]store.Grid
 	if err != nil {
 		return nil, fmt.Errorf("listing grids: %w", err)
 	}
-	defer rows.Close()
-	out := []store.Grid{}
-	for rows.Next() {
-		g, err := scanGrid(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, g)
-	}
-	return out, rows.Err()
+	return collect(rows, scanGrid)
 }
 
 // DeleteGrid implements store.Store.

@@ -26,15 +26,9 @@ func scanModel(row pgx.Row) (store.Model, error) {
 
 // CreateModel implements store.Store.
 func (s *Store) CreateModel(ctx context.Context, m store.Model) (store.Model, error) {
-	if err := m.Validate(); err != nil {
+	if err := m.PrepareCreate(); err != nil {
 		return store.Model{}, err
 	}
-	if m.ID == "" {
-		m.ID = store.NewID(store.PrefixModel)
-	}
-	m.CreatedAt = store.Now()
-	m.UpdatedAt = m.CreatedAt
-	m.Version = 1
 	_, err := s.pool.Exec(ctx, `INSERT INTO custom_models (id, name, description, params, created_at, updated_at, version)
 		VALUES ($1, $2, $3, $4::text::json, $5, $6, $7)`,
 		m.ID, m.Name, m.Description, string(m.Params), m.CreatedAt, m.UpdatedAt, m.Version)
@@ -62,27 +56,14 @@ func (s *Store) ListModels(ctx context.Context, p store.Page) ([]store.Model, er
 	if err != nil {
 		return nil, fmt.Errorf("listing models: %w", err)
 	}
-	defer rows.Close()
-	out := []store.Model{}
-	for rows.Next() {
-		m, err := scanModel(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, m)
-	}
-	return out, rows.Err()
+	return collect(rows, scanModel)
 }
 
 // UpdateModel implements store.Store.
 func (s *Store) UpdateModel(ctx context.Context, m store.Model) (store.Model, error) {
-	if m.ID == "" {
-		return store.Model{}, fmt.Errorf("%w: model id is required", store.ErrInvalid)
-	}
-	if err := m.Validate(); err != nil {
+	if err := m.PrepareUpdate(); err != nil {
 		return store.Model{}, err
 	}
-	m.UpdatedAt = store.Now()
 	expected := m.Version
 	err := s.pool.QueryRow(ctx, `UPDATE custom_models SET name = $2, description = $3, params = $4::text::json, updated_at = $5,
 		version = version + 1 WHERE id = $1 AND version = $6 RETURNING created_at, version`,

@@ -14,7 +14,6 @@ import (
 	"github.com/jackc/pgx/v5/pgxpool"
 	"github.com/jackc/pgx/v5/stdlib"
 	"github.com/paulmach/orb"
-	"github.com/paulmach/orb/encoding/wkb"
 	"github.com/pressly/goose/v3"
 
 	"ridgeflank/migrations"
@@ -58,24 +57,9 @@ func Open(ctx context.Context, cfg store.Config) (*Store, error) {
 		return nil, fmt.Errorf("postgis store: %w", err)
 	}
 	s := &Store{pool: pool, blobs: blobs, log: cfg.Logger}
-	if err := s.Ping(ctx); err != nil {
+	if err := store.StartUp(ctx, s, s.log, cfg.NoAutoMigrate); err != nil {
 		pool.Close()
 		return nil, err
-	}
-	if !cfg.NoAutoMigrate {
-		if applied, err := s.Migrate(ctx); err != nil {
-			pool.Close()
-			return nil, err
-		} else if len(applied) > 0 {
-			s.log.Info("postgis store: migrations applied", "files", applied)
-		}
-	}
-	if ok, err := s.MigrationsApplied(ctx); err != nil || !ok {
-		s.log.Warn("postgis store: schema is not up to date; run `ridgeflank migrate`", "err", err)
-	} else if removed, err := s.Sweep(ctx); err != nil {
-		s.log.Warn("postgis store: grid directory not swept", "err", err)
-	} else if len(removed) > 0 {
-		s.log.Info("postgis store: removed unreferenced grid files", "files", removed)
 	}
 	return s, nil
 }
@@ -247,20 +231,6 @@ func geoJSON(g orb.Geometry) (string, error) {
 	return string(raw), nil
 }
 
-// Geometry is read back with ST_AsBinary (WKB holds the float64 values exactly), whereas
-// ST_AsGeoJSON would round to 9 decimal places by default.
-func decodeMultiPolygon(b []byte) (orb.MultiPolygon, error) {
-	g, err := wkb.Unmarshal(b)
-	if err != nil {
-		return nil, fmt.Errorf("geometry: %w", err)
-	}
-	mp, ok := g.(orb.MultiPolygon)
-	if !ok {
-		return nil, fmt.Errorf("geometry: stored %s, want MultiPolygon", g.GeoJSONType())
-	}
-	return mp, nil
-}
-
 // sqlArgs builds a positional argument list.
 type sqlArgs []any
 
@@ -317,4 +287,9 @@ func deref(s *string) string {
 
 func (s *Store) importCatalogue() gridimport.Catalogue {
 	return gridimport.Catalogue{ByHash: s.GetGridByHash, Insert: s.insertGrid, Sweep: s.Sweep}
+}
+
+// collect reads every row with scan (pgx.CollectRows closes rows).
+func collect[T any](rows pgx.Rows, scan func(pgx.Row) (T, error)) ([]T, error) {
+	return pgx.CollectRows(rows, func(r pgx.CollectableRow) (T, error) { return scan(r) })
 }

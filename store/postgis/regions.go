@@ -6,11 +6,12 @@ import (
 	"fmt"
 
 	"github.com/jackc/pgx/v5"
-	"github.com/paulmach/orb"
 
 	"ridgeflank/store"
 )
 
+// Geometry is read back with ST_AsBinary (WKB holds the float64 values exactly), whereas
+// ST_AsGeoJSON would round to 9 decimal places by default.
 const regionCols = `id, name, description, tags, ST_AsBinary(geom), owner, created_at, updated_at, version`
 
 func scanRegion(row pgx.Row) (store.Region, error) {
@@ -20,7 +21,7 @@ func scanRegion(row pgx.Row) (store.Region, error) {
 		return r, err
 	}
 	r.Tags = store.NormaliseTags(r.Tags)
-	mp, err := decodeMultiPolygon(geom)
+	mp, err := store.MultiPolygonFromWKB(geom)
 	if err != nil {
 		return r, fmt.Errorf("region %s: %w", r.ID, err)
 	}
@@ -31,20 +32,13 @@ func scanRegion(row pgx.Row) (store.Region, error) {
 
 // CreateRegion implements store.Store.
 func (s *Store) CreateRegion(ctx context.Context, r store.Region) (store.Region, error) {
-	if err := r.Validate(); err != nil {
+	if err := r.PrepareCreate(); err != nil {
 		return store.Region{}, err
-	}
-	if r.ID == "" {
-		r.ID = store.NewID(store.PrefixRegion)
 	}
 	gj, err := geoJSON(r.Geometry)
 	if err != nil {
 		return store.Region{}, err
 	}
-	r.Tags = store.NormaliseTags(r.Tags)
-	r.CreatedAt = store.Now()
-	r.UpdatedAt = r.CreatedAt
-	r.Version = 1
 	_, err = s.pool.Exec(ctx, `INSERT INTO regions (id, name, description, tags, geom, owner, created_at, updated_at, version)
 		VALUES ($1, $2, $3, $4, ST_Multi(ST_SetSRID(ST_GeomFromGeoJSON($5::text), 4326)), $6, $7, $8, $9)`,
 		r.ID, r.Name, r.Description, r.Tags, gj, r.Owner, r.CreatedAt, r.UpdatedAt, r.Version)
@@ -66,18 +60,13 @@ func (s *Store) GetRegion(ctx context.Context, id string) (store.Region, error) 
 // UpdateRegion implements store.Store. The conditional UPDATE is atomic: of several writers
 // holding the same version, the first to commit wins and the others match no row.
 func (s *Store) UpdateRegion(ctx context.Context, r store.Region) (store.Region, error) {
-	if r.ID == "" {
-		return store.Region{}, fmt.Errorf("%w: region id is required", store.ErrInvalid)
-	}
-	if err := r.Validate(); err != nil {
+	if err := r.PrepareUpdate(); err != nil {
 		return store.Region{}, err
 	}
 	gj, err := geoJSON(r.Geometry)
 	if err != nil {
 		return store.Region{}, err
 	}
-	r.Tags = store.NormaliseTags(r.Tags)
-	r.UpdatedAt = store.Now()
 	expected := r.Version
 	err = s.pool.QueryRow(ctx, `UPDATE regions SET name = $2, description = $3, tags = $4,
 		geom = ST_Multi(ST_SetSRID(ST_GeomFromGeoJSON($5::text), 4326)), owner = $6, updated_at = $7, version = version + 1
@@ -111,21 +100,9 @@ func (s *Store) deleteVersioned(ctx context.Context, table, what, id string, exp
 
 // ListRegions implements store.Store; all filtering runs in the database.
 func (s *Store) ListRegions(ctx context.Context, f store.RegionFilter) ([]store.Region, error) {
-	if err := f.Page.Validate(); err != nil {
+	boxes, err := f.Prepare()
+	if err != nil {
 		return nil, err
-	}
-	var boxes []orb.Bound
-	if f.BBox != nil {
-		pieces, err := store.SplitBBox(*f.BBox)
-		if err != nil {
-			return nil, err
-		}
-		boxes = pieces
-	}
-	if f.Intersects != nil {
-		if err := store.ValidateQueryGeometry(f.Intersects); err != nil {
-			return nil, err
-		}
 	}
 	var args sqlArgs
 	where, err := spatialPredicate("geom", &args, boxes, f.Intersects)
@@ -144,14 +121,5 @@ func (s *Store) ListRegions(ctx context.Context, f store.RegionFilter) ([]store.
 	if err != nil {
 		return nil, fmt.Errorf("listing regions: %w", err)
 	}
-	defer rows.Close()
-	out := []store.Region{}
-	for rows.Next() {
-		r, err := scanRegion(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, r)
-	}
-	return out, rows.Err()
+	return collect(rows, scanRegion)
 }

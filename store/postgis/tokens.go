@@ -35,15 +35,11 @@ func scanToken(row pgx.Row) (store.Token, error) {
 
 // CreateToken implements store.Store.
 func (s *Store) CreateToken(ctx context.Context, name string, role store.Role) (store.Token, string, error) {
-	if err := store.ValidateTokenName(name); err != nil {
+	t, plain, hash, err := store.NewToken(name, role)
+	if err != nil {
 		return store.Token{}, "", err
 	}
-	if !role.Valid() {
-		return store.Token{}, "", fmt.Errorf("%w: role %q: want reader, editor or admin", store.ErrInvalid, role)
-	}
-	plain, hash := store.NewTokenSecret()
-	t := store.Token{ID: store.NewID(store.PrefixToken), Name: name, Role: role, CreatedAt: store.Now()}
-	_, err := s.pool.Exec(ctx, `INSERT INTO api_tokens (id, name, role, token_sha256, created_at) VALUES ($1, $2, $3, $4, $5)`,
+	_, err = s.pool.Exec(ctx, `INSERT INTO api_tokens (id, name, role, token_sha256, created_at) VALUES ($1, $2, $3, $4, $5)`,
 		t.ID, t.Name, string(t.Role), hash, t.CreatedAt)
 	if err != nil {
 		return store.Token{}, "", fmt.Errorf("creating token: %w", mapErr(err))
@@ -57,16 +53,7 @@ func (s *Store) ListTokens(ctx context.Context) ([]store.Token, error) {
 	if err != nil {
 		return nil, fmt.Errorf("listing tokens: %w", err)
 	}
-	defer rows.Close()
-	out := []store.Token{}
-	for rows.Next() {
-		t, err := scanToken(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, t)
-	}
-	return out, rows.Err()
+	return collect(rows, scanToken)
 }
 
 // RevokeToken implements store.Store. Revoking a revoked token keeps the first revocation time.

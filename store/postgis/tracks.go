@@ -7,8 +7,6 @@ import (
 	"fmt"
 
 	"github.com/jackc/pgx/v5"
-	"github.com/paulmach/orb"
-	"github.com/paulmach/orb/encoding/wkb"
 
 	"ridgeflank/store"
 )
@@ -22,13 +20,9 @@ func scanTrack(row pgx.Row) (store.Track, error) {
 	if err := row.Scan(&t.ID, &t.Name, &t.Description, &wp, &params, &t.CreatedAt, &t.UpdatedAt, &t.Version); err != nil {
 		return t, err
 	}
-	g, err := wkb.Unmarshal(wp)
+	ls, err := store.LineStringFromWKB(wp)
 	if err != nil {
 		return t, fmt.Errorf("track %s: waypoints: %w", t.ID, err)
-	}
-	ls, ok := g.(orb.LineString)
-	if !ok {
-		return t, fmt.Errorf("track %s: waypoints stored as %s", t.ID, g.GeoJSONType())
 	}
 	t.Waypoints = ls
 	t.Params = json.RawMessage(params)
@@ -38,20 +32,13 @@ func scanTrack(row pgx.Row) (store.Track, error) {
 
 // CreateTrack implements store.Store.
 func (s *Store) CreateTrack(ctx context.Context, t store.Track) (store.Track, error) {
-	if err := t.Validate(); err != nil {
+	if err := t.PrepareCreate(); err != nil {
 		return store.Track{}, err
-	}
-	if t.ID == "" {
-		t.ID = store.NewID(store.PrefixTrack)
 	}
 	gj, err := geoJSON(t.Waypoints)
 	if err != nil {
 		return store.Track{}, err
 	}
-	t.Params = store.NormaliseParams(t.Params)
-	t.CreatedAt = store.Now()
-	t.UpdatedAt = t.CreatedAt
-	t.Version = 1
 	_, err = s.pool.Exec(ctx, `INSERT INTO tracks (id, name, description, waypoints, params, created_at, updated_at, version)
 		VALUES ($1, $2, $3, ST_SetSRID(ST_GeomFromGeoJSON($4::text), 4326), $5::text::json, $6, $7, $8)`,
 		t.ID, t.Name, t.Description, gj, string(t.Params), t.CreatedAt, t.UpdatedAt, t.Version)
@@ -79,32 +66,18 @@ func (s *Store) ListTracks(ctx context.Context, p store.Page) ([]store.Track, er
 	if err != nil {
 		return nil, fmt.Errorf("listing tracks: %w", err)
 	}
-	defer rows.Close()
-	out := []store.Track{}
-	for rows.Next() {
-		t, err := scanTrack(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, t)
-	}
-	return out, rows.Err()
+	return collect(rows, scanTrack)
 }
 
 // UpdateTrack implements store.Store.
 func (s *Store) UpdateTrack(ctx context.Context, t store.Track) (store.Track, error) {
-	if t.ID == "" {
-		return store.Track{}, fmt.Errorf("%w: track id is required", store.ErrInvalid)
-	}
-	if err := t.Validate(); err != nil {
+	if err := t.PrepareUpdate(); err != nil {
 		return store.Track{}, err
 	}
 	gj, err := geoJSON(t.Waypoints)
 	if err != nil {
 		return store.Track{}, err
 	}
-	t.Params = store.NormaliseParams(t.Params)
-	t.UpdatedAt = store.Now()
 	expected := t.Version
 	err = s.pool.QueryRow(ctx, `UPDATE tracks SET name = $2, description = $3, waypoints = ST_SetSRID(ST_GeomFromGeoJSON($4::text), 4326),
 		params = $5::text::json, updated_at = $6, version = version + 1

@@ -53,15 +53,9 @@ func checkDatasetGrids(ctx context.Context, tx *sql.Tx, d store.Dataset) error {
 
 // CreateDataset implements store.Store.
 func (s *Store) CreateDataset(ctx context.Context, d store.Dataset) (store.Dataset, error) {
-	if err := d.Validate(); err != nil {
+	if err := d.PrepareCreate(); err != nil {
 		return store.Dataset{}, err
 	}
-	if d.ID == "" {
-		d.ID = store.NewID(store.PrefixDataset)
-	}
-	d.CreatedAt = store.Now()
-	d.UpdatedAt = d.CreatedAt
-	d.Version = 1
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		if err := checkDatasetGrids(ctx, tx, d); err != nil {
 			return err
@@ -95,27 +89,14 @@ func (s *Store) ListDatasets(ctx context.Context, p store.Page) ([]store.Dataset
 	if err != nil {
 		return nil, fmt.Errorf("listing datasets: %w", err)
 	}
-	defer rows.Close()
-	out := []store.Dataset{}
-	for rows.Next() {
-		d, err := scanDataset(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, d)
-	}
-	return out, rows.Err()
+	return collect(rows, scanDataset)
 }
 
 // UpdateDataset implements store.Store.
 func (s *Store) UpdateDataset(ctx context.Context, d store.Dataset) (store.Dataset, error) {
-	if d.ID == "" {
-		return store.Dataset{}, fmt.Errorf("%w: dataset id is required", store.ErrInvalid)
-	}
-	if err := d.Validate(); err != nil {
+	if err := d.PrepareUpdate(); err != nil {
 		return store.Dataset{}, err
 	}
-	d.UpdatedAt = store.Now()
 	expected := d.Version
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		if err := checkDatasetGrids(ctx, tx, d); err != nil {

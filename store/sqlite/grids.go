@@ -6,7 +6,6 @@ import (
 	"errors"
 	"fmt"
 
-	"github.com/paulmach/orb"
 	"github.com/paulmach/orb/encoding/wkb"
 
 	"ridgeflank/store"
@@ -24,7 +23,7 @@ func scanGrid(sc scanner) (store.Grid, error) {
 	if err != nil {
 		return g, err
 	}
-	if g.Footprint, err = decodeMultiPolygon(fp); err != nil {
+	if g.Footprint, err = store.MultiPolygonFromWKB(fp); err != nil {
 		return g, fmt.Errorf("grid %s: %w", g.ID, err)
 	}
 	g.CreatedAt = fromMicros(created)
@@ -76,19 +75,9 @@ func (s *Store) GetGridByHash(ctx context.Context, sha256Hex string) (store.Grid
 // ListGrids implements store.Store. The catalogue is small: boxes prefilter in SQL, the exact
 // footprint test runs in Go.
 func (s *Store) ListGrids(ctx context.Context, f store.GridFilter) ([]store.Grid, error) {
-	if err := f.Page.Validate(); err != nil {
+	pieces, err := f.Prepare()
+	if err != nil {
 		return nil, err
-	}
-	if f.Kind != "" && !f.Kind.Valid() {
-		return nil, fmt.Errorf("%w: grid kind %q", store.ErrInvalid, f.Kind)
-	}
-	var pieces []orb.Bound
-	if f.BBox != nil {
-		p, err := store.SplitBBox(*f.BBox)
-		if err != nil {
-			return nil, err
-		}
-		pieces = p
 	}
 	q := `SELECT ` + gridCols + ` FROM grids WHERE (? = '' OR kind = ?) ORDER BY created_at, id`
 	args := []any{f.Kind, f.Kind}
@@ -100,29 +89,10 @@ func (s *Store) ListGrids(ctx context.Context, f store.GridFilter) ([]store.Grid
 	if err != nil {
 		return nil, fmt.Errorf("listing grids: %w", err)
 	}
-	defer rows.Close()
-	out := []store.Grid{}
-	skip := f.Offset
-	for rows.Next() {
-		g, err := scanGrid(rows)
-		if err != nil {
-			return nil, err
-		}
-		if len(pieces) > 0 {
-			if !anyIntersects(g.Footprint, pieces) {
-				continue
-			}
-			if skip > 0 {
-				skip--
-				continue
-			}
-			if len(out) >= f.EffectiveLimit() {
-				break
-			}
-		}
-		out = append(out, g)
+	if len(pieces) == 0 {
+		return collect(rows, scanGrid)
 	}
-	return out, rows.Err()
+	return collectPage(rows, scanGrid, func(g store.Grid) bool { return anyIntersects(g.Footprint, pieces) }, f.Page)
 }
 
 // DeleteGrid implements store.Store.

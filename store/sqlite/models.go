@@ -26,15 +26,9 @@ func scanModel(sc scanner) (store.Model, error) {
 
 // CreateModel implements store.Store.
 func (s *Store) CreateModel(ctx context.Context, m store.Model) (store.Model, error) {
-	if err := m.Validate(); err != nil {
+	if err := m.PrepareCreate(); err != nil {
 		return store.Model{}, err
 	}
-	if m.ID == "" {
-		m.ID = store.NewID(store.PrefixModel)
-	}
-	m.CreatedAt = store.Now()
-	m.UpdatedAt = m.CreatedAt
-	m.Version = 1
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		_, err := tx.ExecContext(ctx, `INSERT INTO custom_models (`+modelCols+`) VALUES (?, ?, ?, ?, ?, ?, ?)`,
 			m.ID, m.Name, m.Description, string(m.Params), micros(m.CreatedAt), micros(m.UpdatedAt), m.Version)
@@ -64,27 +58,14 @@ func (s *Store) ListModels(ctx context.Context, p store.Page) ([]store.Model, er
 	if err != nil {
 		return nil, fmt.Errorf("listing models: %w", err)
 	}
-	defer rows.Close()
-	out := []store.Model{}
-	for rows.Next() {
-		m, err := scanModel(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, m)
-	}
-	return out, rows.Err()
+	return collect(rows, scanModel)
 }
 
 // UpdateModel implements store.Store.
 func (s *Store) UpdateModel(ctx context.Context, m store.Model) (store.Model, error) {
-	if m.ID == "" {
-		return store.Model{}, fmt.Errorf("%w: model id is required", store.ErrInvalid)
-	}
-	if err := m.Validate(); err != nil {
+	if err := m.PrepareUpdate(); err != nil {
 		return store.Model{}, err
 	}
-	m.UpdatedAt = store.Now()
 	expected := m.Version
 	err := s.write(ctx, func(tx *sql.Tx) error {
 		var created int64

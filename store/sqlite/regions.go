@@ -30,25 +30,13 @@ func scanRegion(sc scanner) (store.Region, error) {
 		return r, fmt.Errorf("region %s: tags: %w", r.ID, err)
 	}
 	r.Tags = store.NormaliseTags(r.Tags)
-	mp, err := decodeMultiPolygon(geom)
+	mp, err := store.MultiPolygonFromWKB(geom)
 	if err != nil {
 		return r, fmt.Errorf("region %s: %w", r.ID, err)
 	}
 	r.Geometry = mp
 	r.CreatedAt, r.UpdatedAt = fromMicros(created), fromMicros(updated)
 	return r, nil
-}
-
-func decodeMultiPolygon(b []byte) (orb.MultiPolygon, error) {
-	g, err := wkb.Unmarshal(b)
-	if err != nil {
-		return nil, fmt.Errorf("geometry: %w", err)
-	}
-	mp, ok := g.(orb.MultiPolygon)
-	if !ok {
-		return nil, fmt.Errorf("geometry: stored %s, want MultiPolygon", g.GeoJSONType())
-	}
-	return mp, nil
 }
 
 func tagsJSON(tags []string) string {
@@ -58,20 +46,13 @@ func tagsJSON(tags []string) string {
 
 // CreateRegion implements store.Store.
 func (s *Store) CreateRegion(ctx context.Context, r store.Region) (store.Region, error) {
-	if err := r.Validate(); err != nil {
+	if err := r.PrepareCreate(); err != nil {
 		return store.Region{}, err
-	}
-	if r.ID == "" {
-		r.ID = store.NewID(store.PrefixRegion)
 	}
 	geom, err := wkb.Marshal(r.Geometry)
 	if err != nil {
 		return store.Region{}, fmt.Errorf("%w: region geometry: %v", store.ErrInvalid, err)
 	}
-	r.Tags = store.NormaliseTags(r.Tags)
-	r.CreatedAt = store.Now()
-	r.UpdatedAt = r.CreatedAt
-	r.Version = 1
 	b := r.Geometry.Bound()
 	err = s.write(ctx, func(tx *sql.Tx) error {
 		res, err := tx.ExecContext(ctx, `INSERT INTO regions (`+regionCols+`) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)`,
@@ -104,18 +85,13 @@ func (s *Store) GetRegion(ctx context.Context, id string) (store.Region, error) 
 
 // UpdateRegion implements store.Store.
 func (s *Store) UpdateRegion(ctx context.Context, r store.Region) (store.Region, error) {
-	if r.ID == "" {
-		return store.Region{}, fmt.Errorf("%w: region id is required", store.ErrInvalid)
-	}
-	if err := r.Validate(); err != nil {
+	if err := r.PrepareUpdate(); err != nil {
 		return store.Region{}, err
 	}
 	geom, err := wkb.Marshal(r.Geometry)
 	if err != nil {
 		return store.Region{}, fmt.Errorf("%w: region geometry: %v", store.ErrInvalid, err)
 	}
-	r.Tags = store.NormaliseTags(r.Tags)
-	r.UpdatedAt = store.Now()
 	b := r.Geometry.Bound()
 	expected := r.Version
 	err = s.write(ctx, func(tx *sql.Tx) error {
@@ -174,24 +150,13 @@ func rtreeQuery(boxes []orb.Bound) (string, []any) {
 // ListRegions implements store.Store. The R*Tree selects candidates by box; the exact
 // intersection test then runs in Go (intersectsShifted), before offset and limit apply.
 func (s *Store) ListRegions(ctx context.Context, f store.RegionFilter) ([]store.Region, error) {
-	if err := f.Page.Validate(); err != nil {
+	bboxPieces, err := f.Prepare()
+	if err != nil {
 		return nil, err
 	}
-	var boxes []orb.Bound // query boxes, for the R*Tree
+	boxes := append([]orb.Bound(nil), bboxPieces...) // query boxes, for the R*Tree
 	var tests []orb.Geometry
-	var bboxPieces []orb.Bound
-	if f.BBox != nil {
-		pieces, err := store.SplitBBox(*f.BBox)
-		if err != nil {
-			return nil, err
-		}
-		bboxPieces = pieces
-		boxes = append(boxes, pieces...)
-	}
 	if f.Intersects != nil {
-		if err := store.ValidateQueryGeometry(f.Intersects); err != nil {
-			return nil, err
-		}
 		tests = append(tests, f.Intersects)
 		if len(boxes) == 0 {
 			boxes = append(boxes, f.Intersects.Bound())
@@ -223,32 +188,13 @@ func (s *Store) ListRegions(ctx context.Context, f store.RegionFilter) ([]store.
 	if err != nil {
 		return nil, fmt.Errorf("listing regions: %w", err)
 	}
-	defer rows.Close()
-	out := []store.Region{}
-	skip := f.Offset
-	for rows.Next() {
-		r, err := scanRegion(rows)
-		if err != nil {
-			return nil, err
-		}
-		if spatial {
-			if len(bboxPieces) > 0 && !anyIntersects(r.Geometry, bboxPieces) {
-				continue
-			}
-			if len(tests) > 0 && !intersectsShifted(r.Geometry, tests[0]) {
-				continue
-			}
-			if skip > 0 {
-				skip--
-				continue
-			}
-			if len(out) >= f.EffectiveLimit() {
-				break
-			}
-		}
-		out = append(out, r)
+	if !spatial {
+		return collect(rows, scanRegion)
 	}
-	return out, rows.Err()
+	return collectPage(rows, scanRegion, func(r store.Region) bool {
+		return (len(bboxPieces) == 0 || anyIntersects(r.Geometry, bboxPieces)) &&
+			(len(tests) == 0 || intersectsShifted(r.Geometry, tests[0]))
+	}, f.Page)
 }
 
 func anyIntersects(mp orb.MultiPolygon, pieces []orb.Bound) bool {

@@ -82,24 +82,9 @@ func Open(ctx context.Context, cfg store.Config) (*Store, error) {
 	db.SetMaxIdleConns(8)
 	db.SetConnMaxIdleTime(5 * time.Minute)
 	s := &Store{db: db, path: path, blobs: blobs, log: cfg.Logger}
-	if err := s.Ping(ctx); err != nil {
+	if err := store.StartUp(ctx, s, s.log, cfg.NoAutoMigrate); err != nil {
 		db.Close()
 		return nil, err
-	}
-	if !cfg.NoAutoMigrate {
-		if applied, err := s.Migrate(ctx); err != nil {
-			db.Close()
-			return nil, err
-		} else if len(applied) > 0 {
-			s.log.Info("sqlite store: migrations applied", "files", applied)
-		}
-	}
-	if ok, err := s.MigrationsApplied(ctx); err != nil || !ok {
-		s.log.Warn("sqlite store: schema is not up to date; run `ridgeflank migrate`", "err", err)
-	} else if removed, err := s.Sweep(ctx); err != nil {
-		s.log.Warn("sqlite store: grid directory not swept", "err", err)
-	} else if len(removed) > 0 {
-		s.log.Info("sqlite store: removed unreferenced grid files", "files", removed)
 	}
 	return s, nil
 }
@@ -289,4 +274,41 @@ func notFound(what, id string) error { return fmt.Errorf("%s %q: %w", what, id, 
 // importCatalogue adapts the store to the shared import sequence.
 func (s *Store) importCatalogue() gridimport.Catalogue {
 	return gridimport.Catalogue{ByHash: s.GetGridByHash, Insert: s.insertGrid, Sweep: s.Sweep}
+}
+
+// collect reads every row with scan and closes rows.
+func collect[T any](rows *sql.Rows, scan func(scanner) (T, error)) ([]T, error) {
+	defer rows.Close()
+	out := []T{}
+	for rows.Next() {
+		v, err := scan(rows)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, v)
+	}
+	return out, rows.Err()
+}
+
+// collectPage is collect for a query without LIMIT and OFFSET whose rows are filtered in Go:
+// rows keep refuses are dropped, then p's offset and limit apply to the rest.
+func collectPage[T any](rows *sql.Rows, scan func(scanner) (T, error), keep func(T) bool, p store.Page) ([]T, error) {
+	defer rows.Close()
+	out := []T{}
+	skip := p.Offset
+	for len(out) < p.EffectiveLimit() && rows.Next() {
+		v, err := scan(rows)
+		if err != nil {
+			return nil, err
+		}
+		if !keep(v) {
+			continue
+		}
+		if skip > 0 {
+			skip--
+			continue
+		}
+		out = append(out, v)
+	}
+	return out, rows.Err()
 }

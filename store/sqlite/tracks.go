@@ -7,7 +7,6 @@ import (
 	"errors"
 	"fmt"
 
-	"github.com/paulmach/orb"
 	"github.com/paulmach/orb/encoding/wkb"
 
 	"ridgeflank/store"
@@ -23,13 +22,9 @@ func scanTrack(sc scanner) (store.Track, error) {
 	if err := sc.Scan(&t.ID, &t.Name, &t.Description, &wp, &params, &created, &updated, &t.Version); err != nil {
 		return t, err
 	}
-	g, err := wkb.Unmarshal(wp)
+	ls, err := store.LineStringFromWKB(wp)
 	if err != nil {
 		return t, fmt.Errorf("track %s: waypoints: %w", t.ID, err)
-	}
-	ls, ok := g.(orb.LineString)
-	if !ok {
-		return t, fmt.Errorf("track %s: waypoints stored as %s", t.ID, g.GeoJSONType())
 	}
 	t.Waypoints = ls
 	t.Params = json.RawMessage(params)
@@ -39,20 +34,13 @@ func scanTrack(sc scanner) (store.Track, error) {
 
 // CreateTrack implements store.Store.
 func (s *Store) CreateTrack(ctx context.Context, t store.Track) (store.Track, error) {
-	if err := t.Validate(); err != nil {
+	if err := t.PrepareCreate(); err != nil {
 		return store.Track{}, err
-	}
-	if t.ID == "" {
-		t.ID = store.NewID(store.PrefixTrack)
 	}
 	wp, err := wkb.Marshal(t.Waypoints)
 	if err != nil {
 		return store.Track{}, fmt.Errorf("%w: track waypoints: %v", store.ErrInvalid, err)
 	}
-	t.Params = store.NormaliseParams(t.Params)
-	t.CreatedAt = store.Now()
-	t.UpdatedAt = t.CreatedAt
-	t.Version = 1
 	err = s.write(ctx, func(tx *sql.Tx) error {
 		_, err := tx.ExecContext(ctx, `INSERT INTO tracks (`+trackCols+`) VALUES (?, ?, ?, ?, ?, ?, ?, ?)`,
 			t.ID, t.Name, t.Description, wp, string(t.Params), micros(t.CreatedAt), micros(t.UpdatedAt), t.Version)
@@ -82,32 +70,18 @@ func (s *Store) ListTracks(ctx context.Context, p store.Page) ([]store.Track, er
 	if err != nil {
 		return nil, fmt.Errorf("listing tracks: %w", err)
 	}
-	defer rows.Close()
-	out := []store.Track{}
-	for rows.Next() {
-		t, err := scanTrack(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, t)
-	}
-	return out, rows.Err()
+	return collect(rows, scanTrack)
 }
 
 // UpdateTrack implements store.Store.
 func (s *Store) UpdateTrack(ctx context.Context, t store.Track) (store.Track, error) {
-	if t.ID == "" {
-		return store.Track{}, fmt.Errorf("%w: track id is required", store.ErrInvalid)
-	}
-	if err := t.Validate(); err != nil {
+	if err := t.PrepareUpdate(); err != nil {
 		return store.Track{}, err
 	}
 	wp, err := wkb.Marshal(t.Waypoints)
 	if err != nil {
 		return store.Track{}, fmt.Errorf("%w: track waypoints: %v", store.ErrInvalid, err)
 	}
-	t.Params = store.NormaliseParams(t.Params)
-	t.UpdatedAt = store.Now()
 	expected := t.Version
 	err = s.write(ctx, func(tx *sql.Tx) error {
 		var created int64

@@ -607,6 +607,14 @@ func TestPageDemoBasin(t *testing.T) {
 		if bins := eval[int](b, `Number(document.getElementById("region-histogram").dataset.bins || 0)`); bins <= 0 {
 			t.Errorf("the histogram has no bins")
 		}
+		// The page read the service's unit-suffixed statistics (mean_m, median_m, p05_m…):
+		// no row says "no data", and the histogram is the service's, not binned in the browser.
+		if txt := eval[string](b, `document.getElementById("region-stats-table").textContent`); strings.Contains(txt, "no data") {
+			t.Errorf("region statistics table has a missing value: %s", txt)
+		}
+		if txt := eval[string](b, `document.getElementById("region-histogram").textContent`); strings.Contains(txt, "binned in the browser") {
+			t.Errorf("the histogram was binned in the browser, so the service's was not read: %s", txt)
+		}
 	}
 	links := eval[[]string](b, `[...document.querySelectorAll("#region-downloads a")].map(a => a.dataset.format)`)
 	if strings.Join(links, ",") != "COG,netCDF,CSV,PNG" {

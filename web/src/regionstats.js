@@ -3,44 +3,35 @@
 // whose CoverageJSON answer carries area-weighted statistics per parameter
 // under "ridgeflank:statistics".
 // Returns {count, noData, mean, median, std, p05, p25, p75, p95, edges, counts}
-// with counts as the share of the region's area in each bin (%).
+// with counts as the share of the region's area in each bin (%). The service
+// names every field that carries a unit with that unit (mean_m, p05_m,
+// edges_m for residual depth, in metres).
 
 import { request, query } from "./api.js";
 
 const num = (v) => (v === null || v === undefined ? NaN : Number(v));
 
-function pick(o, ...names) {
-  for (const n of names) if (o && o[n] !== undefined) return o[n];
-  return undefined;
-}
-
-/** normaliseStats reads a statistics object as the service writes it. */
-export function normaliseStats(s) {
-  const h = s.histogram || {};
-  let edges = h.edges || h.bin_edges || h.edges_m || null;
-  let counts = h.area_fractions || h.area_fraction || h.fractions || null;
-  if (!counts && h.counts) {
-    const n = h.counts.reduce((a, b) => a + b, 0);
-    counts = n > 0 ? h.counts.map((c) => c / n) : h.counts;
-  }
-  if (!edges && Array.isArray(h.bins)) {
-    edges = [...h.bins.map((b) => num(pick(b, "min", "from", "lower", "min_m"))), num(pick(h.bins[h.bins.length - 1], "max", "to", "upper", "max_m"))];
-    counts = h.bins.map((b) => num(pick(b, "fraction", "area_fraction", "count", "weight")));
-  }
-  if (counts && counts.length) {
-    const total = counts.reduce((a, b) => a + b, 0);
-    if (total > 0 && total <= 1.0001) counts = counts.map((c) => c * 100);
-  }
+/**
+ * normaliseStats reads one parameter's statistics object as the service
+ * writes it; unit is the name suffix of the parameter's unit ("m", "ma",
+ * "mw_m2", "km").
+ */
+export function normaliseStats(s, unit = "m") {
+  const u = (name) => num(s?.[`${name}_${unit}`]);
+  const h = s?.histogram || {};
+  const edges = h[`edges_${unit}`] || null;
+  let counts = h.area_fractions || null;
+  if (counts && counts.length) counts = counts.map((c) => c * 100);
   return {
-    count: num(pick(s, "count", "cells", "n")),
-    noData: num(pick(s, "no_data", "nodata", "no_data_cells", "missing")),
-    mean: num(pick(s, "mean_m", "mean", "area_weighted_mean_m")),
-    median: num(pick(s, "median_m", "median")),
-    std: num(pick(s, "std_m", "stddev_m", "std", "spread_m")),
-    p05: num(pick(s, "p05_m", "p05", "p5_m")),
-    p25: num(pick(s, "p25_m", "p25")),
-    p75: num(pick(s, "p75_m", "p75")),
-    p95: num(pick(s, "p95_m", "p95")),
+    count: num(s?.count),
+    noData: num(s?.no_data),
+    mean: u("mean"),
+    median: u("median"),
+    std: u("std"),
+    p05: u("p05"),
+    p25: u("p25"),
+    p75: u("p75"),
+    p95: u("p95"),
     edges,
     counts,
   };
@@ -107,8 +98,7 @@ export async function loadRegionStats(datasetId, r, model) {
     })}`,
     { what: "Computing the region's statistics", headers: { Accept: "application/vnd.cov+json, application/problem+json" } },
   );
-  const all = body?.["ridgeflank:statistics"] || body?.statistics || {};
-  const s = normaliseStats(all.residual_depth || {});
+  const s = normaliseStats(body?.["ridgeflank:statistics"]?.residual_depth, "m");
   if (!s.edges?.length) {
     // The service gave no histogram: bin the returned grid here.
     const h = histogramFromGrid(body, "residual_depth");

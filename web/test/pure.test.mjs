@@ -123,6 +123,23 @@ test("area-weighted histogram of a grid coverage", async () => {
   assert.equal(histogramFromGrid({ ranges: {} }, "residual_depth"), null);
 });
 
+test("region statistics read with the unit in every name", async () => {
+  const { normaliseStats } = await import("../src/regionstats.js");
+  // Names as in the service's OpenAPI document (components/schemas/StatisticsM, HistogramM).
+  const s = normaliseStats({
+    count: 4, no_data: 1, weight_sum: 3.5,
+    mean_m: 120, std_m: 40, min_m: 50, max_m: 180, median_m: 110, p05_m: 55, p25_m: 90, p75_m: 150, p95_m: 175,
+    histogram: { edges_m: [50, 100, 150, 200], counts: [1, 2, 1], area_fractions: [0.25, 0.5, 0.25], below: 0, above: 0 },
+  });
+  assert.deepEqual([s.count, s.noData, s.mean, s.median, s.std, s.p05, s.p95], [4, 1, 120, 110, 40, 55, 175]);
+  assert.deepEqual(s.edges, [50, 100, 150, 200]);
+  assert.deepEqual(s.counts, [25, 50, 25]); // area fractions as % of the area
+  // Another unit's suffix, and names without a unit are not read.
+  assert.equal(normaliseStats({ mean_ma: 12 }, "ma").mean, 12);
+  assert.ok(Number.isNaN(normaliseStats({ mean: 120 }).mean));
+  assert.equal(normaliseStats(undefined).edges, null);
+});
+
 test("land rings across the antimeridian and round a pole", async (t) => {
   const { fixRing } = await import("../src/geometry.js");
   await t.test("antimeridian: continuous longitudes", () => {
