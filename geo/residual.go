@@ -785,14 +785,14 @@ func (p *residualPlan) chunk(w *residualWorker, age, obs, sed, crust []float32, 
 }
 
 // residualFusedChunk is the hot loop: res = predicted(age) − (sign·obs + sediment
-// correction(sed)), the prediction interpolated from depthTable and the correction from
-// sedTable, both indexed straight by the bits of the float32 inputs (no square root, no
-// float→int conversion, see tableNode). The loop itself makes no calls: a value outside its
-// table (no data, negative, or beyond the table) gives NaN through one unsigned index test,
-// and the rare chunks holding a non-NaN value outside a table (negative, infinite, age older
-// than the depth table, sediment thicker than the sediment table) have their NaN cells
-// recomputed afterwards through the tables' at methods (thermal's point functions beyond the
-// tables).
+// correction(sed)), the prediction interpolated from thermal's depth nodes (Table.DepthNodes)
+// and the correction from its sediment nodes (SedimentCorrector.Nodes), both indexed straight
+// by the bits of the float32 inputs (no square root, no float→int conversion, see
+// thermal.Float32Nodes). The loop itself makes no calls: a value outside its table (no data,
+// negative, or beyond the table) gives NaN through one unsigned index test, and the rare chunks
+// holding a non-NaN value outside a table (negative, −0, infinite, age at or beyond
+// thermal.TableMaxAgeMa, sediment at or beyond thermal.SedimentNodesMaxM) have their NaN cells
+// recomputed afterwards through the tables' at methods (thermal's point functions).
 func residualFusedChunk(res, age, obs, sed []float32, sign float32, dt *depthTable, st *sedTable) {
 	n := len(res)
 	if n == 0 {
@@ -814,18 +814,23 @@ func float32Bits(s []float32) []uint32 {
 	return unsafe.Slice((*uint32)(unsafe.Pointer(unsafe.SliceData(s))), len(s))
 }
 
+const (
+	signBit32 = 1 << 31
+	infBits32 = 0x7f800000 // math.Float32bits(+Inf)
+)
+
 // fusedChunkTables is the table-only part of residualFusedChunk; ageBits and sedBits are the
 // bit patterns of age and sediment thickness (all slices as long as res). It reports whether
 // some cell held a non-NaN value outside a table (its result is NaN and needs the slow path).
-func fusedChunkTables(res []float32, ageBits []uint32, obs []float32, sedBits []uint32, sign float32, dn *depthNodes, sn *sedNodes) (beyond bool) {
+func fusedChunkTables(res []float32, ageBits []uint32, obs []float32, sedBits []uint32, sign float32, dn *ageNodes, sn *sedNodes) (beyond bool) {
 	n := len(res)
 	ageBits, obs, sedBits = ageBits[:n], obs[:n], sedBits[:n]
 	nan := float32(math.NaN())
 	for i := range res {
 		ab := ageBits[i]
 		var pd float32
-		if j := uint(ab >> nodeFracBits); j < uint(len(dn)) {
-			pd = dn[j].at(ab)
+		if j := uint(ab >> thermal.Float32NodeShift); j < uint(len(dn)) {
+			pd = dn[j].At(ab)
 		} else {
 			pd = nan
 			if ab&^signBit32 <= infBits32 {
@@ -834,8 +839,8 @@ func fusedChunkTables(res []float32, ageBits []uint32, obs []float32, sedBits []
 		}
 		sb := sedBits[i]
 		var c float32
-		if k := uint(sb >> nodeFracBits); k < uint(len(sn)) {
-			c = sn[k].at(sb)
+		if k := uint(sb >> thermal.Float32NodeShift); k < uint(len(sn)) {
+			c = sn[k].At(sb)
 		} else {
 			c = nan
 			if sb&^signBit32 <= infBits32 {
@@ -847,112 +852,32 @@ func fusedChunkTables(res []float32, ageBits []uint32, obs []float32, sedBits []
 	return beyond
 }
 
-// tableNode is one interval of a float32 table indexed by the bits of a non-negative float32 x:
-// node j starts at the float32 whose bits are j<<nodeFracBits, so j = bits>>nodeFracBits and
-// the low nodeFracBits bits place x inside the interval. Within an interval the exponent is
-// fixed (or the interval ends exactly at the next power of two), so x is linear in those low
-// bits, and v + low·d interpolates linearly in x with d = (f(next node) − f(node))/2^nodeFracBits.
-// The nodes are 2^(23−nodeFracBits) = 256 per octave [2^e, 2^(e+1)), a spacing h = 2^e/256
-// (between x/512 and x/256) that grows in proportion to x, and reach down to 0 through the
-// subnormal numbers, so x = 0 is node 0. Linear interpolation over a step h misses a curve of
-// second derivative f″ by at most h²·|f″|/8 (error bounds worked out by hand with this rule;
-// the tests check them against thermal's point functions). A table ending at 2^E has
-// (127+E)·256 nodes of 8 bytes (about 280 KiB for E = 9 or 15), of which a grid's ages or
-// thicknesses touch a few octaves.
-type tableNode struct{ v, d float32 }
-
-// at interpolates inside the node's interval at the float32 whose bits are bits (the node
-// being number bits>>nodeFracBits).
-func (e tableNode) at(bits uint32) float32 { return e.v + float32(bits&nodeFracMask)*e.d }
-
-// fillNodes sets every node from f (x in the table's unit) at the start of its interval and
-// of the next one.
-func fillNodes(n []tableNode, f func(x float64) float64) {
-	v0 := f(0)
-	for j := range n {
-		v1 := f(nodeX(j + 1))
-		n[j] = tableNode{float32(v0), float32((v1 - v0) / (1 << nodeFracBits))}
-		v0 = v1
-	}
-}
-
-const (
-	nodeFracBits = 15
-	nodeFracMask = 1<<nodeFracBits - 1
-	signBit32    = 1 << 31
-	infBits32    = 0x7f800000 // math.Float32bits(+Inf)
+// ageNodes and sedNodes hold thermal's node tables as fixed-size arrays, so the bounds test of
+// the hot loop compares with a constant and leaves a register free.
+type (
+	ageNodes = [thermal.AgeNodeCount]thermal.Float32Node
+	sedNodes = [thermal.SedimentNodeCount]thermal.Float32Node
 )
 
-// depthTable is a float32 resampling of a thermal.Table's predicted depth on tableNode nodes in
-// age (Ma), for the fused loop, over ages below depthTableMaxAgeMa. For the half-space law
-// d = 2600 + 350·√t (the most curved of the models; f″ = −87.5·t^−1.5) the octave starting at
-// 2^e has h = 2^e/256 and misses by at most h²·87.5·2^(−1.5e)/8 = 87.5/8·2^(e/2)/65536, which
-// grows with the octave up to 2.7 mm for 256–512 Ma; the young octaves miss far less. With
-// float32 rounding (0.5 mm at 6 km) the tests find at most 4 mm against Table.DepthM, well
-// inside their 1 cm and the thermal package's 0.5 m. Older, negative and NaN ages fall outside
-// the table.
+// depthTable pairs a thermal.Table with its depth nodes (Table.DepthNodes) for the fused loop.
 type depthTable struct {
 	tbl *thermal.Table
-	n   *depthNodes
+	n   *ageNodes
 }
 
-const (
-	// depthTableMaxAgeMa (2^9 Ma) is the end of depthTable.
-	depthTableMaxAgeMa = 512
-	// depthTableEndBits is math.Float32bits(depthTableMaxAgeMa): exponent 127+9, mantissa 0.
-	depthTableEndBits = (127 + 9) << 23
-)
-
-type depthNodes [depthTableEndBits >> nodeFracBits]tableNode
-
-func (t *depthTable) slow(a float32) float32 { return float32(t.tbl.DepthM(float64(a))) }
+// depthTableFor returns the depth table of t (no copy: the nodes belong to t).
+func depthTableFor(t *thermal.Table) *depthTable {
+	return &depthTable{tbl: t, n: (*ageNodes)(t.DepthNodes())}
+}
 
 // at is the depth table's value at one age: the fused loop's interpolation inside the table,
-// thermal's Table.DepthM beyond it, NaN for NaN and negative ages.
+// thermal's Table.DepthM beyond it (NaN for NaN and negative ages).
 func (t *depthTable) at(a float32) float32 {
 	ab := math.Float32bits(a)
-	if j := uint(ab >> nodeFracBits); j < uint(len(t.n)) {
-		return t.n[j].at(ab)
+	if j := uint(ab >> thermal.Float32NodeShift); j < uint(len(t.n)) {
+		return t.n[j].At(ab)
 	}
-	if a >= 0 {
-		return t.slow(a)
-	}
-	return float32(math.NaN())
-}
-
-// nodeX is the start of tableNode interval j (j may be one past the last node).
-func nodeX(j int) float64 { return float64(math.Float32frombits(uint32(j) << nodeFracBits)) }
-
-// newDepthTable builds the depth table of t (about 35 000 calls of Table.DepthM).
-func newDepthTable(t *thermal.Table) *depthTable {
-	dt := &depthTable{tbl: t, n: new(depthNodes)}
-	fillNodes(dt.n[:], t.DepthM)
-	return dt
-}
-
-var depthTables struct {
-	sync.Mutex
-	m map[*thermal.Table]*depthTable
-}
-
-// depthTableFor returns the (cached) resampled depth table of t.
-func depthTableFor(t *thermal.Table) *depthTable {
-	depthTables.Lock()
-	dt, ok := depthTables.m[t]
-	depthTables.Unlock()
-	if ok {
-		return dt
-	}
-	dt = newDepthTable(t)
-	depthTables.Lock()
-	if depthTables.m == nil {
-		depthTables.m = make(map[*thermal.Table]*depthTable)
-	}
-	if len(depthTables.m) < maxSedTables {
-		depthTables.m[t] = dt
-	}
-	depthTables.Unlock()
-	return dt
+	return float32(t.tbl.DepthM(float64(a)))
 }
 
 // residualSedChunk is the residual loop when predicted depths are computed anyway: res = pred − (sign·obs + sediment correction(sed)),
@@ -989,40 +914,20 @@ func (p *residualPlan) correctedChunk(corr, obs, sed, crust []float32) {
 	}
 }
 
-// sedTable is a float32 resampling of thermal.SedimentCorrector's correction on tableNode nodes
-// in sediment thickness (m), for the fused hot loop, over thicknesses below sedTableMaxM. The
-// correction of an exponential porosity law φ0·e^(−c·z) has
-// f″ = (ρg − ρw)·φ0·c·e^(−c·s)/(ρm − ρw), and h ≤ s/256 gives an error ≤ s²·f″/524288, largest
-// at s = 2/c: 4·(ρg − ρw)·φ0·e^−2/((ρm − ρw)·c·524288), under 1.5 mm for the built-in laws
-// (c ≥ 0.27 /km), on top of the 5 m node spacing of thermal's own table (under 1 mm) and
-// float32 rounding; the tests find at most 3 mm against the closed form. NaN, negative and
-// thicker values fall outside the table.
+// sedTable pairs a thermal.SedimentCorrector with its float32 nodes
+// (SedimentCorrector.Nodes) for the fused hot loop.
 type sedTable struct {
 	corr *thermal.SedimentCorrector
 	n    *sedNodes
 }
 
-const (
-	// sedTableMaxM (2^15 m) is the end of sedTable.
-	sedTableMaxM = 1 << 15
-	// sedTableEndBits is math.Float32bits(sedTableMaxM): exponent 127+15, mantissa 0.
-	sedTableEndBits = (127 + 15) << 23
-)
-
-type sedNodes [sedTableEndBits >> nodeFracBits]tableNode
-
 // at is the sediment table's correction at one thickness: the fused loop's interpolation inside
 // the table, thermal's corrector outside it (NaN for NaN and negative thicknesses).
 func (t *sedTable) at(s float32) float32 {
 	sb := math.Float32bits(s)
-	if k := uint(sb >> nodeFracBits); k < uint(len(t.n)) {
-		return t.n[k].at(sb)
+	if k := uint(sb >> thermal.Float32NodeShift); k < uint(len(t.n)) {
+		return t.n[k].At(sb)
 	}
-	return t.slow(s)
-}
-
-// slow handles sediment outside the table: NaN or negative (NaN) and very thick (thermal).
-func (t *sedTable) slow(s float32) float32 {
 	return float32(t.corr.CorrectionM(float64(s)))
 }
 
@@ -1036,8 +941,8 @@ var sedTables struct {
 	m map[sedKey]*sedTable
 }
 
-// maxSedTables bounds the caches of sediment tables (one per law and pair of densities) and of
-// resampled depth tables (one per thermal table), about 280 KiB each: at most about 18 MiB.
+// maxSedTables bounds the cache of sediment correctors (one per law and pair of densities,
+// about 300 KiB each with their node tables): at most about 10 MiB.
 const maxSedTables = 32
 
 // sedTableFor returns the (cached) sediment table of a compaction law and densities.
@@ -1064,14 +969,13 @@ func sedTableFor(c thermal.Compaction, rm, rw float64) (*sedTable, error) {
 	return t, nil
 }
 
-// newSedTable builds the sediment table of a compaction law and densities (about 36 000 calls of
-// SedimentCorrector.CorrectionM, a few hundred of them beyond its table by quadrature).
+// newSedTable builds the sediment corrector of a compaction law and densities and its node
+// table (about 36 000 calls of SedimentCorrector.CorrectionM, a few hundred of them beyond its
+// uniform table by quadrature).
 func newSedTable(c thermal.Compaction, rm, rw float64) (*sedTable, error) {
 	sc, err := thermal.NewSedimentCorrector(c, rm, rw)
 	if err != nil {
 		return nil, err
 	}
-	t := &sedTable{corr: sc, n: new(sedNodes)}
-	fillNodes(t.n[:], sc.CorrectionM)
-	return t, nil
+	return &sedTable{corr: sc, n: (*sedNodes)(sc.Nodes())}, nil
 }

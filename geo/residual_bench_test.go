@@ -177,30 +177,18 @@ func BenchmarkResidualFusedChunk(b *testing.B) {
 	})
 }
 
-// BenchmarkResidualTableBuild times building the fused loop's two tables (done once per model
-// and per compaction law and densities, then cached).
+// BenchmarkResidualTableBuild times building the fused loop's sediment table (thermal's
+// SedimentCorrector and its node table; done once per compaction law and densities, then
+// cached). The depth nodes are built with thermal's Table (see thermal's BenchmarkTableBuild).
 func BenchmarkResidualTableBuild(b *testing.B) {
-	m, err := thermal.Builtin("gdh1")
-	if err != nil {
-		b.Fatal(err)
-	}
 	sh, err := thermal.CompactionByName("shale")
 	if err != nil {
 		b.Fatal(err)
 	}
-	tbl := thermal.TableFor(m)
-	b.Run("depth", func(b *testing.B) {
-		b.ReportAllocs()
-		for i := 0; i < b.N; i++ {
-			newDepthTable(tbl)
+	b.ReportAllocs()
+	for i := 0; i < b.N; i++ {
+		if _, err := newSedTable(sh, 3330, 1000); err != nil {
+			b.Fatal(err)
 		}
-	})
-	b.Run("sediment", func(b *testing.B) {
-		b.ReportAllocs()
-		for i := 0; i < b.N; i++ {
-			if _, err := newSedTable(sh, 3330, 1000); err != nil {
-				b.Fatal(err)
-			}
-		}
-	})
+	}
 }

@@ -559,7 +559,7 @@ func ExampleEvaluate() {
 
 func TestResidualSedimentTable(t *testing.T) {
 	// The float32 table of the fused loop against thermal's point function (Sclater & Christie
-	// 1980 integral by quadrature), over the table and beyond it (> thermal.MaxSedimentTableM),
+	// 1980 integral by quadrature), over the table and beyond thermal's uniform one (> thermal.MaxSedimentTableM),
 	// and against the closed form: within 1 cm (float32 rounding of corrections up to ~10 km).
 	sh := resShale(t)
 	tab, err := sedTableFor(sh, 3330, 1000)
@@ -664,7 +664,7 @@ func TestResidualFusedSweep(t *testing.T) {
 	// predicted depth (observed depth and sediment 0) within 1 cm of thermal's Table.DepthM
 	// everywhere (tolerance common practice, no source: float32 rounding of ~6 km is 0.5 mm)
 	// and within 0.5 m of the model's own Model.DepthM over 0–300 Ma (the thermal package's
-	// bound for its table); ages outside the table (NaN, negative, −0, beyond 512 Ma, infinite)
+	// bound for its table); ages outside the table (NaN, negative, −0, from 400 Ma on, infinite)
 	// must give what Table.DepthM gives. Every sweep also runs the ages in one chunk mixed with
 	// out-of-table values, so the recomputation pass is exercised next to table cells.
 	specials := []float64{math.NaN(), math.Copysign(0, -1), -1e-30, -1e-6, -1, -400, math.Inf(-1), math.Inf(1),
@@ -681,9 +681,6 @@ func TestResidualFusedSweep(t *testing.T) {
 		if j := 97 * (i + 1); j < len(ages) {
 			ages[j], ages[len(ages)-1] = ages[len(ages)-1], ages[j]
 		}
-	}
-	if math.Float32bits(depthTableMaxAgeMa) != depthTableEndBits || math.Float32bits(sedTableMaxM) != sedTableEndBits {
-		t.Fatal("table end bit patterns do not match the table ends")
 	}
 	sh := resShale(t)
 	for _, id := range thermal.BuiltinIDs() {

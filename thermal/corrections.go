@@ -115,12 +115,21 @@ func SedimentCorrectionM(thicknessM float64, c Compaction, mantleKgM3, waterKgM3
 // The correction's curvature is at most (ρg − ρw)·φ0·c/(ρm − ρw), below
 // 3e-4 /m for the Sclater & Christie laws, so the interpolation error
 // h²/8·3e-4 stays below 4 mm. Thicknesses above MaxSedimentTableM are
-// integrated directly. Safe for concurrent use.
+// integrated directly.
+//
+// The batch form CorrectionsM reads a second table resampled from the first
+// (and from direct integration above MaxSedimentTableM) on bit-indexed
+// float32 nodes over [0, SedimentNodesMaxM) m (Float32Nodes, built on first
+// use, about 280 KiB). The correction of an exponential porosity law has
+// f″ = (ρg − ρw)·φ0·c·e^(−c·s)/(ρm − ρw) and the nodes a spacing
+// h ≤ s/256, so they add at most s²·f″/524288, largest at s = 2/c:
+// 4·(ρg − ρw)·φ0·e^−2/((ρm − ρw)·c·524288), under 1.5 mm for the built-in
+// laws (c ≥ 0.27 /km), plus float32 rounding. Safe for concurrent use.
 type SedimentCorrector struct {
 	c                 Compaction
 	mantleKgM3, water float64
 	nodes             []float64
-	pairs             []float32 // (value, slope) per interval for the batch path
+	bits              lazyNodes
 }
 
 const (
@@ -128,6 +137,10 @@ const (
 	// covers (m); thicker columns are integrated directly.
 	MaxSedimentTableM = 20000.0
 	sedimentStepM     = 10.0
+	// SedimentNodesMaxM (2^15 m) is the end of the SedimentCorrector's
+	// bit-indexed float32 table (see Nodes); CorrectionsM integrates thicker
+	// columns directly.
+	SedimentNodesMaxM = 1 << 15
 )
 
 // NewSedimentCorrector tabulates SedimentCorrectionM for one law and pair of
@@ -145,17 +158,13 @@ func NewSedimentCorrector(c Compaction, mantleKgM3, waterKgM3 float64) (*Sedimen
 	}
 	n := int(MaxSedimentTableM / sedimentStepM)
 	s := &SedimentCorrector{c: c, mantleKgM3: mantleKgM3, water: waterKgM3,
-		nodes: make([]float64, n+1), pairs: make([]float32, 2*n)}
+		nodes: make([]float64, n+1)}
 	// Integrate node to node (cumulative), each piece by 4-point quadrature
 	// (exact to rounding over 10 m of a smooth exponential).
 	f := func(z float64) float64 { return mantleKgM3 - c.bulkDensity(z, waterKgM3) }
 	for i := 1; i <= n; i++ {
 		z0, z1 := float64(i-1)*sedimentStepM, float64(i)*sedimentStepM
 		s.nodes[i] = s.nodes[i-1] + quad.Fixed(f, z0, z1, 4, quad.Legendre{}, 0)/(mantleKgM3-waterKgM3)
-	}
-	for i := 0; i < n; i++ {
-		s.pairs[2*i] = float32(s.nodes[i])
-		s.pairs[2*i+1] = float32(s.nodes[i+1] - s.nodes[i])
 	}
 	return s, nil
 }
@@ -174,31 +183,29 @@ func (s *SedimentCorrector) CorrectionM(thicknessM float64) float64 {
 	return s.nodes[i] + f*(s.nodes[i+1]-s.nodes[i])
 }
 
-// CorrectionsM writes CorrectionM of every thickness (m) to out, which must
-// be at least as long; NaN or negative thickness gives NaN. It does not
-// allocate and runs on the calling goroutine.
+// CorrectionsM writes the correction (m) of every thickness (m) to out,
+// which must be at least as long: CorrectionM within the float32 node table
+// described at SedimentCorrector (within 1.5 mm plus float32 rounding) and
+// exactly CorrectionM beyond it. NaN or negative thickness gives NaN. It does
+// not allocate (after the first call builds the node table) and runs on the
+// calling goroutine.
 func (s *SedimentCorrector) CorrectionsM(thicknessM []float32, out []float32) {
-	if len(out) < len(thicknessM) {
-		panic("thermal: CorrectionsM output slice shorter than the input")
+	s.Nodes().batchWithFallback(thicknessM, out, s.CorrectionM)
+}
+
+// Nodes is the correction (m) on bit-indexed float32 nodes in thickness (m)
+// over [0, SedimentNodesMaxM), built on first use, for callers that fuse the
+// lookup into their own loops (see Float32Nodes). Thicknesses outside it must
+// be given CorrectionM.
+func (s *SedimentCorrector) Nodes() Float32Nodes {
+	if p := s.bits.load(); p != nil {
+		return *p
 	}
-	out = out[:len(thicknessM)]
-	pairs := s.pairs
-	const inv = float32(1 / sedimentStepM)
-	// Stop one step short of the end so rounding never indexes past it.
-	const top = float32(MaxSedimentTableM - sedimentStepM)
-	for i, h := range thicknessM {
-		if h >= 0 && h < top {
-			x := h * inv
-			j := int(x)
-			f := x - float32(j)
-			p := pairs[2*j : 2*j+2 : 2*j+2]
-			out[i] = p[0] + f*p[1]
-		} else if !(h >= 0) {
-			out[i] = nan32 // NaN or negative
-		} else {
-			out[i] = float32(s.CorrectionM(float64(h)))
-		}
-	}
+	return *s.buildNodes()
+}
+
+func (s *SedimentCorrector) buildNodes() *Float32Nodes {
+	return s.bits.build(SedimentNodesMaxM, s.CorrectionM)
 }
 
 // Crust correction constants (common practice, no source): normal oceanic
