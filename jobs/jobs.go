@@ -7,6 +7,7 @@ import (
 	"errors"
 	"fmt"
 	"log/slog"
+	"sync"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -81,6 +82,7 @@ type ExportArgs struct {
 func (ExportArgs) Kind() string { return KindExport }
 
 // Progress reports a job's progress: fraction in [0, 1] and a short message.
+// It is safe to call from several goroutines.
 type Progress func(fraction float64, message string)
 
 // Handlers do the work of each kind. A handler returns a JSON-encodable
@@ -238,10 +240,13 @@ func newQueue[TTx any](driver riverdriver.Driver[TTx], h Handlers, o Options, pi
 // and the final result.
 func (q *riverQueue[TTx]) run(ctx context.Context, id int64, fn func(Progress) (any, error)) error {
 	var (
+		mu      sync.Mutex // a handler may report from several goroutines
 		last    time.Time
 		lastMsg string
 	)
 	progress := func(f float64, msg string) {
+		mu.Lock()
+		defer mu.Unlock()
 		if time.Since(last) < 250*time.Millisecond && f < 1 && msg == lastMsg {
 			return
 		}

@@ -173,7 +173,7 @@ func (s *server) answerArea(w http.ResponseWriter, r *http.Request, d *dataset, 
 	prov.setHeaders(w)
 	switch format {
 	case fmtCSV:
-		return writeGridCSV(w, name+".csv", res.lattice, o.Params, res.grids)
+		return writeGridCSV(w, name+".csv", prov.Caution, res.lattice, o.Params, res.grids)
 	case fmtCOG, fmtNetCDF:
 		p := o.Params[0]
 		meta := gdal.Meta{Name: p.ID, LongName: p.Label, Units: p.Unit, Title: d.Row.Name + ": " + p.Label,
@@ -206,7 +206,7 @@ func (s *server) answerArea(w http.ResponseWriter, r *http.Request, d *dataset, 
 			return err
 		}
 		w.Header().Set("Content-Type", MediaPNG)
-		_, err = w.Write(buf.Bytes())
+		_, err = w.Write(withPNGCaution(buf.Bytes(), prov.Caution))
 		return err
 	}
 	c := gridCoverage(res.lattice, o.Params, res.grids)
@@ -466,7 +466,7 @@ func sampleOnto(lattice, src *geo.Grid) *geo.Grid {
 	return out
 }
 
-func writeGridCSV(w http.ResponseWriter, filename string, lattice *geo.Grid, ps []paramInfo, grids []*geo.Grid) error {
+func writeGridCSV(w http.ResponseWriter, filename, caution string, lattice *geo.Grid, ps []paramInfo, grids []*geo.Grid) error {
 	n := lattice.NX * lattice.NY
 	lons, lats := make([]float64, 0, n), make([]float64, 0, n)
 	cols := make([][]float64, len(ps))
@@ -496,7 +496,7 @@ func writeGridCSV(w http.ResponseWriter, filename string, lattice *geo.Grid, ps 
 	for _, p := range ps {
 		header = append(header, p.ID+"_"+unitSuffix(p.Unit))
 	}
-	return writeCSV(w, filename, header, append([][]float64{lons, lats}, cols...)...)
+	return writeCSV(w, filename, caution, header, append([][]float64{lons, lats}, cols...)...)
 }
 
 // renderGrid colour-maps a lon/lat grid row by row (no data transparent).

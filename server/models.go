@@ -272,7 +272,7 @@ func (s *server) modelCurve(w http.ResponseWriter, r *http.Request) error {
 	prov.Caution = Caution
 	prov.setHeaders(w)
 	if asCSV {
-		return writeCSV(w, "curve-"+m.Params().ID+".csv",
+		return writeCSV(w, "curve-"+m.Params().ID+".csv", prov.Caution,
 			[]string{"age_ma", "depth_m", "heat_flow_mw_m2", "thermal_thickness_km", "depth_600c_km", "subsidence_rate_m_per_myr"},
 			ages, depth, hf, thick, iso, rate)
 	}
@@ -331,7 +331,7 @@ func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
 	prov := s.provenance(m)
 	prov.setHeaders(w)
 	if asCSV {
-		return writeCSV(w, "geotherm-"+m.Params().ID+".csv", []string{"depth_km", "temperature_c"}, depths, temps)
+		return writeCSV(w, "geotherm-"+m.Params().ID+".csv", "", []string{"depth_km", "temperature_c"}, depths, temps)
 	}
 	return writeJSON(w, http.StatusOK, "", map[string]any{
 		"model":                m.Params().ID,
@@ -344,11 +344,18 @@ func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
 	})
 }
 
-// writeCSV writes equal-length columns with a header row. Non-finite values
+// writeCSV writes equal-length columns with a header row. A non-empty
+// caution is written first as one comment line starting with "# ", so a
+// saved file keeps the navigation caution. Non-finite values
 // are written as empty fields.
-func writeCSV(w http.ResponseWriter, filename string, header []string, cols ...[]float64) error {
+func writeCSV(w http.ResponseWriter, filename, caution string, header []string, cols ...[]float64) error {
 	w.Header().Set("Content-Type", "text/csv; charset=utf-8; header=present")
 	w.Header().Set("Content-Disposition", `attachment; filename="`+filename+`"`)
+	if caution != "" {
+		if _, err := fmt.Fprintf(w, "# Caution: %s\n", caution); err != nil {
+			return err
+		}
+	}
 	cw := csv.NewWriter(w)
 	if err := cw.Write(header); err != nil {
 		return err

@@ -53,33 +53,32 @@ type problemKind struct {
 
 // Problem codes. These strings are part of the API contract: never rename one.
 const (
-	CodeBadRequest          = "bad-request"
-	CodeInvalidCoords       = "invalid-coords"
-	CodeInvalidGeoJSON      = "invalid-geojson"
-	CodeInvalidParameter    = "invalid-parameter"
-	CodeUnknownParameter    = "unknown-parameter-name"
-	CodeUnknownModel        = "unknown-model"
-	CodeUnknownSediment     = "unknown-sediment"
-	CodeAgeOutOfRange       = "age-out-of-range"
-	CodeUnsupportedFormat   = "unsupported-format"
-	CodeLimitExceeded       = "limit-exceeded"
-	CodeBodyTooLarge        = "body-too-large"
-	CodeUnsupportedMedia    = "unsupported-media-type"
-	CodeUnauthorized        = "unauthorized"
-	CodeForbidden           = "forbidden"
-	CodeNotFound            = "not-found"
-	CodeMethodNotAllowed    = "method-not-allowed"
-	CodeConflict            = "conflict"
-	CodePreconditionFailed  = "precondition-failed"
-	CodePreconditionNeeded  = "precondition-required"
-	CodeNoData              = "no-data"
-	CodeRateLimited         = "rate-limited"
-	CodeTimeout             = "timeout"
-	CodeUnavailable         = "unavailable"
-	CodeInternal            = "internal"
-	CodeInvalidModelParams  = "invalid-model-parameters"
-	CodeInvalidGrid         = "invalid-grid"
-	CodeNotImplementedQuery = "not-implemented"
+	CodeBadRequest         = "bad-request"
+	CodeInvalidCoords      = "invalid-coords"
+	CodeInvalidGeoJSON     = "invalid-geojson"
+	CodeInvalidParameter   = "invalid-parameter"
+	CodeUnknownParameter   = "unknown-parameter-name"
+	CodeUnknownModel       = "unknown-model"
+	CodeUnknownSediment    = "unknown-sediment"
+	CodeAgeOutOfRange      = "age-out-of-range"
+	CodeUnsupportedFormat  = "unsupported-format"
+	CodeLimitExceeded      = "limit-exceeded"
+	CodeBodyTooLarge       = "body-too-large"
+	CodeUnsupportedMedia   = "unsupported-media-type"
+	CodeUnauthorized       = "unauthorized"
+	CodeForbidden          = "forbidden"
+	CodeNotFound           = "not-found"
+	CodeMethodNotAllowed   = "method-not-allowed"
+	CodeConflict           = "conflict"
+	CodePreconditionFailed = "precondition-failed"
+	CodePreconditionNeeded = "precondition-required"
+	CodeNoData             = "no-data"
+	CodeRateLimited        = "rate-limited"
+	CodeTimeout            = "timeout"
+	CodeUnavailable        = "unavailable"
+	CodeInternal           = "internal"
+	CodeInvalidModelParams = "invalid-model-parameters"
+	CodeInvalidGrid        = "invalid-grid"
 )
 
 var problemKinds = map[string]problemKind{}
@@ -112,7 +111,6 @@ func init() {
 		{Code: CodeInternal, Status: 500, Title: "Internal error"},
 		{Code: CodeInvalidModelParams, Status: 422, Title: "Invalid model parameters"},
 		{Code: CodeInvalidGrid, Status: 422, Title: "Grid file not usable"},
-		{Code: CodeNotImplementedQuery, Status: 501, Title: "Not implemented"},
 	} {
 		k.Type = ProblemTypeBase + k.Code
 		problemKinds[k.Code] = k

@@ -2,10 +2,12 @@ package server
 
 import (
 	"crypto/sha256"
+	"encoding/binary"
 	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
+	"hash/crc32"
 	"net/http"
 	"strings"
 
@@ -111,6 +113,29 @@ func (p Provenance) metadata() map[string]string {
 		m["ridgeflank_caution"] = p.Caution
 	}
 	return m
+}
+
+// withPNGCaution returns the PNG file raw with a tEXt chunk under the
+// keyword "Disclaimer" (one of the keywords the PNG specification, ISO/IEC
+// 15948:2004 section 11.3.4.2, predefines) holding caution, inserted right
+// after the IHDR chunk, so a saved picture keeps the navigation caution.
+// raw is returned unchanged if caution is empty or raw does not start with
+// a PNG signature and IHDR chunk.
+func withPNGCaution(raw []byte, caution string) []byte {
+	const ihdrEnd = 8 + 4 + 4 + 13 + 4 // signature, IHDR length, type, data, CRC
+	if caution == "" || len(raw) < ihdrEnd || string(raw[12:16]) != "IHDR" {
+		return raw
+	}
+	data := append([]byte("Disclaimer\x00"), caution...)
+	chunk := make([]byte, 0, 12+len(data))
+	chunk = binary.BigEndian.AppendUint32(chunk, uint32(len(data)))
+	chunk = append(chunk, "tEXt"...)
+	chunk = append(chunk, data...)
+	chunk = binary.BigEndian.AppendUint32(chunk, crc32.ChecksumIEEE(chunk[4:]))
+	out := make([]byte, 0, len(raw)+len(chunk))
+	out = append(out, raw[:ihdrEnd]...)
+	out = append(out, chunk...)
+	return append(out, raw[ihdrEnd:]...)
 }
 
 func asMaxBytes(err error, target **http.MaxBytesError) bool { return errors.As(err, target) }

@@ -280,7 +280,7 @@ func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType st
 			header = append(header, p.ID+"_"+unitSuffix(p.Unit))
 			cols = append(cols, values[i])
 		}
-		return writeCSV(w, d.Row.ID+"-"+kind+".csv", header, cols...)
+		return writeCSV(w, d.Row.ID+"-"+kind+".csv", prov.Caution, header, cols...)
 	}
 	c := pointCoverage(lons, lats, o.Params, values)
 	c.Provenance = &prov
@@ -381,7 +381,9 @@ func (s *server) answerTrajectory(w http.ResponseWriter, r *http.Request, d *dat
 	if err != nil {
 		return err
 	}
-	// Sample spacing: spacing-km, or the age grid's row spacing.
+	// Sample spacing: spacing-km, or the age grid's row spacing at a nominal
+	// 111.32 km per degree (2π × 6378.137 km / 360, the WGS84 equatorial
+	// radius; worked by hand).
 	spacingKm := d.Age.DY * 111.32
 	if v := r.URL.Query().Get("spacing-km"); v != "" {
 		f, err := strconv.ParseFloat(v, 64)

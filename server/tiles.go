@@ -99,7 +99,7 @@ func (s *server) tile(w http.ResponseWriter, r *http.Request) error {
 	}
 	s.metrics.tiles.Inc()
 	w.Header().Set("Content-Type", MediaPNG)
-	_, err = w.Write(buf.Bytes())
+	_, err = w.Write(withPNGCaution(buf.Bytes(), prov.Caution))
 	return err
 }
 

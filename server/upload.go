@@ -78,9 +78,13 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 			}
 			tmpPath = f.Name()
 			h := sha256.New()
-			n, err := io.Copy(io.MultiWriter(f, h), part)
+			src := &errReader{r: part}
+			n, err := io.Copy(io.MultiWriter(f, h), src)
 			if cerr := f.Close(); err == nil {
 				err = cerr
+			}
+			if err != nil && src.err != nil {
+				return badBodyRead(err) // the client's body, not our disk
 			}
 			if err != nil {
 				return err
@@ -91,7 +95,7 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 		}
 		v, err := io.ReadAll(io.LimitReader(part, maxFormFieldBytes+1))
 		if err != nil {
-			return err
+			return badBodyRead(err)
 		}
 		if len(v) > maxFormFieldBytes {
 			return limitProblem(http.StatusRequestEntityTooLarge, "max_form_field_bytes", maxFormFieldBytes, "form field %q is longer than %d bytes", name, maxFormFieldBytes)
@@ -241,4 +245,31 @@ func ImportWorker(st store.Store, log *slog.Logger) func(ctx context.Context, a 
 		log.InfoContext(ctx, "grid imported", "grid_id", got.ID, "created", created, "cells", len(g.Data))
 		return map[string]any{"grid_id": got.ID, "sha256": got.ContentHash, "created": created, "nx": g.NX, "ny": g.NY}, nil
 	}
+}
+
+// errReader remembers the first read error of r, so a failed copy can be
+// told apart: a broken request body (the client's fault, 400) from a failed
+// write to disk (ours, 500).
+type errReader struct {
+	r   io.Reader
+	err error
+}
+
+func (e *errReader) Read(p []byte) (int, error) {
+	n, err := e.r.Read(p)
+	if err != nil && err != io.EOF && e.err == nil {
+		e.err = err
+	}
+	return n, err
+}
+
+// badBodyRead maps an error reading the request body to a 400 problem,
+// except for a body over the size limit, which the error handler answers
+// with 413.
+func badBodyRead(err error) error {
+	var mbe *http.MaxBytesError
+	if errors.As(err, &mbe) {
+		return err
+	}
+	return problem(CodeBadRequest, "reading the multipart body: %v", err).withCause(err)
 }

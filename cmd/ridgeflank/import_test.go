@@ -85,6 +85,7 @@ func TestImportConvertsUnitsAndSense(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
+		// 0.5 km = 500 m (SI prefix kilo = 10³, BIPM SI Brochure 9th ed., Table 7).
 		if g.Units != "m" || grid.Data[0] != 500 {
 			t.Fatalf("units %q, value %g; want m and 500", g.Units, grid.Data[0])
 		}

@@ -1,7 +1,3 @@
-// Command ridgeflank predicts seafloor depth, heat flow, lithosphere
-// thickness and temperature from seafloor age with published cooling models,
-// computes residual depth, and serves all of it to a browser page.
-//
 // Each subcommand lives in its own file and registers itself from init()
 // with register; main.go holds only the registry, flag and environment
 // handling, and the exit-status rules:
@@ -11,6 +7,7 @@
 //	1  any other failure
 //
 // Errors are printed on stderr as one plain sentence.
+
 package main
 
 import (

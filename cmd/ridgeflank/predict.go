@@ -90,6 +90,8 @@ func runPredict(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	case "json":
 		return writeErr(writePredictJSON(stdout, m, rows))
 	case "csv":
+		// The caution goes to stderr so the CSV on stdout stays machine-readable.
+		fmt.Fprintln(stderr, caution)
 		return writeErr(writePredictCSV(stdout, rows))
 	default:
 		return writeErr(writePredictTable(stdout, m, rows))

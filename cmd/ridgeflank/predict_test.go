@@ -71,9 +71,12 @@ func TestPredictJSON(t *testing.T) {
 }
 
 func TestPredictCSV(t *testing.T) {
-	code, out, _ := runCLI(t, nil, "predict", "--model", "psm", "--age", "1, 25 ,64", "--format", "csv")
+	code, out, errOut := runCLI(t, nil, "predict", "--model", "psm", "--age", "1, 25 ,64", "--format", "csv")
 	if code != 0 {
 		t.Fatalf("exit %d", code)
+	}
+	if !strings.Contains(errOut, "not for navigation") {
+		t.Errorf("CSV output gives no navigation caution on stderr: %q", errOut)
 	}
 	recs, err := csv.NewReader(strings.NewReader(out)).ReadAll()
 	if err != nil {

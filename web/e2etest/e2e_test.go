@@ -681,11 +681,15 @@ func TestPageDemoBasin(t *testing.T) {
 	if mLon < w || mLon > e || mLat < s || mLat > n {
 		t.Errorf("the map marker (%.4f, %.4f) is outside the basin", mLon, mLat)
 	}
-	if !math.IsNaN(pAge) {
-		runChecks(t, []check{
-			{"profile GDH1 depth vs thermal package", pPred, gdh1.DepthM(pAge), 2, "thermal.Builtin(gdh1).DepthM at the sample's age"},
-		})
+	// The track lies wholly inside the basin, whose age grid has no gaps, so
+	// the sample under the cursor must have an age (a NaN here would
+	// otherwise skip the check below silently).
+	if math.IsNaN(pAge) {
+		t.Errorf("the profile read-out has no seafloor age at the chart's middle")
 	}
+	runChecks(t, []check{
+		{"profile GDH1 depth vs thermal package", pPred, gdh1.DepthM(pAge), 2, "thermal.Builtin(gdh1).DepthM at the sample's age"},
+	})
 	b.shot("07-track-profile")
 
 	// 7b. The same line as GPX 1.1 track points gives a profile too.
@@ -718,6 +722,8 @@ func TestPageDemoBasin(t *testing.T) {
 	if err := os.WriteFile(filepath.Join(b.shots, "08-map-export.png"), raw, 0o644); err != nil {
 		t.Error(err)
 	}
+	// At least 50 distinct colours where the colour-mapped layer is drawn
+	// (threshold common practice, no source).
 	if colours := distinctColours(img, image.Rect(0, 0, img.Bounds().Dx(), img.Bounds().Dy()-80)); colours < 50 {
 		t.Errorf("the map export has %d distinct colours in the map area: the data layer is missing", colours)
 	}
