@@ -51,11 +51,7 @@ func (s *Store) insertGrid(ctx context.Context, g store.Grid) (store.Grid, error
 
 // GetGrid implements store.Store.
 func (s *Store) GetGrid(ctx context.Context, id string) (store.Grid, error) {
-	g, err := scanGrid(s.pool.QueryRow(ctx, `SELECT `+gridCols+` FROM grids WHERE id = $1`, id))
-	if errors.Is(err, pgx.ErrNoRows) {
-		return store.Grid{}, notFound("grid", id)
-	}
-	return g, err
+	return getByID(ctx, s, scanGrid, "grid", id, `SELECT `+gridCols+` FROM grids WHERE id = $1`)
 }
 
 // GetGridByHash implements store.Store.

@@ -40,23 +40,12 @@ func (s *Store) CreateModel(ctx context.Context, m store.Model) (store.Model, er
 
 // GetModel implements store.Store.
 func (s *Store) GetModel(ctx context.Context, id string) (store.Model, error) {
-	m, err := scanModel(s.pool.QueryRow(ctx, `SELECT `+modelCols+` FROM custom_models WHERE id = $1`, id))
-	if errors.Is(err, pgx.ErrNoRows) {
-		return store.Model{}, notFound("model", id)
-	}
-	return m, err
+	return getByID(ctx, s, scanModel, "model", id, `SELECT `+modelCols+` FROM custom_models WHERE id = $1`)
 }
 
 // ListModels implements store.Store.
 func (s *Store) ListModels(ctx context.Context, p store.Page) ([]store.Model, error) {
-	if err := p.Validate(); err != nil {
-		return nil, err
-	}
-	rows, err := s.pool.Query(ctx, `SELECT `+modelCols+` FROM custom_models ORDER BY created_at, id LIMIT $1 OFFSET $2`, p.EffectiveLimit(), p.Offset)
-	if err != nil {
-		return nil, fmt.Errorf("listing models: %w", err)
-	}
-	return collect(rows, scanModel)
+	return listPage(ctx, s, scanModel, "models", `SELECT `+modelCols+` FROM custom_models ORDER BY created_at, id LIMIT $1 OFFSET $2`, p)
 }
 
 // UpdateModel implements store.Store.

@@ -293,3 +293,26 @@ func (s *Store) importCatalogue() gridimport.Catalogue {
 func collect[T any](rows pgx.Rows, scan func(pgx.Row) (T, error)) ([]T, error) {
 	return pgx.CollectRows(rows, func(r pgx.CollectableRow) (T, error) { return scan(r) })
 }
+
+// getByID runs a one-row query whose only parameter is id; no row is store.ErrNotFound for the
+// entity named what.
+func getByID[T any](ctx context.Context, s *Store, scan func(pgx.Row) (T, error), what, id, query string) (T, error) {
+	v, err := scan(s.pool.QueryRow(ctx, query, id))
+	if errors.Is(err, pgx.ErrNoRows) {
+		var zero T
+		return zero, notFound(what, id)
+	}
+	return v, err
+}
+
+// listPage runs a list query whose two parameters are p's limit and offset.
+func listPage[T any](ctx context.Context, s *Store, scan func(pgx.Row) (T, error), what, query string, p store.Page) ([]T, error) {
+	if err := p.Validate(); err != nil {
+		return nil, err
+	}
+	rows, err := s.pool.Query(ctx, query, p.EffectiveLimit(), p.Offset)
+	if err != nil {
+		return nil, fmt.Errorf("listing %s: %w", what, err)
+	}
+	return collect(rows, scan)
+}

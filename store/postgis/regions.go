@@ -50,11 +50,7 @@ func (s *Store) CreateRegion(ctx context.Context, r store.Region) (store.Region,
 
 // GetRegion implements store.Store.
 func (s *Store) GetRegion(ctx context.Context, id string) (store.Region, error) {
-	r, err := scanRegion(s.pool.QueryRow(ctx, `SELECT `+regionCols+` FROM regions WHERE id = $1`, id))
-	if errors.Is(err, pgx.ErrNoRows) {
-		return store.Region{}, notFound("region", id)
-	}
-	return r, err
+	return getByID(ctx, s, scanRegion, "region", id, `SELECT `+regionCols+` FROM regions WHERE id = $1`)
 }
 
 // UpdateRegion implements store.Store. The conditional UPDATE is atomic: of several writers

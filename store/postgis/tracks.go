@@ -50,23 +50,12 @@ func (s *Store) CreateTrack(ctx context.Context, t store.Track) (store.Track, er
 
 // GetTrack implements store.Store.
 func (s *Store) GetTrack(ctx context.Context, id string) (store.Track, error) {
-	t, err := scanTrack(s.pool.QueryRow(ctx, `SELECT `+trackCols+` FROM tracks WHERE id = $1`, id))
-	if errors.Is(err, pgx.ErrNoRows) {
-		return store.Track{}, notFound("track", id)
-	}
-	return t, err
+	return getByID(ctx, s, scanTrack, "track", id, `SELECT `+trackCols+` FROM tracks WHERE id = $1`)
 }
 
 // ListTracks implements store.Store.
 func (s *Store) ListTracks(ctx context.Context, p store.Page) ([]store.Track, error) {
-	if err := p.Validate(); err != nil {
-		return nil, err
-	}
-	rows, err := s.pool.Query(ctx, `SELECT `+trackCols+` FROM tracks ORDER BY created_at, id LIMIT $1 OFFSET $2`, p.EffectiveLimit(), p.Offset)
-	if err != nil {
-		return nil, fmt.Errorf("listing tracks: %w", err)
-	}
-	return collect(rows, scanTrack)
+	return listPage(ctx, s, scanTrack, "tracks", `SELECT `+trackCols+` FROM tracks ORDER BY created_at, id LIMIT $1 OFFSET $2`, p)
 }
 
 // UpdateTrack implements store.Store.

@@ -73,23 +73,12 @@ func (s *Store) CreateDataset(ctx context.Context, d store.Dataset) (store.Datas
 
 // GetDataset implements store.Store.
 func (s *Store) GetDataset(ctx context.Context, id string) (store.Dataset, error) {
-	d, err := scanDataset(s.db.QueryRowContext(ctx, `SELECT `+datasetCols+` FROM datasets WHERE id = ?`, id))
-	if errors.Is(err, sql.ErrNoRows) {
-		return store.Dataset{}, notFound("dataset", id)
-	}
-	return d, err
+	return getByID(ctx, s, scanDataset, "dataset", id, `SELECT `+datasetCols+` FROM datasets WHERE id = ?`)
 }
 
 // ListDatasets implements store.Store.
 func (s *Store) ListDatasets(ctx context.Context, p store.Page) ([]store.Dataset, error) {
-	if err := p.Validate(); err != nil {
-		return nil, err
-	}
-	rows, err := s.db.QueryContext(ctx, `SELECT `+datasetCols+` FROM datasets ORDER BY created_at, id LIMIT ? OFFSET ?`, p.EffectiveLimit(), p.Offset)
-	if err != nil {
-		return nil, fmt.Errorf("listing datasets: %w", err)
-	}
-	return collect(rows, scanDataset)
+	return listPage(ctx, s, scanDataset, "datasets", `SELECT `+datasetCols+` FROM datasets ORDER BY created_at, id LIMIT ? OFFSET ?`, p)
 }
 
 // UpdateDataset implements store.Store.

@@ -56,11 +56,7 @@ func (s *Store) insertGrid(ctx context.Context, g store.Grid) (store.Grid, error
 
 // GetGrid implements store.Store.
 func (s *Store) GetGrid(ctx context.Context, id string) (store.Grid, error) {
-	g, err := scanGrid(s.db.QueryRowContext(ctx, `SELECT `+gridCols+` FROM grids WHERE id = ?`, id))
-	if errors.Is(err, sql.ErrNoRows) {
-		return store.Grid{}, notFound("grid", id)
-	}
-	return g, err
+	return getByID(ctx, s, scanGrid, "grid", id, `SELECT `+gridCols+` FROM grids WHERE id = ?`)
 }
 
 // GetGridByHash implements store.Store.

@@ -42,23 +42,12 @@ func (s *Store) CreateModel(ctx context.Context, m store.Model) (store.Model, er
 
 // GetModel implements store.Store.
 func (s *Store) GetModel(ctx context.Context, id string) (store.Model, error) {
-	m, err := scanModel(s.db.QueryRowContext(ctx, `SELECT `+modelCols+` FROM custom_models WHERE id = ?`, id))
-	if errors.Is(err, sql.ErrNoRows) {
-		return store.Model{}, notFound("model", id)
-	}
-	return m, err
+	return getByID(ctx, s, scanModel, "model", id, `SELECT `+modelCols+` FROM custom_models WHERE id = ?`)
 }
 
 // ListModels implements store.Store.
 func (s *Store) ListModels(ctx context.Context, p store.Page) ([]store.Model, error) {
-	if err := p.Validate(); err != nil {
-		return nil, err
-	}
-	rows, err := s.db.QueryContext(ctx, `SELECT `+modelCols+` FROM custom_models ORDER BY created_at, id LIMIT ? OFFSET ?`, p.EffectiveLimit(), p.Offset)
-	if err != nil {
-		return nil, fmt.Errorf("listing models: %w", err)
-	}
-	return collect(rows, scanModel)
+	return listPage(ctx, s, scanModel, "models", `SELECT `+modelCols+` FROM custom_models ORDER BY created_at, id LIMIT ? OFFSET ?`, p)
 }
 
 // UpdateModel implements store.Store.

@@ -76,11 +76,7 @@ func (s *Store) CreateRegion(ctx context.Context, r store.Region) (store.Region,
 
 // GetRegion implements store.Store.
 func (s *Store) GetRegion(ctx context.Context, id string) (store.Region, error) {
-	r, err := scanRegion(s.db.QueryRowContext(ctx, `SELECT `+regionCols+` FROM regions WHERE id = ?`, id))
-	if errors.Is(err, sql.ErrNoRows) {
-		return store.Region{}, notFound("region", id)
-	}
-	return r, err
+	return getByID(ctx, s, scanRegion, "region", id, `SELECT `+regionCols+` FROM regions WHERE id = ?`)
 }
 
 // UpdateRegion implements store.Store.

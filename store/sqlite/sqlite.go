@@ -312,3 +312,26 @@ func collectPage[T any](rows *sql.Rows, scan func(scanner) (T, error), keep func
 	}
 	return out, rows.Err()
 }
+
+// getByID runs a one-row query whose only parameter is id; no row is store.ErrNotFound for the
+// entity named what.
+func getByID[T any](ctx context.Context, s *Store, scan func(scanner) (T, error), what, id, query string) (T, error) {
+	v, err := scan(s.db.QueryRowContext(ctx, query, id))
+	if errors.Is(err, sql.ErrNoRows) {
+		var zero T
+		return zero, notFound(what, id)
+	}
+	return v, err
+}
+
+// listPage runs a list query whose two parameters are p's limit and offset.
+func listPage[T any](ctx context.Context, s *Store, scan func(scanner) (T, error), what, query string, p store.Page) ([]T, error) {
+	if err := p.Validate(); err != nil {
+		return nil, err
+	}
+	rows, err := s.db.QueryContext(ctx, query, p.EffectiveLimit(), p.Offset)
+	if err != nil {
+		return nil, fmt.Errorf("listing %s: %w", what, err)
+	}
+	return collect(rows, scan)
+}

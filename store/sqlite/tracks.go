@@ -54,23 +54,12 @@ func (s *Store) CreateTrack(ctx context.Context, t store.Track) (store.Track, er
 
 // GetTrack implements store.Store.
 func (s *Store) GetTrack(ctx context.Context, id string) (store.Track, error) {
-	t, err := scanTrack(s.db.QueryRowContext(ctx, `SELECT `+trackCols+` FROM tracks WHERE id = ?`, id))
-	if errors.Is(err, sql.ErrNoRows) {
-		return store.Track{}, notFound("track", id)
-	}
-	return t, err
+	return getByID(ctx, s, scanTrack, "track", id, `SELECT `+trackCols+` FROM tracks WHERE id = ?`)
 }
 
 // ListTracks implements store.Store.
 func (s *Store) ListTracks(ctx context.Context, p store.Page) ([]store.Track, error) {
-	if err := p.Validate(); err != nil {
-		return nil, err
-	}
-	rows, err := s.db.QueryContext(ctx, `SELECT `+trackCols+` FROM tracks ORDER BY created_at, id LIMIT ? OFFSET ?`, p.EffectiveLimit(), p.Offset)
-	if err != nil {
-		return nil, fmt.Errorf("listing tracks: %w", err)
-	}
-	return collect(rows, scanTrack)
+	return listPage(ctx, s, scanTrack, "tracks", `SELECT `+trackCols+` FROM tracks ORDER BY created_at, id LIMIT ? OFFSET ?`, p)
 }
 
 // UpdateTrack implements store.Store.
