@@ -4,10 +4,11 @@ import (
 	"bytes"
 	"encoding/json"
 	"errors"
-	"fmt"
 	"math"
 
 	"github.com/paulmach/orb"
+
+	"ridgeflank/fault"
 )
 
 // DefaultMaxRegionVertices is the vertex limit ParseRegion and NormalizeRegion apply when given
@@ -17,8 +18,17 @@ const DefaultMaxRegionVertices = 100_000
 // ErrInvalidRegion is wrapped by every region validation error.
 var ErrInvalidRegion = errors.New("invalid region")
 
+// RegionField is the field name region faults carry.
+const RegionField = "geometry"
+
+// regionErr returns a fault.InvalidRegion error whose cause is ErrInvalidRegion.
 func regionErr(format string, args ...any) error {
-	return fmt.Errorf("%w: "+format, append([]any{ErrInvalidRegion}, args...)...)
+	return fault.New(fault.InvalidRegion, RegionField, "%w: "+format, append([]any{ErrInvalidRegion}, args...)...)
+}
+
+// regionOver returns a fault.Over("max_vertices", ...) error whose cause is ErrInvalidRegion.
+func regionOver(limit, asked int, format string, args ...any) error {
+	return fault.Over("max_vertices", int64(limit), int64(asked), RegionField, "%w: "+format, append([]any{ErrInvalidRegion}, args...)...)
 }
 
 // geoJSONObject is the part of a GeoJSON object (RFC 7946 §3) that regions and tracks read.
@@ -49,7 +59,7 @@ func ParseRegion(data []byte, maxVertices int) (orb.MultiPolygon, error) {
 	// Cheap early limit: a valid region has at most 1 + 1.5·V opening brackets (every ring has
 	// at least four positions), so anything beyond 2·V + 2 is over the limit or malformed.
 	if n := bytes.Count(g.Coordinates, []byte{'['}); n > 2*maxVertices+2 {
-		return nil, regionErr("more than %d vertices (the limit)", maxVertices)
+		return nil, regionOver(maxVertices, 0, "more than %d vertices (the limit)", maxVertices)
 	}
 	var mp orb.MultiPolygon
 	switch g.Type {
@@ -169,11 +179,17 @@ func toPolygon(c [][][]float64, pi int) (orb.Polygon, error) {
 // Holes are not checked for lying inside their exterior or for overlapping each other, except
 // that a hole which ends up outside every piece of a polygon split at the antimeridian is an error.
 func NormalizeRegion(mp orb.MultiPolygon, maxVertices int) (orb.MultiPolygon, error) {
+	out, _, err := normalizeRegion(mp, maxVertices)
+	return out, err
+}
+
+// normalizeRegion is NormalizeRegion, also returning the repairs made, in words.
+func normalizeRegion(mp orb.MultiPolygon, maxVertices int) (orb.MultiPolygon, []string, error) {
 	if maxVertices <= 0 {
 		maxVertices = DefaultMaxRegionVertices
 	}
 	if len(mp) == 0 {
-		return nil, regionErr("no polygons")
+		return nil, nil, regionErr("no polygons")
 	}
 	total := 0
 	for _, p := range mp {
@@ -182,31 +198,31 @@ func NormalizeRegion(mp orb.MultiPolygon, maxVertices int) (orb.MultiPolygon, er
 		}
 	}
 	if total > maxVertices {
-		return nil, regionErr("%d vertices, more than the limit of %d", total, maxVertices)
+		return nil, nil, regionOver(maxVertices, total, "%d vertices, more than the limit of %d", total, maxVertices)
 	}
 	var out orb.MultiPolygon
 	for pi, p := range mp {
 		if len(p) == 0 {
-			return nil, regionErr("polygon %d has no rings", pi)
+			return nil, nil, regionErr("polygon %d has no rings", pi)
 		}
 		rings := make([]orb.Ring, len(p))
 		for ri, r := range p {
 			c, err := cleanRing(r, pi, ri)
 			if err != nil {
-				return nil, err
+				return nil, nil, err
 			}
 			rings[ri] = c
 		}
 		pieces, err := normalizePolygon(rings, pi)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		out = append(out, pieces...)
 	}
 	if len(out) == 0 {
-		return nil, regionErr("no polygon of non-zero area")
+		return nil, nil, regionErr("no polygon of non-zero area")
 	}
-	return out, nil
+	return out, nil, nil
 }
 
 // cleanRing checks positions and closure and drops repeated consecutive positions.
