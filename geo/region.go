@@ -45,9 +45,12 @@ type geoJSONObject struct {
 // NormalizeRegion: right-hand rule winding, longitudes in −180..180, split at the antimeridian.
 //
 // Positions may carry a third (altitude) number, which is ignored; a position with fewer than
-// two numbers is an error. maxVertices <= 0 means DefaultMaxRegionVertices. Errors wrap
-// ErrInvalidRegion and name the polygon, ring and position (0-based) at fault. Callers should
-// bound the size of data before calling (the decoder holds it all in memory).
+// two numbers is an error. maxVertices <= 0 means DefaultMaxRegionVertices. Errors are
+// *fault.Error wrapping ErrInvalidRegion (kind fault.InvalidRegion, field "geometry", or
+// fault.LimitExceeded with limit "max_vertices") and name the polygon, ring and position
+// (0-based) at fault. Callers should bound the size of data before calling (the decoder holds
+// it all in memory). The repairs NormalizeRegion makes are not reported; PrepareRegion reports
+// them.
 func ParseRegion(data []byte, maxVertices int) (orb.MultiPolygon, error) {
 	if maxVertices <= 0 {
 		maxVertices = DefaultMaxRegionVertices
@@ -148,7 +151,9 @@ func toPolygon(c [][][]float64, pi int) (orb.Polygon, error) {
 // NormalizeRegion validates a multipolygon given in longitude/latitude degrees and returns it in
 // a consistent form (a new value; the input is not modified):
 //
-//   - Validation (errors wrap ErrInvalidRegion): at most maxVertices positions in total
+//   - Validation (errors are *fault.Error of kind fault.InvalidRegion, field "geometry",
+//     wrapping ErrInvalidRegion; too many positions gives fault.LimitExceeded with limit
+//     "max_vertices"): at most maxVertices positions in total
 //     (<= 0 means DefaultMaxRegionVertices); every polygon has an exterior ring; every ring has
 //     at least 4 positions and is closed (first position equal to the last, RFC 7946 §3.1.6);
 //     no NaN or infinite coordinate; latitudes within ±90; longitudes within −180..360; no ring

@@ -21,7 +21,10 @@ type Waypoint struct {
 // DefaultMaxWaypoints is the waypoint limit the track parsers apply when given maxWaypoints <= 0.
 const DefaultMaxWaypoints = 100_000
 
-// ErrInvalidTrack is wrapped by every track parsing and validation error.
+// ErrInvalidTrack is wrapped by every track parsing and validation error. Those errors are
+// *fault.Error of kind fault.InvalidTrack (field TrackField), or fault.LimitExceeded with limit
+// "max_vertices" when a track has more waypoints than allowed (Limit.Asked is the number the
+// input holds, 0 when not counted).
 var ErrInvalidTrack = errors.New("invalid track")
 
 // ValidateWaypoints checks a track: at least 2 and at most maxWaypoints waypoints
@@ -101,7 +104,7 @@ func ParseTrack(data []byte, format string, maxWaypoints int) ([]Waypoint, error
 // property if that is a string. The lines of a MultiLineString are joined in order into one
 // track (a repeated junction position is kept once), so the gap between them becomes a leg.
 // Altitudes are ignored. maxWaypoints <= 0 means DefaultMaxWaypoints. Errors wrap
-// ErrInvalidTrack and give the position index.
+// ErrInvalidTrack (see there) and give the position index. A LineString carries no names.
 func ParseTrackGeoJSON(data []byte, maxWaypoints int) ([]Waypoint, error) {
 	if maxWaypoints <= 0 {
 		maxWaypoints = DefaultMaxWaypoints

@@ -78,7 +78,10 @@ func Legs(g Geodesic, wps []Waypoint) ([]Leg, error) {
 // solver picks one.
 //
 // Limits: 2..DefaultMaxWaypoints waypoints, spacingM > 0, and at most maxSamples samples
-// (<= 0 means DefaultMaxTrackSamples), checked before any sample is computed.
+// (<= 0 means DefaultMaxTrackSamples), checked before any sample is computed. Errors wrap
+// ErrInvalidTrack: a bad spacing is a fault.InvalidParameter about "spacing-km"; too many
+// samples is fault.Over("max_track_samples", maxSamples, n, "spacing-km", ...) where n is the
+// number of samples the whole track would need.
 //
 // This is a survey-planning aid, not navigation: depths sampled along a track from model or
 // gridded data are estimates; defer to official charts, surveys and the local hydrographic
