@@ -55,6 +55,28 @@ func ParseRegion(data []byte, maxVertices int) (orb.MultiPolygon, error) {
 	if maxVertices <= 0 {
 		maxVertices = DefaultMaxRegionVertices
 	}
+	mp, err := decodeRegion(data, maxVertices)
+	if err != nil {
+		return nil, err
+	}
+	return NormalizeRegion(mp, maxVertices)
+}
+
+// PrepareRegionGeoJSON reads a region as ParseRegion does and returns it prepared by
+// PrepareRegion, with the repairs made, its window and its area. Errors are as ParseRegion's.
+func PrepareRegionGeoJSON(data []byte, maxVertices int) (PreparedRegion, error) {
+	if maxVertices <= 0 {
+		maxVertices = DefaultMaxRegionVertices
+	}
+	mp, err := decodeRegion(data, maxVertices)
+	if err != nil {
+		return PreparedRegion{}, err
+	}
+	return PrepareRegion(mp, maxVertices)
+}
+
+// decodeRegion decodes a GeoJSON region into a multipolygon as written (not yet normalised).
+func decodeRegion(data []byte, maxVertices int) (orb.MultiPolygon, error) {
 	g, err := decodeRegionGeometry(data)
 	if err != nil {
 		return nil, err
@@ -91,7 +113,7 @@ func ParseRegion(data []byte, maxVertices int) (orb.MultiPolygon, error) {
 	default:
 		return nil, regionErr("a region must be a GeoJSON Polygon or MultiPolygon, got %q", g.Type)
 	}
-	return NormalizeRegion(mp, maxVertices)
+	return mp, nil
 }
 
 func decodeRegionGeometry(data []byte) (geoJSONObject, error) {
