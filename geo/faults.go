@@ -32,12 +32,16 @@ func trackOver(limit, asked int, format string, args ...any) error {
 	return fault.Over("max_vertices", int64(limit), int64(asked), TrackField, "%w: "+format, append([]any{ErrInvalidTrack}, args...)...)
 }
 
-// wrapFault returns err with a prefix giving its context: a fault keeps its kind, field and
-// limit; any other error becomes a fault of kind k about field. err stays the cause.
+// wrapFault returns err with a prefix giving its context: a fault keeps its kind, limit and
+// field (field when it has none); any other error becomes a fault of kind k about field. err
+// stays the cause.
 func wrapFault(err error, k fault.Kind, field, format string, args ...any) error {
 	prefix := fmt.Sprintf(format, args...)
 	if f, ok := fault.As(err); ok {
-		return &fault.Error{Kind: f.Kind, Field: f.Field, Msg: prefix + ": " + err.Error(), Limit: f.Limit, Err: err}
+		if f.Field != "" {
+			field = f.Field
+		}
+		return &fault.Error{Kind: f.Kind, Field: field, Msg: prefix + ": " + err.Error(), Limit: f.Limit, Err: err}
 	}
 	return &fault.Error{Kind: k, Field: field, Msg: prefix + ": " + err.Error(), Err: err}
 }
