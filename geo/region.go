@@ -211,6 +211,9 @@ func toPolygon(c [][][]float64, pi int) (orb.Polygon, error) {
 // antimeridian, a polygon that exactly repeats an earlier one once normalised is dropped (a
 // repair); polygons whose interiors overlap otherwise are an error naming both. Rings and
 // polygons touching at points or along edges are accepted. PrepareRegion reports the repairs.
+// Cost: the sweep finds the k pairs of meeting edges in O(n log n + k); each pair of rings whose
+// bounds overlap then needs a point-in-ring test, O(size of the ring), per piece between
+// meeting points (one when the rings do not meet).
 func NormalizeRegion(mp orb.MultiPolygon, maxVertices int) (orb.MultiPolygon, error) {
 	out, _, err := normalizeRegion(mp, maxVertices)
 	return out, err
