@@ -158,6 +158,7 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 	}
 	defer d.Close()
 	g, meta := d.Header(), d.Meta()
+	g.West, g.North, g.DX, g.DY = snap(g.West), snap(g.North), snap(g.DX), snap(g.DY)
 	if cells := int64(g.NX) * int64(g.NY); cells > MaxCells {
 		return Result{}, fault.Over("max_grid_cells", MaxCells, cells, "file",
 			"%s has %d × %d cells, more than the %d an import reads", name, g.NX, g.NY, MaxCells)
@@ -302,6 +303,15 @@ func displayName(path string) string {
 	}
 	return filepath.Base(path)
 }
+
+// latticeScale sets the precision origin and spacing are kept to: 1/latticeScale = 1e-9°
+// (about 0.1 mm on the ground). Formats that store coordinates rather than a geotransform (netCDF coordinate
+// variables) give the lattice back with rounding errors of about 1e-15°; snapping makes the
+// same lattice compare equal whichever format carried it.
+const latticeScale = 1e9
+
+// snap rounds x to the nearest multiple of 1/latticeScale (the double nearest that decimal).
+func snap(x float64) float64 { return math.Round(x*latticeScale) / latticeScale }
 
 // prepare converts a block to the stored unit in place and gives every no-data cell the same
 // NaN bit pattern (so equal grids give equal files and digests).
