@@ -342,7 +342,7 @@ func reconcileSense(asked store.GridKind, vertical string, declared geo.Vertical
 		sense, by = declared, "the file declares"
 	}
 	if sense == geo.SenseUnknown {
-		sense, by = geo.DepthPositiveDown, "kind "+string(asked)+" means"
+		sense, by = geo.DepthPositiveDown, "kind "+string(asked)+" implies"
 		if asked == store.KindElevation {
 			sense = geo.ElevationPositiveUp
 		}
@@ -352,10 +352,10 @@ func reconcileSense(asked store.GridKind, vertical string, declared geo.Vertical
 	if guess := geo.SenseOfNegativeFraction(frac); guess != geo.SenseUnknown && guess != sense {
 		if explicit == geo.SenseUnknown {
 			return asked, sense, nil, fault.New(fault.InvalidGrid, "vertical",
-				"%.0f%% of the values are negative, which reads as %s, but %s %s; say which it is with vertical (depth or elevation)",
-				100*frac, guess, by, sense)
+				"%.0f%% of the values are negative, which reads as %s, but %s %s; declare which it is with vertical: depth or elevation",
+				100*frac, senseText(guess), by, senseText(sense))
 		}
-		notes = append(notes, fmt.Sprintf("%.0f%% of the values are negative, which reads as %s; stored as %s as vertical says", 100*frac, guess, sense))
+		notes = append(notes, fmt.Sprintf("%.0f%% of the values are negative, which reads as %s; stored as %s as vertical says", 100*frac, senseText(guess), senseText(sense)))
 	}
 	kind := store.KindDepth
 	if sense == geo.ElevationPositiveUp {
@@ -365,6 +365,17 @@ func reconcileSense(asked store.GridKind, vertical string, declared geo.Vertical
 		notes = append(notes, fmt.Sprintf("%s %s, so the grid is stored as kind %s", by, sense, kind))
 	}
 	return kind, sense, notes, nil
+}
+
+// senseText names a vertical sense with its sign convention.
+func senseText(s geo.VerticalSense) string {
+	switch s {
+	case geo.DepthPositiveDown:
+		return "depth (positive down)"
+	case geo.ElevationPositiveUp:
+		return "elevation (positive up)"
+	}
+	return s.String()
 }
 
 // digest hashes a grid's values block by block, in row order.

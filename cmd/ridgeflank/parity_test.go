@@ -379,9 +379,11 @@ func TestImportParity(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var demoAge, demoAgeNC string
+	var demoAge, demoAgeNC, demoElev string
 	for _, p := range demoFiles {
 		switch filepath.Base(p) {
+		case demobasin.FilePrefix + "-elevation.tif":
+			demoElev = p
 		case demobasin.FilePrefix + "-age.tif":
 			demoAge = p
 		case demobasin.FilePrefix + "-age.nc":
@@ -438,7 +440,7 @@ func TestImportParity(t *testing.T) {
 			}
 		}},
 		{"an explicit vertical override is accepted with a note", elev, form{"kind": "depth", "vertical": "depth"}, func(t *testing.T, o outcome) {
-			if !o.OK || o.Kind != "depth" || o.Sense != string(store.DepthPositiveDown) || len(o.Notes) != 1 || !strings.Contains(o.Notes[0], "stored as depth as vertical says") {
+			if !o.OK || o.Kind != "depth" || o.Sense != string(store.DepthPositiveDown) || len(o.Notes) != 1 || !strings.Contains(o.Notes[0], "stored as depth (positive down) as vertical says") {
 				t.Fatalf("%v; want a depth grid with a note", o)
 			}
 		}},
@@ -465,6 +467,12 @@ func TestImportParity(t *testing.T) {
 		{"the demo's age netCDF finds the installed grid", demoAgeNC, form{"kind": "age"}, func(t *testing.T, o outcome) {
 			if !o.OK || o.Created || o.ID != ds.AgeGridID {
 				t.Fatalf("%v; want the installed age grid %s", o, ds.AgeGridID)
+			}
+		}},
+		{"the demo's elevation file uploaded as depth is stored as the file declares", demoElev, form{"kind": "depth"}, func(t *testing.T, o outcome) {
+			if !o.OK || o.Created || o.ID != ds.DepthGridID || o.Kind != "elevation" ||
+				!slices.Equal(o.Notes, []string{"the file declares elevation, so the grid is stored as kind elevation"}) {
+				t.Fatalf("%v; want the installed elevation grid %s with a note", o, ds.DepthGridID)
 			}
 		}},
 		{"an all-NaN grid is refused", nanOnly, form{"kind": "depth"}, func(t *testing.T, o outcome) {
@@ -517,6 +525,7 @@ func TestImportParity(t *testing.T) {
 			if viaCLI.String() != viaAPI.String() {
 				t.Fatalf("the ways in disagree:\n cli: %v\n api: %v", viaCLI, viaAPI)
 			}
+			t.Logf("both ways: %v", viaAPI)
 			c.check(t, viaAPI)
 		})
 	}
