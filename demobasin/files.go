@@ -54,6 +54,13 @@ func (b *Basin) Layers() []Layer {
 	}
 }
 
+// WriteCOG writes the layer into dir as the Cloud-Optimized GeoTIFF WriteFiles writes for it
+// (FilePrefix-KEY.tif) and returns its path.
+func (l Layer) WriteCOG(dir string) (string, error) {
+	p := filepath.Join(dir, FilePrefix+"-"+strings.ReplaceAll(l.Key, "_", "-")+".tif")
+	return p, gdal.WriteCOG(p, l.Grid, l.Meta)
+}
+
 // WriteFiles writes the basin into dir (created if needed) as Cloud-Optimized GeoTIFFs (age,
 // elevation, sediment thickness), a CF netCDF of the age grid and a README, all named
 // FilePrefix-* and labelled SYNTHETIC, and returns the paths written.
@@ -64,8 +71,8 @@ func WriteFiles(dir string, b *Basin) ([]string, error) {
 	var paths []string
 	layers := b.Layers()
 	for _, l := range layers {
-		p := filepath.Join(dir, FilePrefix+"-"+strings.ReplaceAll(l.Key, "_", "-")+".tif")
-		if err := gdal.WriteCOG(p, l.Grid, l.Meta); err != nil {
+		p, err := l.WriteCOG(dir)
+		if err != nil {
 			return paths, err
 		}
 		paths = append(paths, p)

@@ -2,17 +2,14 @@ package demobasin
 
 import (
 	"context"
-	"crypto/sha256"
-	"encoding/binary"
-	"encoding/hex"
 	"errors"
 	"fmt"
 	"math"
+	"os"
 
 	"github.com/paulmach/orb"
 
-	"ridgeflank/geo"
-	"ridgeflank/geo/gdal"
+	"ridgeflank/ingest"
 	"ridgeflank/store"
 )
 
@@ -31,32 +28,33 @@ const RegionRadiusKm = 1.8 * SwellRadiusKm
 
 // Install stores the basin's grids (as Cloud-Optimized GeoTIFFs) and creates the dataset
 // DatasetID, the region RegionID (a polygon around the swell) and the track TrackID (a survey
-// line across the seamount chain). It is idempotent: grids are identified by their content
-// (ContentID), and existing dataset, region and track are kept (the dataset is pointed at this
-// basin's grids if it named others). It returns the dataset id.
+// line across the seamount chain). Each grid is written as the file WriteFiles writes for it
+// and imported through ingest.Import, so files from `ridgeflank demo --out` imported or
+// uploaded later find these grids. It is idempotent: ingest.Import finds a grid already stored
+// with the same content, and an existing dataset, region and track are kept (the dataset is
+// pointed at this basin's grids if it named others). It returns the dataset id.
 func Install(ctx context.Context, st store.Store, b *Basin) (string, error) {
 	kinds := map[string]store.GridKind{"age": store.KindAge, "elevation": store.KindElevation, "sediment_thickness": store.KindSedimentThickness}
+	tmp, err := os.MkdirTemp("", "ridgeflank-demo-*")
+	if err != nil {
+		return "", fmt.Errorf("install: %w", err)
+	}
+	defer os.RemoveAll(tmp)
 	ids := map[string]string{}
 	for _, l := range b.Layers() {
-		row := store.Grid{
-			Name:          Title + " " + l.Meta.LongName,
-			Kind:          kinds[l.Key],
-			Units:         l.Meta.Units,
-			VerticalSense: store.VerticalNone,
-			Footprint:     Footprint(),
-			ResolutionDeg: b.CellDeg,
-			Registration:  store.CellCentre,
-			Provenance:    l.Meta.Source,
-			Licence:       Licence,
-		}
-		if l.Key == "elevation" {
-			row.VerticalSense = store.ElevationPositiveUp
-		}
-		g, _, err := ImportGrid(ctx, st, row, l.Grid, l.Meta)
+		// The same file `ridgeflank demo --out` writes, imported as any user's file would be.
+		path, err := l.WriteCOG(tmp)
 		if err != nil {
 			return "", fmt.Errorf("install %s grid: %w", l.Key, err)
 		}
-		ids[l.Key] = g.ID
+		res, err := ingest.Import(ctx, st, ingest.Request{
+			Path: path, Kind: kinds[l.Key],
+			Name: Title + " " + l.Meta.LongName, Provenance: l.Meta.Source, Licence: Licence,
+		}, nil)
+		if err != nil {
+			return "", fmt.Errorf("install %s grid: %w", l.Key, err)
+		}
+		ids[l.Key] = res.Grid.ID
 	}
 
 	ds := store.Dataset{
@@ -143,47 +141,4 @@ func SwellRegion() orb.Polygon {
 // Seamount C, from south-west to north-east.
 func CrossingTrack() orb.LineString {
 	return orb.LineString{{-129.5, -25.2}, {-127.4, -23.0}, {-125.6, -21.1}}
-}
-
-// ContentID is a grid id derived from the grid's lattice, values and description
-// ("gr_" + 32 hex digits of SHA-256), so importing the same grid again finds the same row even
-// though the file written for it differs (COG files carry a write time).
-func ContentID(g *geo.Grid, kind store.GridKind, units string, sense store.VerticalSense) string {
-	h := sha256.New()
-	fmt.Fprintf(h, "%s\x00%s\x00%s\x00%d %d %v\x00", kind, units, sense, g.NX, g.NY, g.Registration)
-	var buf [8]byte
-	for _, v := range []float64{g.West, g.North, g.DX, g.DY} {
-		binary.LittleEndian.PutUint64(buf[:], math.Float64bits(v))
-		h.Write(buf[:])
-	}
-	row := make([]byte, 4*g.NX)
-	for r := 0; r < g.NY; r++ {
-		for c, v := range g.Data[r*g.NX : (r+1)*g.NX] {
-			if v != v {
-				v = float32(math.NaN()) // one NaN pattern
-			}
-			binary.LittleEndian.PutUint32(row[4*c:], math.Float32bits(v))
-		}
-		h.Write(row)
-	}
-	return store.PrefixGrid + hex.EncodeToString(h.Sum(nil))[:32]
-}
-
-// ImportGrid stores g as a Cloud-Optimized GeoTIFF in st with the catalogue row row (its ID is
-// replaced by ContentID). If a grid with that id already exists it is returned with
-// created == false and nothing is written.
-func ImportGrid(ctx context.Context, st store.Store, row store.Grid, g *geo.Grid, meta gdal.Meta) (store.Grid, bool, error) {
-	row.ID = ContentID(g, row.Kind, row.Units, row.VerticalSense)
-	if got, err := st.GetGrid(ctx, row.ID); err == nil {
-		return got, false, nil
-	} else if !errors.Is(err, store.ErrNotFound) {
-		return store.Grid{}, false, err
-	}
-	got, created, err := st.ImportGrid(ctx, row, func(tmp string) error { return gdal.WriteCOG(tmp, g, meta) })
-	if errors.Is(err, store.ErrConflict) { // imported concurrently
-		if got, gerr := st.GetGrid(ctx, row.ID); gerr == nil {
-			return got, false, nil
-		}
-	}
-	return got, created, err
 }

@@ -107,11 +107,18 @@ func DetectVerticalSense(g *Grid) (VerticalSense, float64) {
 		return SenseUnknown, math.NaN()
 	}
 	frac := float64(neg) / float64(n)
+	return SenseOfNegativeFraction(frac), frac
+}
+
+// SenseOfNegativeFraction is DetectVerticalSense's rule for a fraction of negative values among
+// the valid non-zero ones computed elsewhere (for example block by block): ≥ 0.6 elevation,
+// ≤ 0.4 depth, otherwise (and for NaN) SenseUnknown.
+func SenseOfNegativeFraction(frac float64) VerticalSense {
 	switch {
 	case frac >= senseElevationMinNegative:
-		return ElevationPositiveUp, frac
+		return ElevationPositiveUp
 	case frac <= senseDepthMaxNegative:
-		return DepthPositiveDown, frac
+		return DepthPositiveDown
 	}
-	return SenseUnknown, frac
+	return SenseUnknown
 }

@@ -19,6 +19,8 @@ import (
 	"github.com/riverqueue/river/rivermigrate"
 	"github.com/riverqueue/river/rivertype"
 	_ "modernc.org/sqlite" // registers the "sqlite" database/sql driver for OpenSQLite
+
+	"ridgeflank/fault"
 )
 
 // Job kinds.
@@ -47,21 +49,30 @@ var ErrNotFound = errors.New("job not found")
 
 // ImportArgs describe one accepted grid upload, already streamed to disk.
 type ImportArgs struct {
-	// GridID is the id the imported grid will have in the catalogue.
-	GridID string `json:"grid_id"`
+	// GridID is the id the client asked for; empty to derive it from the grid's content (the
+	// job's result carries the id given).
+	GridID string `json:"grid_id,omitempty"`
 	// Path is the uploaded file on the server's disk.
 	Path string `json:"path"`
 	// Filename is the client's name of the file.
 	Filename string `json:"filename"`
 	// Name is a human-readable title.
 	Name string `json:"name,omitempty"`
-	// Quantity says what the grid holds (seafloor_age, observed_depth, ...).
+	// Quantity is the grid kind (age, depth, elevation, ...).
 	Quantity string `json:"quantity"`
 	// Variable selects a netCDF variable, if any.
 	Variable string `json:"variable,omitempty"`
-	// VerticalSense is "depth" (positive down) or "elevation" (positive up)
-	// for bathymetry; empty to detect.
+	// Units declares the units of the file's values; empty takes the file's own.
+	Units string `json:"units,omitempty"`
+	// Vertical is "depth" (positive down) or "elevation" (positive up) for bathymetry; empty
+	// takes the file's declaration or the kind's.
+	Vertical string `json:"vertical,omitempty"`
+	// VerticalSense is the older name of Vertical, read from jobs queued before it existed.
 	VerticalSense string `json:"vertical_sense,omitempty"`
+	// Registration overrides the file's registration: "cell-centre" or "node".
+	Registration string `json:"registration,omitempty"`
+	// Licence of the data, if given.
+	Licence string `json:"licence,omitempty"`
 	// SHA256 is the content hash computed while streaming the upload.
 	SHA256 string `json:"sha256"`
 	// Bytes is the upload size.
@@ -120,10 +131,20 @@ type Status struct {
 	Message    string          `json:"message,omitempty"`
 	Result     json.RawMessage `json:"result,omitempty"`
 	Errors     []string        `json:"errors,omitempty"`
+	// Fault says why the job failed when the cause was bad input (a *fault.Error).
+	Fault      *Fault          `json:"fault,omitempty"`
 	Args       json.RawMessage `json:"args,omitempty"`
 	CreatedAt  time.Time       `json:"created_at"`
 	StartedAt  *time.Time      `json:"started_at,omitempty"`
 	FinishedAt *time.Time      `json:"finished_at,omitempty"`
+}
+
+// Fault is the bad-input cause of a failed job: the kind, field and message of its
+// *fault.Error, so every way in can report it as it reports the same fault met at once.
+type Fault struct {
+	Kind    fault.Kind `json:"kind"`
+	Field   string     `json:"field,omitempty"`
+	Message string     `json:"message"`
 }
 
 // output is what a job records in River's metadata "output" key.
@@ -131,6 +152,7 @@ type output struct {
 	Progress float64         `json:"progress"`
 	Message  string          `json:"message,omitempty"`
 	Result   json.RawMessage `json:"result,omitempty"`
+	Fault    *Fault          `json:"fault,omitempty"`
 }
 
 // Options tune a Queue.
@@ -256,7 +278,12 @@ func (q *riverQueue[TTx]) run(ctx context.Context, id int64, fn func(Progress) (
 	progress(0, "started")
 	res, err := fn(progress)
 	if err != nil {
-		_ = q.update(context.WithoutCancel(ctx), id, output{Progress: 0, Message: err.Error()})
+		out := output{Progress: 0, Message: err.Error()}
+		if f, ok := fault.As(err); ok {
+			out.Message = f.Msg
+			out.Fault = &Fault{Kind: f.Kind, Field: f.Field, Message: f.Msg}
+		}
+		_ = q.update(context.WithoutCancel(ctx), id, out)
 		return err
 	}
 	raw, err := json.Marshal(res)
@@ -403,7 +430,7 @@ func statusOf(row *rivertype.JobRow) Status {
 		Output *output `json:"output"`
 	}
 	if len(row.Metadata) > 0 && json.Unmarshal(row.Metadata, &md) == nil && md.Output != nil {
-		st.Progress, st.Message, st.Result = md.Output.Progress, md.Output.Message, md.Output.Result
+		st.Progress, st.Message, st.Result, st.Fault = md.Output.Progress, md.Output.Message, md.Output.Result, md.Output.Fault
 	}
 	for _, e := range row.Errors {
 		st.Errors = append(st.Errors, e.Error)

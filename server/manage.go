@@ -14,6 +14,7 @@ import (
 	"github.com/go-chi/chi/v5"
 	"github.com/paulmach/orb"
 
+	"ridgeflank/fault"
 	"ridgeflank/geo"
 	"ridgeflank/jobs"
 	"ridgeflank/store"
@@ -467,6 +468,10 @@ func jobJSON(base string, st jobs.Status) map[string]any {
 	}
 	if len(st.Errors) > 0 {
 		out["errors"] = st.Errors
+	}
+	if st.Fault != nil {
+		// The problem the same fault answers when met at once (faultProblems).
+		out["problem"] = faultProblem(&fault.Error{Kind: st.Fault.Kind, Field: st.Fault.Field, Msg: st.Fault.Message})
 	}
 	return out
 }

@@ -14,10 +14,8 @@ import (
 	"path/filepath"
 	"strings"
 
-	"github.com/paulmach/orb"
-
-	"ridgeflank/geo"
-	"ridgeflank/geo/gdal"
+	"ridgeflank/fault"
+	"ridgeflank/ingest"
 	"ridgeflank/jobs"
 	"ridgeflank/store"
 )
@@ -25,9 +23,11 @@ import (
 // maxFormFieldBytes bounds each non-file multipart field.
 const maxFormFieldBytes = 4096
 
-// uploadGrid streams a multipart upload (field "file" plus optional fields
-// id, name, kind, vertical_sense, variable) to the upload directory while
-// hashing it, then queues an import job and answers 202 with the job.
+// uploadGrid streams a multipart upload (field "file" plus fields kind and
+// optional id, name, units, vertical (older name vertical_sense),
+// registration, variable, licence) to the upload directory while hashing it,
+// checks the fields as ingest.Request.Check does, then queues an import job
+// and answers 202 with the job. The grid's id is in the job's result.
 func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 	if s.deps.Jobs == nil {
 		return problem(CodeUnavailable, "this server runs no job queue, so it cannot import grids")
@@ -106,24 +106,26 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 		return problem(CodeBadRequest, "the upload has no (or an empty) \"file\" part")
 	}
 	args.GridID = fields["id"]
-	if args.GridID == "" {
-		args.GridID = store.NewID(store.PrefixGrid)
-	} else if !validID(args.GridID) {
-		return problem(CodeInvalidParameter, "id %q must be 1 to 64 characters from a-z, 0-9, '-' and '_'", args.GridID).withParam("id")
-	}
-	if _, err := s.deps.Store.GetGrid(r.Context(), args.GridID); err == nil {
-		return problem(CodeConflict, "a grid with id %q already exists", args.GridID)
-	}
 	args.Name = fields["name"]
 	if args.Name == "" {
 		args.Name = args.Filename
 	}
 	args.Quantity = fields["kind"]
-	if _, err := parseKind(args.Quantity); err != nil {
+	args.Units = fields["units"]
+	args.Vertical = fields["vertical"]
+	if old := fields["vertical_sense"]; old != "" {
+		if args.Vertical != "" && args.Vertical != old {
+			return problem(CodeInvalidParameter, "vertical %q and its older name vertical_sense %q disagree; send one", args.Vertical, old).withParam("vertical")
+		}
+		args.Vertical = old
+	}
+	args.Registration = fields["registration"]
+	args.Variable = fields["variable"]
+	args.Licence = fields["licence"]
+	// The same checks as every way in, before queueing: a bad form answers at once.
+	if err := uploadRequest(args).Check(); err != nil {
 		return err
 	}
-	args.VerticalSense = fields["vertical_sense"]
-	args.Variable = fields["variable"]
 	id, err := s.deps.Jobs.EnqueueImport(r.Context(), args)
 	if err != nil {
 		return err
@@ -136,7 +138,6 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 	loc := fmt.Sprintf("%s/api/jobs/%d", s.baseURL(r), id)
 	w.Header().Set("Location", loc)
 	body := jobJSON(s.baseURL(r), st)
-	body["grid_id"] = args.GridID
 	body["upload_sha256"] = args.SHA256
 	return writeJSON(w, http.StatusAccepted, "", body)
 }
@@ -154,96 +155,52 @@ func safeExt(name string) string {
 	return ext
 }
 
-func parseKind(k string) (store.GridKind, error) {
-	if k == "" {
-		return "", problem(CodeInvalidParameter, "the form field kind is required (age, depth, elevation, sediment_thickness, crustal_thickness, age_uncertainty or other)").withParam("kind")
+// uploadRequest is the ingest request of an accepted upload (for the handler's checks and
+// the job alike).
+func uploadRequest(a jobs.ImportArgs) ingest.Request {
+	vertical := a.Vertical
+	if vertical == "" {
+		vertical = a.VerticalSense
 	}
-	for _, v := range store.GridKinds() {
-		if string(v) == k {
-			return v, nil
-		}
+	return ingest.Request{
+		Path: a.Path, Variable: a.Variable, Kind: store.GridKind(a.Quantity), Units: a.Units,
+		Vertical: vertical, Registration: a.Registration, ID: a.GridID, Name: a.Name, Licence: a.Licence,
+		Provenance: fmt.Sprintf("uploaded file %s (sha256 %s, %d bytes)", a.Filename, a.SHA256, a.Bytes),
 	}
-	return "", problem(CodeInvalidParameter, "kind %q: choose age, depth, elevation, sediment_thickness, crustal_thickness, age_uncertainty or other", k).withParam("kind")
 }
 
-// ImportWorker returns the job handler that imports an uploaded grid file
-// into st: read it with GDAL, store it as a COG with its catalogue row, and
-// remove the upload. Files GDAL cannot read fail permanently (no retry).
+// ImportWorker returns the job handler that imports an uploaded grid file into st through
+// ingest.Import (the pipeline the command line and the demo installer use) and removes the
+// upload. Bad input (a *fault.Error: unreadable file, bad units, contradicting vertical sense,
+// implausible values, id conflict) fails the job for good with the fault recorded; other
+// failures are retried.
 func ImportWorker(st store.Store, log *slog.Logger) func(ctx context.Context, a jobs.ImportArgs, progress jobs.Progress) (any, error) {
 	if log == nil {
 		log = slog.New(slog.DiscardHandler)
 	}
 	return func(ctx context.Context, a jobs.ImportArgs, progress jobs.Progress) (any, error) {
-		if g, err := st.GetGrid(ctx, a.GridID); err == nil {
-			// Imported by an earlier attempt that died before finishing.
-			os.Remove(a.Path)
-			return map[string]any{"grid_id": g.ID, "sha256": g.ContentHash, "created": false}, nil
-		}
-		// fail gives up for good: no retry will fix the file, so it goes.
-		fail := func(err error) (any, error) {
-			os.Remove(a.Path)
-			return nil, jobs.Permanent(err)
-		}
-		kind, err := parseKind(a.Quantity)
+		res, err := ingest.Import(ctx, st, uploadRequest(a), progress)
 		if err != nil {
-			return fail(err)
-		}
-		progress(0.05, "reading "+a.Filename)
-		g, meta, err := gdal.Read(a.Path, gdal.ReadOptions{Variable: a.Variable})
-		if err != nil {
+			if _, ok := fault.As(err); ok {
+				os.Remove(a.Path)
+				return nil, jobs.Permanent(err)
+			}
 			if _, serr := os.Stat(a.Path); serr != nil {
 				return nil, jobs.Permanent(fmt.Errorf("the uploaded file is gone: %w", serr))
-			}
-			return fail(fmt.Errorf("%s is not a readable grid: %w", a.Filename, err))
-		}
-		if err := ctx.Err(); err != nil {
-			return nil, err
-		}
-		progress(0.4, "checking")
-		sense := store.VerticalNone
-		if kind == store.KindDepth || kind == store.KindElevation {
-			vs := meta.Sense
-			switch a.VerticalSense {
-			case "depth", string(store.DepthPositiveDown):
-				vs = geo.DepthPositiveDown
-			case "elevation", string(store.ElevationPositiveUp):
-				vs = geo.ElevationPositiveUp
-			}
-			if vs == geo.SenseUnknown {
-				if kind == store.KindElevation {
-					vs = geo.ElevationPositiveUp
-				} else {
-					vs = geo.DepthPositiveDown
-				}
-			}
-			if vs == geo.ElevationPositiveUp {
-				sense = store.ElevationPositiveUp
-			} else {
-				sense = store.DepthPositiveDown
-			}
-		}
-		b := g.Bounds()
-		ring := orb.Ring{{b.Min[0], b.Min[1]}, {b.Max[0], b.Min[1]}, {b.Max[0], b.Max[1]}, {b.Min[0], b.Max[1]}, {b.Min[0], b.Min[1]}}
-		reg := store.CellCentre
-		if g.Registration == geo.Node {
-			reg = store.Node
-		}
-		row := store.Grid{
-			ID: a.GridID, Name: a.Name, Kind: kind, Units: meta.Units, VerticalSense: sense,
-			Footprint: orb.MultiPolygon{{ring}}, ResolutionDeg: g.DX, Registration: reg,
-			Provenance: fmt.Sprintf("uploaded file %s (sha256 %s, %d bytes, %s driver)", a.Filename, a.SHA256, a.Bytes, meta.Driver),
-		}
-		progress(0.5, "writing cloud-optimized GeoTIFF")
-		got, created, err := st.ImportGrid(ctx, row, func(tmp string) error { return gdal.WriteCOG(tmp, g, meta) })
-		if err != nil {
-			if errors.Is(err, store.ErrInvalid) {
-				return fail(err)
 			}
 			return nil, err
 		}
 		os.Remove(a.Path)
-		log.InfoContext(ctx, "grid imported", "grid_id", got.ID, "created", created, "cells", len(g.Data))
-		return map[string]any{"grid_id": got.ID, "sha256": got.ContentHash, "created": created, "nx": g.NX, "ny": g.NY}, nil
+		g := res.Grid
+		log.InfoContext(ctx, "grid imported", "grid_id", g.ID, "created", res.Created, "cells", res.NX*res.NY)
+		notes := res.Notes
+		if notes == nil {
+			notes = []string{}
+		}
+		return map[string]any{
+			"grid_id": g.ID, "sha256": g.ContentHash, "created": res.Created, "nx": res.NX, "ny": res.NY,
+			"kind": g.Kind, "units": g.Units, "vertical_sense": g.VerticalSense, "notes": notes,
+		}, nil
 	}
 }
 

@@ -37,8 +37,10 @@ type Store interface {
 	// Licence come from g; ContentHash is optional (when set and already catalogued, write is not
 	// called; when set and the written file differs, ErrInvalid); SizeBytes, Path and CreatedAt
 	// are filled in. If a grid with the same content already exists it is returned unchanged with
-	// created == false (idempotent re-import; the new metadata is ignored). On any failure no
-	// catalogue row is visible and the file is removed now or by the next sweep.
+	// created == false (idempotent re-import; the new metadata, ID included, is ignored: compare
+	// the returned ID). A new content under an ID that is taken is ErrConflict, and the stored
+	// grid is untouched. On any failure no catalogue row is visible and the file is removed now
+	// or by the next sweep.
 	ImportGrid(ctx context.Context, g Grid, write func(tmpPath string) error) (grid Grid, created bool, err error)
 	GetGrid(ctx context.Context, id string) (Grid, error)
 	GetGridByHash(ctx context.Context, sha256Hex string) (Grid, error)

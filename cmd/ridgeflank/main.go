@@ -3,7 +3,7 @@
 // handling, and the exit-status rules:
 //
 //	0  success (including --help)
-//	2  bad usage or bad input (a usageError)
+//	2  bad usage or bad input (a usageError, or a *fault.Error from the layers below)
 //	1  any other failure
 //
 // Errors are printed on stderr as one plain sentence.
@@ -21,6 +21,8 @@ import (
 	"sort"
 	"strings"
 	"syscall"
+
+	"ridgeflank/fault"
 )
 
 // version is set at build time with -ldflags "-X main.version=...".
@@ -106,6 +108,9 @@ func report(stderr io.Writer, prefix string, err error) int {
 	fmt.Fprintf(stderr, "%s: %s\n", prefix, sentence(err.Error()))
 	var ue *usageError
 	if errors.As(err, &ue) {
+		return 2
+	}
+	if _, ok := fault.As(err); ok {
 		return 2
 	}
 	return 1

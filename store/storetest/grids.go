@@ -204,6 +204,44 @@ func testGridImportIdempotent(t *testing.T, open Opener) {
 	}
 }
 
+// testGridImportIDConflict: an explicit id held by a grid of other content is refused with
+// ErrConflict, leaving the stored grid and its file as they were and no file of the refused
+// one; the same content with the same id again returns the stored grid (a retried import);
+// the same content under another id returns the stored grid, whose id tells the caller.
+func testGridImportIDConflict(t *testing.T, open Opener) {
+	ctx := ctxT(t)
+	s := open(t)
+	a, b := []byte("grid content A"), []byte("grid content B")
+	meta := ageMeta("fixed id")
+	meta.ID = "fixed"
+	g, created, err := s.ImportGrid(ctx, meta, writeBytes(a))
+	if err != nil || !created || g.ID != "fixed" {
+		t.Fatalf("first import: %+v, %v, %v", g, created, err)
+	}
+	_, created, err = s.ImportGrid(ctx, meta, writeBytes(b))
+	wantErr(t, "other content under a taken id", err, store.ErrConflict)
+	if created {
+		t.Fatal("a refused import reports created")
+	}
+	sameGrid(t, "the stored grid after the refused import", must[store.Grid](t, "GetGrid")(s.GetGrid(ctx, "fixed")), g)
+	if files := gridDirFiles(t, s); !slices.Equal(files, []string{g.Path}) {
+		t.Fatalf("grid directory holds %v, want only %s", files, g.Path)
+	}
+	again, created, err := s.ImportGrid(ctx, meta, writeBytes(a))
+	if err != nil || created || again.ID != "fixed" {
+		t.Fatalf("retried import: %+v, %v, %v", again, created, err)
+	}
+	other := ageMeta("other id")
+	other.ID = "other"
+	ex, created, err := s.ImportGrid(ctx, other, writeBytes(a))
+	if err != nil || created || ex.ID != "fixed" {
+		t.Fatalf("same content under another id: %+v, %v, %v; want the stored grid", ex, created, err)
+	}
+	if all := must[[]store.Grid](t, "ListGrids")(s.ListGrids(ctx, store.GridFilter{})); len(all) != 1 {
+		t.Fatalf("%d grids catalogued, want 1", len(all))
+	}
+}
+
 func testGridImportFailure(t *testing.T, open Opener) {
 	ctx := ctxT(t)
 	s := open(t)

@@ -34,6 +34,7 @@ func Run(t *testing.T, fresh func(t *testing.T) Opener) {
 		{"NoLostUpdate", testNoLostUpdate},
 		{"GridImport", testGridImport},
 		{"GridImportIdempotent", testGridImportIdempotent},
+		{"GridImportIDConflict", testGridImportIDConflict},
 		{"GridImportFailure", testGridImportFailure},
 		{"GridCrashBetweenRenameAndCommit", testGridCrash},
 		{"GridSweepWaitsForImports", testSweepLease},

@@ -1,5 +1,5 @@
 // jobs.js: grid uploads, import progress and datasets. A grid file is sent to
-// POST /api/grids (multipart: file, kind, name, variable); the service answers
+// POST /api/grids (multipart: file, kind, units, vertical, name, variable); the service answers
 // with an import job, polled at GET /api/jobs/{id} until it succeeds or fails.
 // Stored grids can then be combined into a dataset (POST /api/datasets).
 
@@ -28,7 +28,7 @@ export function progressOf(job) {
   return {
     state: st,
     fraction: Number.isFinite(fraction) ? fraction : done ? 1 : NaN,
-    message: job?.error || (failed && errs.length ? errs[errs.length - 1] : "") || job?.message || "",
+    message: job?.error || (failed && job?.problem?.detail) || (failed && errs.length ? errs[errs.length - 1] : "") || job?.message || "",
     done,
     failed,
   };
@@ -59,7 +59,7 @@ export class JobsPanel {
     }
     const fd = new FormData();
     // Text fields first, so the service knows what the file is before it streams it.
-    for (const name of ["kind", "name", "variable"]) {
+    for (const name of ["kind", "units", "vertical", "name", "variable"]) {
       const v = form.elements[name].value.trim();
       if (v) fd.append(name, v);
     }
@@ -72,15 +72,15 @@ export class JobsPanel {
       messages.show(`${file.name} uploaded.`, "info");
       return;
     }
-    this.track(id, file.name, body?.grid_id);
+    this.track(id, file.name);
   }
 
-  /** track adds a progress row for job id and polls it to the end. */
-  track(id, label, gridId = "") {
+  /** track adds a progress row for job id and polls it to the end; the grid id comes with the job's result. */
+  track(id, label) {
     const li = document.createElement("li");
     li.dataset.jobId = id;
     const name = document.createElement("span");
-    name.textContent = `${label} (import job ${id}${gridId ? `, grid ${gridId}` : ""})`;
+    name.textContent = `${label} (import job ${id})`;
     const bar = document.createElement("progress");
     bar.max = 1;
     bar.setAttribute("aria-label", `Import progress of ${label}`);
@@ -103,7 +103,12 @@ export class JobsPanel {
       else bar.removeAttribute("value");
       st.textContent = `${p.state}${Number.isFinite(p.fraction) ? ` · ${Math.round(p.fraction * 100)} %` : ""}${p.message ? ` · ${p.message}` : ""}`;
       if (p.done) {
-        messages.show(`${label} imported${gridId ? ` as grid ${gridId}` : ""}. Combine grids into a dataset below to map them.`, "info");
+        const r = job?.result ?? {};
+        const gridId = r.grid_id ?? "";
+        if (gridId) name.textContent = `${label} (import job ${id}, grid ${gridId})`;
+        const how = r.created === false ? ` is already stored${gridId ? ` as grid ${gridId}` : ""}` : ` imported${gridId ? ` as grid ${gridId}` : ""}`;
+        const notes = Array.isArray(r.notes) && r.notes.length ? ` Note: ${r.notes.join("; ")}.` : "";
+        messages.show(`${label}${how}.${notes} Combine grids into a dataset below to map them.`, "info");
         if ($("dataset-details").open) messages.guard(() => this.loadGrids());
       } else if (p.failed) {
         messages.show(`Import of ${label} failed${p.message ? `: ${p.message}` : "."}`, "error");

@@ -102,6 +102,8 @@ test("jobs", () => {
   assert.equal(progressOf({ state: "succeeded" }).done, true);
   assert.equal(progressOf({ state: "completed" }).done, true);
   assert.equal(progressOf({ state: "failed", error: "bad file" }).message, "bad file");
+  // A job refused for bad input carries the problem its fault answers (GET /api/jobs/{id}).
+  assert.equal(progressOf({ state: "failed", errors: ["JobCancelError: x"], problem: { code: "invalid-grid", parameter: "vertical", detail: "100% of the values are negative" } }).message, "100% of the values are negative");
 });
 
 test("area-weighted histogram of a grid coverage", async () => {
