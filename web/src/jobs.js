@@ -1,7 +1,10 @@
 // jobs.js: grid uploads, import progress and datasets. A grid file is sent to
-// POST /api/grids (multipart: file, kind, name, variable); the service answers
-// with an import job, polled at GET /api/jobs/{id} until it succeeds or fails.
-// Stored grids can then be combined into a dataset (POST /api/datasets).
+// POST /api/grids (multipart: kind, units, vertical, name, variable, file);
+// the service answers with an import job, polled at GET /api/jobs/{id} until
+// it succeeds or fails. Stored grids can then be combined into a dataset
+// (POST /api/datasets). The form's choices (kinds, units) come from the
+// service's OpenAPI document when it lists them; otherwise the fields are free
+// text and the service's answer (problem details) says what is wrong.
 
 import { request } from "./api.js";
 import * as messages from "./messages.js";
@@ -15,6 +18,17 @@ export function jobIdFrom(body, location) {
   if (id !== undefined && id !== null) return String(id);
   const m = /\/jobs\/([^/?#]+)/.exec(location || "");
   return m ? decodeURIComponent(m[1]) : "";
+}
+
+/**
+ * uploadFieldsOf reads the multipart form schema of POST /api/grids from the
+ * service's OpenAPI document: {name: {enum, description}} per form field.
+ */
+export function uploadFieldsOf(openapi) {
+  const props = openapi?.paths?.["/api/grids"]?.post?.requestBody?.content?.["multipart/form-data"]?.schema?.properties || {};
+  const out = {};
+  for (const [name, p] of Object.entries(props)) out[name] = { enum: Array.isArray(p?.enum) ? p.enum.map(String) : null, description: p?.description || "" };
+  return out;
 }
 
 /** progressOf reads a job document into {state, fraction, message, done, failed}. */
@@ -48,6 +62,37 @@ export class JobsPanel {
     $("dataset-details").addEventListener("toggle", () => {
       if ($("dataset-details").open) messages.guard(() => this.loadGrids());
     });
+    this.formReady = this.loadUploadForm().catch(() => {
+      $("upload-kind-hint").textContent = "The service's form description could not be read: type the kind; the service says if it is not one it knows.";
+    });
+  }
+
+  /**
+   * loadUploadForm turns the kind, units and vertical fields into choices
+   * when the service's OpenAPI document lists their values, and shows each
+   * field's description as its hint.
+   */
+  async loadUploadForm() {
+    const doc = await request("/api/openapi.json", { what: "Reading the service's form description" });
+    const fields = uploadFieldsOf(doc);
+    const form = $("upload-form");
+    for (const name of ["kind", "units", "vertical"]) {
+      const f = fields[name];
+      const hint = $(`upload-${name}-hint`);
+      if (f?.description && hint) hint.textContent = f.description;
+      if (!f?.enum?.length) continue;
+      const old = form.elements[name];
+      const sel = document.createElement("select");
+      sel.id = old.id;
+      sel.name = name;
+      if (old.getAttribute("aria-describedby")) sel.setAttribute("aria-describedby", old.getAttribute("aria-describedby"));
+      const labels = new Map(old.tagName === "SELECT" ? [...old.options].map((o) => [o.value, o.textContent]) : []);
+      // Units and vertical sense may be left to the file (and the service's detection).
+      if (name !== "kind") sel.add(new Option(labels.get("") || "As the file declares", ""));
+      for (const v of f.enum) sel.add(new Option(labels.get(v) || v, v));
+      old.replaceWith(sel);
+    }
+    document.body.dataset.uploadForm = "ready";
   }
 
   async upload() {
@@ -59,7 +104,7 @@ export class JobsPanel {
     }
     const fd = new FormData();
     // Text fields first, so the service knows what the file is before it streams it.
-    for (const name of ["kind", "name", "variable"]) {
+    for (const name of ["kind", "units", "vertical", "name", "variable"]) {
       const v = form.elements[name].value.trim();
       if (v) fd.append(name, v);
     }
