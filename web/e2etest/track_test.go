@@ -257,8 +257,8 @@ func TestPageTrackFileAndParameters(t *testing.T) {
 	b.checkNoProblems()
 }
 
-// TestPageUploadWrongUnits uploads a grid declaring units the service does
-// not accept for its kind: the page shows the service's own message.
+// TestPageUploadWrongUnits uploads a grid declaring a kind, then units, the
+// service does not accept: the page shows the service's own message.
 func TestPageUploadWrongUnits(t *testing.T) {
 	requireBrowserAndPage(t)
 	ts := startServer(t, true)
@@ -279,44 +279,60 @@ func TestPageUploadWrongUnits(t *testing.T) {
 	if agePath == "" {
 		t.Fatalf("no age GeoTIFF among %v", files)
 	}
-	const badUnits = "furlong" // not a unit of age
-
-	// What the service says about these fields, asked directly.
-	want := uploadVerdict(t, ts, agePath, badUnits)
-	if want == "" {
-		t.Skip("the service accepts an age grid in furlongs: it does not check the units field yet")
-	}
-
 	b := newBrowser(t)
 	b.do(30*time.Second, chromedp.Navigate(ts.URL+"/"))
 	b.waitReadyAfter(0)
 	b.waitFor("the upload form", `document.body.dataset.uploadForm === "ready"`, 10*time.Second)
 	b.do(5*time.Second, chromedp.Evaluate[chromedp.Void](fmt.Sprintf(`localStorage.setItem("ridgeflank.writeToken", %q)`, ts.Token)))
-	b.do(10*time.Second,
-		chromedp.Click(chromedp.CSS(`#imports details:first-of-type summary`)),
-		chromedp.SetUploadFiles(chromedp.CSS("#upload-file"), []string{agePath}),
-		chromedp.SetValue(chromedp.CSS("#upload-kind"), "age"),
-	)
-	// A select offers only the service's units, so a wrong one is added as a
-	// user could type it into a free-text field.
-	b.do(5*time.Second, chromedp.Evaluate[chromedp.Void](fmt.Sprintf(`(() => { const u = document.getElementById("upload-units"); if (u.tagName === "SELECT") u.add(new Option(%q, %q)); u.value = %q; })()`, badUnits, badUnits, badUnits)))
-	b.do(10*time.Second, chromedp.Click(chromedp.CSS(`#upload-form button[type="submit"]`)))
-	b.waitFor("the service's message", fmt.Sprintf(`[...document.querySelectorAll("#messages .msg-error, #job-list li")].some(e => e.textContent.includes(%q))`, want), 60*time.Second)
-	b.do(5*time.Second, chromedp.ScrollIntoView(chromedp.CSS("#imports")))
-	b.shot("16-upload-wrong-units")
+	b.do(5*time.Second, chromedp.Click(chromedp.CSS(`#imports details:first-of-type summary`)))
+
+	// upload fills the form as a user would and submits it; a select offers
+	// only the service's values, so a wrong one is added as a user could type
+	// it into a free-text field.
+	upload := func(fields map[string]string) {
+		b.do(10*time.Second, chromedp.SetUploadFiles(chromedp.CSS("#upload-file"), []string{agePath}))
+		for name, v := range fields {
+			b.do(5*time.Second, chromedp.Evaluate[chromedp.Void](fmt.Sprintf(`(() => { const u = document.getElementById("upload-" + %q); if (u.tagName === "SELECT" && ![...u.options].some(o => o.value === %q)) u.add(new Option(%q, %q)); u.value = %q; })()`, name, v, v, v, v)))
+		}
+		b.do(10*time.Second, chromedp.Click(chromedp.CSS(`#upload-form button[type="submit"]`)))
+	}
+	shown := func(what, text string) {
+		b.waitFor(what, fmt.Sprintf(`[...document.querySelectorAll("#messages .msg-error, #job-list li")].some(e => e.textContent.includes(%q))`, text), 60*time.Second)
+	}
+
+	t.Run("kind", func(t *testing.T) {
+		want := uploadVerdict(t, ts, agePath, map[string]string{"kind": "bathymetry-ish"})
+		if want == "" {
+			t.Fatalf("the service accepted the kind %q", "bathymetry-ish")
+		}
+		upload(map[string]string{"kind": "bathymetry-ish"})
+		shown("the service's message about the kind", want)
+	})
+	t.Run("units", func(t *testing.T) {
+		const badUnits = "furlong" // not a unit of age
+		want := uploadVerdict(t, ts, agePath, map[string]string{"kind": "age", "units": badUnits})
+		if want == "" {
+			t.Skip("the service accepts an age grid in furlongs: it does not check the units field yet")
+		}
+		upload(map[string]string{"kind": "age", "units": badUnits})
+		shown("the service's message about the units", want)
+		b.do(5*time.Second, chromedp.ScrollIntoView(chromedp.CSS("#imports")))
+		b.shot("16-upload-wrong-units")
+	})
 	b.checkNoProblems()
 }
 
-// uploadVerdict posts the grid with kind=age and the given units straight to
-// the API and returns what the service objects: the problem detail of a
+// uploadVerdict posts the grid with the given form fields straight to the
+// API and returns what the service objects: the problem detail of a
 // refused upload, or the error of a failed import job; "" when it accepts.
-func uploadVerdict(t *testing.T, ts *testServer, path, units string) string {
+func uploadVerdict(t *testing.T, ts *testServer, path string, fields map[string]string) string {
 	t.Helper()
 	var buf bytes.Buffer
 	mw := multipart.NewWriter(&buf)
-	_ = mw.WriteField("kind", "age")
-	_ = mw.WriteField("units", units)
-	_ = mw.WriteField("name", "units check (SYNTHETIC)")
+	for k, v := range fields {
+		_ = mw.WriteField(k, v)
+	}
+	_ = mw.WriteField("name", "form check (SYNTHETIC)")
 	fw, _ := mw.CreateFormFile("file", filepath.Base(path))
 	data, err := os.ReadFile(path)
 	if err != nil {

@@ -159,19 +159,22 @@ export class JobsPanel {
     poll();
   }
 
-  /** loadGrids fills the dataset form's grid choices from GET /api/grids. */
+  /**
+   * loadGrids fills the dataset form's grid choices from GET /api/grids.
+   * Every stored grid is offered, with its kind, in every field: which kinds
+   * fit which field is the service's rule, and its answer says when a choice
+   * does not fit.
+   */
   async loadGrids() {
     const body = await request("/api/grids", { what: "Listing stored grids" });
     const grids = body?.grids || [];
-    const fill = (sel, kinds, optional) => {
+    for (const [sel, empty] of [["ds-age", "(choose a grid)"], ["ds-depth", "(none)"], ["ds-sediment", "(none)"]]) {
       const el = $(sel);
-      el.replaceChildren();
-      if (optional) el.add(new Option("(none)", ""));
-      for (const g of grids.filter((g) => kinds.includes(g.kind))) el.add(new Option(`${g.name || g.id} (${g.kind})`, g.id));
-    };
-    fill("ds-age", ["age"], false);
-    fill("ds-depth", ["depth", "elevation"], true);
-    fill("ds-sediment", ["sediment_thickness"], true);
+      const keep = el.value;
+      el.replaceChildren(new Option(empty, ""));
+      for (const g of grids) el.add(new Option(`${g.name || g.id} (${g.kind})`, g.id));
+      if (grids.some((g) => g.id === keep)) el.value = keep;
+    }
   }
 
   async createDataset() {
@@ -181,10 +184,7 @@ export class JobsPanel {
       const v = f.elements[name].value.trim();
       if (v) body[name] = v;
     }
-    if (!body.age_grid_id) {
-      messages.show("A dataset needs an age grid: upload one first.", "warning");
-      return;
-    }
+    // The service says what a dataset needs (problem details) if anything is missing.
     const d = await request("/api/datasets", { method: "POST", write: true, body, what: "Creating the dataset" });
     messages.show(`Dataset "${d?.name || body.name}" created.`, "info");
     f.reset();
