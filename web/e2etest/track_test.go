@@ -254,6 +254,35 @@ func TestPageTrackFileAndParameters(t *testing.T) {
 	b.shot("14-track-quillon-line-a")
 	b.do(5*time.Second, chromedp.ScrollIntoView(chromedp.CSS("#profile-waypoints")))
 	b.shot("15-track-quillon-line-a-profile")
+
+	// 3. The same line as GPX (named route points) and as GeoJSON (an
+	// unnamed LineString) gives the same samples; the GPX keeps the names.
+	for _, c := range []struct {
+		file  string
+		names []string
+	}{
+		{"quillon-line-a.gpx", names},
+		{"quillon-line-a.geojson", nil},
+	} {
+		t.Run(c.file, func(t *testing.T) {
+			p, err := filepath.Abs(filepath.Join(filepath.Dir(fixtureTrack), c.file))
+			if err != nil {
+				t.Fatal(err)
+			}
+			b.do(10*time.Second, chromedp.SetUploadFiles(chromedp.CSS("#track-file"), []string{p}))
+			b.waitFor("the profile of "+c.file, fmt.Sprintf(`["done", "error"].includes(document.getElementById("profile").dataset.state) && document.getElementById("profile-status").textContent.startsWith(%q)`, c.file), 30*time.Second)
+			if n := eval[int](b, `Number(document.body.dataset.trackSamples || 0)`); n != len(samples) {
+				t.Errorf("%s: %d samples, the CSV of the same line gave %d", c.file, n, len(samples))
+			}
+			got := eval[[]string](b, `[...document.querySelectorAll("#profile-chart .wp-label")].map(e => e.textContent)`)
+			if c.names != nil && strings.Join(got, "|") != strings.Join(c.names, "|") {
+				t.Errorf("%s: waypoint labels %q, want %q", c.file, got, c.names)
+			}
+			if len(got) != len(names) {
+				t.Errorf("%s: %d waypoint marks, want %d", c.file, len(got), len(names))
+			}
+		})
+	}
 	b.checkNoProblems()
 }
 
