@@ -55,11 +55,14 @@ export function unitText(symbol) {
 }
 
 /**
- * digitsFor chooses the decimals shown for a value: about four significant
- * figures, at most two decimals (common practice, no source), so a depth of
- * 4123 m shows no decimals and an age of 23.45 Ma shows two.
+ * digitsFor chooses the decimals shown for a value. With span (the extent of
+ * the parameter's colour scale from the service, max − min): no decimals for
+ * spans of 1000 or more, one from 10, two below, so depths show whole metres
+ * and ages tenths of a million years. Without it: about four significant
+ * figures, at most two decimals. (Common practice, no source.)
  */
-export function digitsFor(v) {
+export function digitsFor(v, span = NaN) {
+  if (Number.isFinite(span) && span > 0) return span >= 1000 ? 0 : span >= 10 ? 1 : 2;
   if (!Number.isFinite(v) || v === 0) return 0;
   const mag = Math.floor(Math.log10(Math.abs(v)));
   return Math.min(2, Math.max(0, 3 - mag));

@@ -126,8 +126,9 @@ export class Readout {
         const v = vals && vals.length ? vals[0] : null;
         td.dataset.value = v === null ? "" : String(v);
         // Diverging scales (residuals) are signed quantities: show the sign.
-        const f = scales.get(p.id)?.diverging ? fmtSigned : fmt;
-        td.textContent = vals ? f(v, digitsFor(v), unitText(p.unit)) : "not in this answer";
+        const sc = scales.get(p.id);
+        const f = sc?.diverging ? fmtSigned : fmt;
+        td.textContent = vals ? f(v, digitsFor(v, sc ? sc.max - sc.min : NaN), unitText(p.unit)) : "not in this answer";
         if (v !== null) any = true;
       }
       status.textContent = any

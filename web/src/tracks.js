@@ -17,6 +17,7 @@ import { fmt, fmtLatLon, fmtSigned } from "./format.js";
 import { unitText, digitsFor } from "./parameters.js";
 import { state, availableParameters } from "./state.js";
 import * as messages from "./messages.js";
+import { loadColourScales } from "./colourscales.js";
 import { trackMediaType, waypointsOf, splitAtAntimeridian } from "./trackanswer.js";
 
 const $ = (id) => document.getElementById(id);
@@ -119,6 +120,8 @@ export class TracksPanel {
         p.units[key] = unitText(parameterUnit(cov, id));
       }
       p.waypoints = waypointsOf(doc, cov);
+      const scales = await loadColourScales().catch(() => new Map());
+      p.spans = Object.fromEntries(Object.entries(PROFILE_SERIES).map(([key, id]) => [key, scales.has(id) ? scales.get(id).max - scales.get(id).min : NaN]));
       this.showOnMap(p);
       await this.addBand(p);
       this.profile = p;
@@ -212,7 +215,7 @@ export class TracksPanel {
     set("position", null, fmtLatLon(lat, lon));
     for (const [key, id] of Object.entries(PROFILE_SERIES)) {
       const v = val(p[key]);
-      set(id, v, (key === "residual" ? fmtSigned : fmt)(v, digitsFor(v), p.units[key]));
+      set(id, v, (key === "residual" ? fmtSigned : fmt)(v, digitsFor(v, p.spans?.[key]), p.units[key]));
     }
   }
 

@@ -60,8 +60,9 @@ test("parameters come from the collection document", () => {
   assert.equal(unitText("m2/s"), "m²/s");
   assert.equal(unitText("s-1"), "s⁻¹");
   assert.equal(unitText("Ma"), "Ma");
-  // About four significant figures, at most two decimals (common practice, no source).
-  assert.deepEqual([4123.4, 23.456, 105.3, 0.5, 0, NaN].map(digitsFor), [0, 2, 1, 2, 0, 0]);
+  // Decimals from the colour scale's span, else about four significant figures (common practice, no source).
+  assert.deepEqual([4123.4, 23.456, 105.3, 0.5, 0, NaN].map((v) => digitsFor(v)), [0, 2, 1, 2, 0, 0]);
+  assert.deepEqual([3000, 180, 270, 5].map((span) => digitsFor(30.25, span)), [0, 1, 1, 2]);
 });
 
 test("colour scales follow the service's position rule", () => {
