@@ -728,13 +728,19 @@ func TestPageDemoBasin(t *testing.T) {
 		t.Errorf("the map export has %d distinct colours in the map area: the data layer is missing", colours)
 	}
 
-	// 9. A bad file gives a clear message, not a script error.
+	// 9. A bad file gives the service's own message (problem details), not a
+	// script error: the page parses no track file itself.
 	badPath := filepath.Join(t.TempDir(), "bad.csv")
-	if err := os.WriteFile(badPath, []byte("x1,x2\n1,2\n3,4\n"), 0o644); err != nil {
+	badCSV := []byte("x1,x2\n1,2\n3,4\n")
+	if err := os.WriteFile(badPath, badCSV, 0o644); err != nil {
 		t.Fatal(err)
 	}
+	badProblem := postTrack(t, ts, badCSV, "text/csv")
+	if badProblem.Status < 400 || badProblem.Detail == "" {
+		t.Fatalf("the service accepted a CSV without coordinate columns (HTTP %d)", badProblem.Status)
+	}
 	b.do(10*time.Second, chromedp.SetUploadFiles(chromedp.CSS("#track-file"), []string{badPath}))
-	b.waitFor("the error message", `[...document.querySelectorAll("#messages .msg-error")].some(li => li.textContent.includes("longitude column"))`, 10*time.Second)
+	b.waitFor("the service's message", fmt.Sprintf(`[...document.querySelectorAll("#messages .msg-error")].some(li => li.textContent.includes(%q))`, badProblem.Detail), 10*time.Second)
 
 	// 10. Delete the region.
 	b.do(5*time.Second, chromedp.Evaluate[chromedp.Void](`window.confirm = () => true`))
@@ -886,8 +892,12 @@ func TestPageUploadAndDataset(t *testing.T) {
 	if got := eval[string](b, `document.body.dataset.layer`); got != "seafloor_age" {
 		t.Errorf("layer %q on an age-only dataset, want seafloor_age", got)
 	}
-	if !eval[bool](b, `document.querySelector('#layer-select option[value="residual_depth"]').disabled`) {
+	// The layer choices are the new collection's parameters, nothing more.
+	if eval[bool](b, `!!document.querySelector('#layer-select option[value="residual_depth"]')`) {
 		t.Errorf("residual depth is still offered for an age-only dataset")
+	}
+	if got, want := eval[[]string](b, `[...document.querySelectorAll("#layer-select option")].map(o => o.value).sort()`), collectionParameterIDs(t, ts, newID); strings.Join(got, ",") != strings.Join(want, ",") {
+		t.Errorf("layer choices %v, want the collection's parameters %v", got, want)
 	}
 	b.shot("13-new-dataset")
 	b.checkNoProblems()

@@ -1,5 +1,5 @@
-// geometry.js: small conversions between Leaflet shapes, GeoJSON and WKT, and
-// spherical lengths for display.
+// geometry.js: small conversions between Leaflet shapes, GeoJSON and WKT.
+// Distances along tracks come from the service (geodesic), not from here.
 
 import { wrapLon } from "./format.js";
 
@@ -37,29 +37,6 @@ export function toWKT(g) {
     default:
       throw new Error(`Cannot write a ${g?.type || "missing"} geometry as WKT.`);
   }
-}
-
-/** Mean Earth radius R1 = (2a + b)/3 for WGS84, km (Moritz 1980, Geodetic Reference System 1980). */
-export const EARTH_RADIUS_KM = 6371.0088;
-
-/**
- * haversineKm is the great-circle distance on a sphere of mean radius, for
- * display along tracks when the service does not give distances (the
- * haversine formula; Sinnott 1984, "Virtues of the haversine").
- */
-export function haversineKm(lon1, lat1, lon2, lat2) {
-  const r = Math.PI / 180;
-  const dLat = (lat2 - lat1) * r;
-  const dLon = (lon2 - lon1) * r;
-  const a = Math.sin(dLat / 2) ** 2 + Math.cos(lat1 * r) * Math.cos(lat2 * r) * Math.sin(dLon / 2) ** 2;
-  return 2 * EARTH_RADIUS_KM * Math.asin(Math.min(1, Math.sqrt(a)));
-}
-
-/** cumulativeKm returns distance along a list of [lon, lat] from its first point. */
-export function cumulativeKm(coords) {
-  const out = [0];
-  for (let i = 1; i < coords.length; i++) out.push(out[i - 1] + haversineKm(coords[i - 1][0], coords[i - 1][1], coords[i][0], coords[i][1]));
-  return out;
 }
 
 /** MAX_MERCATOR_LAT is the latitude limit of web mercator (°), where the map ends. */

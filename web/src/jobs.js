@@ -1,7 +1,10 @@
 // jobs.js: grid uploads, import progress and datasets. A grid file is sent to
-// POST /api/grids (multipart: file, kind, units, vertical, name, variable); the service answers
-// with an import job, polled at GET /api/jobs/{id} until it succeeds or fails.
-// Stored grids can then be combined into a dataset (POST /api/datasets).
+// POST /api/grids (multipart: kind, units, vertical, name, variable, file);
+// the service answers with an import job, polled at GET /api/jobs/{id} until
+// it succeeds or fails. Stored grids can then be combined into a dataset
+// (POST /api/datasets). The form's choices (kinds, units) come from the
+// service's OpenAPI document when it lists them; otherwise the fields are free
+// text and the service's answer (problem details) says what is wrong.
 
 import { request } from "./api.js";
 import * as messages from "./messages.js";
@@ -15,6 +18,17 @@ export function jobIdFrom(body, location) {
   if (id !== undefined && id !== null) return String(id);
   const m = /\/jobs\/([^/?#]+)/.exec(location || "");
   return m ? decodeURIComponent(m[1]) : "";
+}
+
+/**
+ * uploadFieldsOf reads the multipart form schema of POST /api/grids from the
+ * service's OpenAPI document: {name: {enum, description}} per form field.
+ */
+export function uploadFieldsOf(openapi) {
+  const props = openapi?.paths?.["/api/grids"]?.post?.requestBody?.content?.["multipart/form-data"]?.schema?.properties || {};
+  const out = {};
+  for (const [name, p] of Object.entries(props)) out[name] = { enum: Array.isArray(p?.enum) ? p.enum.map(String) : null, description: p?.description || "" };
+  return out;
 }
 
 /** progressOf reads a job document into {state, fraction, message, done, failed}. */
@@ -48,6 +62,37 @@ export class JobsPanel {
     $("dataset-details").addEventListener("toggle", () => {
       if ($("dataset-details").open) messages.guard(() => this.loadGrids());
     });
+    this.formReady = this.loadUploadForm().catch(() => {
+      $("upload-kind-hint").textContent = "The service's form description could not be read: type the kind; the service says if it is not one it knows.";
+    });
+  }
+
+  /**
+   * loadUploadForm turns the kind, units and vertical fields into choices
+   * when the service's OpenAPI document lists their values, and shows each
+   * field's description as its hint.
+   */
+  async loadUploadForm() {
+    const doc = await request("/api/openapi.json", { what: "Reading the service's form description" });
+    const fields = uploadFieldsOf(doc);
+    const form = $("upload-form");
+    for (const name of ["kind", "units", "vertical"]) {
+      const f = fields[name];
+      const hint = $(`upload-${name}-hint`);
+      if (f?.description && hint) hint.textContent = f.description;
+      if (!f?.enum?.length) continue;
+      const old = form.elements[name];
+      const sel = document.createElement("select");
+      sel.id = old.id;
+      sel.name = name;
+      if (old.getAttribute("aria-describedby")) sel.setAttribute("aria-describedby", old.getAttribute("aria-describedby"));
+      const labels = new Map(old.tagName === "SELECT" ? [...old.options].map((o) => [o.value, o.textContent]) : []);
+      // Units and vertical sense may be left to the file (and the service's detection).
+      if (name !== "kind") sel.add(new Option(labels.get("") || "As the file declares", ""));
+      for (const v of f.enum) sel.add(new Option(labels.get(v) || v, v));
+      old.replaceWith(sel);
+    }
+    document.body.dataset.uploadForm = "ready";
   }
 
   async upload() {
@@ -119,19 +164,22 @@ export class JobsPanel {
     poll();
   }
 
-  /** loadGrids fills the dataset form's grid choices from GET /api/grids. */
+  /**
+   * loadGrids fills the dataset form's grid choices from GET /api/grids.
+   * Every stored grid is offered, with its kind, in every field: which kinds
+   * fit which field is the service's rule, and its answer says when a choice
+   * does not fit.
+   */
   async loadGrids() {
     const body = await request("/api/grids", { what: "Listing stored grids" });
     const grids = body?.grids || [];
-    const fill = (sel, kinds, optional) => {
+    for (const [sel, empty] of [["ds-age", "(choose a grid)"], ["ds-depth", "(none)"], ["ds-sediment", "(none)"]]) {
       const el = $(sel);
-      el.replaceChildren();
-      if (optional) el.add(new Option("(none)", ""));
-      for (const g of grids.filter((g) => kinds.includes(g.kind))) el.add(new Option(`${g.name || g.id} (${g.kind})`, g.id));
-    };
-    fill("ds-age", ["age"], false);
-    fill("ds-depth", ["depth", "elevation"], true);
-    fill("ds-sediment", ["sediment_thickness"], true);
+      const keep = el.value;
+      el.replaceChildren(new Option(empty, ""));
+      for (const g of grids) el.add(new Option(`${g.name || g.id} (${g.kind})`, g.id));
+      if (grids.some((g) => g.id === keep)) el.value = keep;
+    }
   }
 
   async createDataset() {
@@ -141,10 +189,7 @@ export class JobsPanel {
       const v = f.elements[name].value.trim();
       if (v) body[name] = v;
     }
-    if (!body.age_grid_id) {
-      messages.show("A dataset needs an age grid: upload one first.", "warning");
-      return;
-    }
+    // The service says what a dataset needs (problem details) if anything is missing.
     const d = await request("/api/datasets", { method: "POST", write: true, body, what: "Creating the dataset" });
     messages.show(`Dataset "${d?.name || body.name}" created.`, "info");
     f.reset();

@@ -2,6 +2,7 @@
 // the same scale definition the service uses for its PNG tiles.
 
 import { fmt } from "./format.js";
+import { unitText } from "./parameters.js";
 
 /** niceTicks returns round numbers spanning [min, max], about n of them. */
 export function niceTicks(min, max, n = 5) {
@@ -15,16 +16,16 @@ export function niceTicks(min, max, n = 5) {
 }
 
 /**
- * renderLegend draws scale (a Scale from colourscales.js, or null) for layer
- * into container: title and units, the colour bar, ticks, and the scale's own
+ * renderLegend draws scale (a Scale from colourscales.js, or null) for param
+ * (a parameter of the collection, from parameters.js, or null) into container: title and units, the colour bar, ticks, and the scale's own
  * note (for residuals, its sign convention).
  */
-export function renderLegend(container, scale, layer) {
+export function renderLegend(container, scale, param) {
   container.replaceChildren();
   const title = document.createElement("div");
   title.className = "legend-title";
-  const units = scale?.units || layer.units;
-  title.textContent = `${scale?.title || layer.label}${units ? ` (${units})` : ""}`;
+  const units = scale?.units || unitText(param?.unit);
+  title.textContent = `${scale?.title || param?.label || ""}${units ? ` (${units})` : ""}`;
   container.append(title);
   if (!scale || !scale.samples.length || !(scale.max > scale.min)) {
     const p = document.createElement("p");

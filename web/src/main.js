@@ -9,7 +9,7 @@ import { Graticule } from "./graticule.js";
 import { LandLayer } from "./coastline.js";
 import { loadColourScales } from "./colourscales.js";
 import { renderLegend } from "./legend.js";
-import { LAYERS, layerById } from "./layers.js";
+import { parametersOf, parameterById } from "./parameters.js";
 import { Readout } from "./readout.js";
 import { Drawer } from "./draw.js";
 import { RegionsPanel } from "./regions.js";
@@ -37,20 +37,44 @@ new JobsPanel({ onDatasetCreated: (id) => messages.guard(() => loadCollections(i
 let scales = new Map();
 
 // ---- choices -------------------------------------------------------------
+// Layers, units, models and sediment choices all come from the API: the
+// collection document (parameter_names, ridgeflank:models) and /api/models.
 
-for (const l of LAYERS) $("layer-select").add(new Option(l.label, l.id));
+// The page opens on residual depth when the dataset offers it (it is a
+// residual-depth review page); otherwise on one of the dataset's own grids.
+const OPENING_LAYER = "residual_depth";
 
 function readHash() {
   const h = new URLSearchParams(location.hash.slice(1));
-  return { datasetId: h.get("dataset") || "", layer: h.get("layer") || "", model: h.get("model") || "" };
+  return { datasetId: h.get("dataset") || "", layer: h.get("layer") || "", model: h.get("model") || "", sediment: h.get("sediment") || "" };
 }
 
 function writeHash() {
   const h = new URLSearchParams();
   if (state.datasetId) h.set("dataset", state.datasetId);
-  h.set("layer", state.layer);
-  h.set("model", state.model);
+  if (state.layer) h.set("layer", state.layer);
+  if (state.model) h.set("model", state.model);
+  if (state.sediment) h.set("sediment", state.sediment);
   history.replaceState(null, "", `#${h}`);
+}
+
+/** fillLayers offers exactly the collection's parameters as map layers. */
+function fillLayers(c) {
+  const sel = $("layer-select");
+  sel.replaceChildren();
+  for (const p of parametersOf(c)) sel.add(new Option(p.label, p.id));
+}
+
+/** fillSediments offers the collection's sediment compaction choices. */
+function fillSediments(c) {
+  const sel = $("sediment-select");
+  const names = c?.["ridgeflank:models"]?.sediment || [];
+  sel.replaceChildren(new Option("Service default", ""));
+  for (const n of names) sel.add(new Option(n, n));
+  const want = state.sediment || readHash().sediment;
+  sel.value = names.includes(want) ? want : "";
+  sel.disabled = !names.length;
+  return sel.value;
 }
 
 function collectionBounds(c) {
@@ -61,13 +85,13 @@ function collectionBounds(c) {
 }
 
 function redraw() {
-  const layer = layerById(state.layer);
-  renderLegend($("legend"), scales.get(layer.id) || null, layer);
+  const param = parameterById(state.collection, state.layer);
+  renderLegend($("legend"), scales.get(state.layer) || null, param);
   $("model-select").disabled = !state.datasetId;
-  $("model-note").textContent = layer.modelDependent ? "" : "This layer does not depend on the cooling model.";
+  $("model-note").textContent = param?.modelDependent === false ? "This layer does not depend on the cooling model." : "";
   const bounds = collectionBounds(state.collection);
-  data.show(state.datasetId, layer.id, state.model, bounds, Number($("opacity").value));
-  document.body.dataset.layer = layer.id;
+  data.show(state.datasetId, state.layer, state.model, bounds, Number($("opacity").value), state.sediment);
+  document.body.dataset.layer = state.layer;
   document.body.dataset.model = state.model;
   document.body.dataset.dataset = state.datasetId;
   writeHash();
@@ -77,8 +101,9 @@ let started = false; // no drawing until the initial choices are loaded
 
 onChange((changed) => {
   if (!started) return;
-  if (changed.some((k) => ["datasetId", "layer", "model", "collection"].includes(k))) redraw();
-  if (changed.includes("model") || changed.includes("datasetId") || changed.includes("collection")) {
+  if (changed.includes("collection")) readout.buildTable();
+  if (changed.some((k) => ["datasetId", "layer", "model", "sediment", "collection"].includes(k))) redraw();
+  if (["model", "sediment", "datasetId", "collection"].some((k) => changed.includes(k))) {
     readout.refresh();
     regions.refresh();
     tracks.refresh();
@@ -87,6 +112,7 @@ onChange((changed) => {
 
 $("layer-select").addEventListener("change", (e) => update({ layer: e.target.value }));
 $("model-select").addEventListener("change", (e) => update({ model: e.target.value }));
+$("sediment-select").addEventListener("change", (e) => update({ sediment: e.target.value }));
 $("dataset-select").addEventListener("change", (e) => messages.guard(() => chooseDataset(e.target.value, true)));
 $("opacity").addEventListener("input", (e) => data.setOpacity(Number(e.target.value)));
 $("land-toggle").addEventListener("change", (e) => messages.guard(() => (e.target.checked ? land.show() : land.hide())));
@@ -103,17 +129,23 @@ async function chooseDataset(id, fit) {
   $("dataset-info").textContent = [c.title, c.description].filter(Boolean).join(" — ");
   const b = collectionBounds(c);
   if (fit && b) map.fitBounds(b, { padding: [10, 10], animate: false });
-  // Offer only the layers this dataset can draw (an age-only dataset has no
-  // observed or residual depth).
-  const avail = c.parameter_names ? Object.keys(c.parameter_names) : null;
-  for (const opt of $("layer-select").options) opt.disabled = Boolean(avail) && !avail.includes(opt.value);
-  let layer = state.layer;
-  if (avail && avail.length && !avail.includes(layer)) {
-    layer = avail.includes("seafloor_age") ? "seafloor_age" : avail[0];
-    messages.show(`${c.title || id} has no ${layerById(state.layer).label.toLowerCase()}; showing ${layerById(layer).label.toLowerCase()}.`, "info");
-    $("layer-select").value = layer;
+  // Offer exactly the parameters this dataset's collection document lists.
+  const params = parametersOf(c);
+  const ids = params.map((p) => p.id);
+  const before = parameterById(state.collection, state.layer);
+  fillLayers(c);
+  const sediment = fillSediments(c);
+  let layer = state.layer || readHash().layer;
+  if (!ids.includes(layer)) {
+    const own = (c["ridgeflank:grids"] || []).map((g) => g.role);
+    layer = ids.includes(OPENING_LAYER) ? OPENING_LAYER : ids.find((id) => own.includes(id)) || ids[0] || "";
+    if (state.layer && before) {
+      const now = parameterById(c, layer);
+      messages.show(`${c.title || id} has no ${before.label.toLowerCase()}; showing ${(now?.label || layer).toLowerCase()}.`, "info");
+    }
   }
-  update({ datasetId: id, collection: c, layer });
+  $("layer-select").value = layer;
+  update({ datasetId: id, collection: c, layer, sediment });
 }
 
 async function loadCollections(prefer = "") {
@@ -138,8 +170,9 @@ async function loadModels() {
     const id = m.id || m.params?.id;
     sel.add(new Option(m.name ? `${m.name}` : id, id));
   }
-  const wanted = readHash().model || state.model;
-  const pick = list.some((m) => (m.id || m.params?.id) === wanted) ? wanted : list[0]?.id || "gdh1";
+  // The hash's model, else the one already chosen, else the collection's default.
+  const ids = list.map((m) => m.id || m.params?.id);
+  const pick = [readHash().model, state.model, state.collection?.["ridgeflank:models"]?.default].find((m) => m && ids.includes(m)) || ids[0] || "";
   sel.value = pick;
   update({ models: list, model: pick });
 }
@@ -156,10 +189,10 @@ $("token-forget").addEventListener("click", () => setToken(""));
 showTokenState();
 
 function snapshotCanvas() {
-  const layer = layerById(state.layer);
-  const scale = scales.get(layer.id);
+  const param = parameterById(state.collection, state.layer);
+  const scale = scales.get(state.layer);
   return mapToCanvas(map, {
-    title: `${state.collection?.title || state.datasetId || "no dataset"} · ${layer.label} · model ${state.model}`,
+    title: `${state.collection?.title || state.datasetId || "no dataset"} · ${param?.label || state.layer} · model ${state.model}${state.sediment ? ` · sediment ${state.sediment}` : ""}`,
     legendCanvas: $("legend").querySelector("canvas"),
     legendText: scale ? `${scale.min} to ${scale.max} ${scale.units}${scale.note ? ` (${scale.note})` : ""}` : "",
     caution: CAUTION,
@@ -170,24 +203,21 @@ $("snapshot").addEventListener("click", () =>
   messages.guard(() => downloadCanvas(snapshotCanvas(), `ridgeflank-${state.datasetId || "map"}-${state.layer}-${state.model}.png`)),
 );
 
-// A small scripting surface for tests and power users: the Leaflet map and
+// A small scripting surface for tests and power users: the Leaflet map, the
+// track panel (its layer holds the drawn track) and
 // the map snapshot as a PNG data URL.
-window.ridgeflank = { map, state, snapshotDataURL: () => snapshotCanvas().toDataURL("image/png") };
+window.ridgeflank = { map, state, tracks, snapshotDataURL: () => snapshotCanvas().toDataURL("image/png") };
 
 // ---- start ---------------------------------------------------------------
 
 async function start() {
-  const h = readHash();
-  if (LAYERS.some((l) => l.id === h.layer)) update({ layer: h.layer });
-  $("layer-select").value = state.layer;
   const land0 = $("land-toggle").checked ? land.show().catch(messages.error) : null;
-  const [sc] = await Promise.all([
-    loadColourScales().catch((e) => (messages.error(e), new Map())),
-    messages.guard(loadModels),
-  ]);
+  const [sc] = await Promise.all([loadColourScales().catch((e) => (messages.error(e), new Map())), messages.guard(loadCollections)]);
   scales = sc;
-  await messages.guard(loadCollections);
+  await messages.guard(loadModels); // after the collection: it names the default model
   started = true;
+  readout.buildTable();
+  regions.fillParameters();
   redraw();
   await messages.guard(() => regions.load());
   await land0;

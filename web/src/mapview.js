@@ -60,30 +60,32 @@ export class DataLayer {
     this.key = "";
   }
 
-  static url(datasetId, parameter, model) {
+  static url(datasetId, parameter, model, sediment = "") {
     const q = new URLSearchParams();
     if (model) q.set("model", model);
+    if (sediment) q.set("sediment", sediment);
     return `/tiles/${encodeURIComponent(datasetId)}/${encodeURIComponent(parameter)}/{z}/{x}/{y}.png?${q}`;
   }
 
   /**
-   * show draws parameter for datasetId with model; bounds (L.LatLngBounds or
+   * show draws parameter for datasetId with model (and sediment compaction,
+ * "" for the service's default); bounds (L.LatLngBounds or
    * null) limits tile requests to the dataset's extent. With no dataset the
    * layer is removed and the page is marked ready (nothing to draw).
    */
-  show(datasetId, parameter, model, bounds, opacity = 0.9) {
-    if (!datasetId) {
+  show(datasetId, parameter, model, bounds, opacity = 0.9, sediment = "") {
+    if (!datasetId || !parameter) {
       this.clear();
       setReady(true, "no-dataset");
       return;
     }
-    const key = `${datasetId}|${parameter}|${model}|${bounds ? bounds.toBBoxString() : ""}`;
+    const key = `${datasetId}|${parameter}|${model}|${sediment}|${bounds ? bounds.toBBoxString() : ""}`;
     if (key === this.key && this.layer) return;
     this.clear();
     this.key = key;
     setReady(false);
     let started = 0;
-    const layer = L.tileLayer(DataLayer.url(datasetId, parameter, model), {
+    const layer = L.tileLayer(DataLayer.url(datasetId, parameter, model, sediment), {
       bounds: bounds || undefined,
       opacity,
       maxNativeZoom: 12,

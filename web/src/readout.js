@@ -6,9 +6,10 @@
 import L from "leaflet";
 import { request, query } from "./api.js";
 import { coverages, rangeValues } from "./coveragejson.js";
-import { READOUT_PARAMS } from "./layers.js";
+import { parametersOf, unitText, digitsFor } from "./parameters.js";
+import { loadColourScales } from "./colourscales.js";
 import { fmt, fmtLatLon, fmtSigned, wrapLon } from "./format.js";
-import { state, availableParameters } from "./state.js";
+import { state } from "./state.js";
 import * as messages from "./messages.js";
 
 const HOVER_DELAY_MS = 250;
@@ -44,10 +45,16 @@ export class Readout {
     el.querySelector("#readout-unpin")?.addEventListener("click", () => this.unpin());
   }
 
+  /**
+   * buildTable makes one row per parameter of the chosen collection (its
+   * parameter_names, in document order), labelled and united as the
+   * service describes them.
+   */
   buildTable() {
     const tbody = this.el.querySelector("tbody");
     tbody.replaceChildren();
-    for (const p of READOUT_PARAMS) {
+    this.params = parametersOf(state.collection);
+    for (const p of this.params) {
       const tr = document.createElement("tr");
       const th = document.createElement("th");
       th.scope = "row";
@@ -93,8 +100,7 @@ export class Readout {
     const lat = latlng.lat;
     const status = this.el.querySelector("#readout-status");
     this.el.dataset.state = "loading";
-    const offered = availableParameters();
-    const params = READOUT_PARAMS.map((p) => p.id).filter((id) => !offered || offered.includes(id));
+    const params = (this.params || []).map((p) => p.id);
     this.el.querySelector("#readout-position").textContent = fmtLatLon(lat, lon);
     this.el.dataset.lon = String(lon);
     this.el.dataset.lat = String(lat);
@@ -104,25 +110,26 @@ export class Readout {
           coords: `POINT(${lon.toFixed(6)} ${lat.toFixed(6)})`,
           "parameter-name": params.join(","),
           model: state.model,
+          sediment: state.sediment,
         })}`,
         { what: "Reading values at this point", headers: { Accept: "application/vnd.cov+json, application/problem+json" } },
       );
       if (seq !== this.seq) return; // a newer request superseded this one
       const cov = coverages(doc)[0];
       let any = false;
-      for (const p of READOUT_PARAMS) {
+      const scales = await loadColourScales().catch(() => new Map());
+      if (seq !== this.seq) return;
+      for (const p of this.params) {
         const td = this.el.querySelector(`td[data-param="${p.id}"]`);
+        if (!td) continue;
         const vals = cov ? rangeValues(cov, p.id) : null;
         const v = vals && vals.length ? vals[0] : null;
-        if (!offered || offered.includes(p.id)) {
-          td.dataset.value = v === null ? "" : String(v);
-          const f = p.id === "residual_depth" ? fmtSigned : fmt;
-          td.textContent = vals ? f(v, p.digits, p.units) : "not in this dataset";
-          if (v !== null) any = true;
-        } else {
-          td.dataset.value = "";
-          td.textContent = "not in this dataset";
-        }
+        td.dataset.value = v === null ? "" : String(v);
+        // Diverging scales (residuals) are signed quantities: show the sign.
+        const sc = scales.get(p.id);
+        const f = sc?.diverging ? fmtSigned : fmt;
+        td.textContent = vals ? f(v, digitsFor(v, sc ? sc.max - sc.min : NaN), unitText(p.unit)) : "not in this answer";
+        if (v !== null) any = true;
       }
       status.textContent = any
         ? `${how === "click" ? "Pinned point" : "Under the pointer"} · model ${state.model}`

@@ -11,7 +11,7 @@ import { polygonFromLatLngs, toWKT } from "./geometry.js";
 import { drawHistogram } from "./histogram.js";
 import { fmt, fmtSigned } from "./format.js";
 import { state } from "./state.js";
-import { LAYERS } from "./layers.js";
+import { parametersOf, unitText } from "./parameters.js";
 import * as messages from "./messages.js";
 import { loadRegionStats } from "./regionstats.js";
 
@@ -57,8 +57,16 @@ export class RegionsPanel {
     $("region-edit").addEventListener("click", () => this.edit());
     $("region-delete").addEventListener("click", () => messages.guard(() => this.remove()));
     $("region-download-param").addEventListener("change", () => this.updateDownloads());
+  }
+
+  /** fillParameters offers the collection's own parameters for download. */
+  fillParameters() {
     const sel = $("region-download-param");
-    for (const l of LAYERS) sel.add(new Option(l.label, l.id));
+    const keep = sel.value;
+    sel.replaceChildren();
+    for (const p of parametersOf(state.collection)) sel.add(new Option(p.label, p.id));
+    if ([...sel.options].some((o) => o.value === keep)) sel.value = keep;
+    else if ([...sel.options].some((o) => o.value === state.layer)) sel.value = state.layer;
   }
 
   async load() {
@@ -262,14 +270,15 @@ export class RegionsPanel {
       return;
     }
     try {
-      const s = await loadRegionStats(state.datasetId, r, state.model);
+      const s = await loadRegionStats(state.datasetId, r, state.model, state.sediment);
+      const unit = unitText(s.unit);
       const rows = [
         ["Cells with data", fmt(s.count, 0)],
         ["Cells without data", fmt(s.noData, 0)],
-        ["Area-weighted mean", fmtSigned(s.mean, 0, "m")],
-        ["Median", fmtSigned(s.median, 0, "m")],
-        ["Standard deviation", fmt(s.std, 0, "m")],
-        ["5th–95th percentile", Number.isFinite(s.p05) ? `${fmtSigned(s.p05, 0)} to ${fmtSigned(s.p95, 0, "m")}` : "no data"],
+        ["Area-weighted mean", fmtSigned(s.mean, 0, unit)],
+        ["Median", fmtSigned(s.median, 0, unit)],
+        ["Standard deviation", fmt(s.std, 0, unit)],
+        ["5th–95th percentile", Number.isFinite(s.p05) ? `${fmtSigned(s.p05, 0)} to ${fmtSigned(s.p95, 0, unit)}` : "no data"],
       ];
       for (const [k, v] of rows) {
         const tr = document.createElement("tr");
@@ -283,12 +292,6 @@ export class RegionsPanel {
       }
       if (s.count > 0 && s.edges?.length) {
         drawHistogram(hist, s.edges, s.counts);
-        if (s.histogramSource) {
-          const p = document.createElement("p");
-          p.className = "small";
-          p.textContent = `Histogram ${s.histogramSource}.`;
-          hist.append(p);
-        }
       } else {
         const p = document.createElement("p");
         p.textContent = s.count > 0 ? "No histogram is available for this region." : "This region has no residual-depth data in this dataset.";
@@ -330,7 +333,7 @@ export class RegionsPanel {
     for (const [label, f, ext] of formats) {
       const li = document.createElement("li");
       const a = document.createElement("a");
-      a.href = `${base}${query({ coords, "parameter-name": param, model: state.model, f })}`;
+      a.href = `${base}${query({ coords, "parameter-name": param, model: state.model, sediment: state.sediment, f })}`;
       a.download = `${slug(r.name)}-${param}-${state.model}.${ext}`;
       a.textContent = label;
       a.dataset.format = f;
@@ -341,6 +344,7 @@ export class RegionsPanel {
 
   /** datasetOrModelChanged refreshes what depends on the dataset or model. */
   refresh() {
+    this.fillParameters();
     if (this.selected) {
       this.updateDownloads();
       messages.guard(() => this.showStats());

@@ -6,8 +6,9 @@ const listeners = new Set();
 export const state = {
   datasetId: "",
   collection: null, // the EDR collection document of the chosen dataset
-  layer: "residual_depth",
-  model: "gdh1",
+  layer: "", // a parameter id of the collection
+  model: "", // a model id from /api/models (default: the collection's ridgeflank:models.default)
+  sediment: "", // a sediment compaction name from ridgeflank:models.sediment; "" = the service's default
   models: [],
 };
 
@@ -24,12 +25,11 @@ export function onChange(fn) {
   return () => listeners.delete(fn);
 }
 
-/** availableParameters lists the parameter ids the chosen collection offers. */
+/**
+ * availableParameters lists the parameter ids the chosen collection offers
+ * (its "parameter_names"), or null when no collection is chosen.
+ */
 export function availableParameters() {
   const p = state.collection?.parameter_names;
-  if (!p) return null;
-  const keys = Object.keys(p);
-  // A collection that lists only its stored grids still answers the derived
-  // parameters (predicted depth, heat flow...): then ask for everything.
-  return keys.includes("predicted_depth") ? keys : null;
+  return p ? Object.keys(p) : null;
 }

@@ -1,28 +1,38 @@
 // tracks.js: the track panel. A track is drawn on the map or read from a
-// GeoJSON, CSV or GPX file, sent to the service's trajectory query (POST with
-// a GeoJSON body), and shown as a profile. Hovering the profile marks the
-// sample on the map and fills the profile read-out.
+// file; either way the service reads it: a file is sent as it is (CSV, GPX or
+// GeoJSON) and a drawn track as a GeoJSON LineString to the collection's
+// trajectory query (POST). The page then draws what the service answered:
+// the sampled track (the coverage domain's positions, which follow the WGS84
+// geodesic between waypoints, so the line drawn is the line sampled), the
+// waypoints with their names ("ridgeflank:waypoints"), and the profile.
+// Hovering the profile marks the sample on the map and fills the profile
+// read-out. Errors are the service's problem details, shown as they come.
 
 import L from "leaflet";
 import { request, query } from "./api.js";
-import { coverages, positions, rangeValues } from "./coveragejson.js";
-import { cumulativeKm, lineFromLatLngs } from "./geometry.js";
+import { coverages, positions, rangeValues, parameterUnit } from "./coveragejson.js";
+import { lineFromLatLngs } from "./geometry.js";
 import { drawProfile } from "./profile.js";
-import { parseTrackFile } from "./trackfiles.js";
 import { fmt, fmtLatLon, fmtSigned } from "./format.js";
+import { unitText, digitsFor } from "./parameters.js";
 import { state, availableParameters } from "./state.js";
 import * as messages from "./messages.js";
+import { loadColourScales } from "./colourscales.js";
+import { trackMediaType, waypointsOf, splitAtAntimeridian } from "./trackanswer.js";
 
 const $ = (id) => document.getElementById(id);
-const PROFILE_PARAMS = ["observed_depth", "corrected_depth", "predicted_depth", "residual_depth", "seafloor_age"];
-const BUILTIN_MODELS = ["halfspace", "psm", "gdh1"];
+
+// The series the profile chart draws (depths on the left axis, residual on
+// the right, age in the read-out); each is asked for only when the chosen
+// collection lists it.
+const PROFILE_SERIES = { observed: "observed_depth", corrected: "corrected_depth", predicted: "predicted_depth", residual: "residual_depth", age: "seafloor_age" };
 
 export class TracksPanel {
   constructor(map, drawer) {
     this.map = map;
     this.drawer = drawer;
-    this.line = null;
-    this.coords = null; // [lon, lat][] as drawn or uploaded
+    this.layer = L.featureGroup().addTo(map); // the sampled line and the waypoints
+    this.source = null; // {body, type, name}: what is sent to the service
     this.profile = null;
     this.chart = null;
     this.hoverMarker = L.circleMarker([0, 0], { radius: 7, color: "#000", weight: 2, fillColor: "#00e0ff", fillOpacity: 1, interactive: false, pane: "markerPane" });
@@ -40,22 +50,15 @@ export class TracksPanel {
     $("track-hint").textContent = "";
     this.setMode("idle");
     if (!pts) return;
-    await this.use(lineFromLatLngs(pts).coordinates, "drawn track");
+    const feature = { type: "Feature", properties: {}, geometry: lineFromLatLngs(pts) };
+    await this.use({ body: JSON.stringify(feature), type: "application/geo+json", name: "drawn track" }, false);
   }
 
+  /** upload sends the file as it is: the service parses it, once. */
   async upload(file) {
     if (!file) return;
-    const text = await file.text();
-    let coords;
-    try {
-      coords = parseTrackFile(file.name, text);
-    } catch (err) {
-      throw new Error(`${file.name}: ${err.message}`);
-    } finally {
-      $("track-file").value = "";
-    }
-    await this.use(coords, file.name);
-    this.map.fitBounds(this.line.getBounds(), { padding: [40, 40], maxZoom: 9, animate: false });
+    $("track-file").value = "";
+    await this.use({ body: file, type: trackMediaType(file.name), name: file.name }, true);
   }
 
   setMode(mode) {
@@ -64,31 +67,34 @@ export class TracksPanel {
     $("track-finish").hidden = mode !== "drawing";
   }
 
-  /** use shows coords ([lon, lat][]) on the map and computes their profile. */
-  async use(coords, name) {
-    this.coords = coords;
-    this.name = name;
+  /** use makes src the current track and computes its profile. */
+  async use(src, fit) {
+    this.source = src;
     this.hoverMarker.remove();
-    this.line?.remove();
-    this.line = L.polyline(coords.map(([lon, lat]) => [lat, lon]), { color: "#006d77", weight: 3 }).addTo(this.map);
+    this.layer.clearLayers();
     await this.compute();
+    // The profile panel now takes room under the map: let Leaflet measure again.
+    this.map.invalidateSize({ animate: false });
+    if (fit && this.layer.getLayers().length) this.map.fitBounds(this.layer.getBounds(), { padding: [40, 40], maxZoom: 9, animate: false });
   }
 
-  async trajectory(coords, params, model) {
+  async trajectory(params, model) {
+    const src = this.source;
     return request(
-      `/api/collections/${encodeURIComponent(state.datasetId)}/trajectory${query({ "parameter-name": params.join(","), model })}`,
+      `/api/collections/${encodeURIComponent(state.datasetId)}/trajectory${query({ "parameter-name": params.join(","), model, sediment: state.sediment })}`,
       {
         method: "POST",
-        body: { type: "Feature", properties: {}, geometry: { type: "LineString", coordinates: coords } },
-        headers: { "Content-Type": "application/geo+json", Accept: "application/vnd.cov+json, application/problem+json" },
-        what: `Computing the track profile (${model})`,
+        body: src.body,
+        headers: { "Content-Type": src.type, Accept: "application/vnd.cov+json, application/problem+json" },
+        what: `Computing the profile of ${src.name} (${model})`,
       },
     );
   }
 
   /** compute asks the service for the profile along the current track. */
   async compute() {
-    if (!this.coords) return;
+    if (!this.source) return;
+    const name = this.source.name;
     const box = $("profile");
     box.hidden = false;
     box.dataset.state = "loading";
@@ -99,37 +105,34 @@ export class TracksPanel {
       $("profile-status").textContent = "Choose a dataset first.";
       return;
     }
-    const offered = availableParameters();
-    const params = PROFILE_PARAMS.filter((p) => !offered || offered.includes(p));
+    const offered = availableParameters() || [];
+    const params = Object.values(PROFILE_SERIES).filter((p) => offered.includes(p));
     try {
-      const doc = await this.trajectory(this.coords, params, state.model);
+      const doc = await this.trajectory(params, state.model);
       const cov = coverages(doc)[0];
       if (!cov) throw new Error("The service answered the trajectory query with no coverage.");
       const pos = positions(cov);
-      // Geodesic distance along the track from the service, else great-circle sums.
-      const extra = cov["ridgeflank:samples"]?.distance_km || doc["ridgeflank:samples"]?.distance_km;
-      const dist = Array.isArray(extra) && extra.length === pos.length ? extra.map(Number) : cumulativeKm(pos);
-      const p = {
-        positions: pos,
-        distanceKm: dist,
-        observed: rangeValues(cov, "observed_depth"),
-        corrected: rangeValues(cov, "corrected_depth"),
-        predicted: rangeValues(cov, "predicted_depth"),
-        residual: rangeValues(cov, "residual_depth"),
-        age: rangeValues(cov, "seafloor_age"),
-        bandLow: null,
-        bandHigh: null,
-        bandLabel: "",
-      };
+      const dist = (cov["ridgeflank:samples"] || doc["ridgeflank:samples"])?.distance_km;
+      if (!Array.isArray(dist) || dist.length !== pos.length) throw new Error("The service's trajectory answer has no distance along the track for its samples.");
+      const p = { positions: pos, distanceKm: dist.map(Number), units: {}, bandLow: null, bandHigh: null, bandLabel: "" };
+      for (const [key, id] of Object.entries(PROFILE_SERIES)) {
+        p[key] = rangeValues(cov, id);
+        p.units[key] = unitText(parameterUnit(cov, id));
+      }
+      p.waypoints = waypointsOf(doc, cov);
+      const scales = await loadColourScales().catch(() => new Map());
+      p.spans = Object.fromEntries(Object.entries(PROFILE_SERIES).map(([key, id]) => [key, scales.has(id) ? scales.get(id).max - scales.get(id).min : NaN]));
+      this.showOnMap(p);
       await this.addBand(p);
       this.profile = p;
       this.render();
       box.dataset.state = "done";
+      box.dataset.waypoints = String(p.waypoints.length);
       const n = p.distanceKm.length;
       const withData = (p.observed || []).filter((v) => v !== null).length;
       $("profile-status").textContent = n
-        ? `${this.name}: ${n} samples over ${fmt(p.distanceKm[n - 1], 1, "km")}${withData < n ? `, ${n - withData} without observed depth` : ""}. Model ${state.model}.`
-        : `${this.name}: the track has no samples inside the dataset.`;
+        ? `${name}: ${n} samples over ${fmt(p.distanceKm[n - 1], 1, "km")} along the WGS84 geodesic${p.observed && withData < n ? `, ${n - withData} without observed depth` : ""}. Model ${state.model}.`
+        : `${name}: the track has no samples inside the dataset.`;
     } catch (err) {
       box.dataset.state = "error";
       $("profile-status").textContent = err.message;
@@ -137,17 +140,30 @@ export class TracksPanel {
     }
   }
 
+  /** showOnMap draws the sampled track and its named waypoints. */
+  showOnMap(p) {
+    this.layer.clearLayers();
+    for (const part of splitAtAntimeridian(p.positions)) L.polyline(part, { color: "#006d77", weight: 3, className: "track-line" }).addTo(this.layer);
+    for (const w of p.waypoints) {
+      const m = L.circleMarker([w.lat, w.lon], { radius: 5, color: "#003c43", weight: 2, fillColor: "#ffffff", fillOpacity: 1, className: "track-waypoint" });
+      m.bindTooltip(w.name, { permanent: true, direction: "right", offset: [6, 0], className: "waypoint-tooltip" });
+      m.addTo(this.layer);
+    }
+    document.body.dataset.trackSamples = String(p.positions.length);
+  }
+
   /**
    * addBand sets the uncertainty band of the predicted depth: the range of
-   * predicted depth over the built-in cooling models (the spread between
-   * published models for the same seafloor age), when the service answers.
+   * predicted depth over the collection's built-in cooling models
+   * (ridgeflank:models.builtin; the spread between published models for the
+   * same seafloor age), when the service answers.
    */
   async addBand(p) {
     if (!p.predicted) return;
-    const others = BUILTIN_MODELS.filter((m) => m !== state.model);
-    const answers = await Promise.all(
-      others.map((m) => this.trajectory(this.coords, ["predicted_depth"], m).then((d) => rangeValues(coverages(d)[0], "predicted_depth")).catch(() => null)),
-    );
+    const builtin = state.collection?.["ridgeflank:models"]?.builtin || [];
+    const others = builtin.filter((m) => m !== state.model);
+    const id = PROFILE_SERIES.predicted;
+    const answers = await Promise.all(others.map((m) => this.trajectory([id], m).then((d) => rangeValues(coverages(d)[0], id)).catch(() => null)));
     const all = [p.predicted, ...answers.filter((a) => a && a.length === p.predicted.length)];
     if (all.length < 2) return;
     p.bandLow = p.predicted.map((_, i) => minOf(all.map((a) => a[i])));
@@ -158,12 +174,21 @@ export class TracksPanel {
   render() {
     const p = this.profile;
     const el = $("profile-chart");
+    const list = $("profile-waypoints");
+    list.replaceChildren();
     if (!p || !p.distanceKm.length) {
       el.replaceChildren();
       el.dataset.points = "0";
       return;
     }
+    this.chart?.destroy();
     this.chart = drawProfile(el, p, (i) => this.hover(i));
+    for (const w of p.waypoints) {
+      const li = document.createElement("li");
+      li.dataset.distanceKm = String(w.distanceKm);
+      li.textContent = `${w.name} · ${fmt(w.distanceKm, 1, "km")} · ${fmtLatLon(w.lat, w.lon)}`;
+      list.append(li);
+    }
     $("profile-band-note").textContent = p.bandLabel
       ? `Shaded band: ${p.bandLabel}. Hover the chart to mark the sample on the map.`
       : "No uncertainty band is available. Hover the chart to mark the sample on the map.";
@@ -180,24 +205,24 @@ export class TracksPanel {
     out.dataset.markerLon = String(lon);
     out.dataset.markerLat = String(lat);
     const val = (a) => (a ? a[i] : null);
-    const set = (id, v, text) => {
-      const el = out.querySelector(`[data-param="${id}"]`);
+    const set = (param, v, text) => {
+      const el = out.querySelector(`[data-param="${param}"]`);
+      if (!el) return;
       el.dataset.value = v === null || v === undefined ? "" : String(v);
       el.textContent = text;
     };
     set("distance", p.distanceKm[i], fmt(p.distanceKm[i], 2, "km"));
     set("position", null, fmtLatLon(lat, lon));
-    set("seafloor_age", val(p.age), fmt(val(p.age), 2, "Ma"));
-    set("observed_depth", val(p.observed), fmt(val(p.observed), 0, "m"));
-    set("predicted_depth", val(p.predicted), fmt(val(p.predicted), 0, "m"));
-    set("residual_depth", val(p.residual), fmtSigned(val(p.residual), 0, "m"));
+    for (const [key, id] of Object.entries(PROFILE_SERIES)) {
+      const v = val(p[key]);
+      set(id, v, (key === "residual" ? fmtSigned : fmt)(v, digitsFor(v, p.spans?.[key]), p.units[key]));
+    }
   }
 
   clear() {
     this.drawer.cancel();
-    this.line?.remove();
-    this.line = null;
-    this.coords = null;
+    this.layer.clearLayers();
+    this.source = null;
     this.profile = null;
     this.chart?.destroy();
     this.chart = null;
@@ -205,11 +230,12 @@ export class TracksPanel {
     $("profile-readout").dataset.index = "";
     $("profile").hidden = true;
     $("profile-chart").replaceChildren();
+    $("profile-waypoints").replaceChildren();
     this.setMode("idle");
   }
 
   refresh() {
-    if (this.coords) messages.guard(() => this.compute());
+    if (this.source) messages.guard(() => this.compute());
   }
 }
 

@@ -1,39 +1,14 @@
 // Unit tests of the page's pure modules (no browser): run with `npm test`.
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { haversineKm, cumulativeKm, toWKT, ringFromLatLngs } from "../src/geometry.js";
-import { parseCSVTrack, parseGeoJSONTrack } from "../src/trackfiles.js";
+import { toWKT, ringFromLatLngs } from "../src/geometry.js";
+import { trackMediaType, waypointsOf, splitAtAntimeridian } from "../src/trackanswer.js";
+import { parametersOf, unitText, digitsFor } from "../src/parameters.js";
 import { parseColourDocument } from "../src/colourscales.js";
 import { niceTicks } from "../src/legend.js";
 import { wrapLon } from "../src/format.js";
 import { coverages, positions, rangeValues } from "../src/coveragejson.js";
 import { jobIdFrom, progressOf } from "../src/jobs.js";
-
-test("haversine distances", async (t) => {
-  const cases = [
-    // One degree of a great circle on a sphere of radius R is R·π/180 km (definition of the radian).
-    { name: "1° of latitude", args: [0, 0, 0, 1], want: (6371.0088 * Math.PI) / 180, tol: 1e-9 },
-    { name: "1° of longitude at the equator", args: [0, 0, 1, 0], want: (6371.0088 * Math.PI) / 180, tol: 1e-9 },
-    // Across the antimeridian: 179.5°E to 179.5°W is 1° of longitude.
-    { name: "across the antimeridian", args: [179.5, 0, -179.5, 0], want: (6371.0088 * Math.PI) / 180, tol: 1e-9 },
-    // Pole to pole is half a circumference, π·R.
-    { name: "pole to pole", args: [0, 90, 0, -90], want: 6371.0088 * Math.PI, tol: 1e-6 },
-    // At 60° latitude a degree of longitude along the parallel is R·cos60°·π/180; the great circle is
-    // shorter by a hair (2R·asin(cos60°·sin(0.5°))), computed here independently.
-    { name: "1° of longitude at 60°N", args: [0, 60, 1, 60], want: 2 * 6371.0088 * Math.asin(0.5 * Math.sin(Math.PI / 360)), tol: 1e-9 },
-  ];
-  for (const c of cases) {
-    await t.test(c.name, () => {
-      const got = haversineKm(...c.args);
-      assert.ok(Math.abs(got - c.want) <= c.tol, `got ${got}, want ${c.want} ± ${c.tol}`);
-    });
-  }
-  await t.test("cumulative", () => {
-    const d = cumulativeKm([[0, 0], [0, 1], [0, 2]]);
-    assert.equal(d.length, 3);
-    assert.ok(Math.abs(d[2] - 2 * d[1]) < 1e-9);
-  });
-});
 
 test("WKT and rings (lon lat order, closed rings, longitudes wrapped)", () => {
   const ring = ringFromLatLngs([{ lat: 1, lng: 190 }, { lat: 2, lng: 191 }, { lat: 1, lng: 192 }]);
@@ -45,13 +20,49 @@ test("WKT and rings (lon lat order, closed rings, longitudes wrapped)", () => {
   assert.equal(wrapLon(360), 0);
 });
 
-test("track files", () => {
-  assert.deepEqual(parseCSVTrack("lat;lon\n-10;350\n-11;-9\n"), [[-10, -10], [-9, -11]]);
-  assert.throws(() => parseCSVTrack("a,b\n1,2\n3,4\n"), /longitude column/);
-  assert.throws(() => parseCSVTrack("lon,lat\n1,95\n2,3\n"), /latitude 95/);
-  assert.deepEqual(parseGeoJSONTrack('{"type":"LineString","coordinates":[[1,2],[3,4]]}'), [[1, 2], [3, 4]]);
-  assert.throws(() => parseGeoJSONTrack('{"type":"Polygon","coordinates":[]}'), /not a track/);
-  assert.throws(() => parseGeoJSONTrack("{"), /not valid JSON/);
+test("track files go to the service as they are", () => {
+  // Media types: RFC 4180 (text/csv), RFC 7946 (application/geo+json); GPX has no registered
+  // type, application/gpx+xml is the one in common use (common practice, no source).
+  assert.equal(trackMediaType("Line-A.GPX"), "application/gpx+xml");
+  assert.equal(trackMediaType("line.geojson"), "application/geo+json");
+  assert.equal(trackMediaType("line.json"), "application/geo+json");
+  assert.equal(trackMediaType("quillon-line-a.csv"), "text/csv");
+  assert.equal(trackMediaType("log.nav"), "text/csv"); // unknown: the service recognises the content
+  assert.equal(trackMediaType(""), "text/csv");
+});
+
+test("the trajectory answer's waypoints and line", () => {
+  const doc = { type: "Coverage", "ridgeflank:waypoints": [{ name: "QA-01", lon: -131.25, lat: -27.5, distance_km: 0 }, { name: "", lon: -128.3, lat: -25.7, distance_km: 330.5 }] };
+  const w = waypointsOf(doc, doc);
+  assert.deepEqual(w.map((x) => [x.name, x.named, x.distanceKm]), [["QA-01", true, 0], ["Waypoint 2", false, 330.5]]);
+  assert.deepEqual(waypointsOf({}, {}), []);
+  // A line crossing ±180 (longitudes answered in −180..180) is cut where it jumps.
+  const parts = splitAtAntimeridian([[179, 1], [179.9, 1.1], [-179.8, 1.2], [-179, 1.3]]);
+  assert.deepEqual(parts, [[[1, 179], [1.1, 179.9]], [[1.2, -179.8], [1.3, -179]]]);
+  assert.equal(splitAtAntimeridian([[0, 0], [1, 1]]).length, 1);
+});
+
+test("parameters come from the collection document", () => {
+  // A parameter object as CoverageJSON 1.0 (OGC 21-069r2, section 6.3) writes it.
+  const c = {
+    parameter_names: {
+      heat_flow: { type: "Parameter", observedProperty: { id: "heat_flow", label: { en: "Heat flow" } }, unit: { label: { en: "milliwatt per square metre" }, symbol: { value: "mW/m2", type: "http://www.opengis.net/def/uom/UCUM/" } } },
+      seafloor_age: { type: "Parameter", observedProperty: { label: { en: "Seafloor age" } }, unit: { symbol: "Ma" }, "ridgeflank:model_dependent": false },
+    },
+  };
+  const ps = parametersOf(c);
+  assert.deepEqual(ps.map((p) => [p.id, p.label, p.unit]), [["heat_flow", "Heat flow", "mW/m2"], ["seafloor_age", "Seafloor age", "Ma"]]);
+  assert.equal(ps[0].modelDependent, undefined);
+  assert.equal(ps[1].modelDependent, false);
+  assert.deepEqual(parametersOf(null), []);
+  // UCUM writes powers as digits after the unit atom (The Unified Code for Units of Measure; from memory).
+  assert.equal(unitText("mW/m2"), "mW/m²");
+  assert.equal(unitText("m2/s"), "m²/s");
+  assert.equal(unitText("s-1"), "s⁻¹");
+  assert.equal(unitText("Ma"), "Ma");
+  // Decimals from the colour scale's span, else about four significant figures (common practice, no source).
+  assert.deepEqual([4123.4, 23.456, 105.3, 0.5, 0, NaN].map((v) => digitsFor(v)), [0, 2, 1, 2, 0, 0]);
+  assert.deepEqual([3000, 180, 270, 5].map((span) => digitsFor(30.25, span)), [0, 1, 1, 2]);
 });
 
 test("colour scales follow the service's position rule", () => {
@@ -106,27 +117,8 @@ test("jobs", () => {
   assert.equal(progressOf({ state: "failed", errors: ["JobCancelError: x"], problem: { code: "invalid-grid", parameter: "vertical", detail: "100% of the values are negative" } }).message, "100% of the values are negative");
 });
 
-test("area-weighted histogram of a grid coverage", async () => {
-  const { histogramFromGrid, niceBinWidth } = await import("../src/regionstats.js");
-  // Two rows, at 0° and 60°: cell areas in the ratio 1 : cos 60° = 1 : 0.5 (area element R² cos φ dφ dλ).
-  const cov = {
-    type: "Coverage",
-    domain: { axes: { x: { start: 0, stop: 1, num: 2 }, y: { start: 60, stop: 0, num: 2 } } },
-    ranges: { residual_depth: { axisNames: ["y", "x"], shape: [2, 2], values: [10, 10, -10, null] } },
-  };
-  const h = histogramFromGrid(cov, "residual_depth");
-  assert.ok(h);
-  // Values 10, 10 at 60° (weights 0.5 + 0.5), −10 at 0° (weight 1): half the area on each side.
-  const total = h.counts.reduce((a, b) => a + b, 0);
-  assert.ok(Math.abs(total - 100) < 1e-9);
-  const neg = h.counts.filter((_, i) => h.edges[i + 1] <= 0).reduce((a, b) => a + b, 0);
-  assert.ok(Math.abs(neg - 50) < 1e-9, `share below zero ${neg}`);
-  assert.equal(niceBinWidth(3000, 40), 100);
-  assert.equal(histogramFromGrid({ ranges: {} }, "residual_depth"), null);
-});
-
 test("region statistics read with the unit in every name", async () => {
-  const { normaliseStats } = await import("../src/regionstats.js");
+  const { normaliseStats, unitSuffixOf } = await import("../src/regionstats.js");
   // Names as in the service's OpenAPI document (components/schemas/StatisticsM, HistogramM).
   const s = normaliseStats({
     count: 4, no_data: 1, weight_sum: 3.5,
@@ -140,6 +132,9 @@ test("region statistics read with the unit in every name", async () => {
   assert.equal(normaliseStats({ mean_ma: 12 }, "ma").mean, 12);
   assert.ok(Number.isNaN(normaliseStats({ mean: 120 }).mean));
   assert.equal(normaliseStats(undefined).edges, null);
+  // The unit suffix is found in the names the service wrote.
+  assert.equal(unitSuffixOf({ count: 1, mean_mw_m2: 80 }), "mw_m2");
+  assert.equal(normaliseStats({ mean_km: 7, p95_km: 9 }).p95, 9);
 });
 
 test("land rings across the antimeridian and round a pole", async (t) => {
