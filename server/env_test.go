@@ -309,3 +309,5 @@ func checkProblem(t testing.TB, raw []byte, status int) {
 		t.Errorf("problem %+v (HTTP %d) is not a catalogued kind with matching type and status", p, status)
 	}
 }
+
+func nopLogger() *slog.Logger { return slog.New(slog.DiscardHandler) }
