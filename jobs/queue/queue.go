@@ -74,7 +74,7 @@ func Open(ctx context.Context, st store.Store, h jobs.Handlers, o Options) (*Que
 			return nil, fmt.Errorf("job queue: %w", oerr)
 		}
 		db.SetMaxOpenConns(1)
-		q, err = newQueue[*sql.Tx](riversqlite.New(db), h, o, db.PingContext)
+		q, err = newQueue[*sql.Tx](riversqlite.New(db), true, h, o, db.PingContext)
 		if err != nil {
 			db.Close()
 			return nil, err
@@ -82,12 +82,12 @@ func Open(ctx context.Context, st store.Store, h jobs.Handlers, o Options) (*Que
 		q.close = db.Close
 	case *postgis.Store:
 		pool := s.Pool()
-		q, err = newQueue[pgx.Tx](riverpgxv5.New(pool), h, o, pool.Ping)
+		q, err = newQueue[pgx.Tx](riverpgxv5.New(pool), false, h, o, pool.Ping)
 		if err != nil {
 			return nil, err
 		}
 	default:
-		return nil, fmt.Errorf("job queue: store backend %s has no job queue", st.Backend())
+		return nil, fmt.Errorf("job queue: no queue for a %s store", st.Backend())
 	}
 	if err := q.impl.ping(ctx); err != nil {
 		_ = q.Close()
@@ -103,7 +103,7 @@ type riverQueue[TTx any] struct {
 	runJobs bool
 }
 
-func newQueue[TTx any](driver riverdriver.Driver[TTx], h jobs.Handlers, o Options, ping func(context.Context) error) (*Queue, error) {
+func newQueue[TTx any](driver riverdriver.Driver[TTx], pollOnly bool, h jobs.Handlers, o Options, ping func(context.Context) error) (*Queue, error) {
 	if o.Logger == nil {
 		o.Logger = slog.New(slog.DiscardHandler)
 	}
@@ -118,9 +118,7 @@ func newQueue[TTx any](driver riverdriver.Driver[TTx], h jobs.Handlers, o Option
 	if cfg.FetchPollInterval <= 0 {
 		cfg.FetchPollInterval = time.Second
 	}
-	if _, isSQLite := any(driver).(*riversqlite.Driver); isSQLite {
-		cfg.PollOnly = true
-	}
+	cfg.PollOnly = pollOnly // SQLite has no LISTEN/NOTIFY
 	if rq.runJobs {
 		n := o.Workers
 		if n == 0 {
