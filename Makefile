@@ -8,8 +8,13 @@ BIN := bin/ridgeflank
 VERSION ?= $(shell git describe --always --dirty 2>/dev/null || echo dev)
 LDFLAGS := -X main.version=$(VERSION)
 GO_TEST_FLAGS ?= -timeout 30m -p 2
+# Pinned analysers, run through the Go module proxy with `go run` (nothing added to go.mod).
+STATICCHECK ?= honnef.co/go/tools/cmd/staticcheck@v0.8.2
+DEADCODE ?= golang.org/x/tools/cmd/deadcode@v0.45.0
+# Database drivers the HTTP package must not link (job types live in jobs, the drivers in jobs/queue and store/*).
+SERVER_FORBIDDEN_DEPS := riverpgxv5|riversqlite|modernc.org/sqlite|jackc/pgx
 
-.PHONY: help run build web deps-build deps-test test test-web test-go lint fmt bench clean
+.PHONY: help run build web deps-build deps-test test test-web test-go lint deadcode fmt bench clean
 
 help: ## list the targets
 	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sort | awk -F ':.*## ' '{printf "  %-11s %s\n", $$1, $$2}'
@@ -29,17 +34,24 @@ build: deps-build web ## build bin/ridgeflank
 run: build ## build and serve on the embedded store in ./data (demo basin loaded on first start)
 	$(BIN) serve --addr $(ADDR) --data $(DATA)
 
-lint: ## fail on gofmt differences and go vet findings
+lint: ## fail on gofmt differences, go vet, staticcheck, an untidy go.mod, or a database driver linked into server
 	@out=$$(gofmt -l $$(git ls-files '*.go' 2>/dev/null || find . -name '*.go' -not -path './web/node_modules/*')); \
 	  if [ -n "$$out" ]; then echo "gofmt would change:"; echo "$$out"; exit 1; fi
 	$(GO) vet ./...
+	@$(GO) mod tidy -diff >/dev/null || { echo "go mod tidy would change go.mod or go.sum (run go mod tidy):"; $(GO) mod tidy -diff; exit 1; }
+	$(GO) run $(STATICCHECK) ./...
+	@out=$$($(GO) list -deps ./server | grep -E '$(SERVER_FORBIDDEN_DEPS)'); \
+	  if [ -n "$$out" ]; then echo "server links database drivers it must not:"; echo "$$out"; exit 1; fi
+
+deadcode: ## list functions the ridgeflank binary never reaches (a report; lint does not fail on it)
+	$(GO) run $(DEADCODE) ./cmd/ridgeflank
 
 test: deps-test web lint test-web test-go ## install test dependencies, bring up PostGIS, run every test
 
-test-web:
+test-web: ## run the page's unit tests (npm test)
 	@cd web && npm test --silent
 
-test-go:
+test-go: ## run every Go test on SQLite and PostGIS (brings up the test database)
 	@mkdir -p build/screenshots
 	@set -a; eval "$$(scripts/test-db.sh)"; set +a; \
 	  RIDGEFLANK_SCREENSHOTS=$(CURDIR)/build/screenshots $(GO) test $(GO_TEST_FLAGS) ./...

@@ -113,9 +113,6 @@ var seamounts = []Seamount{
 	{"Quillon Seamount E (SYNTHETIC)", -125.2, -24.8, 1400, 13},
 }
 
-// RidgeSegments returns the ridge segments, north to south.
-func RidgeSegments() []RidgeSegment { return append([]RidgeSegment(nil), ridgeSegments...) }
-
 // Seamounts returns the injected seamount chain, north-west to south-east.
 func Seamounts() []Seamount { return append([]Seamount(nil), seamounts...) }
 

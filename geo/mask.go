@@ -70,20 +70,6 @@ func (m Mask) Count() int {
 	return c
 }
 
-// Bools returns the mask as a []bool.
-func (m Mask) Bools() []bool {
-	b := make([]bool, m.n)
-	for i := range b {
-		b[i] = m.words[i>>6]&(1<<(uint(i)&63)) != 0
-	}
-	return b
-}
-
-// Clone returns an independent copy.
-func (m Mask) Clone() Mask {
-	return Mask{words: slices.Clone(m.words), n: m.n}
-}
-
 // setRange sets cells lo..hi−1.
 func (m Mask) setRange(lo, hi int) {
 	if lo >= hi {

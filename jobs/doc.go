@@ -1,3 +1,3 @@
-// Package jobs is ridgeflank's durable job queue (grid imports, large exports) on River, kept in
-// the same database as the store so a restart loses no accepted job.
+// Package jobs holds the job kinds, arguments, handlers and statuses that the ways in share; the
+// durable queue that runs them is in jobs/queue.
 package jobs

@@ -2,23 +2,9 @@ package jobs
 
 import (
 	"context"
-	"database/sql"
 	"encoding/json"
 	"errors"
-	"fmt"
-	"log/slog"
-	"sync"
 	"time"
-
-	"github.com/jackc/pgx/v5"
-	"github.com/jackc/pgx/v5/pgxpool"
-	"github.com/riverqueue/river"
-	"github.com/riverqueue/river/riverdriver"
-	"github.com/riverqueue/river/riverdriver/riverpgxv5"
-	"github.com/riverqueue/river/riverdriver/riversqlite"
-	"github.com/riverqueue/river/rivermigrate"
-	"github.com/riverqueue/river/rivertype"
-	_ "modernc.org/sqlite" // registers the "sqlite" database/sql driver for OpenSQLite
 
 	"ridgeflank/fault"
 )
@@ -104,8 +90,34 @@ type Handlers struct {
 	Export func(ctx context.Context, args ExportArgs, progress Progress) (any, error)
 }
 
-// Permanent marks an error that no retry will fix; the job is cancelled.
-func Permanent(err error) error { return river.JobCancel(err) }
+// PermanentError marks an error that no retry will fix: the queue records it and runs the job
+// no more. Test for it with IsPermanent (or errors.As).
+type PermanentError struct{ Err error }
+
+// Error returns the wrapped error's message.
+func (e *PermanentError) Error() string {
+	if e.Err == nil {
+		return "permanent job failure"
+	}
+	return e.Err.Error()
+}
+
+// Unwrap returns the wrapped error.
+func (e *PermanentError) Unwrap() error { return e.Err }
+
+// Permanent wraps err as a PermanentError; Permanent(nil) is nil.
+func Permanent(err error) error {
+	if err == nil {
+		return nil
+	}
+	return &PermanentError{Err: err}
+}
+
+// IsPermanent reports whether err, or an error it wraps, is a PermanentError.
+func IsPermanent(err error) bool {
+	var p *PermanentError
+	return errors.As(err, &p)
+}
 
 // State of a job as shown by the API.
 type State string
@@ -145,298 +157,4 @@ type Fault struct {
 	Kind    fault.Kind `json:"kind"`
 	Field   string     `json:"field,omitempty"`
 	Message string     `json:"message"`
-}
-
-// output is what a job records in River's metadata "output" key.
-type output struct {
-	Progress float64         `json:"progress"`
-	Message  string          `json:"message,omitempty"`
-	Result   json.RawMessage `json:"result,omitempty"`
-	Fault    *Fault          `json:"fault,omitempty"`
-}
-
-// Options tune a Queue.
-type Options struct {
-	Logger *slog.Logger
-	// Workers is the number of concurrent jobs (0: the package default);
-	// negative makes an insert-only queue that runs no jobs.
-	Workers int
-	// PollInterval is how often idle workers look for jobs (0: 1 s).
-	PollInterval time.Duration
-}
-
-// Queue is a durable job queue.
-type Queue struct {
-	impl queueImpl
-}
-
-type queueImpl interface {
-	migrate(ctx context.Context) error
-	start(ctx context.Context) error
-	stop(ctx context.Context) error
-	insert(ctx context.Context, args river.JobArgs, opts *river.InsertOpts) (int64, error)
-	get(ctx context.Context, id int64) (*rivertype.JobRow, error)
-	update(ctx context.Context, id int64, out output) error
-	ping(ctx context.Context) error
-}
-
-// NewSQLite makes a queue on the embedded SQLite database. db must be a
-// pool with one open connection (db.SetMaxOpenConns(1)), as River's SQLite
-// driver needs; use OpenSQLite to get one.
-func NewSQLite(db *sql.DB, h Handlers, o Options) (*Queue, error) {
-	return newQueue[*sql.Tx](riversqlite.New(db), h, o, func(ctx context.Context) error { return db.PingContext(ctx) })
-}
-
-// OpenSQLite opens a second pool on the store's SQLite file for River, with
-// one connection, WAL and a busy timeout (the driver must be registered as
-// "sqlite", as modernc.org/sqlite does).
-func OpenSQLite(path string) (*sql.DB, error) {
-	db, err := sql.Open("sqlite", "file:"+path+"?_pragma=busy_timeout(10000)&_pragma=journal_mode(WAL)&_pragma=foreign_keys(1)")
-	if err != nil {
-		return nil, err
-	}
-	db.SetMaxOpenConns(1)
-	return db, nil
-}
-
-// NewPostgres makes a queue on the PostGIS database's pool.
-func NewPostgres(pool *pgxpool.Pool, h Handlers, o Options) (*Queue, error) {
-	return newQueue[pgx.Tx](riverpgxv5.New(pool), h, o, func(ctx context.Context) error { return pool.Ping(ctx) })
-}
-
-type riverQueue[TTx any] struct {
-	driver  riverdriver.Driver[TTx]
-	client  *river.Client[TTx]
-	pinger  func(context.Context) error
-	runJobs bool
-}
-
-func newQueue[TTx any](driver riverdriver.Driver[TTx], h Handlers, o Options, ping func(context.Context) error) (*Queue, error) {
-	if o.Logger == nil {
-		o.Logger = slog.New(slog.DiscardHandler)
-	}
-	rq := &riverQueue[TTx]{driver: driver, pinger: ping, runJobs: o.Workers >= 0}
-	cfg := &river.Config{
-		Logger:               o.Logger,
-		JobTimeout:           JobTimeout,
-		RescueStuckJobsAfter: RescueAfter,
-		MaxAttempts:          MaxAttempts,
-		FetchPollInterval:    o.PollInterval,
-	}
-	if cfg.FetchPollInterval <= 0 {
-		cfg.FetchPollInterval = time.Second
-	}
-	if _, isSQLite := any(driver).(*riversqlite.Driver); isSQLite {
-		cfg.PollOnly = true
-	}
-	if rq.runJobs {
-		n := o.Workers
-		if n == 0 {
-			n = Workers
-		}
-		workers := river.NewWorkers()
-		river.AddWorker(workers, river.WorkFunc(func(ctx context.Context, job *river.Job[ImportArgs]) error {
-			if h.Import == nil {
-				return Permanent(errors.New("this server has no grid importer"))
-			}
-			return rq.run(ctx, job.ID, func(p Progress) (any, error) { return h.Import(ctx, job.Args, p) })
-		}))
-		river.AddWorker(workers, river.WorkFunc(func(ctx context.Context, job *river.Job[ExportArgs]) error {
-			if h.Export == nil {
-				return Permanent(errors.New("this server has no exporter"))
-			}
-			return rq.run(ctx, job.ID, func(p Progress) (any, error) { return h.Export(ctx, job.Args, p) })
-		}))
-		cfg.Workers = workers
-		cfg.Queues = map[string]river.QueueConfig{river.QueueDefault: {MaxWorkers: n}}
-	}
-	c, err := river.NewClient(driver, cfg)
-	if err != nil {
-		return nil, fmt.Errorf("jobs: %w", err)
-	}
-	rq.client = c
-	return &Queue{impl: rq}, nil
-}
-
-// run executes one job, recording progress as it goes (at most every 250 ms unless the message changes)
-// and the final result.
-func (q *riverQueue[TTx]) run(ctx context.Context, id int64, fn func(Progress) (any, error)) error {
-	var (
-		mu      sync.Mutex // a handler may report from several goroutines
-		last    time.Time
-		lastMsg string
-	)
-	progress := func(f float64, msg string) {
-		mu.Lock()
-		defer mu.Unlock()
-		if time.Since(last) < 250*time.Millisecond && f < 1 && msg == lastMsg {
-			return
-		}
-		last, lastMsg = time.Now(), msg
-		_ = q.update(context.WithoutCancel(ctx), id, output{Progress: clamp01(f), Message: msg})
-	}
-	progress(0, "started")
-	res, err := fn(progress)
-	if err != nil {
-		out := output{Progress: 0, Message: err.Error()}
-		if f, ok := fault.As(err); ok {
-			out.Message = f.Msg
-			out.Fault = &Fault{Kind: f.Kind, Field: f.Field, Message: f.Msg}
-		}
-		_ = q.update(context.WithoutCancel(ctx), id, out)
-		return err
-	}
-	raw, err := json.Marshal(res)
-	if err != nil {
-		return Permanent(fmt.Errorf("jobs: result not encodable: %w", err))
-	}
-	return river.RecordOutput(ctx, output{Progress: 1, Message: "done", Result: raw})
-}
-
-func clamp01(f float64) float64 {
-	if !(f >= 0) {
-		return 0
-	}
-	if f > 1 {
-		return 1
-	}
-	return f
-}
-
-func (q *riverQueue[TTx]) migrate(ctx context.Context) error {
-	m, err := rivermigrate.New(q.driver, nil)
-	if err != nil {
-		return err
-	}
-	_, err = m.Migrate(ctx, rivermigrate.DirectionUp, nil)
-	return err
-}
-
-func (q *riverQueue[TTx]) start(ctx context.Context) error {
-	if !q.runJobs {
-		return nil
-	}
-	return q.client.Start(ctx)
-}
-
-func (q *riverQueue[TTx]) stop(ctx context.Context) error {
-	if !q.runJobs {
-		return nil
-	}
-	err := q.client.Stop(ctx)
-	if errors.Is(err, context.DeadlineExceeded) || errors.Is(err, context.Canceled) {
-		// Running jobs did not finish in time: cancel them so they are
-		// retried on the next start rather than waiting for the rescuer.
-		c2, cancel := context.WithTimeout(context.WithoutCancel(ctx), 10*time.Second)
-		defer cancel()
-		return q.client.StopAndCancel(c2)
-	}
-	return err
-}
-
-func (q *riverQueue[TTx]) insert(ctx context.Context, args river.JobArgs, opts *river.InsertOpts) (int64, error) {
-	res, err := q.client.Insert(ctx, args, opts)
-	if err != nil {
-		return 0, err
-	}
-	return res.Job.ID, nil
-}
-
-func (q *riverQueue[TTx]) get(ctx context.Context, id int64) (*rivertype.JobRow, error) {
-	row, err := q.client.JobGet(ctx, id)
-	if errors.Is(err, rivertype.ErrNotFound) {
-		return nil, fmt.Errorf("job %d: %w", id, ErrNotFound)
-	}
-	return row, err
-}
-
-func (q *riverQueue[TTx]) update(ctx context.Context, id int64, out output) error {
-	_, err := q.client.JobUpdate(ctx, id, &river.JobUpdateParams{Output: out})
-	return err
-}
-
-func (q *riverQueue[TTx]) ping(ctx context.Context) error { return q.pinger(ctx) }
-
-// Migrate runs River's own migrations (its tables live beside the store's).
-func (q *Queue) Migrate(ctx context.Context) error { return q.impl.migrate(ctx) }
-
-// Start starts the workers (a no-op for insert-only queues).
-func (q *Queue) Start(ctx context.Context) error { return q.impl.start(ctx) }
-
-// Stop waits for running jobs until ctx ends, then cancels them; cancelled
-// jobs are retried on the next start.
-func (q *Queue) Stop(ctx context.Context) error { return q.impl.stop(ctx) }
-
-// Ready checks that the queue's database answers and River's tables exist.
-func (q *Queue) Ready(ctx context.Context) error {
-	if err := q.impl.ping(ctx); err != nil {
-		return err
-	}
-	_, err := q.impl.get(ctx, 0)
-	if errors.Is(err, ErrNotFound) {
-		return nil
-	}
-	return err
-}
-
-// EnqueueImport accepts a grid import; the job survives restarts.
-func (q *Queue) EnqueueImport(ctx context.Context, a ImportArgs) (int64, error) {
-	return q.impl.insert(ctx, a, &river.InsertOpts{MaxAttempts: MaxAttempts})
-}
-
-// EnqueueExport accepts a large export.
-func (q *Queue) EnqueueExport(ctx context.Context, a ExportArgs) (int64, error) {
-	return q.impl.insert(ctx, a, &river.InsertOpts{MaxAttempts: MaxAttempts})
-}
-
-// Get returns a job's status; errors.Is(err, ErrNotFound) for unknown ids.
-func (q *Queue) Get(ctx context.Context, id int64) (Status, error) {
-	row, err := q.impl.get(ctx, id)
-	if err != nil {
-		return Status{}, err
-	}
-	return statusOf(row), nil
-}
-
-func statusOf(row *rivertype.JobRow) Status {
-	st := Status{
-		ID: row.ID, Kind: row.Kind, Attempt: row.Attempt, MaxAttempt: row.MaxAttempts,
-		CreatedAt: row.CreatedAt, StartedAt: row.AttemptedAt, FinishedAt: row.FinalizedAt,
-		Args: json.RawMessage(row.EncodedArgs),
-	}
-	switch row.State {
-	case rivertype.JobStateAvailable, rivertype.JobStateScheduled, rivertype.JobStatePending:
-		st.State = StateQueued
-		if row.Attempt > 0 {
-			st.State = StateRetrying
-		}
-	case rivertype.JobStateRetryable:
-		st.State = StateRetrying
-	case rivertype.JobStateRunning:
-		st.State = StateRunning
-	case rivertype.JobStateCompleted:
-		st.State = StateSucceeded
-	case rivertype.JobStateCancelled:
-		st.State = StateCancelled
-	case rivertype.JobStateDiscarded:
-		st.State = StateFailed
-	default:
-		st.State = State(row.State)
-	}
-	if st.State == StateQueued {
-		st.StartedAt = nil
-	}
-	var md struct {
-		Output *output `json:"output"`
-	}
-	if len(row.Metadata) > 0 && json.Unmarshal(row.Metadata, &md) == nil && md.Output != nil {
-		st.Progress, st.Message, st.Result, st.Fault = md.Output.Progress, md.Output.Message, md.Output.Result, md.Output.Fault
-	}
-	for _, e := range row.Errors {
-		st.Errors = append(st.Errors, e.Error)
-	}
-	if st.State == StateCancelled && len(st.Errors) > 0 {
-		st.State = StateFailed
-	}
-	return st
 }

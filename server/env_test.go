@@ -21,11 +21,10 @@ import (
 
 	"ridgeflank/demobasin"
 	"ridgeflank/jobs"
+	"ridgeflank/jobs/queue"
 	"ridgeflank/store"
 	"ridgeflank/store/pgtest"
-	"ridgeflank/store/postgis"
 	_ "ridgeflank/store/postgis"
-	"ridgeflank/store/sqlite"
 	_ "ridgeflank/store/sqlite"
 )
 
@@ -36,7 +35,7 @@ type env struct {
 	t       testing.TB
 	backend string
 	st      store.Store
-	q       *jobs.Queue
+	q       *queue.Queue
 	handler http.Handler
 	ts      *httptest.Server
 	editor  string // token with role editor
@@ -98,24 +97,11 @@ func newEnvLimits(t testing.TB, backend string, cfg Config, limits Limits) *env 
 	}
 	deps := Deps{Store: e.st, Version: "test", Config: cfg, Assets: testAssets(), Limits: limits}
 	h := jobs.Handlers{Import: ImportWorker(e.st, nil), Export: ExportWorker(deps)}
-	opts := jobs.Options{Workers: 1, PollInterval: 100 * time.Millisecond}
-	switch s := e.st.(type) {
-	case *sqlite.Store:
-		db, err := jobs.OpenSQLite(filepath.Join(dir, store.SQLiteFileName))
-		if err != nil {
-			t.Fatal(err)
-		}
-		t.Cleanup(func() { db.Close() })
-		e.q, err = jobs.NewSQLite(db, h, opts)
-		if err != nil {
-			t.Fatal(err)
-		}
-	case *postgis.Store:
-		e.q, err = jobs.NewPostgres(s.Pool(), h, opts)
-		if err != nil {
-			t.Fatal(err)
-		}
+	e.q, err = queue.Open(ctx, e.st, h, queue.Options{Workers: 1, PollInterval: 100 * time.Millisecond})
+	if err != nil {
+		t.Fatal(err)
 	}
+	t.Cleanup(func() { e.q.Close() })
 	if err := e.q.Migrate(ctx); err != nil {
 		t.Fatal(err)
 	}
@@ -323,3 +309,5 @@ func checkProblem(t testing.TB, raw []byte, status int) {
 		t.Errorf("problem %+v (HTTP %d) is not a catalogued kind with matching type and status", p, status)
 	}
 }
+
+func nopLogger() *slog.Logger { return slog.New(slog.DiscardHandler) }

@@ -30,5 +30,3 @@ func routePattern(r *http.Request) string {
 	}
 	return ""
 }
-
-func nopLogger() *slog.Logger { return slog.New(slog.DiscardHandler) }

@@ -20,14 +20,13 @@ const Caution = "model estimate, not for navigation: predicted depths come from 
 // Provenance records how a computed answer was made: which model with which
 // parameters, which grids (with their content hashes), and which software.
 type Provenance struct {
-	Software string      `json:"software"`
-	Model    *ModelRef   `json:"model,omitempty"`
-	Sediment string      `json:"sediment,omitempty"`
-	Dataset  string      `json:"dataset,omitempty"`
-	Grids    []GridRef   `json:"grids,omitempty"`
-	Caution  string      `json:"caution,omitempty"`
-	Note     string      `json:"note,omitempty"`
-	extra    http.Header `json:"-"`
+	Software string    `json:"software"`
+	Model    *ModelRef `json:"model,omitempty"`
+	Sediment string    `json:"sediment,omitempty"`
+	Dataset  string    `json:"dataset,omitempty"`
+	Grids    []GridRef `json:"grids,omitempty"`
+	Caution  string    `json:"caution,omitempty"`
+	Note     string    `json:"note,omitempty"`
 }
 
 // ModelRef names a model and repeats its full parameter set and a hash of it.

@@ -16,10 +16,9 @@ import (
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
 	"ridgeflank/jobs"
+	"ridgeflank/jobs/queue"
 	"ridgeflank/store"
 	"ridgeflank/store/pgtest"
-	"ridgeflank/store/postgis"
-	"ridgeflank/store/sqlite"
 )
 
 // An upload accepted (202) by a server whose process then stops before the
@@ -43,26 +42,12 @@ func TestAcceptedUploadSurvivesRestart(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			queue := func(h jobs.Handlers, workers int) *jobs.Queue {
-				var q *jobs.Queue
-				opts := jobs.Options{Workers: workers, PollInterval: 100 * time.Millisecond}
-				switch s := st.(type) {
-				case *sqlite.Store:
-					db, err := jobs.OpenSQLite(filepath.Join(dir, store.SQLiteFileName))
-					if err != nil {
-						t.Fatal(err)
-					}
-					t.Cleanup(func() { db.Close() })
-					q, err = jobs.NewSQLite(db, h, opts)
-					if err != nil {
-						t.Fatal(err)
-					}
-				case *postgis.Store:
-					q, err = jobs.NewPostgres(s.Pool(), h, opts)
-					if err != nil {
-						t.Fatal(err)
-					}
+			queue := func(h jobs.Handlers, workers int) *queue.Queue {
+				q, err := queue.Open(ctx, st, h, queue.Options{Workers: workers, PollInterval: 100 * time.Millisecond})
+				if err != nil {
+					t.Fatal(err)
 				}
+				t.Cleanup(func() { q.Close() })
 				if err := q.Migrate(ctx); err != nil {
 					t.Fatal(err)
 				}

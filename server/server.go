@@ -265,7 +265,7 @@ func (s *server) routes() http.Handler {
 	return r
 }
 
-// JobQueue is the durable queue the handlers use (jobs.Queue implements it).
+// JobQueue is the durable queue the handlers use (jobs/queue.Queue implements it).
 type JobQueue interface {
 	EnqueueImport(ctx context.Context, a jobs.ImportArgs) (int64, error)
 	EnqueueExport(ctx context.Context, a jobs.ExportArgs) (int64, error)

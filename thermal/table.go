@@ -132,9 +132,6 @@ func newTable(m Model) *Table {
 	return t
 }
 
-// Model returns the model the table was built from.
-func (t *Table) Model() Model { return t.model }
-
 // interp interpolates node values y at ageMa (0 ≤ ageMa ≤ TableMaxAgeMa) and
 // returns the value and s = √ageMa.
 func (t *Table) interp(y []float64, ageMa float64) (v, s float64) {

@@ -181,14 +181,8 @@ func newFlags(c *command) *flag.FlagSet {
 	return fs
 }
 
-// envKey is the context key of the environment lookup function.
+// envKey is the context key of the environment lookup function (tests set one; see withEnv).
 type envKey struct{}
-
-// withEnv returns a context whose parseFlags reads environment variables
-// through lookup instead of os.LookupEnv (for tests).
-func withEnv(ctx context.Context, lookup func(string) (string, bool)) context.Context {
-	return context.WithValue(ctx, envKey{}, lookup)
-}
 
 func envLookup(ctx context.Context) func(string) (string, bool) {
 	if f, ok := ctx.Value(envKey{}).(func(string) (string, bool)); ok {

@@ -137,3 +137,9 @@ func TestSentence(t *testing.T) {
 		}
 	}
 }
+
+// withEnv returns a context whose parseFlags reads environment variables
+// through lookup instead of os.LookupEnv.
+func withEnv(ctx context.Context, lookup func(string) (string, bool)) context.Context {
+	return context.WithValue(ctx, envKey{}, lookup)
+}

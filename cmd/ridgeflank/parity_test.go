@@ -24,11 +24,10 @@ import (
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
 	"ridgeflank/jobs"
+	"ridgeflank/jobs/queue"
 	"ridgeflank/server"
 	"ridgeflank/store"
 	"ridgeflank/store/pgtest"
-	"ridgeflank/store/postgis"
-	"ridgeflank/store/sqlite"
 )
 
 // The import parity suite: one table of files and declarations, each run through the command
@@ -179,25 +178,11 @@ func newAPIWay(t *testing.T, backend string, workers int) apiWay {
 		t.Fatal(err)
 	}
 	h := jobs.Handlers{Import: server.ImportWorker(st, nil)}
-	opts := jobs.Options{Workers: workers, PollInterval: 100 * time.Millisecond}
-	var q *jobs.Queue
-	switch s := st.(type) {
-	case *sqlite.Store:
-		db, err := jobs.OpenSQLite(filepath.Join(dir, store.SQLiteFileName))
-		if err != nil {
-			t.Fatal(err)
-		}
-		t.Cleanup(func() { db.Close() })
-		q, err = jobs.NewSQLite(db, h, opts)
-		if err != nil {
-			t.Fatal(err)
-		}
-	case *postgis.Store:
-		q, err = jobs.NewPostgres(s.Pool(), h, opts)
-		if err != nil {
-			t.Fatal(err)
-		}
+	q, err := queue.Open(ctx, st, h, queue.Options{Workers: workers, PollInterval: 100 * time.Millisecond})
+	if err != nil {
+		t.Fatal(err)
 	}
+	t.Cleanup(func() { q.Close() })
 	if err := q.Migrate(ctx); err != nil {
 		t.Fatal(err)
 	}

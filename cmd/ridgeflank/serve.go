@@ -14,10 +14,9 @@ import (
 
 	"ridgeflank/demobasin"
 	"ridgeflank/jobs"
+	"ridgeflank/jobs/queue"
 	"ridgeflank/server"
 	"ridgeflank/store"
-	"ridgeflank/store/postgis"
-	"ridgeflank/store/sqlite"
 	"ridgeflank/web"
 )
 
@@ -119,28 +118,12 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 
 	// The durable job queue, in the store's database.
 	handlers := jobs.Handlers{Import: server.ImportWorker(st, log), Export: server.ExportWorker(deps)}
-	qopts := jobs.Options{Logger: log.With("component", "jobs")}
-	var q *jobs.Queue
-	switch s := st.(type) {
-	case *sqlite.Store:
-		dataDir := loc.dataDir
-		db, err := jobs.OpenSQLite(filepath.Join(dataDir, store.SQLiteFileName))
-		if err != nil {
-			return fmt.Errorf("opening the job queue: %w", err)
-		}
-		defer db.Close()
-		q, err = jobs.NewSQLite(db, handlers, qopts)
-		if err != nil {
-			return err
-		}
-	case *postgis.Store:
-		q, err = jobs.NewPostgres(s.Pool(), handlers, qopts)
-		if err != nil {
-			return err
-		}
-	default:
-		return fmt.Errorf("store backend %s has no job queue", st.Backend())
+	qopts := queue.Options{Logger: log.With("component", "jobs")}
+	q, err := queue.Open(ctx, st, handlers, qopts)
+	if err != nil {
+		return fmt.Errorf("opening the job queue: %w", err)
 	}
+	defer q.Close()
 	if n, err := server.SweepExports(deps.Config.ExportDir); err != nil {
 		log.Warn("sweeping old export files", "err", err)
 	} else if n > 0 {

@@ -25,6 +25,7 @@ import (
 
 	"ridgeflank/demobasin"
 	"ridgeflank/jobs"
+	"ridgeflank/jobs/queue"
 	"ridgeflank/server"
 	"ridgeflank/store"
 	_ "ridgeflank/store/sqlite" // registers the embedded store
@@ -108,15 +109,11 @@ func startServer(t *testing.T, demo bool) *testServer {
 	}
 	ts.Token = plain
 	// The durable job queue (River on the same SQLite file), as `serve` runs it.
-	db, err := jobs.OpenSQLite(filepath.Join(dataDir, store.SQLiteFileName))
-	if err != nil {
-		t.Fatalf("open the job database: %v", err)
-	}
-	t.Cleanup(func() { db.Close() })
-	q, err := jobs.NewSQLite(db, jobs.Handlers{Import: server.ImportWorker(st, nil)}, jobs.Options{Workers: 1, PollInterval: 100 * time.Millisecond})
+	q, err := queue.Open(ctx, st, jobs.Handlers{Import: server.ImportWorker(st, nil)}, queue.Options{Workers: 1, PollInterval: 100 * time.Millisecond})
 	if err != nil {
 		t.Fatalf("job queue: %v", err)
 	}
+	t.Cleanup(func() { q.Close() })
 	if err := q.Migrate(ctx); err != nil {
 		t.Fatalf("job queue migrations: %v", err)
 	}
