@@ -15,9 +15,9 @@ import (
 	"github.com/go-chi/chi/v5"
 	"github.com/paulmach/orb"
 
+	"ridgeflank/colour"
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
-	"ridgeflank/server/colour"
 	"ridgeflank/store"
 	"ridgeflank/thermal"
 )

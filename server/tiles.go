@@ -16,8 +16,8 @@ import (
 	"github.com/go-chi/chi/v5"
 	"github.com/paulmach/orb"
 
+	"ridgeflank/colour"
 	"ridgeflank/geo"
-	"ridgeflank/server/colour"
 )
 
 // TileSize is the width and height of map tiles in pixels.
@@ -34,7 +34,7 @@ func tileLat(y float64, n float64) float64 {
 }
 
 // tile renders /tiles/{datasetId}/{parameter}/{z}/{x}/{y}.png: one
-// parameter colour-mapped with the shared colour scale (server/colour). At
+// parameter colour-mapped with the shared colour scale (package colour). At
 // low zoom the grids are first coarsened (cached overviews, area-weighted
 // block means by powers of two) so a tile never reads many more cells than
 // it has pixels.
