@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"net/http"
 	"strconv"
 	"strings"
@@ -14,6 +15,7 @@ import (
 	"github.com/go-chi/chi/v5"
 	"github.com/paulmach/orb"
 
+	"ridgeflank/fault"
 	"ridgeflank/geo"
 	"ridgeflank/jobs"
 	"ridgeflank/store"
@@ -21,22 +23,6 @@ import (
 )
 
 // ---- custom models (store adapters) ----
-
-func (s *server) customModel(ctx context.Context, id string) (thermal.Params, error) {
-	if s.deps.Store == nil {
-		return thermal.Params{}, store.ErrNotFound
-	}
-	m, err := s.deps.Store.GetModel(ctx, id)
-	if err != nil {
-		return thermal.Params{}, err
-	}
-	var p thermal.Params
-	if err := json.Unmarshal(m.Params, &p); err != nil {
-		return p, fmt.Errorf("stored model %s: %w", id, err)
-	}
-	p.ID = m.ID
-	return p, nil
-}
 
 func (s *server) listCustomModels(ctx context.Context) ([]thermal.Params, error) {
 	if s.deps.Store == nil {
@@ -121,6 +107,7 @@ type regionInput struct {
 	Description string
 	Tags        []string
 	Geometry    orb.MultiPolygon
+	Repairs     []string // what was repaired to make the geometry valid
 }
 
 func (s *server) readRegion(r *http.Request) (regionInput, error) {
@@ -145,14 +132,20 @@ func (s *server) readRegion(r *http.Request) (regionInput, error) {
 	if raw.Type != "Feature" {
 		return in, problem(CodeInvalidGeoJSON, "the body must be a GeoJSON Feature, got type %q", raw.Type)
 	}
-	mp, err := geo.ParseRegion(raw.Geometry, s.limits.MaxVertices)
+	// The vertex limit and validity are the evaluate service's (the same for stored regions and
+	// area queries); the body limit bounds what is parsed here.
+	mp, err := geo.ParseRegion(raw.Geometry, math.MaxInt32)
 	if err != nil {
-		if strings.Contains(err.Error(), "vertices") && strings.Contains(err.Error(), "limit") {
-			return in, limitProblem(http.StatusUnprocessableEntity, "max_vertices", int64(s.limits.MaxVertices), "%v", err).withCause(err)
+		if _, ok := fault.As(err); ok {
+			return in, err
 		}
 		return in, problem(CodeInvalidGeoJSON, "%v", err).withCause(err)
 	}
-	in.Geometry = mp
+	reg, err := s.ev.PrepareRegion(mp, "geometry")
+	if err != nil {
+		return in, err
+	}
+	in.Geometry, in.Repairs = reg.Parts, reg.Repairs
 	if id, ok := raw.ID.(string); ok {
 		in.ID = id
 	}
@@ -228,7 +221,7 @@ func (s *server) createRegion(w http.ResponseWriter, r *http.Request) error {
 	}
 	w.Header().Set("Location", s.baseURL(r)+"/api/regions/"+rg.ID)
 	w.Header().Set("ETag", etag(rg.Version))
-	return writeJSON(w, http.StatusCreated, MediaGeoJSON, s.regionFeature(r, rg))
+	return writeJSON(w, http.StatusCreated, MediaGeoJSON, withRepairs(s.regionFeature(r, rg), in.Repairs))
 }
 
 func (s *server) getRegion(w http.ResponseWriter, r *http.Request) error {
@@ -238,6 +231,14 @@ func (s *server) getRegion(w http.ResponseWriter, r *http.Request) error {
 	}
 	w.Header().Set("ETag", etag(rg.Version))
 	return writeJSON(w, http.StatusOK, MediaGeoJSON, s.regionFeature(r, rg))
+}
+
+// withRepairs adds what was repaired to make a region valid (member "ridgeflank:repairs").
+func withRepairs(f map[string]any, repairs []string) map[string]any {
+	if len(repairs) > 0 {
+		f["ridgeflank:repairs"] = repairs
+	}
+	return f
 }
 
 // updateRegion replaces a region. If-Match with the version last read is
@@ -270,7 +271,7 @@ func (s *server) updateRegion(w http.ResponseWriter, r *http.Request) error {
 		return err
 	}
 	w.Header().Set("ETag", etag(rg.Version))
-	return writeJSON(w, http.StatusOK, MediaGeoJSON, s.regionFeature(r, rg))
+	return writeJSON(w, http.StatusOK, MediaGeoJSON, withRepairs(s.regionFeature(r, rg), in.Repairs))
 }
 
 func (s *server) deleteRegion(w http.ResponseWriter, r *http.Request) error {
@@ -320,7 +321,7 @@ func (s *server) getGrid(w http.ResponseWriter, r *http.Request) error {
 }
 
 func (s *server) deleteGrid(w http.ResponseWriter, r *http.Request) error {
-	defer s.forgetDatasets()
+	defer s.ev.Forget()
 	err := s.deps.Store.DeleteGrid(r.Context(), chi.URLParam(r, "gridId"))
 	if errors.Is(err, store.ErrConflict) {
 		return problem(CodeConflict, "grid %s is used by a dataset: delete or change the dataset first", chi.URLParam(r, "gridId")).withCause(err)
@@ -372,7 +373,7 @@ func (s *server) listDatasets(w http.ResponseWriter, r *http.Request) error {
 }
 
 func (s *server) createDataset(w http.ResponseWriter, r *http.Request) error {
-	defer s.forgetDatasets()
+	defer s.ev.Forget()
 	var in datasetInput
 	if err := decodeJSON(r, &in); err != nil {
 		return err
@@ -408,7 +409,7 @@ func (s *server) getDataset(w http.ResponseWriter, r *http.Request) error {
 }
 
 func (s *server) deleteDataset(w http.ResponseWriter, r *http.Request) error {
-	defer s.forgetDatasets()
+	defer s.ev.Forget()
 	ver, _, err := parseIfMatch(r)
 	if err != nil {
 		return err
