@@ -388,7 +388,9 @@ func gridSpan(lo, hi float64, reg Registration) (i0, i1 int) {
 //
 // Node grids keep the nodes inside the closed bound; cell-centre grids keep the cells that
 // overlap it. A bound with Min.X > Max.X crosses the antimeridian (e.g. 170..−170), as does one
-// with Max.X beyond 180 (170..190); longitudes in either convention are accepted. For a grid
+// with Max.X beyond 180 (170..190); longitudes in either convention are accepted, so the bound
+// RegionBound returns for a region (Min.X in [−180, 180), Max.X = Min.X + width) is read as is,
+// and its −180..180 for polar caps and belts keeps every column. For a grid
 // global in longitude the window is always contiguous, wrapping across the grid's seam, and its
 // West is reported in −180..180 (so Lon may run past 180 across the antimeridian). A bound 360°
 // or wider keeps every column. Non-global grids are clipped to their extent. ErrEmptyWindow is

@@ -4,10 +4,11 @@ import (
 	"bytes"
 	"encoding/json"
 	"errors"
-	"fmt"
 	"math"
 
 	"github.com/paulmach/orb"
+
+	"ridgeflank/fault"
 )
 
 // DefaultMaxRegionVertices is the vertex limit ParseRegion and NormalizeRegion apply when given
@@ -17,8 +18,17 @@ const DefaultMaxRegionVertices = 100_000
 // ErrInvalidRegion is wrapped by every region validation error.
 var ErrInvalidRegion = errors.New("invalid region")
 
+// RegionField is the field name region faults carry.
+const RegionField = "geometry"
+
+// regionErr returns a fault.InvalidRegion error whose cause is ErrInvalidRegion.
 func regionErr(format string, args ...any) error {
-	return fmt.Errorf("%w: "+format, append([]any{ErrInvalidRegion}, args...)...)
+	return fault.New(fault.InvalidRegion, RegionField, "%w: "+format, append([]any{ErrInvalidRegion}, args...)...)
+}
+
+// regionOver returns a fault.Over("max_vertices", ...) error whose cause is ErrInvalidRegion.
+func regionOver(limit, asked int, format string, args ...any) error {
+	return fault.Over("max_vertices", int64(limit), int64(asked), RegionField, "%w: "+format, append([]any{ErrInvalidRegion}, args...)...)
 }
 
 // geoJSONObject is the part of a GeoJSON object (RFC 7946 §3) that regions and tracks read.
@@ -49,7 +59,7 @@ func ParseRegion(data []byte, maxVertices int) (orb.MultiPolygon, error) {
 	// Cheap early limit: a valid region has at most 1 + 1.5·V opening brackets (every ring has
 	// at least four positions), so anything beyond 2·V + 2 is over the limit or malformed.
 	if n := bytes.Count(g.Coordinates, []byte{'['}); n > 2*maxVertices+2 {
-		return nil, regionErr("more than %d vertices (the limit)", maxVertices)
+		return nil, regionOver(maxVertices, 0, "more than %d vertices (the limit)", maxVertices)
 	}
 	var mp orb.MultiPolygon
 	switch g.Type {
@@ -166,14 +176,26 @@ func toPolygon(c [][][]float64, pi int) (orb.Polygon, error) {
 // Self-intersection is checked exactly (orientation tests) on each ring with a sort-and-sweep
 // over longitude, which costs O(n log n + k) for k pairs of edges whose longitude ranges overlap.
 // Pathological rings where k exceeds SelfIntersectionPairBudget are accepted without the check.
-// Holes are not checked for lying inside their exterior or for overlapping each other, except
-// that a hole which ends up outside every piece of a polygon split at the antimeridian is an error.
+//
+// Topology (OGC 06-103r4 Simple Feature Access §6.1.11.1 and §6.1.14), checked with the same
+// sweep: a hole lying entirely outside its exterior ring is dropped (a repair); a hole crossing
+// its exterior's boundary, containing its exterior or equal to it is an error naming polygon and
+// ring; holes of one polygon overlapping each other are an error. After the split at the
+// antimeridian, a polygon that exactly repeats an earlier one once normalised is dropped (a
+// repair); polygons whose interiors overlap otherwise are an error naming both. Rings and
+// polygons touching at points or along edges are accepted. PrepareRegion reports the repairs.
 func NormalizeRegion(mp orb.MultiPolygon, maxVertices int) (orb.MultiPolygon, error) {
+	out, _, err := normalizeRegion(mp, maxVertices)
+	return out, err
+}
+
+// normalizeRegion is NormalizeRegion, also returning the repairs made, in words.
+func normalizeRegion(mp orb.MultiPolygon, maxVertices int) (orb.MultiPolygon, []string, error) {
 	if maxVertices <= 0 {
 		maxVertices = DefaultMaxRegionVertices
 	}
 	if len(mp) == 0 {
-		return nil, regionErr("no polygons")
+		return nil, nil, regionErr("no polygons")
 	}
 	total := 0
 	for _, p := range mp {
@@ -182,31 +204,41 @@ func NormalizeRegion(mp orb.MultiPolygon, maxVertices int) (orb.MultiPolygon, er
 		}
 	}
 	if total > maxVertices {
-		return nil, regionErr("%d vertices, more than the limit of %d", total, maxVertices)
+		return nil, nil, regionOver(maxVertices, total, "%d vertices, more than the limit of %d", total, maxVertices)
 	}
 	var out orb.MultiPolygon
+	var src []int // the input polygon of each output polygon
+	var repairs []string
 	for pi, p := range mp {
 		if len(p) == 0 {
-			return nil, regionErr("polygon %d has no rings", pi)
+			return nil, nil, regionErr("polygon %d has no rings", pi)
 		}
 		rings := make([]orb.Ring, len(p))
 		for ri, r := range p {
 			c, err := cleanRing(r, pi, ri)
 			if err != nil {
-				return nil, err
+				return nil, nil, err
 			}
 			rings[ri] = c
 		}
-		pieces, err := normalizePolygon(rings, pi)
+		pieces, notes, err := normalizePolygon(rings, pi)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
+		}
+		repairs = append(repairs, notes...)
+		for range pieces {
+			src = append(src, pi)
 		}
 		out = append(out, pieces...)
 	}
 	if len(out) == 0 {
-		return nil, regionErr("no polygon of non-zero area")
+		return nil, nil, regionErr("no polygon of non-zero area")
 	}
-	return out, nil
+	out, notes, err := checkParts(out, src)
+	if err != nil {
+		return nil, nil, err
+	}
+	return out, append(repairs, notes...), nil
 }
 
 // cleanRing checks positions and closure and drops repeated consecutive positions.
@@ -325,7 +357,7 @@ func shiftRing(r orb.Ring, dx float64) {
 }
 
 // normalizePolygon orients, checks and (if needed) splits one polygon.
-func normalizePolygon(rings []orb.Ring, pi int) ([]orb.Polygon, error) {
+func normalizePolygon(rings []orb.Ring, pi int) ([]orb.Polygon, []string, error) {
 	// literal180: usable as written in −180..180; literal360: usable as written in 0..360
 	// (then split at 180); otherwise unwrap.
 	literal180, literal360 := true, true
@@ -341,34 +373,49 @@ func normalizePolygon(rings []orb.Ring, pi int) ([]orb.Polygon, error) {
 	} else {
 		var err error
 		if work, err = unwrapPolygon(rings, pi); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 	}
 	for ri, r := range work {
 		if err := checkRingSimple(r); err != nil {
-			return nil, regionErr("polygon %d ring %d %v", pi, ri, err)
+			return nil, nil, regionErr("polygon %d ring %d %v", pi, ri, err)
 		}
 		if ringArea2(r) == 0 {
-			return nil, regionErr("polygon %d ring %d has zero area", pi, ri)
+			return nil, nil, regionErr("polygon %d ring %d has zero area", pi, ri)
 		}
 		orientRing(r, ri == 0)
 	}
-	if literal180 {
-		return []orb.Polygon{orb.Polygon(work)}, nil
+	ringIdx := make([]int, len(work))
+	for i := range ringIdx {
+		ringIdx[i] = i
 	}
-	// Put the exterior's western end in [−180, 180) and the holes after it.
+	if literal180 {
+		work, _, repairs, err := checkHoles(work, pi, ringIdx)
+		if err != nil {
+			return nil, nil, err
+		}
+		return []orb.Polygon{orb.Polygon(work)}, repairs, nil
+	}
+	// Put the exterior's western end in [−180, 180) and each hole's middle within 180° of the
+	// exterior's middle.
 	lo, hi := ringXRange(work[0])
 	if hi-lo >= 720 {
-		return nil, regionErr("polygon %d exterior ring spans %g° of longitude", pi, hi-lo)
+		return nil, nil, regionErr("polygon %d exterior ring spans %g° of longitude", pi, hi-lo)
 	}
 	k := -math.Floor((lo + 180) / 360)
 	shiftRing(work[0], 360*k)
-	lo += 360 * k
+	lo, hi = lo+360*k, hi+360*k
+	mid := (lo + hi) / 2
 	for _, h := range work[1:] {
-		x := h[0][0]
-		shiftRing(h, 360*(-math.Floor((x-lo)/360)))
+		hlo, hhi := ringXRange(h)
+		shiftRing(h, -360*math.Round(((hlo+hhi)/2-mid)/360))
 	}
-	return splitIntoRange(work, pi)
+	work, _, repairs, err := checkHoles(work, pi, ringIdx)
+	if err != nil {
+		return nil, nil, err
+	}
+	pieces, err := splitIntoRange(work, pi)
+	return pieces, repairs, err
 }
 
 // hasSeamStep reports whether a ring has a step of 360° or more (an edge written along a

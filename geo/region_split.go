@@ -274,7 +274,44 @@ const SelfIntersectionPairBudget = 20_000_000
 
 type ringSeg struct {
 	minX, maxX, minY, maxY float64
-	i                      int
+	ring, i                int
+}
+
+// edgeRef names edge i (from position i to i+1) of ring ring.
+type edgeRef struct{ ring, i int }
+
+// sweepEdges calls visit for every pair of edges of the given closed rings whose bounding boxes
+// overlap (closed boxes), using a sort-and-sweep over longitude: O(n log n + k) for n edges and k
+// pairs of edges whose longitude ranges overlap. The pair is given with the edge that starts
+// further west first. visit returns false to stop the sweep. sweepEdges returns false, having
+// stopped, when more than SelfIntersectionPairBudget pairs would have to be looked at.
+func sweepEdges(rings []orb.Ring, visit func(a, b edgeRef) bool) bool {
+	var segs []ringSeg
+	for ri, r := range rings {
+		for i := 0; i+1 < len(r); i++ {
+			a, b := r[i], r[i+1]
+			segs = append(segs, ringSeg{math.Min(a[0], b[0]), math.Max(a[0], b[0]), math.Min(a[1], b[1]), math.Max(a[1], b[1]), ri, i})
+		}
+	}
+	slices.SortFunc(segs, func(a, b ringSeg) int { return cmp.Compare(a.minX, b.minX) })
+	budget := SelfIntersectionPairBudget
+	for ii := range segs {
+		si := segs[ii]
+		for jj := ii + 1; jj < len(segs) && segs[jj].minX <= si.maxX; jj++ {
+			budget--
+			if budget < 0 {
+				return false
+			}
+			sj := segs[jj]
+			if sj.minY > si.maxY || sj.maxY < si.minY {
+				continue
+			}
+			if !visit(edgeRef{si.ring, si.i}, edgeRef{sj.ring, sj.i}) {
+				return true
+			}
+		}
+	}
+	return true
 }
 
 func orient2(a, b, c orb.Point) float64 {
@@ -301,50 +338,36 @@ func segmentsMeet(p1, p2, p3, p4 orb.Point) bool {
 }
 
 // checkRingSimple returns an error if a closed ring (no repeated consecutive positions) crosses
-// or touches itself or doubles back on itself, using a sort-and-sweep over longitude.
+// or touches itself or doubles back on itself, using the sort-and-sweep of sweepEdges.
 func checkRingSimple(r orb.Ring) error {
 	n := len(r) - 1
 	if n < 3 {
 		return nil
 	}
-	segs := make([]ringSeg, n)
-	for i := 0; i < n; i++ {
-		a, b := r[i], r[i+1]
-		segs[i] = ringSeg{math.Min(a[0], b[0]), math.Max(a[0], b[0]), math.Min(a[1], b[1]), math.Max(a[1], b[1]), i}
-	}
-	slices.SortFunc(segs, func(a, b ringSeg) int { return cmp.Compare(a.minX, b.minX) })
-	budget := SelfIntersectionPairBudget
-	for ii := range segs {
-		si := segs[ii]
-		for jj := ii + 1; jj < n && segs[jj].minX <= si.maxX; jj++ {
-			budget--
-			if budget < 0 {
-				return nil
+	var err error
+	sweepEdges([]orb.Ring{r}, func(ea, eb edgeRef) bool {
+		i, j := min(ea.i, eb.i), max(ea.i, eb.i)
+		if j == i+1 || (i == 0 && j == n-1) {
+			// adjacent edges share one vertex q; they must not double back along each other
+			var p, q, w orb.Point
+			if j == i+1 {
+				p, q, w = r[i], r[i+1], r[j+1]
+			} else {
+				p, q, w = r[n-1], r[0], r[1]
 			}
-			sj := segs[jj]
-			if sj.minY > si.maxY || sj.maxY < si.minY {
-				continue
-			}
-			i, j := min(si.i, sj.i), max(si.i, sj.i)
-			if j == i+1 || (i == 0 && j == n-1) {
-				// adjacent edges share one vertex q; they must not double back along each other
-				var p, q, w orb.Point
-				if j == i+1 {
-					p, q, w = r[i], r[i+1], r[j+1]
-				} else {
-					p, q, w = r[n-1], r[0], r[1]
+			if n > 3 || j == i+1 {
+				if orient2(p, q, w) == 0 && (q[0]-p[0])*(w[0]-q[0])+(q[1]-p[1])*(w[1]-q[1]) < 0 {
+					err = fmt.Errorf("doubles back on itself at (%g, %g)", q[0], q[1])
+					return false
 				}
-				if n > 3 || j == i+1 {
-					if orient2(p, q, w) == 0 && (q[0]-p[0])*(w[0]-q[0])+(q[1]-p[1])*(w[1]-q[1]) < 0 {
-						return fmt.Errorf("doubles back on itself at (%g, %g)", q[0], q[1])
-					}
-				}
-				continue
 			}
-			if segmentsMeet(r[i], r[i+1], r[j], r[j+1]) {
-				return fmt.Errorf("crosses or touches itself (edges %d and %d, near (%g, %g))", i, j, r[i][0], r[i][1])
-			}
+			return true
 		}
-	}
-	return nil
+		if segmentsMeet(r[i], r[i+1], r[j], r[j+1]) {
+			err = fmt.Errorf("crosses or touches itself (edges %d and %d, near (%g, %g))", i, j, r[i][0], r[i][1])
+			return false
+		}
+		return true
+	})
+	return err
 }
