@@ -15,7 +15,7 @@ import (
 // AreaResult are the parameters of a question on a lattice over a region.
 type AreaResult struct {
 	Query   *Query
-	Region  Region
+	Region  geo.PreparedRegion
 	Lattice *geo.Grid   // the output lattice (its Data are the ages there)
 	Grids   []*geo.Grid // one per parameter, on Lattice, NaN outside the region and where refused
 	Mask    geo.Mask    // cells of Lattice inside the region
@@ -29,7 +29,7 @@ type AreaResult struct {
 // geo.Grid.Resample); others are sampled bilinearly at the output positions. Over
 // Limits.MaxAreaCells output cells is fault.Over("max_area_cells"), over Limits.MaxInputCells
 // input cells fault.Over("max_input_cells"); an area off the dataset is fault.NoData.
-func (s *Service) Area(ctx context.Context, datasetID string, o Options, r Region, resX, resY float64) (*AreaResult, error) {
+func (s *Service) Area(ctx context.Context, datasetID string, o Options, r geo.PreparedRegion, resX, resY float64) (*AreaResult, error) {
 	q, err := s.load(ctx, datasetID, o)
 	if err != nil {
 		return nil, err
@@ -38,7 +38,7 @@ func (s *Service) Area(ctx context.Context, datasetID string, o Options, r Regio
 }
 
 // AreaCells is the number of cells Area would answer (before it computes anything).
-func (s *Service) AreaCells(ctx context.Context, datasetID string, r Region, resX, resY float64) (int64, error) {
+func (s *Service) AreaCells(ctx context.Context, datasetID string, r geo.PreparedRegion, resX, resY float64) (int64, error) {
 	d, err := s.Dataset(ctx, datasetID)
 	if err != nil {
 		return 0, err
@@ -100,7 +100,7 @@ func regionStats(g *geo.Grid, mask geo.Mask, p Parameter) (geo.Stats, error) {
 	return st, err
 }
 
-func (s *Service) area(ctx context.Context, q *Query, r Region, resX, resY float64) (*AreaResult, error) {
+func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX, resY float64) (*AreaResult, error) {
 	for _, v := range []struct {
 		name string
 		v    float64
