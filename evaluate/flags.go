@@ -1,6 +1,7 @@
 package evaluate
 
 import (
+	"fmt"
 	"math"
 	"sort"
 
@@ -70,7 +71,7 @@ func screen(s sample, out []issue) []issue {
 	case s.age < 0:
 		out = append(out, issue{inAge, PSeafloorAge, "negative seafloor age"})
 	case s.age > MaxAgeMa:
-		out = append(out, issue{inAge, PSeafloorAge, "seafloor age beyond the model's range (0 to 400 Ma)"})
+		out = append(out, issue{inAge, PSeafloorAge, ageRangeReason})
 	}
 	switch {
 	case s.sed < 0:
@@ -148,3 +149,5 @@ func (f *flagger) flags() []Flag {
 }
 
 var nan = math.NaN()
+
+var ageRangeReason = fmt.Sprintf("seafloor age beyond the model's range (0 to %g Ma)", MaxAgeMa)
