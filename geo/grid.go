@@ -7,6 +7,8 @@ import (
 	"strings"
 
 	"github.com/paulmach/orb"
+
+	"ridgeflank/fault"
 )
 
 // Registration says what position a grid value stands for.
@@ -41,7 +43,7 @@ func ParseRegistration(s string) (Registration, error) {
 	case "node", "point", "gridline", "pixel-is-point":
 		return Node, nil
 	}
-	return 0, fmt.Errorf("unknown grid registration %q (want cell-centre or node)", s)
+	return 0, fault.New(fault.InvalidParameter, "registration", "unknown grid registration %q (want cell-centre or node)", s)
 }
 
 // Grid is a regular longitude/latitude grid of float32 values (NaN = no data).
@@ -95,13 +97,13 @@ func NewGrid(nx, ny int, west, north, dx, dy float64, reg Registration) *Grid {
 func (g *Grid) validateShape() error {
 	switch {
 	case g.NX <= 0 || g.NY <= 0:
-		return fmt.Errorf("%w: size %d×%d must be positive", ErrInvalidGrid, g.NX, g.NY)
+		return gridErr("size %d×%d must be positive", g.NX, g.NY)
 	case !(g.DX > 0) || !(g.DY > 0) || math.IsInf(g.DX, 0) || math.IsInf(g.DY, 0):
-		return fmt.Errorf("%w: spacing dx=%g dy=%g degrees must be positive", ErrInvalidGrid, g.DX, g.DY)
+		return gridErr("spacing dx=%g dy=%g degrees must be positive", g.DX, g.DY)
 	case math.IsNaN(g.West) || math.IsInf(g.West, 0) || math.IsNaN(g.North) || math.IsInf(g.North, 0):
-		return fmt.Errorf("%w: origin west=%g north=%g is not finite", ErrInvalidGrid, g.West, g.North)
+		return gridErr("origin west=%g north=%g is not finite", g.West, g.North)
 	case g.Registration != CellCentre && g.Registration != Node:
-		return fmt.Errorf("%w: unknown registration %d", ErrInvalidGrid, int(g.Registration))
+		return gridErr("unknown registration %d", int(g.Registration))
 	}
 	return nil
 }
@@ -110,17 +112,17 @@ func (g *Grid) validateShape() error {
 // ±90°, allowing one part in 10⁹ of a cell) and the data length.
 func (g *Grid) Validate() error {
 	if g == nil {
-		return fmt.Errorf("%w: nil grid", ErrInvalidGrid)
+		return gridErr("nil grid")
 	}
 	if err := g.validateShape(); err != nil {
 		return err
 	}
 	if len(g.Data) != g.NX*g.NY {
-		return fmt.Errorf("%w: data length %d, want %d×%d=%d", ErrInvalidGrid, len(g.Data), g.NX, g.NY, g.NX*g.NY)
+		return gridErr("data length %d, want %d×%d=%d", len(g.Data), g.NX, g.NY, g.NX*g.NY)
 	}
 	tol := gridEps * g.DY
 	if g.North > 90+tol || g.Lat(g.NY-1) < -90-tol {
-		return fmt.Errorf("%w: latitudes %g..%g outside −90..90", ErrInvalidGrid, g.Lat(g.NY-1), g.North)
+		return gridErr("latitudes %g..%g outside −90..90", g.Lat(g.NY-1), g.North)
 	}
 	return nil
 }
@@ -402,14 +404,14 @@ func (g *Grid) Window(b orb.Bound) (*Grid, error) {
 	minX, maxX, minY, maxY := b.Min.X(), b.Max.X(), b.Min.Y(), b.Max.Y()
 	for _, v := range []float64{minX, maxX, minY, maxY} {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("window bound %v is not finite", b)
+			return nil, fault.New(fault.InvalidCoords, "", "window bound %v is not finite", b)
 		}
 	}
 	if minY > maxY {
-		return nil, fmt.Errorf("window bound south %g is north of its north %g", minY, maxY)
+		return nil, fault.New(fault.InvalidCoords, "", "window bound south %g is north of its north %g", minY, maxY)
 	}
 	if minY < -90-1e-9 || maxY > 90+1e-9 {
-		return nil, fmt.Errorf("window latitudes %g..%g outside −90..90", minY, maxY)
+		return nil, fault.New(fault.InvalidCoords, "", "window latitudes %g..%g outside −90..90", minY, maxY)
 	}
 	width := maxX - minX
 	if width < 0 {
@@ -419,7 +421,7 @@ func (g *Grid) Window(b orb.Bound) (*Grid, error) {
 	r0, r1 := gridSpan((g.North-maxY)/g.DY, (g.North-minY)/g.DY, g.Registration)
 	r0, r1 = max(r0, 0), min(r1, g.NY-1)
 	if r0 > r1 {
-		return nil, fmt.Errorf("%w: latitudes %g..%g vs grid %g..%g", ErrEmptyWindow, minY, maxY, g.South(), g.North)
+		return nil, emptyWindow("latitudes %g..%g vs grid %g..%g", minY, maxY, g.South(), g.North)
 	}
 	// columns: list of source columns in order
 	var cols []int
@@ -436,7 +438,7 @@ func (g *Grid) Window(b orb.Bound) (*Grid, error) {
 		c0, c1 := gridSpan((minX-g.West)/g.DX, (minX+width-g.West)/g.DX, g.Registration)
 		n := min(c1-c0+1, p)
 		if n <= 0 {
-			return nil, fmt.Errorf("%w: longitudes %g..%g", ErrEmptyWindow, minX, maxX)
+			return nil, emptyWindow("longitudes %g..%g", minX, maxX)
 		}
 		c0 = wrapCol(c0, p)
 		cols = make([]int, n)
@@ -459,7 +461,7 @@ func (g *Grid) Window(b orb.Bound) (*Grid, error) {
 			}
 		}
 		if best1 < best0 {
-			return nil, fmt.Errorf("%w: longitudes %g..%g vs grid %g..%g", ErrEmptyWindow, minX, maxX, g.West, g.East())
+			return nil, emptyWindow("longitudes %g..%g vs grid %g..%g", minX, maxX, g.West, g.East())
 		}
 		cols = make([]int, best1-best0+1)
 		for i := range cols {
@@ -635,7 +637,7 @@ func (g *Grid) ToCellCentre() (*Grid, error) {
 		nx = p
 	}
 	if nx < 1 || g.NY < 2 {
-		return nil, fmt.Errorf("%w: a %d×%d node grid has no cells", ErrInvalidGrid, g.NX, g.NY)
+		return nil, gridErr("a %d×%d node grid has no cells", g.NX, g.NY)
 	}
 	out := NewGrid(nx, g.NY-1, g.West+g.DX/2, g.North-g.DY/2, g.DX, g.DY, CellCentre)
 	for j := 0; j < out.NY; j++ {
@@ -724,7 +726,7 @@ func (g *Grid) Resample(dx, dy float64) (*Grid, error) {
 	fxF, fyF := dx/g.DX, dy/g.DY
 	fx, fy := int(math.Round(fxF)), int(math.Round(fyF))
 	if fx < 1 || fy < 1 || math.Abs(fxF-float64(fx)) > 1e-6*fxF || math.Abs(fyF-float64(fy)) > 1e-6*fyF {
-		return nil, fmt.Errorf("resample spacing %g×%g degrees must be a whole multiple (≥1) of the grid spacing %g×%g", dx, dy, g.DX, g.DY)
+		return nil, fault.New(fault.InvalidParameter, "resolution", "resample spacing %g×%g degrees must be a whole multiple (≥1) of the grid spacing %g×%g", dx, dy, g.DX, g.DY)
 	}
 	if fx == 1 && fy == 1 {
 		return g.Clone(), nil
@@ -739,7 +741,7 @@ func (g *Grid) Resample(dx, dy float64) (*Grid, error) {
 	colTaps := gridBlockTaps(g.NX, fx, g.Registration, period)
 	rowTaps := gridBlockTaps(g.NY, fy, g.Registration, 0)
 	if len(colTaps) == 0 || len(rowTaps) == 0 {
-		return nil, fmt.Errorf("resample spacing %g×%g degrees is coarser than the whole %d×%d grid", dx, dy, g.NX, g.NY)
+		return nil, fault.New(fault.InvalidParameter, "resolution", "resample spacing %g×%g degrees is coarser than the whole %d×%d grid", dx, dy, g.NX, g.NY)
 	}
 	west, north := g.West, g.North
 	if g.Registration == CellCentre {

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"strings"
+
+	"ridgeflank/fault"
 )
 
 // VerticalSense declares the sign convention of a bathymetry or topography grid.
@@ -45,7 +47,7 @@ func ParseVerticalSense(s string) (VerticalSense, error) {
 	case "elevation", "elevation-positive-up", "height", "positive-up", "up":
 		return ElevationPositiveUp, nil
 	}
-	return SenseUnknown, fmt.Errorf("unknown vertical sense %q (want depth or elevation)", s)
+	return SenseUnknown, fault.New(fault.InvalidParameter, "vertical", "unknown vertical sense %q (want depth or elevation)", s)
 }
 
 // ToDepthM converts one value in metres to depth in metres, positive down: elevations are negated
@@ -65,7 +67,7 @@ func ToDepthM(v float64, s VerticalSense) float64 {
 // function ToDepthM). It fails for SenseUnknown.
 func (g *Grid) ToDepthM(s VerticalSense) (*Grid, error) {
 	if s != DepthPositiveDown && s != ElevationPositiveUp {
-		return nil, fmt.Errorf("vertical sense of the grid is %s: declare depth or elevation", s)
+		return nil, fault.New(fault.InvalidGrid, "vertical", "vertical sense of the grid is %s: declare depth or elevation", s)
 	}
 	out := g.Clone()
 	if s == ElevationPositiveUp {

@@ -132,11 +132,11 @@ type maskEdge struct {
 // south of it so that it is not lost.
 func GridMask(g *Grid, mp orb.MultiPolygon) (Mask, error) {
 	if g == nil {
-		return Mask{}, fmt.Errorf("%w: nil grid", ErrInvalidGrid)
+		return Mask{}, gridErr("nil grid")
 	}
 	if g.NX <= 0 || g.NY <= 0 || !(g.DX > 0) || !(g.DY > 0) || math.IsInf(g.DX, 0) || math.IsInf(g.DY, 0) ||
 		math.IsNaN(g.West) || math.IsInf(g.West, 0) || math.IsNaN(g.North) || math.IsInf(g.North, 0) {
-		return Mask{}, fmt.Errorf("%w: %d×%d cells, spacing %g×%g°, origin (%g, %g)", ErrInvalidGrid, g.NX, g.NY, g.DX, g.DY, g.West, g.North)
+		return Mask{}, gridErr("%d×%d cells, spacing %g×%g°, origin (%g, %g)", g.NX, g.NY, g.DX, g.DY, g.West, g.North)
 	}
 	m := NewMask(g.NX * g.NY)
 	var edges []maskEdge

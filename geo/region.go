@@ -45,13 +45,38 @@ type geoJSONObject struct {
 // NormalizeRegion: right-hand rule winding, longitudes in −180..180, split at the antimeridian.
 //
 // Positions may carry a third (altitude) number, which is ignored; a position with fewer than
-// two numbers is an error. maxVertices <= 0 means DefaultMaxRegionVertices. Errors wrap
-// ErrInvalidRegion and name the polygon, ring and position (0-based) at fault. Callers should
-// bound the size of data before calling (the decoder holds it all in memory).
+// two numbers is an error. maxVertices <= 0 means DefaultMaxRegionVertices. Errors are
+// *fault.Error wrapping ErrInvalidRegion (kind fault.InvalidRegion, field "geometry", or
+// fault.LimitExceeded with limit "max_vertices") and name the polygon, ring and position
+// (0-based) at fault. Callers should bound the size of data before calling (the decoder holds
+// it all in memory). The repairs NormalizeRegion makes are not reported; PrepareRegion reports
+// them.
 func ParseRegion(data []byte, maxVertices int) (orb.MultiPolygon, error) {
 	if maxVertices <= 0 {
 		maxVertices = DefaultMaxRegionVertices
 	}
+	mp, err := decodeRegion(data, maxVertices)
+	if err != nil {
+		return nil, err
+	}
+	return NormalizeRegion(mp, maxVertices)
+}
+
+// PrepareRegionGeoJSON reads a region as ParseRegion does and returns it prepared by
+// PrepareRegion, with the repairs made, its window and its area. Errors are as ParseRegion's.
+func PrepareRegionGeoJSON(data []byte, maxVertices int) (PreparedRegion, error) {
+	if maxVertices <= 0 {
+		maxVertices = DefaultMaxRegionVertices
+	}
+	mp, err := decodeRegion(data, maxVertices)
+	if err != nil {
+		return PreparedRegion{}, err
+	}
+	return PrepareRegion(mp, maxVertices)
+}
+
+// decodeRegion decodes a GeoJSON region into a multipolygon as written (not yet normalised).
+func decodeRegion(data []byte, maxVertices int) (orb.MultiPolygon, error) {
 	g, err := decodeRegionGeometry(data)
 	if err != nil {
 		return nil, err
@@ -88,7 +113,7 @@ func ParseRegion(data []byte, maxVertices int) (orb.MultiPolygon, error) {
 	default:
 		return nil, regionErr("a region must be a GeoJSON Polygon or MultiPolygon, got %q", g.Type)
 	}
-	return NormalizeRegion(mp, maxVertices)
+	return mp, nil
 }
 
 func decodeRegionGeometry(data []byte) (geoJSONObject, error) {
@@ -148,7 +173,9 @@ func toPolygon(c [][][]float64, pi int) (orb.Polygon, error) {
 // NormalizeRegion validates a multipolygon given in longitude/latitude degrees and returns it in
 // a consistent form (a new value; the input is not modified):
 //
-//   - Validation (errors wrap ErrInvalidRegion): at most maxVertices positions in total
+//   - Validation (errors are *fault.Error of kind fault.InvalidRegion, field "geometry",
+//     wrapping ErrInvalidRegion; too many positions gives fault.LimitExceeded with limit
+//     "max_vertices"): at most maxVertices positions in total
 //     (<= 0 means DefaultMaxRegionVertices); every polygon has an exterior ring; every ring has
 //     at least 4 positions and is closed (first position equal to the last, RFC 7946 §3.1.6);
 //     no NaN or infinite coordinate; latitudes within ±90; longitudes within −180..360; no ring
@@ -184,6 +211,9 @@ func toPolygon(c [][][]float64, pi int) (orb.Polygon, error) {
 // antimeridian, a polygon that exactly repeats an earlier one once normalised is dropped (a
 // repair); polygons whose interiors overlap otherwise are an error naming both. Rings and
 // polygons touching at points or along edges are accepted. PrepareRegion reports the repairs.
+// Cost: the sweep finds the k pairs of meeting edges in O(n log n + k); each pair of rings whose
+// bounds overlap then needs a point-in-ring test, O(size of the ring), per piece between
+// meeting points (one when the rings do not meet).
 func NormalizeRegion(mp orb.MultiPolygon, maxVertices int) (orb.MultiPolygon, error) {
 	out, _, err := normalizeRegion(mp, maxVertices)
 	return out, err

@@ -104,26 +104,46 @@ func TestPrepareRegionBoundAndArea(t *testing.T) {
 }
 
 func TestRegionBoundReadsAWindow(t *testing.T) {
-	// A global 1° cell-centre grid (centres −179.5..179.5): the window of the short-way box
-	// 179..−179 holds the two columns centred on 179.5 and 180.5 (−179.5), not the 358 others
-	// (issue 9 item 4), and the ten rows centred on −31.5..−40.5.
-	g := NewGrid(360, 180, -179.5, 89.5, 1, 1, CellCentre)
-	for i := range g.Data {
-		g.Data[i] = float32(i % 360)
+	// The bound RegionBound gives is read as is by (*Grid).Window, whatever the grid's longitude
+	// frame (issue 9 item 4): the expected columns are those whose 1° cells overlap the region,
+	// counted by hand from the grids' origins.
+	shortWay := "POLYGON((179 -31,-179 -31,-179 -41,179 -41,179 -31))"
+	preSplit := "MULTIPOLYGON(((175 -20,180 -20,180 -10,175 -10,175 -20)),((-180 -20,-173 -20,-173 -10,-180 -10,-180 -20)))"
+	cases := []struct {
+		name      string
+		grid      *Grid
+		wkt       string
+		nx, ny    int
+		firstLon  float64 // centre of the window's first column, in −180..180
+		firstCol  float32 // the source column it comes from (the grid holds column numbers)
+		secondCol float32
+	}{
+		{"global −180..180 grid, short-way box", NewGrid(360, 180, -179.5, 89.5, 1, 1, CellCentre), shortWay, 2, 10, 179.5, 359, 0},
+		{"global 0..360 grid, short-way box", NewGrid(360, 180, 0.5, 89.5, 1, 1, CellCentre), shortWay, 2, 10, 179.5, 179, 180},
+		{"global −180..180 grid, pre-split multipolygon", NewGrid(360, 180, -179.5, 89.5, 1, 1, CellCentre), preSplit, 12, 10, 175.5, 355, 356},
+		{"global 0..360 grid, pre-split multipolygon", NewGrid(360, 180, 0.5, 89.5, 1, 1, CellCentre), preSplit, 12, 10, 175.5, 175, 176},
+		{"regional 150..210 grid, pre-split multipolygon", NewGrid(60, 60, 150.5, -0.5, 1, 1, CellCentre), preSplit, 12, 10, 175.5, 25, 26},
 	}
-	pr, err := PrepareRegion(mustWKT(t, "POLYGON((179 -31,-179 -31,-179 -41,179 -41,179 -31))"), 0)
-	if err != nil {
-		t.Fatal(err)
-	}
-	w, err := g.Window(pr.Bound)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if w.NX != 2 || w.NY != 10 {
-		t.Fatalf("window %d×%d, want 2×10", w.NX, w.NY)
-	}
-	if w.Data[0] != 359 || w.Data[1] != 0 {
-		t.Errorf("window columns hold %v %v, want the columns of 179.5 (359) and −179.5 (0)", w.Data[0], w.Data[1])
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			for i := range c.grid.Data {
+				c.grid.Data[i] = float32(i % c.grid.NX)
+			}
+			pr, err := PrepareRegion(mustWKT(t, c.wkt), 0)
+			if err != nil {
+				t.Fatal(err)
+			}
+			w, err := c.grid.Window(pr.Bound)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if w.NX != c.nx || w.NY != c.ny {
+				t.Fatalf("window %d×%d, want %d×%d", w.NX, w.NY, c.nx, c.ny)
+			}
+			if math.Abs(LonTo180(w.West)-c.firstLon) > 1e-9 || w.Data[0] != c.firstCol || w.Data[1] != c.secondCol {
+				t.Errorf("window starts at %g with columns %v %v, want %g with %v %v", w.West, w.Data[0], w.Data[1], c.firstLon, c.firstCol, c.secondCol)
+			}
+		})
 	}
 }
 

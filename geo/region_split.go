@@ -268,8 +268,10 @@ func splitPolygonAt(rings orb.Polygon, s float64, pi int) (west, east []orb.Poly
 	return sides[0], sides[1], nil
 }
 
-// SelfIntersectionPairBudget bounds the work of the self-intersection check: rings in which more
-// than this many pairs of edges overlap in longitude are accepted without the check.
+// SelfIntersectionPairBudget bounds the work of the self-intersection and topology checks: rings
+// in which more than this many pairs of edges overlap in longitude are accepted without the
+// self-intersection check, and polygons (or multipolygons) with more than this many such pairs
+// among all their rings without the topology checks of NormalizeRegion.
 const SelfIntersectionPairBudget = 20_000_000
 
 type ringSeg struct {

@@ -42,6 +42,8 @@ func TestPrepareRegionTopology(t *testing.T) {
 			"polygon 0 ring 1 (a hole) crosses the boundary of its exterior ring", 0, nil},
 		{"hole with a vertex outside, crossing at a shell vertex", "POLYGON((0 0,10 0,10 10,0 10,0 0),(5 5,10 10,12 5,5 5))",
 			"polygon 0 ring 1 (a hole) crosses", 0, nil},
+		{"hole leaving and re-entering through shell corners only", "POLYGON((0 0,10 0,10 10,0 10,0 0),(5 5,10 10,12 5,10 0,5 5))",
+			"polygon 0 ring 1 (a hole) crosses", 0, nil},
 		{"hole the same as its shell", "POLYGON((0 0,10 0,10 10,0 10,0 0),(0 0,0 10,10 10,10 0,0 0))",
 			"is the same ring as its exterior ring", 0, nil},
 		{"holes overlapping", "POLYGON((0 0,10 0,10 10,0 10,0 0),(2 2,5 2,5 5,2 5,2 2),(4 4,7 4,7 7,4 7,4 4))",
@@ -230,4 +232,22 @@ func TestPrepareRegionRandomBoxes(t *testing.T) {
 			check(t, orb.MultiPolygon{p}, bad, sum)
 		}
 	})
+}
+
+func TestPrepareRegionGeoJSONReportsRepairs(t *testing.T) {
+	// The stored-region path (GeoJSON) gets the same checks and repairs as PrepareRegion: the
+	// hole outside its shell of issue 9 item 6 is dropped and reported, and the area is the
+	// shell's (zoneKm2, relative tolerance 1e-12).
+	in := `{"type":"Feature","properties":{"name":"SYNTHETIC Quillon Basin box"},"geometry":{"type":"Polygon","coordinates":[
+		[[0,0],[10,0],[10,10],[0,10],[0,0]],[[20,20],[21,20],[21,21],[20,21],[20,20]]]}}`
+	pr, err := PrepareRegionGeoJSON([]byte(in), 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if want := zoneKm2(10, 0, 10); math.Abs(pr.AreaKm2-want) > 1e-12*want || len(pr.Repairs) != 1 || len(pr.Parts) != 1 || len(pr.Parts[0]) != 1 {
+		t.Errorf("area %.3f km² (want %.3f), repairs %q, parts %v", pr.AreaKm2, want, pr.Repairs, pr.Parts)
+	}
+	if _, err := PrepareRegionGeoJSON([]byte(`{"type":"Point","coordinates":[0,0]}`), 0); fault.KindOf(err) != fault.InvalidRegion {
+		t.Errorf("a Point: %v, want an invalid-region fault", err)
+	}
 }

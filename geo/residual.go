@@ -12,6 +12,7 @@ import (
 
 	"github.com/paulmach/orb"
 
+	"ridgeflank/fault"
 	"ridgeflank/thermal"
 )
 
@@ -422,7 +423,7 @@ func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
 		return nil, errors.New("an age grid is required")
 	}
 	if err := in.Age.Validate(); err != nil {
-		return nil, fmt.Errorf("age grid: %w", err)
+		return nil, wrapFault(err, fault.InvalidGrid, "age", "age grid")
 	}
 	if in.Model == nil {
 		return nil, errors.New("a cooling model is required")
@@ -448,7 +449,7 @@ func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
 		hdr.Data = nil
 		rm, err := GridMask(&hdr, in.Region)
 		if err != nil {
-			return nil, fmt.Errorf("region: %w", err)
+			return nil, wrapFault(err, fault.InvalidRegion, RegionField, "region")
 		}
 		if p.hasMask {
 			both := NewMask(nx * ny)
@@ -473,7 +474,7 @@ func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
 	}
 	if p.needCorr {
 		if in.Depth == nil {
-			return nil, errors.New("corrected and residual depth need an observed depth grid")
+			return nil, fault.New(fault.UnknownParameter, "parameter-name", "corrected and residual depth need an observed depth grid")
 		}
 		switch in.DepthSense {
 		case DepthPositiveDown:
@@ -481,7 +482,7 @@ func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
 		case ElevationPositiveUp:
 			p.sign = -1
 		default:
-			return nil, errors.New("the observed depth grid's vertical sense is unknown: declare depth (positive down) or elevation (positive up)")
+			return nil, fault.New(fault.InvalidGrid, "vertical", "the observed depth grid's vertical sense is unknown: declare depth (positive down) or elevation (positive up)")
 		}
 		pr := in.Model.Params()
 		p.mantleKgM3, p.waterKgM3 = pr.MantleDensityKgM3, pr.WaterDensityKgM3
@@ -495,10 +496,10 @@ func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
 			}
 			c := in.Compaction
 			if c == (thermal.Compaction{}) {
-				return nil, errors.New("a sediment thickness grid needs a compaction law (shale, sand or shaly-sand)")
+				return nil, fault.New(fault.UnknownSediment, "sediment", "a sediment thickness grid needs a compaction law (shale, sand or shaly-sand)")
 			}
 			if p.sedTab, err = sedTableFor(c, p.mantleKgM3, p.waterKgM3); err != nil {
-				return nil, fmt.Errorf("sediment correction: %w", err)
+				return nil, wrapFault(err, fault.InvalidModel, "sediment", "sediment correction")
 			}
 		}
 		if in.Crust != nil {
@@ -510,7 +511,7 @@ func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
 				p.crustKgM3 = thermal.DefaultCrustDensityKgM3
 			}
 			if !(p.crustKgM3 > p.waterKgM3 && p.crustKgM3 < p.mantleKgM3) {
-				return nil, fmt.Errorf("crust density %g kg/m³ must lie between the water (%g) and mantle (%g) densities", p.crustKgM3, p.waterKgM3, p.mantleKgM3)
+				return nil, fault.New(fault.InvalidModel, "crust_density_kg_m3", "crust density %g kg/m³ must lie between the water (%g) and mantle (%g) densities", p.crustKgM3, p.waterKgM3, p.mantleKgM3)
 			}
 		}
 	}
@@ -525,7 +526,7 @@ func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
 // newResidualSource decides between direct indexing and bilinear sampling of g on lattice out.
 func newResidualSource(what string, g, out *Grid) (residualSource, error) {
 	if err := g.Validate(); err != nil {
-		return residualSource{}, fmt.Errorf("%s grid: %w", what, err)
+		return residualSource{}, wrapFault(err, fault.InvalidGrid, what, "%s grid", what)
 	}
 	s := residualSource{g: g}
 	const tol = 1e-6 // of a cell

@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"math"
 	"slices"
+
+	"ridgeflank/fault"
 )
 
 // Weighting chooses how AreaWeightedStats weights each cell.
@@ -92,7 +94,7 @@ func rowWeights(g *Grid, w Weighting) ([]float64, error) {
 		case WeightEqual:
 			ws[r] = 1
 		default:
-			return nil, fmt.Errorf("unknown weighting %d", int(w))
+			return nil, fault.New(fault.InvalidParameter, "weighting", "unknown weighting %d", int(w))
 		}
 	}
 	return ws, nil
@@ -116,11 +118,11 @@ func AreaWeightedStats(values *Grid, mask Mask, opt StatsOptions) (Stats, error)
 	nan := math.NaN()
 	st := Stats{Mean: nan, Std: nan, Min: nan, Max: nan, Median: nan, P05: nan, P25: nan, P75: nan, P95: nan}
 	if values == nil {
-		return st, fmt.Errorf("%w: nil grid", ErrInvalidGrid)
+		return st, gridErr("nil grid")
 	}
 	g := values
 	if g.NX <= 0 || g.NY <= 0 || len(g.Data) != g.NX*g.NY {
-		return st, fmt.Errorf("%w: %d×%d cells with %d values", ErrInvalidGrid, g.NX, g.NY, len(g.Data))
+		return st, gridErr("%d×%d cells with %d values", g.NX, g.NY, len(g.Data))
 	}
 	if mask.Len() != 0 && mask.Len() != g.NX*g.NY {
 		return st, fmt.Errorf("mask has %d cells, grid %d×%d=%d", mask.Len(), g.NX, g.NY, g.NX*g.NY)
@@ -130,10 +132,10 @@ func AreaWeightedStats(values *Grid, mask Mask, opt StatsOptions) (Stats, error)
 		return st, err
 	}
 	if opt.HistogramBins > 0 && opt.HistogramBinWidth > 0 {
-		return st, fmt.Errorf("histogram: give a bin count or a bin width, not both")
+		return st, fault.New(fault.InvalidParameter, "histogram", "histogram: give a bin count or a bin width, not both")
 	}
 	if opt.HistogramBins < 0 || opt.HistogramBinWidth < 0 || math.IsNaN(opt.HistogramBinWidth) || math.IsInf(opt.HistogramBinWidth, 0) {
-		return st, fmt.Errorf("histogram: bin count %d and width %g must not be negative", opt.HistogramBins, opt.HistogramBinWidth)
+		return st, fault.New(fault.InvalidParameter, "histogram", "histogram: bin count %d and width %g must not be negative", opt.HistogramBins, opt.HistogramBinWidth)
 	}
 	nx := seamColumns(g)
 	useMask := mask.Len() != 0
@@ -372,7 +374,7 @@ func newHistogram(opt StatsOptions, lo, hi float64) (*histBuilder, error) {
 	if opt.HistogramMax > opt.HistogramMin {
 		lo, hi = opt.HistogramMin, opt.HistogramMax
 	} else if opt.HistogramMax != opt.HistogramMin || opt.HistogramMin != 0 {
-		return nil, fmt.Errorf("histogram: range %g..%g is empty", opt.HistogramMin, opt.HistogramMax)
+		return nil, fault.New(fault.InvalidParameter, "histogram", "histogram: range %g..%g is empty", opt.HistogramMin, opt.HistogramMax)
 	}
 	var n int
 	var e0, width float64
@@ -384,13 +386,13 @@ func newHistogram(opt StatsOptions, lo, hi float64) (*histBuilder, error) {
 			nf++
 		}
 		if nf > MaxHistogramBins {
-			return nil, fmt.Errorf("histogram: %g bins of width %g needed, more than the limit of %d", nf, width, MaxHistogramBins)
+			return nil, fault.Over("max_histogram_bins", MaxHistogramBins, int64(min(nf, math.MaxInt64/2)), "histogram", "histogram: %g bins of width %g needed, more than the limit of %d", nf, width, MaxHistogramBins)
 		}
 		n = int(nf)
 	} else {
 		n = opt.HistogramBins
 		if n > MaxHistogramBins {
-			return nil, fmt.Errorf("histogram: %d bins, more than the limit of %d", n, MaxHistogramBins)
+			return nil, fault.Over("max_histogram_bins", MaxHistogramBins, int64(n), "histogram", "histogram: %d bins, more than the limit of %d", n, MaxHistogramBins)
 		}
 		if hi <= lo {
 			hi = lo + 1

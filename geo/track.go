@@ -21,12 +21,11 @@ type Waypoint struct {
 // DefaultMaxWaypoints is the waypoint limit the track parsers apply when given maxWaypoints <= 0.
 const DefaultMaxWaypoints = 100_000
 
-// ErrInvalidTrack is wrapped by every track parsing and validation error.
+// ErrInvalidTrack is wrapped by every track parsing and validation error. Those errors are
+// *fault.Error of kind fault.InvalidTrack (field TrackField), or fault.LimitExceeded with limit
+// "max_vertices" when a track has more waypoints than allowed (Limit.Asked is the number the
+// input holds, 0 when not counted).
 var ErrInvalidTrack = errors.New("invalid track")
-
-func trackErr(format string, args ...any) error {
-	return fmt.Errorf("%w: "+format, append([]any{ErrInvalidTrack}, args...)...)
-}
 
 // ValidateWaypoints checks a track: at least 2 and at most maxWaypoints waypoints
 // (<= 0 means DefaultMaxWaypoints), finite coordinates, latitudes within ±90 and longitudes
@@ -39,7 +38,7 @@ func ValidateWaypoints(wps []Waypoint, maxWaypoints int) ([]Waypoint, error) {
 		return nil, trackErr("a track needs at least 2 waypoints, got %d", len(wps))
 	}
 	if len(wps) > maxWaypoints {
-		return nil, trackErr("%d waypoints, more than the limit of %d", len(wps), maxWaypoints)
+		return nil, trackOver(maxWaypoints, len(wps), "%d waypoints, more than the limit of %d", len(wps), maxWaypoints)
 	}
 	out := make([]Waypoint, len(wps))
 	for i, w := range wps {
@@ -105,7 +104,7 @@ func ParseTrack(data []byte, format string, maxWaypoints int) ([]Waypoint, error
 // property if that is a string. The lines of a MultiLineString are joined in order into one
 // track (a repeated junction position is kept once), so the gap between them becomes a leg.
 // Altitudes are ignored. maxWaypoints <= 0 means DefaultMaxWaypoints. Errors wrap
-// ErrInvalidTrack and give the position index.
+// ErrInvalidTrack (see there) and give the position index. A LineString carries no names.
 func ParseTrackGeoJSON(data []byte, maxWaypoints int) ([]Waypoint, error) {
 	if maxWaypoints <= 0 {
 		maxWaypoints = DefaultMaxWaypoints
@@ -116,7 +115,7 @@ func ParseTrackGeoJSON(data []byte, maxWaypoints int) ([]Waypoint, error) {
 	}
 	if obj.Type == "FeatureCollection" {
 		if len(obj.Features) > maxWaypoints {
-			return nil, trackErr("%d features, more than the limit of %d waypoints", len(obj.Features), maxWaypoints)
+			return nil, trackOver(maxWaypoints, len(obj.Features), "%d features, more than the limit of %d waypoints", len(obj.Features), maxWaypoints)
 		}
 		feats := make([]geoJSONObject, len(obj.Features))
 		points := 0
@@ -167,6 +166,10 @@ func ParseTrackGeoJSON(data []byte, maxWaypoints int) ([]Waypoint, error) {
 	default:
 		return nil, trackErr("a track must be a GeoJSON LineString, MultiLineString or a FeatureCollection of Points, got %q", obj.Type)
 	}
+	npos := 0
+	for _, line := range lines {
+		npos += len(line)
+	}
 	var wps []Waypoint
 	for li, line := range lines {
 		for k, pos := range line {
@@ -185,7 +188,7 @@ func ParseTrackGeoJSON(data []byte, maxWaypoints int) ([]Waypoint, error) {
 				continue
 			}
 			if len(wps) == maxWaypoints {
-				return nil, trackErr("more than the limit of %d waypoints", maxWaypoints)
+				return nil, trackOver(maxWaypoints, npos, "%d positions, more than the limit of %d waypoints", npos, maxWaypoints)
 			}
 			wps = append(wps, w)
 		}

@@ -220,7 +220,14 @@ func ParseTrackCSV(data []byte, maxWaypoints int) ([]Waypoint, error) {
 			w.Name = strings.TrimSpace(rec[nameCol])
 		}
 		if len(wps) == maxWaypoints {
-			return nil, trackErr("line %d: more than the limit of %d waypoints", line, maxWaypoints)
+			asked := len(wps) + 1
+			for {
+				if _, err := r.Read(); err != nil {
+					break
+				}
+				asked++
+			}
+			return nil, trackOver(maxWaypoints, asked, "line %d: more than the limit of %d waypoints (the file has %d rows)", line, maxWaypoints, asked)
 		}
 		wps = append(wps, w)
 	}

@@ -3,6 +3,8 @@ package geo
 import (
 	"fmt"
 	"math"
+
+	"ridgeflank/fault"
 )
 
 // DefaultMaxTrackSamples is the sample limit Densify applies when given maxSamples <= 0.
@@ -76,14 +78,17 @@ func Legs(g Geodesic, wps []Waypoint) ([]Leg, error) {
 // solver picks one.
 //
 // Limits: 2..DefaultMaxWaypoints waypoints, spacingM > 0, and at most maxSamples samples
-// (<= 0 means DefaultMaxTrackSamples), checked before any sample is computed.
+// (<= 0 means DefaultMaxTrackSamples), checked before any sample is computed. Errors wrap
+// ErrInvalidTrack: a bad spacing is a fault.InvalidParameter about "spacing-km"; too many
+// samples is fault.Over("max_track_samples", maxSamples, n, "spacing-km", ...) where n is the
+// number of samples the whole track would need.
 //
 // This is a survey-planning aid, not navigation: depths sampled along a track from model or
 // gridded data are estimates; defer to official charts, surveys and the local hydrographic
 // authority.
 func Densify(g Geodesic, wps []Waypoint, spacingM float64, maxSamples int) ([]TrackSample, error) {
 	if !(spacingM > 0) || math.IsInf(spacingM, 0) {
-		return nil, trackErr("sample spacing %g m must be a positive number", spacingM)
+		return nil, fault.New(fault.InvalidParameter, "spacing-km", "%w: sample spacing %g m must be a positive number", ErrInvalidTrack, spacingM)
 	}
 	if maxSamples <= 0 {
 		maxSamples = DefaultMaxTrackSamples
@@ -94,14 +99,17 @@ func Densify(g Geodesic, wps []Waypoint, spacingM float64, maxSamples int) ([]Tr
 	}
 	wps, _ = ValidateWaypoints(wps, DefaultMaxWaypoints)
 	steps := make([]int, len(legs))
-	total := 1.0
+	total := 1.0 // the samples the whole track needs: every step's end and the first waypoint
 	for i, l := range legs {
 		n := math.Ceil(l.LengthKm * 1000 / spacingM)
 		total += n
-		if total > float64(maxSamples) {
-			return nil, trackErr("the track (%.3f km up to leg %d) would need more than %d samples at %g m spacing", l.StartDistanceKm+l.LengthKm, i, maxSamples, spacingM)
-		}
-		steps[i] = int(n)
+		steps[i] = int(min(n, math.MaxInt32))
+	}
+	if total > float64(maxSamples) {
+		end := legs[len(legs)-1]
+		asked := int64(min(total, math.MaxInt64/2))
+		return nil, fault.Over("max_track_samples", int64(maxSamples), asked, "spacing-km",
+			"%w: the track (%.3f km) would need %d samples at %g m spacing, more than %d samples (the limit)", ErrInvalidTrack, end.StartDistanceKm+end.LengthKm, asked, spacingM, maxSamples)
 	}
 	out := make([]TrackSample, 0, int(total))
 	for i, l := range legs {

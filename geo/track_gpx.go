@@ -82,7 +82,7 @@ func ParseTrackGPX(data []byte, maxWaypoints int) ([]Waypoint, error) {
 		}
 		total++
 		if total > 3*maxWaypoints {
-			return nil, trackErr("GPX line %d: more than %d points", line, 3*maxWaypoints)
+			return nil, trackOver(maxWaypoints, 0, "GPX line %d: more than %d points, more than the limit of %d waypoints can use", line, 3*maxWaypoints, maxWaypoints)
 		}
 		lists[which] = append(lists[which], Waypoint{Lon: lonAnswer(lon), Lat: lat, Name: strings.TrimSpace(pt.Name)})
 	}
