@@ -160,7 +160,7 @@ func (s *Service) Track(ctx context.Context, datasetID string, o Options, waypoi
 	}
 	wps, err := geo.ValidateWaypoints(waypoints, s.limits.MaxVertices)
 	if err != nil {
-		return nil, fault.New(fault.InvalidTrack, "coords", "%v", err)
+		return nil, trackFault(err)
 	}
 	if math.IsNaN(spacingKm) || math.IsInf(spacingKm, 0) {
 		return nil, fault.New(fault.InvalidParameter, "spacing-km", "spacing-km must be a positive number")
@@ -174,34 +174,14 @@ func (s *Service) Track(ctx context.Context, datasetID string, o Options, waypoi
 		// the WGS84 equatorial radius; worked by hand).
 		spacingKm = q.Dataset.Age.DY * 111.32
 	}
-	legs, err := geo.Legs(gdal.WGS84(), wps)
-	if err != nil {
-		return nil, fault.New(fault.InvalidTrack, "coords", "%v", err)
-	}
-	// Sample count as Densify counts it: ⌈leg/spacing⌉ steps per leg, plus the first waypoint.
-	need, total := int64(1), 0.0
-	for _, l := range legs {
-		need += int64(math.Ceil(l.LengthKm * 1000 / (spacingKm * 1000)))
-		total += l.LengthKm
-	}
-	if need > int64(s.limits.MaxTrackSamples) {
-		return nil, fault.Over("max_track_samples", int64(s.limits.MaxTrackSamples), need, "spacing-km",
-			"the track of %.1f km sampled every %g km needs %d samples; the limit is %d: raise spacing-km", total, spacingKm, need, s.limits.MaxTrackSamples)
-	}
 	samples, err := geo.Densify(gdal.WGS84(), wps, spacingKm*1000, s.limits.MaxTrackSamples)
 	if err != nil {
-		return nil, fault.Over("max_track_samples", int64(s.limits.MaxTrackSamples), 0, "spacing-km", "%v; raise spacing-km", err)
+		return nil, trackFault(err)
 	}
 	lons, lats, dist := make([]float64, len(samples)), make([]float64, len(samples)), make([]float64, len(samples))
 	res := &TrackResult{DistanceKm: dist, Waypoints: make([]WaypointAt, len(wps))}
 	for i, w := range wps {
 		res.Waypoints[i] = WaypointAt{Name: w.Name, Lon: w.Lon, Lat: w.Lat}
-	}
-	for i, l := range legs {
-		res.Waypoints[i].DistanceKm = l.StartDistanceKm
-		if i == len(legs)-1 {
-			res.Waypoints[i+1].DistanceKm = l.StartDistanceKm + l.LengthKm
-		}
 	}
 	for i, sm := range samples {
 		lons[i], lats[i], dist[i] = sm.Lon, sm.Lat, sm.DistanceKm
@@ -215,4 +195,18 @@ func (s *Service) Track(ctx context.Context, datasetID string, o Options, waypoi
 	}
 	res.PointsResult = *pr
 	return res, nil
+}
+
+// trackFault passes geo's typed track faults on (naming the coords as the field when geo names
+// its own) and makes any other track error a fault.InvalidTrack.
+func trackFault(err error) error {
+	if f, ok := fault.As(err); ok {
+		if f.Field == geo.TrackField {
+			g := *f
+			g.Field = "coords"
+			return &g
+		}
+		return err
+	}
+	return fault.New(fault.InvalidTrack, "coords", "%v", err)
 }

@@ -33,3 +33,19 @@ func (s *Service) PrepareRegion(mp orb.MultiPolygon, field string) (geo.Prepared
 	}
 	return r, nil
 }
+
+// PrepareRegionGeoJSON reads a GeoJSON Polygon or MultiPolygon (bare, a Feature, or a
+// FeatureCollection of one feature) and prepares it as PrepareRegion does
+// (geo.PrepareRegionGeoJSON); the fault names field.
+func (s *Service) PrepareRegionGeoJSON(data []byte, field string) (geo.PreparedRegion, error) {
+	r, err := geo.PrepareRegionGeoJSON(data, s.limits.MaxVertices)
+	if err != nil {
+		if f, ok := fault.As(err); ok {
+			g := *f
+			g.Field = field
+			return r, &g
+		}
+		return r, fault.New(fault.InvalidGeoJSON, field, "%v", err)
+	}
+	return r, nil
+}

@@ -310,11 +310,8 @@ func TestTrajectoryFiles(t *testing.T) {
 		return string(b)
 	}
 	names := []string{"QA-01 (SYNTHETIC)", "QA-02 (SYNTHETIC)", "QA-03 (SYNTHETIC)"}
-	// The GeoJSON fixture is a LineString (no names); the same waypoints as named Points too.
-	pts := `{"type":"FeatureCollection","features":[` +
-		`{"type":"Feature","properties":{"name":"QA-01 (SYNTHETIC)"},"geometry":{"type":"Point","coordinates":[-131.25,-27.5]}},` +
-		`{"type":"Feature","properties":{"name":"QA-02 (SYNTHETIC)"},"geometry":{"type":"Point","coordinates":[-128.3375,-25.758333333333333]}},` +
-		`{"type":"Feature","properties":{"name":"QA-03 (SYNTHETIC)"},"geometry":{"type":"Point","coordinates":[-125.08333333333333,-23.179166666666667]}}]}`
+	// The same waypoints as a GeoJSON LineString (which has no names).
+	line := `{"type":"Feature","properties":{},"geometry":{"type":"LineString","coordinates":[[-131.25,-27.5],[-128.3375,-25.758333333333333],[-125.08333333333333,-23.179166666666667]]}}`
 	forEachStore(t, Config{}, func(t *testing.T, e *env) {
 		path := "/api/collections/" + e.dataset + "/trajectory?parameter-name=residual_depth&spacing-km=25"
 		files := []struct {
@@ -323,8 +320,8 @@ func TestTrajectoryFiles(t *testing.T) {
 		}{
 			{"csv", "text/csv", read("quillon-line-a.csv"), true},
 			{"gpx", "application/gpx+xml", read("quillon-line-a.gpx"), true},
-			{"geojson line", MediaGeoJSON, read("quillon-line-a.geojson"), false},
-			{"geojson points", "application/json", pts, true},
+			{"geojson", MediaGeoJSON, read("quillon-line-a.geojson"), true},
+			{"geojson line", "application/json", line, false},
 		}
 		var refPos [][2]float64
 		var refRes []float64

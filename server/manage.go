@@ -132,11 +132,7 @@ func (s *server) readRegion(r *http.Request) (regionInput, error) {
 	}
 	// The vertex limit and validity are the evaluate service's (geo.PrepareRegion, the same for
 	// stored regions and area queries, repairs reported); the body limit bounds what is decoded.
-	mp, err := decodePolygons(raw.Geometry)
-	if err != nil {
-		return in, err
-	}
-	reg, err := s.ev.PrepareRegion(mp, "geometry")
+	reg, err := s.ev.PrepareRegionGeoJSON(raw.Geometry, "geometry")
 	if err != nil {
 		return in, err
 	}
@@ -473,49 +469,4 @@ func geometryJSON(mp orb.MultiPolygon) map[string]any {
 		mp = orb.MultiPolygon{}
 	}
 	return map[string]any{"type": "MultiPolygon", "coordinates": mp}
-}
-
-// decodePolygons reads a GeoJSON (RFC 7946) Polygon or MultiPolygon geometry as it is written
-// (validity and normalisation are geo.PrepareRegion's, through the evaluate service).
-// Altitudes are ignored.
-func decodePolygons(raw []byte) (orb.MultiPolygon, error) {
-	var g struct {
-		Type        string          `json:"type"`
-		Coordinates json.RawMessage `json:"coordinates"`
-	}
-	bad := func(format string, args ...any) error {
-		return problem(CodeInvalidGeoJSON, format, args...).withParam("geometry")
-	}
-	if err := json.Unmarshal(raw, &g); err != nil {
-		return nil, bad("the geometry is not GeoJSON: %v", err)
-	}
-	var polys [][][][]float64
-	switch g.Type {
-	case "Polygon":
-		var c [][][]float64
-		if err := json.Unmarshal(g.Coordinates, &c); err != nil {
-			return nil, bad("Polygon coordinates: %v", err)
-		}
-		polys = [][][][]float64{c}
-	case "MultiPolygon":
-		if err := json.Unmarshal(g.Coordinates, &polys); err != nil {
-			return nil, bad("MultiPolygon coordinates: %v", err)
-		}
-	default:
-		return nil, bad("a region must be a GeoJSON Polygon or MultiPolygon, got %q", g.Type)
-	}
-	mp := make(orb.MultiPolygon, len(polys))
-	for i, pc := range polys {
-		for j, rc := range pc {
-			ring := make(orb.Ring, len(rc))
-			for k, p := range rc {
-				if len(p) < 2 {
-					return nil, bad("polygon %d ring %d position %d has %d numbers; a position needs longitude and latitude", i, j, k, len(p))
-				}
-				ring[k] = orb.Point{p[0], p[1]}
-			}
-			mp[i] = append(mp[i], ring)
-		}
-	}
-	return mp, nil
 }

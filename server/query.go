@@ -316,13 +316,13 @@ func (s *server) trajectoryPost(w http.ResponseWriter, r *http.Request) error {
 	// what is parsed.
 	wps, err := geo.ParseTrack(body, format, math.MaxInt32)
 	if err != nil {
-		if _, ok := fault.As(err); ok {
+		if f, ok := fault.As(err); ok && !(format == "geojson" && f.Kind == fault.InvalidTrack) {
 			return err
 		}
-		if format == "geojson" {
-			return problem(CodeInvalidGeoJSON, "%v", err).withCause(err)
+		if format == "geojson" { // a JSON body that is no GeoJSON track
+			return problem(CodeInvalidGeoJSON, "%v", err).withParam("track").withCause(err)
 		}
-		return problem(CodeInvalidTrack, "%v", err).withCause(err)
+		return problem(CodeInvalidTrack, "%v", err).withParam("track").withCause(err)
 	}
 	return s.answerTrajectory(w, r, wps)
 }
