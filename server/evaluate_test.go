@@ -362,6 +362,19 @@ func TestTrajectoryFiles(t *testing.T) {
 				}
 			}
 		}
+		// CSV and GeoJSON answers name the waypoints too.
+		c := e.do("POST", path+"&f=csv", strings.NewReader(read("quillon-line-a.csv")), "Content-Type", "text/csv")
+		e.want(c, 200)
+		for _, n := range names {
+			if !strings.Contains(string(c.Body), ","+n+"\n") {
+				t.Errorf("CSV answer does not name waypoint %q", n)
+			}
+		}
+		g := e.do("POST", path+"&f=GeoJSON", strings.NewReader(read("quillon-line-a.gpx")), "Content-Type", "application/gpx+xml")
+		e.want(g, 200)
+		if w, _ := g.json(t)["ridgeflank:waypoints"].([]any); len(w) != 3 || w[1].(map[string]any)["name"] != names[1] {
+			t.Errorf("GeoJSON answer waypoints %v", w)
+		}
 		wantProblem(t, e.do("POST", path, strings.NewReader("name,lat,lon\nA,north,west\nB,1,2\n"), "Content-Type", "text/csv"), 400, CodeInvalidTrack)
 		wantProblem(t, e.do("POST", path, strings.NewReader("x"), "Content-Type", "image/png"), 415, CodeUnsupportedMedia)
 	})

@@ -294,6 +294,11 @@ func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
 // saved file keeps the navigation caution. Non-finite values
 // are written as empty fields.
 func writeCSV(w http.ResponseWriter, filename, caution string, header []string, cols ...[]float64) error {
+	return writeCSVText(w, filename, caution, header, nil, cols...)
+}
+
+// writeCSVText is writeCSV with a last column of text (when text is not nil; header names it).
+func writeCSVText(w http.ResponseWriter, filename, caution string, header []string, text []string, cols ...[]float64) error {
 	w.Header().Set("Content-Type", "text/csv; charset=utf-8; header=present")
 	w.Header().Set("Content-Disposition", `attachment; filename="`+filename+`"`)
 	if caution != "" {
@@ -305,10 +310,16 @@ func writeCSV(w http.ResponseWriter, filename, caution string, header []string, 
 	if err := cw.Write(header); err != nil {
 		return err
 	}
-	row := make([]string, len(cols))
+	row := make([]string, len(cols), len(cols)+1)
+	if text != nil {
+		row = append(row, "")
+	}
 	for i := range cols[0] {
 		for j, c := range cols {
 			row[j] = formatCSVFloat(c[i])
+		}
+		if text != nil {
+			row[len(cols)] = text[i]
 		}
 		if err := cw.Write(row); err != nil {
 			return err

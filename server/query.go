@@ -219,7 +219,23 @@ func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType st
 			header = append(header, p.ID+"_"+evaluate.UnitSuffix(p.Unit))
 			cols = append(cols, values[i])
 		}
-		return writeCSV(w, res.Query.Dataset.Row.ID+"-"+kind+".csv", prov.Caution, header, cols...)
+		var names []string
+		if wps != nil {
+			// A trajectory names its waypoints on the samples that are waypoints (the first sample
+			// at a waypoint's distance along the track).
+			header = append(header, "waypoint")
+			names = make([]string, len(lons))
+			k := 0
+			for _, wp := range wps {
+				for k < len(distKm) && distKm[k] < wp.DistanceKm {
+					k++
+				}
+				if k < len(distKm) {
+					names[k] = wp.Name
+				}
+			}
+		}
+		return writeCSVText(w, res.Query.Dataset.Row.ID+"-"+kind+".csv", prov.Caution, header, names, cols...)
 	}
 	c := pointCoverage(lons, lats, ps, values)
 	c.Provenance = &prov
