@@ -135,7 +135,7 @@ func pick(id string, v geo.SampleValues) float64 {
 
 // WaypointAt is a waypoint of a track with its distance along the track.
 type WaypointAt struct {
-	Name       string  `json:"name,omitempty"`
+	Name       string  `json:"name"` // "" when the track file names none
 	Lon        float64 `json:"lon"`
 	Lat        float64 `json:"lat"`
 	DistanceKm float64 `json:"distance_km"`
