@@ -145,18 +145,6 @@ func visit(g orb.Geometry, fn func(orb.Point)) {
 	}
 }
 
-// asMultiPolygon returns a Polygon or MultiPolygon as a MultiPolygon; ok is
-// false for any other geometry.
-func asMultiPolygon(g orb.Geometry) (mp orb.MultiPolygon, ok bool) {
-	switch t := g.(type) {
-	case orb.Polygon:
-		return orb.MultiPolygon{t}, true
-	case orb.MultiPolygon:
-		return t, true
-	}
-	return nil, false
-}
-
 // ---- position ----
 
 func (s *server) position(w http.ResponseWriter, r *http.Request) error {
