@@ -114,6 +114,23 @@ func TestAntimeridianAreasOneAnswer(t *testing.T) {
 				}
 				sameArea(t, ds+": "+name, got, want)
 			}
+			// The same box stored as a region answers the same cells as a location.
+			if ds == "globe" {
+				body := `{"type":"Feature","id":"across","geometry":{"type":"Polygon","coordinates":[[[179,-31],[-179,-31],[-179,-41],[179,-41],[179,-31]]]},"properties":{"name":"across"}}`
+				e.want(e.do("POST", "/api/regions", strings.NewReader(body), "Authorization", "Bearer "+e.editor, "Content-Type", MediaGeoJSON), 201)
+			}
+			loc := e.get("/api/collections/" + ds + "/locations/across?parameter-name=seafloor_age")
+			e.want(loc, 200)
+			lm := loc.json(t)
+			got := readArea(t, lm, PSeafloorAge)
+			if got.X0 < 0 {
+				got.X0, got.X1 = got.X0+360, got.X1+360
+			}
+			sameArea(t, ds+": stored region", got, want)
+			st := lm["ridgeflank:statistics"].(map[string]any)[PSeafloorAge].(map[string]any)
+			if c := num(t, st["count"]); c != 20 {
+				t.Errorf("%s: stored region statistics over %g cells, want 20", ds, c)
+			}
 			// A 50°-wide band the short way round (170 → 220): 50 columns, all at 29.5 Ma.
 			r := e.get("/api/collections/" + ds + "/area?coords=" + esc("POLYGON((170 -30,-140 -30,-140 -29,170 -29,170 -30))") + "&parameter-name=seafloor_age")
 			e.want(r, 200)
