@@ -251,3 +251,131 @@ func TestPrepareRegionGeoJSONReportsRepairs(t *testing.T) {
 		t.Errorf("a Point: %v, want an invalid-region fault", err)
 	}
 }
+
+// clipConvex returns the part of polygon subject inside the convex counter-clockwise polygon
+// clip (both closed rings), by Sutherland–Hodgman clipping (Sutherland & Hodgman 1974,
+// "Reentrant polygon clipping", Communications of the ACM 17(1), 32–42).
+func clipConvex(subject, clip orb.Ring) orb.Ring {
+	out := append(orb.Ring(nil), subject[:len(subject)-1]...)
+	for i := 0; i+1 < len(clip) && len(out) > 0; i++ {
+		a, b := clip[i], clip[i+1]
+		inside := func(p orb.Point) bool { return (b[0]-a[0])*(p[1]-a[1])-(b[1]-a[1])*(p[0]-a[0]) >= 0 }
+		cross := func(p, q orb.Point) orb.Point {
+			d1 := (b[0]-a[0])*(p[1]-a[1]) - (b[1]-a[1])*(p[0]-a[0])
+			d2 := (b[0]-a[0])*(q[1]-a[1]) - (b[1]-a[1])*(q[0]-a[0])
+			t := d1 / (d1 - d2)
+			return orb.Point{p[0] + t*(q[0]-p[0]), p[1] + t*(q[1]-p[1])}
+		}
+		in := out
+		out = nil
+		for k := range in {
+			p, q := in[k], in[(k+1)%len(in)]
+			switch {
+			case inside(p) && inside(q):
+				out = append(out, q)
+			case inside(p):
+				out = append(out, cross(p, q))
+			case inside(q):
+				out = append(out, cross(p, q), q)
+			}
+		}
+	}
+	if len(out) < 3 {
+		return nil
+	}
+	return append(out, out[0])
+}
+
+// planarArea is the shoelace area of a closed ring (degrees², absolute).
+func planarArea(r orb.Ring) float64 {
+	s := 0.0
+	for i := 0; i+1 < len(r); i++ {
+		s += r[i][0]*r[i+1][1] - r[i+1][0]*r[i][1]
+	}
+	return math.Abs(s) / 2
+}
+
+// TestPrepareRegionRandomTriangles checks the topology rules on random triangles with small
+// whole-number vertices (so many touch along edges and at corners) against an independent
+// exact reference: the area of their intersection from Sutherland–Hodgman clipping (clipConvex).
+// Two parts overlap when the intersection has area (tolerance 1e-9 deg², the rounding of the
+// clipped vertices); a hole lies inside its shell when its intersection with the shell is the
+// whole hole, outside when it is empty, and crosses the shell's boundary otherwise.
+func TestPrepareRegionRandomTriangles(t *testing.T) {
+	rnd := rand.New(rand.NewPCG(9, 7))
+	tri := func() orb.Ring {
+		for {
+			r := orb.Ring{}
+			for range 3 {
+				r = append(r, orb.Point{float64(rnd.IntN(7)), float64(rnd.IntN(7))})
+			}
+			r = append(r, r[0])
+			if ringArea2(r) != 0 {
+				orientRing(r, true)
+				return r
+			}
+		}
+	}
+	const tol = 1e-9
+	shift := func(r orb.Ring, dx float64) orb.Ring {
+		c := append(orb.Ring(nil), r...)
+		shiftRing(c, dx)
+		return c
+	}
+	for _, off := range []float64{0, 177} { // 177: across the antimeridian, written up to 183
+		t.Run(fmt.Sprintf("parts offset %g", off), func(t *testing.T) {
+			testRandomTriangleParts(t, tri, func(r orb.Ring) orb.Ring { return shift(r, off) })
+		})
+	}
+	t.Run("holes", func(t *testing.T) {
+		for range 3000 {
+			shell, hole := tri(), tri()
+			pr, err := PrepareRegion(orb.MultiPolygon{{shell, reversed(hole)}}, 0)
+			inter := planarArea(clipConvex(hole, shell))
+			switch {
+			case math.Abs(inter-planarArea(hole)) < tol && math.Abs(inter-planarArea(shell)) < tol:
+				if err == nil {
+					t.Fatalf("hole %v is its shell %v but was accepted", hole, shell)
+				}
+			case math.Abs(inter-planarArea(hole)) < tol:
+				if err != nil || len(pr.Repairs) != 0 || len(pr.Parts[0]) != 2 {
+					t.Fatalf("hole %v inside shell %v: err %v, repairs %q", hole, shell, err, pr.Repairs)
+				}
+			case inter < tol:
+				if err != nil || len(pr.Repairs) != 1 || len(pr.Parts[0]) != 1 {
+					t.Fatalf("hole %v outside shell %v: err %v, repairs %q", hole, shell, err, pr.Repairs)
+				}
+			default:
+				if err == nil {
+					t.Fatalf("hole %v crosses shell %v (%g of %g deg² inside) but was accepted (repairs %q)", hole, shell, inter, planarArea(hole), pr.Repairs)
+				}
+			}
+		}
+	})
+}
+
+// testRandomTriangleParts is the parts half of TestPrepareRegionRandomTriangles; shift moves
+// the triangles before they are prepared (the reference uses them unshifted).
+func testRandomTriangleParts(t *testing.T, tri func() orb.Ring, shift func(orb.Ring) orb.Ring) {
+	const tol = 1e-9
+	for range 3000 {
+		a, b := tri(), tri()
+		pr, err := PrepareRegion(orb.MultiPolygon{{shift(a)}, {shift(b)}}, 0)
+		inter := planarArea(clipConvex(a, b))
+		same := math.Abs(inter-planarArea(a)) < tol && math.Abs(inter-planarArea(b)) < tol
+		switch {
+		case same:
+			if err != nil || len(pr.Repairs) != 1 {
+				t.Fatalf("%v and %v are the same triangle: err %v, repairs %q", a, b, err, pr.Repairs)
+			}
+		case inter > tol:
+			if err == nil || !strings.Contains(err.Error(), "polygons 0 and 1 overlap") {
+				t.Fatalf("%v and %v overlap by %g deg² but: err %v", a, b, inter, err)
+			}
+		default:
+			if err != nil || len(pr.Repairs) != 0 {
+				t.Fatalf("%v and %v do not overlap but: err %v, repairs %q", a, b, err, pr.Repairs)
+			}
+		}
+	}
+}

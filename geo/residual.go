@@ -758,7 +758,7 @@ func (p *residualPlan) chunk(w *residualWorker, age, obs, sed, crust []float32, 
 		} else {
 			pred, obs := pred[:n], obs[:n]
 			for i := range res {
-				res[i] = pred[i] - p.sign*obs[i]
+				res[i] = residualAt(pred[i], correctedDepth(p.sign, obs[i], nil, 0, 0))
 			}
 		}
 		return
@@ -770,7 +770,7 @@ func (p *residualPlan) chunk(w *residualWorker, age, obs, sed, crust []float32, 
 	if res != nil {
 		pred = pred[:n]
 		for i, c := range corr[:n] {
-			res[i] = pred[i] - c
+			res[i] = residualAt(pred[i], c)
 		}
 	}
 	// Cells the mask removes have NaN age and so NaN prediction, but the corrected depth does
@@ -803,7 +803,7 @@ func residualFusedChunk(res, age, obs, sed []float32, sign float32, dt *depthTab
 	if fusedChunkTables(res, float32Bits(age), obs, float32Bits(sed), sign, dt.n, st.n) {
 		for i, r := range res {
 			if r != r {
-				res[i] = dt.at(age[i]) - (sign*obs[i] + st.at(sed[i]))
+				res[i] = residualAt(dt.at(age[i]), correctedDepth(sign, obs[i], st, sed[i], 0))
 			}
 		}
 	}
@@ -887,31 +887,29 @@ func residualSedChunk(res, pred, obs, sed []float32, sign float32, t *sedTable) 
 	n := len(res)
 	pred, obs, sed = pred[:n], obs[:n], sed[:n]
 	for i := range res {
-		res[i] = pred[i] - (sign*obs[i] + t.at(sed[i]))
+		res[i] = residualAt(pred[i], correctedDepth(sign, obs[i], t, sed[i], 0))
 	}
 }
 
-// correctedChunk writes corrected depth = sign·obs + sediment correction + crust correction.
+// correctedChunk writes corrected depth (correctedAt) of every cell of the chunk.
 func (p *residualPlan) correctedChunk(corr, obs, sed, crust []float32) {
 	n := len(corr)
 	obs = obs[:n]
-	sign := p.sign
 	if sed != nil {
 		sed = sed[:n]
-		for i, o := range obs {
-			corr[i] = sign*o + p.sedTab.at(sed[i])
-		}
-	} else {
-		for i, o := range obs {
-			corr[i] = sign * o
-		}
 	}
 	if crust != nil {
 		crust = crust[:n]
-		rc, rm, rw := p.crustKgM3, p.mantleKgM3, p.waterKgM3
-		for i, c := range crust {
-			corr[i] += float32(thermal.CrustCorrectionM(float64(c), rc, rm, rw))
+	}
+	var s, c float32
+	for i, o := range obs {
+		if sed != nil {
+			s = sed[i]
 		}
+		if crust != nil {
+			c = crust[i]
+		}
+		corr[i] = p.correctedAt(o, s, c)
 	}
 }
 

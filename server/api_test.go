@@ -276,7 +276,7 @@ func TestAPI(t *testing.T) {
 			}
 			wantProblem(t, e.get(ds+"/area?coords="+poly+"&parameter-name=residual_depth,heat_flow&f=COG"), 400, CodeInvalidParameter)
 			wantProblem(t, e.get(ds+"/area?coords="+esc("POLYGON((0 0,1 0,1 1,0 0))")), 404, CodeNoData)
-			wantProblem(t, e.get(ds+"/area?coords="+esc("POLYGON((0 0,1 0))")), 400, CodeInvalidCoords)
+			wantProblem(t, e.get(ds+"/area?coords="+esc("POLYGON((0 0,1 0))")), 400, CodeInvalidRegion) // one validity rule (geo.PrepareRegion) for area queries and stored regions
 			wantProblem(t, e.get(ds+"/area?coords="+poly+"&resolution-x=-1"), 400, CodeInvalidParameter)
 		})
 
@@ -431,7 +431,7 @@ func TestAPI(t *testing.T) {
 				t.Errorf("ETag after update %q", u.Header.Get("ETag"))
 			}
 			wantProblem(t, e.do("PUT", "/api/regions/"+id, strings.NewReader(upd), append(auth, "If-Match", `"1"`)...), 412, CodePreconditionFailed)
-			wantProblem(t, e.do("POST", "/api/regions", strings.NewReader(`{"type":"Feature","geometry":{"type":"Polygon","coordinates":[[[0,0],[1,0]]]},"properties":{"name":"x"}}`), auth...), 400, CodeInvalidGeoJSON)
+			wantProblem(t, e.do("POST", "/api/regions", strings.NewReader(`{"type":"Feature","geometry":{"type":"Polygon","coordinates":[[[0,0],[1,0]]]},"properties":{"name":"x"}}`), auth...), 400, CodeInvalidRegion)
 			e.want(e.do("DELETE", "/api/regions/"+id, nil, auth...), 204)
 			wantProblem(t, e.get("/api/regions/"+id), 404, CodeNotFound)
 		})

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 
+	"ridgeflank/evaluate"
 	"ridgeflank/geo"
 )
 
@@ -79,6 +80,12 @@ type coverage struct {
 	Caution    string                  `json:"ridgeflank:caution,omitempty"`
 	Stats      map[string]unitStats    `json:"ridgeflank:statistics,omitempty"`
 	Extra      map[string]any          `json:"ridgeflank:samples,omitempty"`
+	// Flags lists values refused as physically impossible, by parameter, input and reason.
+	Flags []evaluate.Flag `json:"ridgeflank:flags,omitempty"`
+	// Repairs says what was repaired to make the query's polygon valid.
+	Repairs []string `json:"ridgeflank:repairs,omitempty"`
+	// Waypoints are a trajectory's waypoints with their names and distance along the track.
+	Waypoints []evaluate.WaypointAt `json:"ridgeflank:waypoints,omitempty"`
 }
 
 // unitStats is geo.Stats as the API writes it (CoverageJSON member
@@ -92,8 +99,8 @@ type unitStats struct {
 	Stats geo.Stats
 }
 
-func newUnitStats(st geo.Stats, p paramInfo) unitStats {
-	return unitStats{Unit: unitSuffix(p.Unit), Stats: st}
+func newUnitStats(st geo.Stats, p evaluate.Parameter) unitStats {
+	return unitStats{Unit: evaluate.UnitSuffix(p.Unit), Stats: st}
 }
 
 // MarshalJSON writes the fields in a fixed order, with unit-suffixed names
@@ -152,7 +159,7 @@ var crs84 = []covReferencing{{
 	System:      covRefSystem{Type: "GeographicCRS", ID: "http://www.opengis.net/def/crs/OGC/1.3/CRS84"},
 }}
 
-func covParameters(ps []paramInfo) map[string]covParameter {
+func covParameters(ps []evaluate.Parameter) map[string]covParameter {
 	out := make(map[string]covParameter, len(ps))
 	for _, p := range ps {
 		out[p.ID] = covParameter{
@@ -169,7 +176,7 @@ func f64(v float64) *float64 { return &v }
 
 // pointCoverage is a Point (one position) or MultiPoint coverage; values[i]
 // holds parameter i's value at every position.
-func pointCoverage(lons, lats []float64, ps []paramInfo, values [][]float64) coverage {
+func pointCoverage(lons, lats []float64, ps []evaluate.Parameter, values [][]float64) coverage {
 	c := coverage{Type: "Coverage", Parameters: covParameters(ps), Ranges: map[string]covNdArray{}}
 	if len(lons) == 1 {
 		c.Domain = covDomain{Type: "Domain", DomainType: "Point", Referencing: crs84, Axes: map[string]covAxis{
@@ -195,7 +202,7 @@ func pointCoverage(lons, lats []float64, ps []paramInfo, values [][]float64) cov
 }
 
 // gridCoverage is a Grid coverage on g's lattice with one grid per parameter.
-func gridCoverage(lattice *geo.Grid, ps []paramInfo, grids []*geo.Grid) coverage {
+func gridCoverage(lattice *geo.Grid, ps []evaluate.Parameter, grids []*geo.Grid) coverage {
 	c := coverage{Type: "Coverage", Parameters: covParameters(ps), Ranges: map[string]covNdArray{}}
 	west, east := geo.LonTo180(lattice.Lon(0)), lattice.Lon(lattice.NX-1)
 	east = west + (east - lattice.Lon(0)) // keep x monotonic across the antimeridian

@@ -6,7 +6,7 @@ import (
 
 	"github.com/go-chi/chi/v5"
 
-	"ridgeflank/server/colour"
+	"ridgeflank/colour"
 )
 
 // Media types.

@@ -3,7 +3,6 @@ package server
 import (
 	"context"
 	"crypto/rand"
-	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
 	"errors"
@@ -15,25 +14,13 @@ import (
 	"strings"
 	"time"
 
-	"ridgeflank/geo"
-	"ridgeflank/geo/gdal"
+	"ridgeflank/evaluate"
+	"ridgeflank/fault"
 	"ridgeflank/jobs"
 )
 
-// exportRequest is what an export job needs to recompute an area answer:
-// the collection and the original query string.
-type exportRequest struct {
-	Dataset string `json:"dataset"`
-	Query   string `json:"query"`
-}
-
 // exportResult is recorded as the job's result.
-type exportResult struct {
-	Filename  string `json:"filename"`
-	MediaType string `json:"media_type"`
-	Bytes     int64  `json:"bytes"`
-	SHA256    string `json:"sha256"`
-}
+type exportResult = evaluate.ExportResult
 
 func (s *server) exportDir() string {
 	if s.deps.Config.ExportDir != "" {
@@ -42,13 +29,17 @@ func (s *server) exportDir() string {
 	return filepath.Join(os.TempDir(), "ridgeflank-exports")
 }
 
-// queueExport answers a large COG/netCDF area query with 202 and a job.
-func (s *server) queueExport(w http.ResponseWriter, r *http.Request, d *dataset, format outFormat) error {
-	raw, _ := json.Marshal(exportRequest{Dataset: d.Row.ID, Query: r.URL.RawQuery})
+// queueExport answers a large COG/netCDF area query with 202 and a job whose arguments carry
+// the evaluate request itself.
+func (s *server) queueExport(w http.ResponseWriter, r *http.Request, req evaluate.ExportRequest) error {
+	raw, err := json.Marshal(req)
+	if err != nil {
+		return err
+	}
 	var b [12]byte
 	_, _ = rand.Read(b[:])
 	ext := ".tif"
-	if format == fmtNetCDF {
+	if req.Format == evaluate.FormatNetCDF {
 		ext = ".nc"
 	}
 	path := filepath.Join(s.exportDir(), "export-"+hex.EncodeToString(b[:])+ext)
@@ -66,91 +57,28 @@ func (s *server) queueExport(w http.ResponseWriter, r *http.Request, d *dataset,
 	return writeJSON(w, http.StatusAccepted, "", body)
 }
 
-// ExportWorker returns the job handler for large area exports: it replays
-// the stored query against the store (through the same code as the HTTP
-// answer) and writes the file to the job's path.
+// ExportWorker returns the job handler for large area exports: it decodes the evaluate request
+// the job carries and has the evaluate service (deps.Evaluate, or one built from deps) write
+// the file to the job's path. Bad requests fail permanently.
 func ExportWorker(deps Deps) func(ctx context.Context, a jobs.ExportArgs, progress jobs.Progress) (any, error) {
-	s := newServer(deps)
+	ev := deps.Evaluate
+	if ev == nil {
+		ev = NewEvaluate(deps)
+	}
 	return func(ctx context.Context, a jobs.ExportArgs, progress jobs.Progress) (any, error) {
-		var req exportRequest
+		var req evaluate.ExportRequest
 		if err := json.Unmarshal(a.Request, &req); err != nil {
 			return nil, jobs.Permanent(err)
 		}
-		r, err := http.NewRequestWithContext(ctx, "GET", "/?"+req.Query, nil)
-		if err != nil {
+		res, err := ev.Export(ctx, req, a.Path, func(f float64, msg string) { progress(f, msg) })
+		if _, ok := fault.As(err); ok {
 			return nil, jobs.Permanent(err)
 		}
-		progress(0.05, "loading dataset "+req.Dataset)
-		d, err := s.loadDataset(ctx, req.Dataset)
-		if err != nil {
-			return nil, permanentIfProblem(err)
-		}
-		g, err := parseCoords(r)
-		if err != nil {
-			return nil, jobs.Permanent(err)
-		}
-		mp, ok := asMultiPolygon(g)
-		if !ok {
-			return nil, jobs.Permanent(errors.New("export needs a polygon"))
-		}
-		norm, err := geo.NormalizeRegion(mp, s.limits.MaxVertices)
-		if err != nil {
-			return nil, jobs.Permanent(err)
-		}
-		resX, _ := parseResolution(r, "resolution-x")
-		resY, _ := parseResolution(r, "resolution-y")
-		format, _, err := negotiate(r, fmtCOG, fmtNetCDF)
-		if err != nil {
-			return nil, jobs.Permanent(err)
-		}
-		o, err := s.parseQueryOpts(r, d)
-		if err != nil {
-			return nil, permanentIfProblem(err)
-		}
-		progress(0.2, "computing")
-		res, err := s.computeArea(ctx, d, o, norm, mp.Bound(), resX, resY)
-		if err != nil {
-			return nil, permanentIfProblem(err)
-		}
-		progress(0.7, "encoding")
-		prov := s.provenanceFor(d, o)
-		p := o.Params[0]
-		meta := gdal.Meta{Name: p.ID, LongName: p.Label, Units: p.Unit, Title: d.Row.Name + ": " + p.Label,
-			Source: "ridgeflank " + s.deps.Version, Metadata: prov.metadata()}
-		if err := os.MkdirAll(filepath.Dir(a.Path), 0o755); err != nil {
-			return nil, err
-		}
-		tmp := a.Path + ".tmp"
-		media := MediaCOG
-		if format == fmtNetCDF {
-			media = MediaNetCDF
-			err = gdal.WriteNetCDF(tmp, res.grids[0], meta)
-		} else {
-			err = gdal.WriteCOG(tmp, res.grids[0], meta)
-		}
-		if err != nil {
-			os.Remove(tmp)
-			return nil, err
-		}
-		if err := os.Rename(tmp, a.Path); err != nil {
-			return nil, err
-		}
-		raw, err := os.ReadFile(a.Path)
 		if err != nil {
 			return nil, err
 		}
-		sum := sha256.Sum256(raw)
-		return exportResult{Filename: req.Dataset + "-area-" + p.ID + filepath.Ext(a.Path), MediaType: media,
-			Bytes: int64(len(raw)), SHA256: hex.EncodeToString(sum[:])}, nil
+		return res, nil
 	}
-}
-
-func permanentIfProblem(err error) error {
-	var p *Problem
-	if errors.As(err, &p) && p.Status < 500 {
-		return jobs.Permanent(err)
-	}
-	return err
 }
 
 // jobResult downloads the file of a succeeded export job.

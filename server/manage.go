@@ -23,22 +23,6 @@ import (
 
 // ---- custom models (store adapters) ----
 
-func (s *server) customModel(ctx context.Context, id string) (thermal.Params, error) {
-	if s.deps.Store == nil {
-		return thermal.Params{}, store.ErrNotFound
-	}
-	m, err := s.deps.Store.GetModel(ctx, id)
-	if err != nil {
-		return thermal.Params{}, err
-	}
-	var p thermal.Params
-	if err := json.Unmarshal(m.Params, &p); err != nil {
-		return p, fmt.Errorf("stored model %s: %w", id, err)
-	}
-	p.ID = m.ID
-	return p, nil
-}
-
 func (s *server) listCustomModels(ctx context.Context) ([]thermal.Params, error) {
 	if s.deps.Store == nil {
 		return nil, nil
@@ -122,6 +106,7 @@ type regionInput struct {
 	Description string
 	Tags        []string
 	Geometry    orb.MultiPolygon
+	Repairs     []string // what was repaired to make the geometry valid
 }
 
 func (s *server) readRegion(r *http.Request) (regionInput, error) {
@@ -146,14 +131,13 @@ func (s *server) readRegion(r *http.Request) (regionInput, error) {
 	if raw.Type != "Feature" {
 		return in, problem(CodeInvalidGeoJSON, "the body must be a GeoJSON Feature, got type %q", raw.Type)
 	}
-	mp, err := geo.ParseRegion(raw.Geometry, s.limits.MaxVertices)
+	// The vertex limit and validity are the evaluate service's (geo.PrepareRegion, the same for
+	// stored regions and area queries, repairs reported); the body limit bounds what is decoded.
+	reg, err := s.ev.PrepareRegionGeoJSON(raw.Geometry, "geometry")
 	if err != nil {
-		if strings.Contains(err.Error(), "vertices") && strings.Contains(err.Error(), "limit") {
-			return in, limitProblem(http.StatusUnprocessableEntity, "max_vertices", int64(s.limits.MaxVertices), "%v", err).withCause(err)
-		}
-		return in, problem(CodeInvalidGeoJSON, "%v", err).withCause(err)
+		return in, err
 	}
-	in.Geometry = mp
+	in.Geometry, in.Repairs = reg.Parts, reg.Repairs
 	if id, ok := raw.ID.(string); ok {
 		in.ID = id
 	}
@@ -229,7 +213,7 @@ func (s *server) createRegion(w http.ResponseWriter, r *http.Request) error {
 	}
 	w.Header().Set("Location", s.baseURL(r)+"/api/regions/"+rg.ID)
 	w.Header().Set("ETag", etag(rg.Version))
-	return writeJSON(w, http.StatusCreated, MediaGeoJSON, s.regionFeature(r, rg))
+	return writeJSON(w, http.StatusCreated, MediaGeoJSON, withRepairs(s.regionFeature(r, rg), in.Repairs))
 }
 
 func (s *server) getRegion(w http.ResponseWriter, r *http.Request) error {
@@ -239,6 +223,14 @@ func (s *server) getRegion(w http.ResponseWriter, r *http.Request) error {
 	}
 	w.Header().Set("ETag", etag(rg.Version))
 	return writeJSON(w, http.StatusOK, MediaGeoJSON, s.regionFeature(r, rg))
+}
+
+// withRepairs adds what was repaired to make a region valid (member "ridgeflank:repairs").
+func withRepairs(f map[string]any, repairs []string) map[string]any {
+	if len(repairs) > 0 {
+		f["ridgeflank:repairs"] = repairs
+	}
+	return f
 }
 
 // updateRegion replaces a region. If-Match with the version last read is
@@ -271,7 +263,7 @@ func (s *server) updateRegion(w http.ResponseWriter, r *http.Request) error {
 		return err
 	}
 	w.Header().Set("ETag", etag(rg.Version))
-	return writeJSON(w, http.StatusOK, MediaGeoJSON, s.regionFeature(r, rg))
+	return writeJSON(w, http.StatusOK, MediaGeoJSON, withRepairs(s.regionFeature(r, rg), in.Repairs))
 }
 
 func (s *server) deleteRegion(w http.ResponseWriter, r *http.Request) error {
@@ -321,7 +313,7 @@ func (s *server) getGrid(w http.ResponseWriter, r *http.Request) error {
 }
 
 func (s *server) deleteGrid(w http.ResponseWriter, r *http.Request) error {
-	defer s.forgetDatasets()
+	defer s.ev.Forget()
 	err := s.deps.Store.DeleteGrid(r.Context(), chi.URLParam(r, "gridId"))
 	if errors.Is(err, store.ErrConflict) {
 		return problem(CodeConflict, "grid %s is used by a dataset: delete or change the dataset first", chi.URLParam(r, "gridId")).withCause(err)
@@ -373,7 +365,7 @@ func (s *server) listDatasets(w http.ResponseWriter, r *http.Request) error {
 }
 
 func (s *server) createDataset(w http.ResponseWriter, r *http.Request) error {
-	defer s.forgetDatasets()
+	defer s.ev.Forget()
 	var in datasetInput
 	if err := decodeJSON(r, &in); err != nil {
 		return err
@@ -409,7 +401,7 @@ func (s *server) getDataset(w http.ResponseWriter, r *http.Request) error {
 }
 
 func (s *server) deleteDataset(w http.ResponseWriter, r *http.Request) error {
-	defer s.forgetDatasets()
+	defer s.ev.Forget()
 	ver, _, err := parseIfMatch(r)
 	if err != nil {
 		return err
@@ -470,7 +462,7 @@ func jobJSON(base string, st jobs.Status) map[string]any {
 		out["errors"] = st.Errors
 	}
 	if st.Fault != nil {
-		// The problem the same fault answers when met at once (faultProblems).
+		// The problem the same fault answers when met at once (faultProblem).
 		out["problem"] = faultProblem(&fault.Error{Kind: st.Fault.Kind, Field: st.Fault.Field, Msg: st.Fault.Message})
 	}
 	return out

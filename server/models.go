@@ -1,7 +1,6 @@
 package server
 
 import (
-	"context"
 	"encoding/csv"
 	"errors"
 	"fmt"
@@ -9,82 +8,28 @@ import (
 	"net/http"
 	"strconv"
 	"strings"
-	"sync"
 
 	"github.com/go-chi/chi/v5"
 
+	"ridgeflank/evaluate"
+	"ridgeflank/fault"
 	"ridgeflank/thermal"
 )
 
 // DefaultModel is the model used when a query gives no model=.
-const DefaultModel = thermal.IDGDH1
+const DefaultModel = evaluate.DefaultModel
 
 // maxAgeMa is the oldest age accepted by the age-only endpoints (the span of
 // the model lookup tables; today's oceans are younger than about 200 Ma).
 const maxAgeMa = thermal.TableMaxAgeMa
 
-// modelCache keeps the Model built for each stored custom parameter set, so
-// thermal.TableFor (keyed by parameters) is reused across requests.
-type modelCache struct {
-	mu sync.Mutex
-	m  map[thermal.Params]thermal.Model
-}
-
-func newModelCache() *modelCache { return &modelCache{m: map[thermal.Params]thermal.Model{}} }
-
-func (c *modelCache) get(p thermal.Params) (thermal.Model, error) {
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	if m, ok := c.m[p]; ok {
-		return m, nil
-	}
-	m, err := thermal.NewModel(p)
-	if err != nil {
-		return nil, err
-	}
-	if len(c.m) > 1024 {
-		clear(c.m)
-	}
-	c.m[p] = m
-	return m, nil
-}
-
-func isBuiltin(id string) bool {
-	for _, b := range thermal.BuiltinIDs() {
-		if strings.EqualFold(b, strings.TrimSpace(id)) {
-			return true
-		}
-	}
-	return false
-}
-
-// resolveModel finds a built-in or stored custom model. A missing model is a
-// *Problem with code unknown-model (status 400 for query parameters; the
-// caller turns it into 404 for path segments).
-func (s *server) resolveModel(ctx context.Context, id string) (thermal.Model, error) {
-	if id == "" {
-		id = DefaultModel
-	}
-	if isBuiltin(id) {
-		return thermal.Builtin(id)
-	}
-	p, err := s.customModel(ctx, id)
-	if err != nil {
-		if isNotFound(err) {
-			return nil, problem(CodeUnknownModel, "no model %q; built-in models are %s, or store a custom one with POST /api/models",
-				id, strings.Join(thermal.BuiltinIDs(), ", ")).withParam("model")
-		}
-		return nil, err
-	}
-	return s.models.get(p)
-}
+func isBuiltin(id string) bool { return evaluate.IsBuiltin(id) }
 
 // modelFromPath resolves {modelId}, answering 404 when it does not exist.
 func (s *server) modelFromPath(r *http.Request) (thermal.Model, error) {
-	m, err := s.resolveModel(r.Context(), chi.URLParam(r, "modelId"))
-	var p *Problem
-	if errors.As(err, &p) && p.Code == CodeUnknownModel {
-		return nil, problem(CodeNotFound, "%s", p.Detail)
+	m, err := s.ev.Model(r.Context(), chi.URLParam(r, "modelId"))
+	if f, ok := fault.As(err); ok && f.Kind == fault.UnknownModel {
+		return nil, problem(CodeNotFound, "%s", f.Msg)
 	}
 	return m, err
 }
@@ -270,7 +215,7 @@ func (s *server) modelCurve(w http.ResponseWriter, r *http.Request) error {
 	}
 	prov := s.provenance(m)
 	prov.Caution = Caution
-	prov.setHeaders(w)
+	setProvenance(w, prov)
 	if asCSV {
 		return writeCSV(w, "curve-"+m.Params().ID+".csv", prov.Caution,
 			[]string{"age_ma", "depth_m", "heat_flow_mw_m2", "thermal_thickness_km", "depth_600c_km", "subsidence_rate_m_per_myr"},
@@ -329,7 +274,7 @@ func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
 		temps[i] = m.TemperatureC(z, age)
 	}
 	prov := s.provenance(m)
-	prov.setHeaders(w)
+	setProvenance(w, prov)
 	if asCSV {
 		return writeCSV(w, "geotherm-"+m.Params().ID+".csv", "", []string{"depth_km", "temperature_c"}, depths, temps)
 	}
@@ -349,6 +294,11 @@ func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
 // saved file keeps the navigation caution. Non-finite values
 // are written as empty fields.
 func writeCSV(w http.ResponseWriter, filename, caution string, header []string, cols ...[]float64) error {
+	return writeCSVText(w, filename, caution, header, nil, cols...)
+}
+
+// writeCSVText is writeCSV with a last column of text (when text is not nil; header names it).
+func writeCSVText(w http.ResponseWriter, filename, caution string, header []string, text []string, cols ...[]float64) error {
 	w.Header().Set("Content-Type", "text/csv; charset=utf-8; header=present")
 	w.Header().Set("Content-Disposition", `attachment; filename="`+filename+`"`)
 	if caution != "" {
@@ -360,10 +310,16 @@ func writeCSV(w http.ResponseWriter, filename, caution string, header []string, 
 	if err := cw.Write(header); err != nil {
 		return err
 	}
-	row := make([]string, len(cols))
+	row := make([]string, len(cols), len(cols)+1)
+	if text != nil {
+		row = append(row, "")
+	}
 	for i := range cols[0] {
 		for j, c := range cols {
 			row[j] = formatCSVFloat(c[i])
+		}
+		if text != nil {
+			row[len(cols)] = text[i]
 		}
 		if err := cw.Write(row); err != nil {
 			return err

@@ -7,6 +7,8 @@ import (
 	"fmt"
 	"net/http"
 	"sort"
+
+	"ridgeflank/fault"
 )
 
 // ProblemTypeBase prefixes every problem type URI. Type URIs are relative
@@ -79,6 +81,9 @@ const (
 	CodeInternal           = "internal"
 	CodeInvalidModelParams = "invalid-model-parameters"
 	CodeInvalidGrid        = "invalid-grid"
+	CodeInvalidTrack       = "invalid-track"
+	CodeInvalidRegion      = "invalid-region"
+	CodeImplausible        = "implausible-result"
 )
 
 var problemKinds = map[string]problemKind{}
@@ -111,6 +116,9 @@ func init() {
 		{Code: CodeInternal, Status: 500, Title: "Internal error"},
 		{Code: CodeInvalidModelParams, Status: 422, Title: "Invalid model parameters"},
 		{Code: CodeInvalidGrid, Status: 422, Title: "Grid file not usable"},
+		{Code: CodeInvalidTrack, Status: 400, Title: "Track file not readable"},
+		{Code: CodeInvalidRegion, Status: 400, Title: "Polygon not valid (OGC simple features)"},
+		{Code: CodeImplausible, Status: 422, Title: "Physically impossible result"},
 	} {
 		k.Type = ProblemTypeBase + k.Code
 		problemKinds[k.Code] = k
@@ -189,6 +197,9 @@ func asProblem(err error) *Problem {
 		return limitProblem(http.StatusRequestEntityTooLarge, "max_body_bytes", mbe.Limit,
 			"the request body is larger than %d bytes", mbe.Limit).withCause(err)
 	}
+	if f, ok := fault.As(err); ok {
+		return faultProblem(f)
+	}
 	if errors.Is(err, context.DeadlineExceeded) {
 		return problem(CodeTimeout, "the request did not finish within its time limit").withCause(err)
 	}
@@ -199,4 +210,20 @@ func asProblem(err error) *Problem {
 		return q
 	}
 	return problem(CodeInternal, "an internal error occurred; the request id identifies it in the server log").withCause(err)
+}
+
+// faultProblem is the one mapping of typed faults (package fault) to problems: the kind is the
+// problem code (a kind with no problem of its own is a bad request), the status the code's,
+// the field the parameter at fault, and a limit its name and value.
+func faultProblem(f *fault.Error) *Problem {
+	code := string(f.Kind)
+	if _, ok := problemKinds[code]; !ok {
+		code = CodeBadRequest
+	}
+	p := problem(code, "%s", f.Msg).withParam(f.Field).withCause(f)
+	if f.Limit != nil {
+		v := f.Limit.Value
+		p.Limit, p.LimitName = &v, f.Limit.Name
+	}
+	return p
 }

@@ -1,74 +1,32 @@
 package server
 
 import (
-	"crypto/sha256"
 	"encoding/binary"
-	"encoding/hex"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"hash/crc32"
 	"net/http"
 	"strings"
 
+	"ridgeflank/evaluate"
 	"ridgeflank/thermal"
 )
 
 // Caution is attached to every response that carries predicted depths.
-const Caution = "model estimate, not for navigation: predicted depths come from a cooling model, not from soundings; defer to nautical charts, surveys and the local hydrographic authority"
+const Caution = evaluate.Caution
 
-// Provenance records how a computed answer was made: which model with which
-// parameters, which grids (with their content hashes), and which software.
-type Provenance struct {
-	Software string    `json:"software"`
-	Model    *ModelRef `json:"model,omitempty"`
-	Sediment string    `json:"sediment,omitempty"`
-	Dataset  string    `json:"dataset,omitempty"`
-	Grids    []GridRef `json:"grids,omitempty"`
-	Caution  string    `json:"caution,omitempty"`
-	Note     string    `json:"note,omitempty"`
-}
+// Provenance, ModelRef and GridRef are the evaluate service's (one definition).
+type (
+	Provenance = evaluate.Provenance
+	ModelRef   = evaluate.ModelRef
+	GridRef    = evaluate.GridRef
+)
 
-// ModelRef names a model and repeats its full parameter set and a hash of it.
-type ModelRef struct {
-	ID           string         `json:"id"`
-	ParamsSHA256 string         `json:"params_sha256"`
-	Params       thermal.Params `json:"params"`
-}
+func (s *server) provenance(m thermal.Model) Provenance { return s.ev.ProvenanceOf(m) }
 
-// GridRef names one input grid by id, role and content hash.
-type GridRef struct {
-	ID     string `json:"id"`
-	Role   string `json:"role"`
-	SHA256 string `json:"sha256"`
-}
-
-func (s *server) provenance(m thermal.Model) Provenance {
-	p := Provenance{Software: "ridgeflank " + s.deps.Version}
-	if m != nil {
-		p.Model = s.modelRef(m)
-	}
-	return p
-}
-
-// modelRef describes m; results are cached per parameter set in the server
-// (bounded by the number of distinct models used: built-ins plus stored
-// custom models).
-func (s *server) modelRef(m thermal.Model) *ModelRef {
-	params := m.Params()
-	if v, ok := s.modelRefs.Load(params); ok {
-		return v.(*ModelRef)
-	}
-	raw, _ := json.Marshal(params)
-	sum := sha256.Sum256(raw)
-	ref := &ModelRef{ID: params.ID, ParamsSHA256: hex.EncodeToString(sum[:]), Params: params}
-	s.modelRefs.Store(params, ref)
-	return ref
-}
-
-// setHeaders puts the provenance in response headers (for formats with no
-// place of their own for it: CSV, PNG, and as a duplicate for all others).
-func (p Provenance) setHeaders(w http.ResponseWriter) {
+// setProvenance puts the provenance in response headers (for formats with no place of their
+// own for it: CSV, PNG, and as a duplicate for all others).
+func setProvenance(w http.ResponseWriter, p Provenance) {
 	var parts []string
 	parts = append(parts, fmt.Sprintf("software=%q", p.Software))
 	if p.Model != nil {
@@ -87,31 +45,6 @@ func (p Provenance) setHeaders(w http.ResponseWriter) {
 	if p.Caution != "" {
 		w.Header().Set("Ridgeflank-Caution", p.Caution)
 	}
-}
-
-// metadata flattens the provenance into key/value pairs for file formats
-// (netCDF global attributes, GeoTIFF metadata).
-func (p Provenance) metadata() map[string]string {
-	m := map[string]string{"ridgeflank_software": p.Software}
-	if p.Model != nil {
-		raw, _ := json.Marshal(p.Model.Params)
-		m["ridgeflank_model"] = p.Model.ID
-		m["ridgeflank_model_params"] = string(raw)
-		m["ridgeflank_model_params_sha256"] = p.Model.ParamsSHA256
-	}
-	if p.Sediment != "" {
-		m["ridgeflank_sediment"] = p.Sediment
-	}
-	if p.Dataset != "" {
-		m["ridgeflank_dataset"] = p.Dataset
-	}
-	for _, g := range p.Grids {
-		m["ridgeflank_grid_"+g.Role] = g.ID + " sha256:" + g.SHA256
-	}
-	if p.Caution != "" {
-		m["ridgeflank_caution"] = p.Caution
-	}
-	return m
 }
 
 // withPNGCaution returns the PNG file raw with a tEXt chunk under the

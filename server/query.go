@@ -1,11 +1,10 @@
 package server
 
 import (
-	"context"
-	"errors"
-	"fmt"
+	"bytes"
 	"io"
 	"math"
+	"mime"
 	"net/http"
 	"strconv"
 	"strings"
@@ -13,8 +12,11 @@ import (
 	"github.com/paulmach/orb"
 	"github.com/paulmach/orb/encoding/wkt"
 
+	"github.com/go-chi/chi/v5"
+
+	"ridgeflank/evaluate"
+	"ridgeflank/fault"
 	"ridgeflank/geo"
-	"ridgeflank/geo/gdal"
 )
 
 // outFormat is a response format of the EDR queries.
@@ -143,47 +145,10 @@ func visit(g orb.Geometry, fn func(orb.Point)) {
 	}
 }
 
-// datasetAndCoords are the dataset the path names and the geometry of the
-// query's coords.
-func (s *server) datasetAndCoords(r *http.Request) (*dataset, orb.Geometry, error) {
-	d, err := s.datasetFromPath(r)
-	if err != nil {
-		return nil, nil, err
-	}
-	g, err := parseCoords(r)
-	return d, g, err
-}
-
-// asMultiPolygon returns a Polygon or MultiPolygon as a MultiPolygon; ok is
-// false for any other geometry.
-func asMultiPolygon(g orb.Geometry) (mp orb.MultiPolygon, ok bool) {
-	switch t := g.(type) {
-	case orb.Polygon:
-		return orb.MultiPolygon{t}, true
-	case orb.MultiPolygon:
-		return t, true
-	}
-	return nil, false
-}
-
-func countVertices(g orb.Geometry) int {
-	n := 0
-	visit(g, func(orb.Point) { n++ })
-	return n
-}
-
-func (s *server) checkVertices(g orb.Geometry) error {
-	if n := countVertices(g); n > s.limits.MaxVertices {
-		return limitProblem(http.StatusUnprocessableEntity, "max_vertices", int64(s.limits.MaxVertices),
-			"the geometry has %d vertices; the limit is %d", n, s.limits.MaxVertices).withParam("coords")
-	}
-	return nil
-}
-
 // ---- position ----
 
 func (s *server) position(w http.ResponseWriter, r *http.Request) error {
-	d, g, err := s.datasetAndCoords(r)
+	g, err := parseCoords(r)
 	if err != nil {
 		return err
 	}
@@ -199,76 +164,38 @@ func (s *server) position(w http.ResponseWriter, r *http.Request) error {
 	if len(pts) == 0 {
 		return problem(CodeInvalidCoords, "MULTIPOINT is empty").withParam("coords")
 	}
-	if len(pts) > s.limits.MaxPositions {
-		return limitProblem(http.StatusUnprocessableEntity, "max_positions", int64(s.limits.MaxPositions),
-			"%d positions asked; the limit is %d", len(pts), s.limits.MaxPositions).withParam("coords")
-	}
 	format, covType, err := negotiate(r, fmtCovJSON, fmtGeoJSON, fmtCSV)
-	if err != nil {
-		return err
-	}
-	o, err := s.parseQueryOpts(r, d)
 	if err != nil {
 		return err
 	}
 	lons, lats := make([]float64, len(pts)), make([]float64, len(pts))
 	for i, p := range pts {
-		lons[i], lats[i] = geo.LonTo180(p[0]), p[1]
+		lons[i], lats[i] = p[0], p[1]
 	}
-	values, err := s.sampleAt(r.Context(), d, o, lons, lats)
+	res, err := s.ev.Points(r.Context(), chi.URLParam(r, "datasetId"), queryOptions(r), lons, lats)
 	if err != nil {
 		return err
 	}
-	inside := false
-	for i := range lons {
-		if !math.IsNaN(float64(d.Age.SampleBilinear(lons[i], lats[i]))) {
-			inside = true
-			break
-		}
-	}
-	if !inside {
-		return problem(CodeNoData, "no position of coords lies on dataset %q's age grid (%s)", d.Row.ID, boundString(d.Age.Bounds()))
-	}
-	return s.writePoints(w, format, covType, d, o, lons, lats, nil, values, "position")
+	return s.writePoints(w, format, covType, res, nil, nil, "position")
 }
 
-func boundString(b orb.Bound) string {
-	return fmt.Sprintf("longitude %g to %g, latitude %g to %g", b.Min[0], b.Max[0], b.Min[1], b.Max[1])
-}
-
-// sampleAt evaluates the parameters at each position; values[param][point].
-func (s *server) sampleAt(ctx context.Context, d *dataset, o queryOpts, lons, lats []float64) ([][]float64, error) {
-	sc, err := s.sedimentCorrector(o.Sediment, o.Model)
-	if err != nil {
-		return nil, err
-	}
-	values := make([][]float64, len(o.Params))
-	for i := range values {
-		values[i] = make([]float64, len(lons))
-	}
-	row := make([]float64, len(o.Params))
-	for j := range lons {
-		if j%4096 == 0 {
-			if err := ctx.Err(); err != nil {
-				return nil, err
-			}
-		}
-		s.pointValues(d, o, sc, lons[j], lats[j], row)
-		for i := range row {
-			values[i][j] = row[i]
-		}
-	}
-	s.metrics.cells.Add(float64(len(lons)))
-	return values, nil
-}
-
-// writePoints answers a position or trajectory query.
-func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType string, d *dataset, o queryOpts, lons, lats, distKm []float64, values [][]float64, kind string) error {
-	prov := s.provenanceFor(d, o)
-	prov.setHeaders(w)
+// writePoints answers a position or trajectory query (tr not nil for a trajectory).
+func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType string, res *evaluate.PointsResult, distKm []float64, wps []evaluate.WaypointAt, kind string) error {
+	s.metrics.cells.Add(float64(len(res.Lons)))
+	prov := s.ev.Provenance(res.Query)
+	setProvenance(w, prov)
+	setAnswerHeaders(w, res.Flags, nil)
+	ps, lons, lats, values := res.Query.Params, res.Lons, res.Lats, res.Values
 	switch format {
 	case fmtGeoJSON:
-		return writeJSON(w, http.StatusOK, MediaGeoJSON, pointsGeoJSON(o.Params, lons, lats, distKm, values, prov))
+		fc := pointsGeoJSON(ps, lons, lats, distKm, values, prov)
+		if len(res.Flags) > 0 {
+			fc["ridgeflank:flags"] = res.Flags
+		}
+		if wps != nil {
+			fc["ridgeflank:waypoints"] = wps
+		}
+		return writeJSON(w, http.StatusOK, MediaGeoJSON, fc)
 	case fmtCSV:
 		header := []string{"longitude", "latitude"}
 		cols := [][]float64{lons, lats}
@@ -276,30 +203,40 @@ func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType st
 			header = append(header, "distance_km")
 			cols = append(cols, distKm)
 		}
-		for i, p := range o.Params {
-			header = append(header, p.ID+"_"+unitSuffix(p.Unit))
+		for i, p := range ps {
+			header = append(header, p.ID+"_"+evaluate.UnitSuffix(p.Unit))
 			cols = append(cols, values[i])
 		}
-		return writeCSV(w, d.Row.ID+"-"+kind+".csv", prov.Caution, header, cols...)
+		var names []string
+		if wps != nil {
+			// A trajectory names its waypoints on the samples that are waypoints (the first sample
+			// at a waypoint's distance along the track).
+			header = append(header, "waypoint")
+			names = make([]string, len(lons))
+			k := 0
+			for _, wp := range wps {
+				for k < len(distKm) && distKm[k] < wp.DistanceKm {
+					k++
+				}
+				if k < len(distKm) {
+					names[k] = wp.Name
+				}
+			}
+		}
+		return writeCSVText(w, res.Query.Dataset.Row.ID+"-"+kind+".csv", prov.Caution, header, names, cols...)
 	}
-	c := pointCoverage(lons, lats, o.Params, values)
+	c := pointCoverage(lons, lats, ps, values)
 	c.Provenance = &prov
 	c.Caution = prov.Caution
+	c.Flags = res.Flags
+	c.Waypoints = wps
 	if distKm != nil {
 		c.Extra = map[string]any{"distance_km": floats(distKm)}
 	}
 	return writeJSON(w, http.StatusOK, covType, c)
 }
 
-func unitSuffix(u string) string {
-	switch u {
-	case "mW/m2":
-		return "mw_m2"
-	}
-	return strings.ToLower(strings.ReplaceAll(u, "/", "_"))
-}
-
-func pointsGeoJSON(ps []paramInfo, lons, lats, distKm []float64, values [][]float64, prov Provenance) map[string]any {
+func pointsGeoJSON(ps []evaluate.Parameter, lons, lats, distKm []float64, values [][]float64, prov Provenance) map[string]any {
 	feats := make([]map[string]any, len(lons))
 	for j := range lons {
 		props := map[string]any{}
@@ -329,7 +266,7 @@ func pointsGeoJSON(ps []paramInfo, lons, lats, distKm []float64, values [][]floa
 // ---- trajectory ----
 
 func (s *server) trajectory(w http.ResponseWriter, r *http.Request) error {
-	d, g, err := s.datasetAndCoords(r)
+	g, err := parseCoords(r)
 	if err != nil {
 		return err
 	}
@@ -337,54 +274,69 @@ func (s *server) trajectory(w http.ResponseWriter, r *http.Request) error {
 	if !ok {
 		return problem(CodeInvalidCoords, "trajectory queries take LINESTRING, not %s", g.GeoJSONType()).withParam("coords")
 	}
-	if err := s.checkVertices(ls); err != nil {
-		return err
-	}
 	wps := make([]geo.Waypoint, len(ls))
 	for i, p := range ls {
 		wps[i] = geo.Waypoint{Lon: p[0], Lat: p[1]}
 	}
-	return s.answerTrajectory(w, r, d, wps)
+	return s.answerTrajectory(w, r, wps)
 }
 
-// trajectoryPost takes the track as a GeoJSON body (LineString geometry or
-// Feature), for tracks too long for a URL.
+// trackFormats maps the media types a trajectory POST accepts to geo.ParseTrack's formats.
+var trackFormats = map[string]string{
+	"text/csv":             "csv",
+	"application/csv":      "csv",
+	"text/plain":           "",
+	"application/gpx+xml":  "gpx",
+	"application/xml":      "gpx",
+	"text/xml":             "gpx",
+	"application/geo+json": "geojson",
+	"application/json":     "geojson",
+}
+
+// trajectoryPost takes the track file itself as the body: CSV (decimal degrees or degrees and
+// decimal minutes), GPX or GeoJSON, read once by geo.ParseTrack (waypoint names kept).
 func (s *server) trajectoryPost(w http.ResponseWriter, r *http.Request) error {
-	d, err := s.datasetFromPath(r)
-	if err != nil {
-		return err
-	}
 	ct := r.Header.Get("Content-Type")
-	if ct != "" && !strings.Contains(ct, "json") {
-		return problem(CodeUnsupportedMedia, "send the track as GeoJSON (application/geo+json), not %q", ct)
+	format := ""
+	if ct != "" {
+		mt, _, err := mime.ParseMediaType(ct)
+		f, ok := trackFormats[strings.ToLower(mt)]
+		if err != nil || !ok {
+			return problem(CodeUnsupportedMedia, "send the track as CSV (text/csv), GPX (application/gpx+xml) or GeoJSON (application/geo+json), not %q", ct)
+		}
+		format = f
 	}
 	body, err := io.ReadAll(r.Body)
 	if err != nil {
 		return err
 	}
-	wps, err := geo.ParseTrackGeoJSON(body, s.limits.MaxVertices)
-	if err != nil {
-		if errors.Is(err, geo.ErrInvalidTrack) && strings.Contains(err.Error(), "limit") {
-			return limitProblem(http.StatusUnprocessableEntity, "max_vertices", int64(s.limits.MaxVertices), "%v", err).withCause(err)
+	if format == "" {
+		t := bytes.TrimLeft(bytes.TrimPrefix(body, []byte("\ufeff")), " \t\r\n")
+		if len(t) > 0 && t[0] == '{' {
+			format = "geojson"
 		}
-		return problem(CodeInvalidGeoJSON, "%v", err).withCause(err)
 	}
-	return s.answerTrajectory(w, r, d, wps)
+	// The waypoint limit is checked by the evaluate service (max_vertices); the body limit bounds
+	// what is parsed.
+	wps, err := geo.ParseTrack(body, format, math.MaxInt32)
+	if err != nil {
+		if f, ok := fault.As(err); ok && !(format == "geojson" && f.Kind == fault.InvalidTrack) {
+			return err
+		}
+		if format == "geojson" { // a JSON body that is no GeoJSON track
+			return problem(CodeInvalidGeoJSON, "%v", err).withParam("track").withCause(err)
+		}
+		return problem(CodeInvalidTrack, "%v", err).withParam("track").withCause(err)
+	}
+	return s.answerTrajectory(w, r, wps)
 }
 
-func (s *server) answerTrajectory(w http.ResponseWriter, r *http.Request, d *dataset, wps []geo.Waypoint) error {
+func (s *server) answerTrajectory(w http.ResponseWriter, r *http.Request, wps []geo.Waypoint) error {
 	format, covType, err := negotiate(r, fmtCovJSON, fmtGeoJSON, fmtCSV)
 	if err != nil {
 		return err
 	}
-	o, err := s.parseQueryOpts(r, d)
-	if err != nil {
-		return err
-	}
-	// Sample spacing: spacing-km, or the age grid's row spacing at a nominal
-	// 111.32 km per degree (2π × 6378.137 km / 360, the WGS84 equatorial
-	// radius; worked by hand).
-	spacingKm := d.Age.DY * 111.32
+	spacingKm := 0.0
 	if v := r.URL.Query().Get("spacing-km"); v != "" {
 		f, err := strconv.ParseFloat(v, 64)
 		if err != nil || !(f > 0) || math.IsInf(f, 0) {
@@ -392,21 +344,9 @@ func (s *server) answerTrajectory(w http.ResponseWriter, r *http.Request, d *dat
 		}
 		spacingKm = f
 	}
-	samples, err := geo.Densify(gdal.WGS84(), wps, spacingKm*1000, s.limits.MaxTrackSamples)
-	if err != nil {
-		if msg := err.Error(); strings.Contains(msg, "would need more than") || strings.Contains(msg, "samples") && strings.Contains(msg, "limit") {
-			return limitProblem(http.StatusUnprocessableEntity, "max_track_samples", int64(s.limits.MaxTrackSamples),
-				"%v; raise spacing-km", err).withCause(err)
-		}
-		return problem(CodeInvalidCoords, "%v", err).withCause(err)
-	}
-	lons, lats, dist := make([]float64, len(samples)), make([]float64, len(samples)), make([]float64, len(samples))
-	for i, sm := range samples {
-		lons[i], lats[i], dist[i] = sm.Lon, sm.Lat, sm.DistanceKm
-	}
-	values, err := s.sampleAt(r.Context(), d, o, lons, lats)
+	res, err := s.ev.Track(r.Context(), chi.URLParam(r, "datasetId"), queryOptions(r), wps, spacingKm)
 	if err != nil {
 		return err
 	}
-	return s.writePoints(w, format, covType, d, o, lons, lats, dist, values, "trajectory")
+	return s.writePoints(w, format, covType, &res.PointsResult, res.DistanceKm, res.Waypoints, "trajectory")
 }

@@ -5,13 +5,13 @@ import (
 	"io/fs"
 	"log/slog"
 	"net/http"
-	"sync"
 	"time"
 
 	"github.com/go-chi/chi/v5"
 	"github.com/go-chi/chi/v5/middleware"
 	"github.com/prometheus/client_golang/prometheus"
 
+	"ridgeflank/evaluate"
 	"ridgeflank/jobs"
 	"ridgeflank/store"
 )
@@ -119,19 +119,18 @@ type Deps struct {
 	Assets   fs.FS
 	Config   Config
 	Registry *prometheus.Registry // nil: a fresh registry per handler
+	// Evaluate answers the dataset questions; nil means one built from Store, Version and
+	// Limits. Share one between the handler and the export worker to share its caches.
+	Evaluate *evaluate.Service
 }
 
 // server carries the dependencies shared by the handlers.
 type server struct {
-	deps      Deps
-	log       *slog.Logger
-	limits    Limits
-	metrics   *metrics
-	models    *modelCache
-	grids     *gridCache
-	sedTabs   sync.Map // sedKey -> *thermal.SedimentCorrector
-	dsCache   sync.Map // dataset id -> cachedDataset
-	modelRefs sync.Map // thermal.Params -> *ModelRef
+	deps    Deps
+	log     *slog.Logger
+	limits  Limits
+	metrics *metrics
+	ev      *evaluate.Service
 }
 
 // New builds the HTTP handler: the EDR API under /api, tiles under /tiles,
@@ -157,8 +156,10 @@ func newServer(deps Deps) *server {
 		deps:   deps,
 		log:    deps.Logger,
 		limits: deps.Limits.withDefaults(),
-		models: newModelCache(),
-		grids:  newGridCache(deps.Limits.withDefaults().GridCacheCells),
+		ev:     deps.Evaluate,
+	}
+	if s.ev == nil {
+		s.ev = NewEvaluate(deps)
 	}
 	s.metrics = newMetrics(deps.Registry)
 	return s
@@ -170,6 +171,16 @@ type handlerFunc func(w http.ResponseWriter, r *http.Request) error
 
 // h adapts a handlerFunc to http.HandlerFunc, writing any returned error as
 // RFC 9457 application/problem+json.
+// NewEvaluate builds the evaluate service of deps: its store, version and limits.
+func NewEvaluate(deps Deps) *evaluate.Service {
+	l := deps.Limits.withDefaults()
+	return evaluate.New(evaluate.Config{Store: deps.Store, Version: deps.Version, Limits: evaluate.Limits{
+		MaxPositions: l.MaxPositions, MaxVertices: l.MaxVertices, MaxAreaCells: l.MaxAreaCells,
+		MaxInputCells: l.MaxInputCells, MaxTrackSamples: l.MaxTrackSamples, MaxParameters: l.MaxParameters,
+		MaxTileZoom: l.MaxTileZoom, GridCacheCells: l.GridCacheCells,
+	}})
+}
+
 func (s *server) h(fn handlerFunc) http.HandlerFunc {
 	return func(w http.ResponseWriter, r *http.Request) {
 		err := fn(w, r)

@@ -1,0 +1,323 @@
+package evaluate
+
+import (
+	"context"
+	"errors"
+	"math"
+
+	"github.com/paulmach/orb"
+
+	"ridgeflank/fault"
+	"ridgeflank/geo"
+	"ridgeflank/store"
+)
+
+// AreaResult are the parameters of a question on a lattice over a region.
+type AreaResult struct {
+	Query   *Query
+	Region  geo.PreparedRegion
+	Lattice *geo.Grid   // the output lattice (its Data are the ages there)
+	Grids   []*geo.Grid // one per parameter, on Lattice, NaN outside the region and where refused
+	Mask    geo.Mask    // cells of Lattice inside the region
+	Flags   []Flag      // values refused as physically impossible, by cause
+	Stats   []geo.Stats // area-weighted statistics per parameter (Region answers only)
+}
+
+// Area evaluates o's parameters over region r on the age grid's lattice inside r.Bound,
+// coarsened by whole factors to about resX × resY degrees (0: the grid's own spacing), masked to
+// r. Raw input grids on the age lattice are coarsened the same way (area-weighted block means,
+// geo.Grid.Resample); others are sampled bilinearly at the output positions. Over
+// Limits.MaxAreaCells output cells is fault.Over("max_area_cells"), over Limits.MaxInputCells
+// input cells fault.Over("max_input_cells"); an area off the dataset is fault.NoData.
+func (s *Service) Area(ctx context.Context, datasetID string, o Options, r geo.PreparedRegion, resX, resY float64) (*AreaResult, error) {
+	q, err := s.load(ctx, datasetID, o)
+	if err != nil {
+		return nil, err
+	}
+	return s.area(ctx, q, r, resX, resY)
+}
+
+// AreaCells is the number of cells Area would answer (before it computes anything).
+func (s *Service) AreaCells(ctx context.Context, datasetID string, r geo.PreparedRegion, resX, resY float64) (int64, error) {
+	d, err := s.Dataset(ctx, datasetID)
+	if err != nil {
+		return 0, err
+	}
+	inX, inY := inputSize(d.Age, r.Bound)
+	fx, fy := factors(d.Age, resX, resY)
+	return int64(ceilDiv(inX, fx)) * int64(ceilDiv(inY, fy)), nil
+}
+
+// Region evaluates o's parameters over the stored region regionID, as Area does, with
+// area-weighted statistics of every parameter (geo.AreaWeightedStats; histograms of 50 m bins
+// for parameters in metres, else 50 bins over the data's range). A region with no value of some
+// parameter is fault.NoData.
+func (s *Service) Region(ctx context.Context, datasetID, regionID string, o Options, resX, resY float64) (*AreaResult, store.Region, error) {
+	q, err := s.load(ctx, datasetID, o)
+	if err != nil {
+		return nil, store.Region{}, err
+	}
+	rg, err := s.st.GetRegion(ctx, regionID)
+	if err != nil {
+		if errors.Is(err, store.ErrNotFound) {
+			return nil, rg, fault.New(fault.NotFound, "", "no location (region) %q%w", regionID, quiet(err))
+		}
+		return nil, rg, err
+	}
+	r, err := s.PrepareRegion(rg.Geometry, "geometry")
+	if err != nil {
+		return nil, rg, err
+	}
+	res, err := s.area(ctx, q, r, resX, resY)
+	if err != nil {
+		return nil, rg, err
+	}
+	for i, p := range q.Params {
+		st, err := regionStats(res.Grids[i], res.Mask, p)
+		if err != nil {
+			return nil, rg, err
+		}
+		if st.Count == 0 {
+			return nil, rg, fault.New(fault.NoData, "", "no cell of the region has a %s value in dataset %q", p.ID, q.Dataset.Row.ID)
+		}
+		res.Stats = append(res.Stats, st)
+	}
+	return res, rg, nil
+}
+
+// regionStats are the area-weighted statistics of one parameter over a region, with a
+// histogram: 50 m bins for parameters in metres (edges at whole multiples of 50 m), else 50
+// equal bins over the data's range.
+func regionStats(g *geo.Grid, mask geo.Mask, p Parameter) (geo.Stats, error) {
+	opt := geo.StatsOptions{HistogramBins: 50}
+	if p.Unit == "m" {
+		opt = geo.StatsOptions{HistogramBinWidth: 50}
+	}
+	st, err := geo.AreaWeightedStats(g, mask, opt)
+	if err != nil && opt.HistogramBinWidth > 0 { // too many 50 m bins: fall back to 50 bins
+		st, err = geo.AreaWeightedStats(g, mask, geo.StatsOptions{HistogramBins: 50})
+	}
+	return st, err
+}
+
+func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX, resY float64) (*AreaResult, error) {
+	for _, v := range []struct {
+		name string
+		v    float64
+	}{{"resolution-x", resX}, {"resolution-y", resY}} {
+		if math.IsNaN(v.v) || v.v < 0 || v.v > 90 {
+			return nil, fault.New(fault.InvalidParameter, v.name, "%s=%g must be a positive number of degrees (at most 90)", v.name, v.v)
+		}
+	}
+	d := q.Dataset
+	age := d.Age
+	bound := r.Bound
+	fx, fy := factors(age, resX, resY)
+	// Size check before any copy: cells of the answer and of the input window.
+	inX, inY := inputSize(age, bound)
+	outCells := int64(ceilDiv(inX, fx)) * int64(ceilDiv(inY, fy))
+	if outCells > int64(s.limits.MaxAreaCells) {
+		need := math.Sqrt(float64(outCells)/float64(s.limits.MaxAreaCells)) * math.Max(age.DX*float64(fx), age.DY*float64(fy))
+		return nil, fault.Over("max_area_cells", int64(s.limits.MaxAreaCells), outCells, "coords",
+			"the answer would have about %d cells; the limit is %d: ask for a smaller area or set resolution-x and resolution-y to about %.3g degrees or more",
+			outCells, s.limits.MaxAreaCells, need)
+	}
+	if in := int64(inX) * int64(inY); in > int64(s.limits.MaxInputCells) {
+		return nil, fault.Over("max_input_cells", int64(s.limits.MaxInputCells), in, "coords",
+			"the area covers about %d input cells; the limit is %d", in, s.limits.MaxInputCells)
+	}
+	win := func(g *geo.Grid) (*geo.Grid, error) {
+		wg, err := g.Window(bound)
+		if err != nil {
+			return nil, err
+		}
+		if fx > 1 || fy > 1 {
+			return wg.Resample(float64(fx)*g.DX, float64(fy)*g.DY)
+		}
+		return wg, nil
+	}
+	ageW, err := win(age)
+	if err != nil {
+		if errors.Is(err, geo.ErrEmptyWindow) {
+			b := age.Bounds()
+			return nil, fault.New(fault.NoData, "coords", "the area does not overlap dataset %q (longitude %g to %g, latitude %g to %g)",
+				d.Row.ID, b.Min[0], b.Max[0], b.Min[1], b.Max[1])
+		}
+		return nil, err
+	}
+	companion := func(g *geo.Grid) *geo.Grid {
+		if g == nil || !sameLattice(age, g) {
+			return g
+		}
+		cw, err := win(g)
+		if err != nil || cw.NX != ageW.NX || cw.NY != ageW.NY || !sameLattice(ageW, cw) ||
+			math.Abs(cw.West-ageW.West) > 1e-6*ageW.DX || math.Abs(cw.North-ageW.North) > 1e-6*ageW.DY {
+			return g
+		}
+		return cw
+	}
+	depthW, sedW, crustW := companion(d.Depth), companion(d.Sediment), companion(d.Crust)
+	mask, err := geo.GridMask(ageW, r.Parts)
+	if err != nil {
+		return nil, fault.New(fault.InvalidCoords, "coords", "%v", err)
+	}
+	if mask.Count() == 0 {
+		return nil, fault.New(fault.NoData, "coords", "no cell centre of dataset %q lies inside the area; try a larger area or a finer resolution", d.Row.ID)
+	}
+	fl := newFlagger(q.Params)
+	want := q.outputs()
+	needCorr := fl.need&(inCorr) != 0 && d.Depth != nil && want&(geo.OutCorrectedDepth|geo.OutResidualDepth) != 0
+	if needCorr {
+		want |= geo.OutCorrectedDepth
+	}
+	var ev *geo.Result
+	if want != 0 {
+		in := geo.Inputs{Age: ageW, Model: q.Model, Compaction: q.Sediment, Mask: mask}
+		if needCorr {
+			in.Depth, in.DepthSense, in.Sediment, in.Crust = depthW, d.DepthSense, sedW, crustW
+		}
+		if ev, err = geo.Evaluate(ctx, in, want); err != nil {
+			return nil, err
+		}
+	}
+	// The inputs on the output lattice, for the answers and the plausibility checks.
+	var obsL, sedL, crustL *geo.Grid
+	if depthW != nil && fl.need&inObs != 0 {
+		obsL = sampleOnto(ageW, depthW)
+		toDepthM(obsL, d.DepthSense)
+	}
+	if sedW != nil && fl.need&inSed != 0 {
+		sedL = sampleOnto(ageW, sedW)
+	}
+	if crustW != nil && fl.need&inCrust != 0 && needCorr {
+		crustL = sampleOnto(ageW, crustW)
+	}
+	res := &AreaResult{Query: q, Region: r, Lattice: ageW, Mask: mask}
+	for _, p := range q.Params {
+		var g *geo.Grid
+		switch p.ID {
+		case PSeafloorAge:
+			g = ageW.Clone()
+		case PObservedDepth:
+			g = obsL.Clone()
+		case PSedimentThickness:
+			g = sedL.Clone()
+		default:
+			g = modelGrid(ev, p.ID)
+		}
+		if !p.Predicted {
+			for i := range g.Data {
+				if !mask.Get(i) {
+					g.Data[i] = float32(math.NaN())
+				}
+			}
+		}
+		res.Grids = append(res.Grids, g)
+	}
+	var corrL *geo.Grid
+	if ev != nil {
+		corrL = ev.CorrectedDepthM
+	}
+	screenGrids(fl, res.Grids, mask, ageW, obsL, sedL, crustL, corrL)
+	res.Flags = fl.flags()
+	return res, nil
+}
+
+// screenGrids refuses (sets to NaN) every value of grids whose inputs are impossible, counting
+// them in fl. Input grids may be nil (absent); mask, if it has cells, limits the cells checked.
+func screenGrids(fl *flagger, grids []*geo.Grid, mask geo.Mask, age, obs, sed, crust, corr *geo.Grid) {
+	at := func(g *geo.Grid, k int) float64 {
+		if g == nil {
+			return nan
+		}
+		return float64(g.Data[k])
+	}
+	nan32 := float32(math.NaN())
+	for k := range age.Data {
+		if mask.Len() != 0 && !mask.Get(k) {
+			continue
+		}
+		fl.check(sample{age: at(age, k), obs: at(obs, k), sed: at(sed, k), crust: at(crust, k), corr: at(corr, k)},
+			func(i int) { grids[i].Data[k] = nan32 })
+	}
+}
+
+// modelGrid is the grid of model output parameter id in ev (nil for a parameter the model does
+// not compute).
+func modelGrid(ev *geo.Result, id string) *geo.Grid {
+	switch id {
+	case PPredictedDepth:
+		return ev.PredictedDepthM
+	case PHeatFlow:
+		return ev.HeatFlowMWm2
+	case PThermalThickness:
+		return ev.ThermalThicknessKm
+	case PDepth600C:
+		return ev.Depth600CKm
+	case PCorrectedDepth:
+		return ev.CorrectedDepthM
+	case PResidualDepth:
+		return ev.ResidualDepthM
+	}
+	return nil
+}
+
+// sameLattice reports whether b's samples coincide with a's (same spacing, registration and an
+// origin offset by whole cells).
+func sameLattice(a, b *geo.Grid) bool {
+	if a == nil || b == nil || a.Registration != b.Registration {
+		return false
+	}
+	if math.Abs(a.DX-b.DX) > 1e-9*a.DX || math.Abs(a.DY-b.DY) > 1e-9*a.DY {
+		return false
+	}
+	fx := (b.West - a.West) / a.DX
+	fy := (b.North - a.North) / a.DY
+	return math.Abs(fx-math.Round(fx)) < 1e-6 && math.Abs(fy-math.Round(fy)) < 1e-6
+}
+
+// sampleOnto returns src's values on lattice's positions: a copy when src already is on that
+// lattice, bilinear samples otherwise.
+func sampleOnto(lattice, src *geo.Grid) *geo.Grid {
+	if src.NX == lattice.NX && src.NY == lattice.NY && sameLattice(lattice, src) &&
+		math.Abs(src.West-lattice.West) < 1e-6*lattice.DX && math.Abs(src.North-lattice.North) < 1e-6*lattice.DY {
+		return src.Clone()
+	}
+	out := geo.NewGrid(lattice.NX, lattice.NY, lattice.West, lattice.North, lattice.DX, lattice.DY, lattice.Registration)
+	for row := 0; row < lattice.NY; row++ {
+		lat := lattice.Lat(row)
+		for col := 0; col < lattice.NX; col++ {
+			out.Data[row*lattice.NX+col] = src.SampleBilinear(lattice.Lon(col), lat)
+		}
+	}
+	return out
+}
+
+// toDepthM converts observed bathymetry in sense to depth in metres, positive down, in place.
+func toDepthM(g *geo.Grid, sense geo.VerticalSense) {
+	for i, v := range g.Data {
+		g.Data[i] = float32(geo.ToDepthM(float64(v), sense))
+	}
+}
+
+func ceilDiv(a, b int) int { return (a + b - 1) / b }
+
+// inputSize is the number of columns and rows of age inside bound (an upper estimate, computed
+// before any copy).
+func inputSize(age *geo.Grid, bound orb.Bound) (int, int) {
+	inX := int(math.Ceil((bound.Max[0]-bound.Min[0])/age.DX)) + 1
+	inY := int(math.Ceil((bound.Max[1]-bound.Min[1])/age.DY)) + 1
+	return min(inX, age.NX), min(inY, age.NY)
+}
+
+// factors are the whole coarsening factors for a requested resolution.
+func factors(age *geo.Grid, resX, resY float64) (int, int) {
+	fx, fy := 1, 1
+	if resX > age.DX {
+		fx = int(math.Round(resX / age.DX))
+	}
+	if resY > age.DY {
+		fy = int(math.Round(resY / age.DY))
+	}
+	return fx, fy
+}

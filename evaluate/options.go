@@ -1,0 +1,120 @@
+package evaluate
+
+import (
+	"context"
+	"strings"
+
+	"ridgeflank/fault"
+	"ridgeflank/geo"
+	"ridgeflank/thermal"
+)
+
+// Options are the choices of one question, as plain values a way in fills from its request
+// (the HTTP layer from model=, sediment= and parameter-name=).
+type Options struct {
+	// Model is a built-in or stored model id; "" means DefaultModel.
+	Model string `json:"model,omitempty"`
+	// Sediment is the compaction law of the sediment correction; "" means DefaultSediment.
+	Sediment string `json:"sediment,omitempty"`
+	// Parameters lists parameter ids; empty means every parameter the dataset answers.
+	Parameters []string `json:"parameters,omitempty"`
+}
+
+// DefaultSediment is the compaction law used when a question names none.
+const DefaultSediment = "shale"
+
+// Query is a question's dataset and options resolved: the model, the compaction law and the
+// parameters, each checked.
+type Query struct {
+	Dataset  *Dataset
+	Model    thermal.Model
+	Sediment thermal.Compaction
+	Params   []Parameter
+}
+
+// Resolve checks o against dataset d: an unknown model is fault.UnknownModel, an unknown
+// compaction law fault.UnknownSediment, an unknown or unavailable parameter
+// fault.UnknownParameter, more than Limits.MaxParameters a fault.Over("max_parameters").
+func (s *Service) Resolve(ctx context.Context, d *Dataset, o Options) (*Query, error) {
+	m, err := s.Model(ctx, o.Model)
+	if err != nil {
+		return nil, err
+	}
+	q := &Query{Dataset: d, Model: m}
+	sed := strings.TrimSpace(o.Sediment)
+	if sed == "" {
+		sed = DefaultSediment
+	}
+	c, err := thermal.CompactionByName(sed)
+	if err != nil {
+		return nil, fault.New(fault.UnknownSediment, "sediment", "sediment=%q: choose one of %s", sed, strings.Join(thermal.CompactionNames(), ", "))
+	}
+	q.Sediment = c
+	if len(o.Parameters) == 0 {
+		q.Params = d.Available()
+		return q, nil
+	}
+	seen := map[string]bool{}
+	for _, n := range o.Parameters {
+		n = strings.TrimSpace(n)
+		if n == "" || seen[n] {
+			continue
+		}
+		seen[n] = true
+		p, ok := ParameterByID(n)
+		if !ok {
+			return nil, fault.New(fault.UnknownParameter, "parameter-name", "parameter-name %q is not known; choose from %s", n, strings.Join(ParameterIDs(), ", "))
+		}
+		if !d.answers(p) {
+			return nil, fault.New(fault.UnknownParameter, "parameter-name", "parameter %q needs a grid dataset %q does not have", n, d.Row.ID)
+		}
+		q.Params = append(q.Params, p)
+	}
+	if len(q.Params) > s.limits.MaxParameters {
+		return nil, fault.Over("max_parameters", int64(s.limits.MaxParameters), int64(len(q.Params)), "parameter-name",
+			"%d parameter names; the limit is %d", len(q.Params), s.limits.MaxParameters)
+	}
+	if len(q.Params) == 0 {
+		return nil, fault.New(fault.InvalidParameter, "parameter-name", "parameter-name is empty")
+	}
+	return q, nil
+}
+
+// Predicts reports whether some parameter depends on the model.
+func (q *Query) Predicts() bool {
+	for _, p := range q.Params {
+		if p.Predicted {
+			return true
+		}
+	}
+	return false
+}
+
+// HasPredictedDepth reports whether some parameter carries a predicted depth (and so the
+// navigation caution).
+func (q *Query) HasPredictedDepth() bool {
+	for _, p := range q.Params {
+		if p.ID == PPredictedDepth || p.ID == PResidualDepth || p.ID == PCorrectedDepth {
+			return true
+		}
+	}
+	return false
+}
+
+// outputs are the geo outputs the parameters need.
+func (q *Query) outputs() geo.Outputs {
+	var want geo.Outputs
+	for _, p := range q.Params {
+		want |= p.Output
+	}
+	return want
+}
+
+// load resolves datasetID and o: the dataset with its grids and the checked options.
+func (s *Service) load(ctx context.Context, datasetID string, o Options) (*Query, error) {
+	d, err := s.Dataset(ctx, datasetID)
+	if err != nil {
+		return nil, err
+	}
+	return s.Resolve(ctx, d, o)
+}

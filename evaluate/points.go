@@ -1,0 +1,212 @@
+package evaluate
+
+import (
+	"context"
+	"errors"
+	"math"
+
+	"ridgeflank/fault"
+	"ridgeflank/geo"
+	"ridgeflank/geo/gdal"
+)
+
+// PointsResult are the values of a question's parameters at positions.
+type PointsResult struct {
+	Query      *Query
+	Lons, Lats []float64   // degrees, longitudes in −180..180
+	Values     [][]float64 // Values[parameter][position]; NaN where there is no answer
+	Flags      []Flag      // values refused as physically impossible, by cause
+}
+
+// Points evaluates the parameters of o at each position. A position count over
+// Limits.MaxPositions is a fault.Over("max_positions"); positions that all lie off the
+// dataset's age grid are a fault.NoData.
+func (s *Service) Points(ctx context.Context, datasetID string, o Options, lons, lats []float64) (*PointsResult, error) {
+	if len(lons) != len(lats) {
+		return nil, errors.New("evaluate: lons and lats differ in length")
+	}
+	if len(lons) == 0 {
+		return nil, fault.New(fault.InvalidCoords, "coords", "no position given")
+	}
+	if len(lons) > s.limits.MaxPositions {
+		return nil, fault.Over("max_positions", int64(s.limits.MaxPositions), int64(len(lons)), "coords",
+			"%d positions asked; the limit is %d", len(lons), s.limits.MaxPositions)
+	}
+	q, err := s.load(ctx, datasetID, o)
+	if err != nil {
+		return nil, err
+	}
+	res, err := s.points(ctx, q, lons, lats)
+	if err != nil {
+		return nil, err
+	}
+	for i := range res.Lons {
+		if !math.IsNaN(float64(q.Dataset.Age.SampleBilinear(res.Lons[i], res.Lats[i]))) {
+			return res, nil
+		}
+	}
+	b := q.Dataset.Age.Bounds()
+	return nil, fault.New(fault.NoData, "coords", "no position lies on dataset %q's age grid (longitude %g to %g, latitude %g to %g)",
+		q.Dataset.Row.ID, b.Min[0], b.Max[0], b.Min[1], b.Max[1])
+}
+
+// points evaluates q's parameters at each position through geo.PointEvaluator (the arithmetic
+// of geo.Evaluate) and refuses impossible values.
+func (s *Service) points(ctx context.Context, q *Query, lons, lats []float64) (*PointsResult, error) {
+	d := q.Dataset
+	want := q.outputs()
+	fl := newFlagger(q.Params)
+	needCorr := fl.need&(inObs|inSed|inCrust|inCorr) != 0 && d.Depth != nil
+	if needCorr {
+		want |= geo.OutCorrectedDepth
+	}
+	in := geo.Inputs{Age: d.Age, Model: q.Model, Compaction: q.Sediment}
+	if needCorr {
+		in.Depth, in.DepthSense, in.Sediment, in.Crust = d.Depth, d.DepthSense, d.Sediment, d.Crust
+	}
+	var pe *geo.PointEvaluator
+	if want != 0 {
+		var err error
+		if pe, err = geo.NewPointEvaluator(in, want); err != nil {
+			return nil, err
+		}
+	}
+	res := &PointsResult{Query: q, Lons: make([]float64, len(lons)), Lats: append([]float64(nil), lats...),
+		Values: make([][]float64, len(q.Params))}
+	for i := range res.Values {
+		res.Values[i] = make([]float64, len(lons))
+	}
+	for j := range lons {
+		if j%4096 == 0 {
+			if err := ctx.Err(); err != nil {
+				return nil, err
+			}
+		}
+		lon, lat := geo.LonTo180(lons[j]), lats[j]
+		res.Lons[j] = lon
+		var v geo.SampleValues
+		if pe != nil {
+			v = pe.At(lon, lat)
+		} else {
+			v = geo.SampleValues{AgeMa: float64(d.Age.SampleBilinear(lon, lat)), ObservedDepthM: nan, SedimentM: nan, CrustKm: nan, CorrectedDepthM: nan}
+		}
+		if !needCorr {
+			if d.Depth != nil && fl.need&inObs != 0 {
+				v.ObservedDepthM = geo.ToDepthM(float64(d.Depth.SampleBilinear(lon, lat)), d.DepthSense)
+			}
+			if d.Sediment != nil && fl.need&inSed != 0 {
+				v.SedimentM = float64(d.Sediment.SampleBilinear(lon, lat))
+			}
+		}
+		for i, p := range q.Params {
+			res.Values[i][j] = pick(p.ID, v)
+		}
+		fl.check(sample{age: v.AgeMa, obs: v.ObservedDepthM, sed: v.SedimentM, crust: v.CrustKm, corr: v.CorrectedDepthM},
+			func(i int) { res.Values[i][j] = nan })
+	}
+	res.Flags = fl.flags()
+	return res, nil
+}
+
+// pick is parameter id's value in v.
+func pick(id string, v geo.SampleValues) float64 {
+	switch id {
+	case PSeafloorAge:
+		return v.AgeMa
+	case PObservedDepth:
+		return v.ObservedDepthM
+	case PSedimentThickness:
+		return v.SedimentM
+	case PPredictedDepth:
+		return v.PredictedDepthM
+	case PHeatFlow:
+		return v.HeatFlowMWm2
+	case PThermalThickness:
+		return v.ThermalThicknessKm
+	case PDepth600C:
+		return v.Depth600CKm
+	case PCorrectedDepth:
+		return v.CorrectedDepthM
+	case PResidualDepth:
+		return v.ResidualDepthM
+	}
+	return nan
+}
+
+// WaypointAt is a waypoint of a track with its distance along the track.
+type WaypointAt struct {
+	Name       string  `json:"name"` // "" when the track file names none
+	Lon        float64 `json:"lon"`
+	Lat        float64 `json:"lat"`
+	DistanceKm float64 `json:"distance_km"`
+}
+
+// TrackResult are the values along a densified track.
+type TrackResult struct {
+	PointsResult
+	DistanceKm []float64    // of each sample along the track, km
+	Waypoints  []WaypointAt // the track's waypoints, names kept
+}
+
+// Track samples the track through waypoints every spacingKm along WGS84 geodesics
+// (geo.Densify with gdal.WGS84(); spacingKm ≤ 0 means the age grid's row spacing at 111.32 km
+// per degree) and evaluates o's parameters at every sample. More waypoints than
+// Limits.MaxVertices is fault.Over("max_vertices"), more samples than Limits.MaxTrackSamples
+// fault.Over("max_track_samples").
+func (s *Service) Track(ctx context.Context, datasetID string, o Options, waypoints []geo.Waypoint, spacingKm float64) (*TrackResult, error) {
+	if len(waypoints) > s.limits.MaxVertices {
+		return nil, fault.Over("max_vertices", int64(s.limits.MaxVertices), int64(len(waypoints)), "coords",
+			"the track has %d waypoints; the limit is %d", len(waypoints), s.limits.MaxVertices)
+	}
+	wps, err := geo.ValidateWaypoints(waypoints, s.limits.MaxVertices)
+	if err != nil {
+		return nil, trackFault(err)
+	}
+	if math.IsNaN(spacingKm) || math.IsInf(spacingKm, 0) {
+		return nil, fault.New(fault.InvalidParameter, "spacing-km", "spacing-km must be a positive number")
+	}
+	q, err := s.load(ctx, datasetID, o)
+	if err != nil {
+		return nil, err
+	}
+	if spacingKm <= 0 {
+		// The age grid's row spacing at a nominal 111.32 km per degree (2π × 6378.137 km / 360,
+		// the WGS84 equatorial radius; worked by hand).
+		spacingKm = q.Dataset.Age.DY * 111.32
+	}
+	samples, err := geo.Densify(gdal.WGS84(), wps, spacingKm*1000, s.limits.MaxTrackSamples)
+	if err != nil {
+		return nil, trackFault(err)
+	}
+	lons, lats, dist := make([]float64, len(samples)), make([]float64, len(samples)), make([]float64, len(samples))
+	res := &TrackResult{DistanceKm: dist, Waypoints: make([]WaypointAt, len(wps))}
+	for i, w := range wps {
+		res.Waypoints[i] = WaypointAt{Name: w.Name, Lon: w.Lon, Lat: w.Lat}
+	}
+	for i, sm := range samples {
+		lons[i], lats[i], dist[i] = sm.Lon, sm.Lat, sm.DistanceKm
+		if sm.Waypoint >= 0 && sm.Waypoint < len(res.Waypoints) {
+			res.Waypoints[sm.Waypoint].DistanceKm = sm.DistanceKm
+		}
+	}
+	pr, err := s.points(ctx, q, lons, lats)
+	if err != nil {
+		return nil, err
+	}
+	res.PointsResult = *pr
+	return res, nil
+}
+
+// trackFault passes geo's typed track faults on (naming the coords as the field when geo names
+// its own) and makes any other track error a fault.InvalidTrack.
+func trackFault(err error) error {
+	if f, ok := fault.As(err); ok {
+		if f.Field == geo.TrackField {
+			g := *f
+			g.Field = "coords"
+			return &g
+		}
+		return err
+	}
+	return fault.New(fault.InvalidTrack, "coords", "%v", err)
+}

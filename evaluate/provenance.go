@@ -1,0 +1,106 @@
+package evaluate
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+
+	"ridgeflank/thermal"
+)
+
+// Caution is attached to every answer that carries predicted depths.
+const Caution = "model estimate, not for navigation: predicted depths come from a cooling model, not from soundings; defer to nautical charts, surveys and the local hydrographic authority"
+
+// Provenance records how an answer was made: which model with which parameters, which grids
+// (with their content hashes), and which software.
+type Provenance struct {
+	Software string    `json:"software"`
+	Model    *ModelRef `json:"model,omitempty"`
+	Sediment string    `json:"sediment,omitempty"`
+	Dataset  string    `json:"dataset,omitempty"`
+	Grids    []GridRef `json:"grids,omitempty"`
+	Caution  string    `json:"caution,omitempty"`
+	Note     string    `json:"note,omitempty"`
+}
+
+// ModelRef names a model and repeats its full parameter set and a hash of it.
+type ModelRef struct {
+	ID           string         `json:"id"`
+	ParamsSHA256 string         `json:"params_sha256"`
+	Params       thermal.Params `json:"params"`
+}
+
+// GridRef names one input grid by id, role and content hash.
+type GridRef struct {
+	ID     string `json:"id"`
+	Role   string `json:"role"`
+	SHA256 string `json:"sha256"`
+}
+
+// ProvenanceOf is the provenance of an answer from model m (nil: none).
+func (s *Service) ProvenanceOf(m thermal.Model) Provenance {
+	p := Provenance{Software: "ridgeflank " + s.version}
+	if m != nil {
+		p.Model = s.ModelRef(m)
+	}
+	return p
+}
+
+// ModelRef describes m (cached per parameter set).
+func (s *Service) ModelRef(m thermal.Model) *ModelRef {
+	params := m.Params()
+	if v, ok := s.modelRefs.Load(params); ok {
+		return v.(*ModelRef)
+	}
+	raw, _ := json.Marshal(params)
+	sum := sha256.Sum256(raw)
+	ref := &ModelRef{ID: params.ID, ParamsSHA256: hex.EncodeToString(sum[:]), Params: params}
+	s.modelRefs.Store(params, ref)
+	return ref
+}
+
+// Provenance is the provenance of an answer to q.
+func (s *Service) Provenance(q *Query) Provenance {
+	var p Provenance
+	if q.Predicts() {
+		p = s.ProvenanceOf(q.Model)
+	} else {
+		p = s.ProvenanceOf(nil)
+	}
+	p.Dataset = q.Dataset.Row.ID
+	p.Grids = q.Dataset.Refs
+	for _, x := range q.Params {
+		if x.NeedsDepth && x.Predicted {
+			p.Sediment = q.Sediment.Name
+		}
+	}
+	if q.HasPredictedDepth() {
+		p.Caution = Caution
+	}
+	return p
+}
+
+// Metadata flattens the provenance into key/value pairs for file formats (netCDF global
+// attributes, GeoTIFF metadata).
+func (p Provenance) Metadata() map[string]string {
+	m := map[string]string{"ridgeflank_software": p.Software}
+	if p.Model != nil {
+		raw, _ := json.Marshal(p.Model.Params)
+		m["ridgeflank_model"] = p.Model.ID
+		m["ridgeflank_model_params"] = string(raw)
+		m["ridgeflank_model_params_sha256"] = p.Model.ParamsSHA256
+	}
+	if p.Sediment != "" {
+		m["ridgeflank_sediment"] = p.Sediment
+	}
+	if p.Dataset != "" {
+		m["ridgeflank_dataset"] = p.Dataset
+	}
+	for _, g := range p.Grids {
+		m["ridgeflank_grid_"+g.Role] = g.ID + " sha256:" + g.SHA256
+	}
+	if p.Caution != "" {
+		m["ridgeflank_caution"] = p.Caution
+	}
+	return m
+}

@@ -1,0 +1,432 @@
+package evaluate
+
+import (
+	"container/list"
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"strings"
+	"sync"
+	"time"
+
+	"github.com/paulmach/orb"
+	"golang.org/x/sync/singleflight"
+
+	"ridgeflank/fault"
+	"ridgeflank/geo"
+	"ridgeflank/geo/gdal"
+	"ridgeflank/store"
+	"ridgeflank/thermal"
+)
+
+// Limits are the documented limits of the questions the Service answers. Zero fields take
+// DefaultLimits' value. A question over one of them gets a fault.Over error naming it.
+type Limits struct {
+	MaxPositions    int // points in one Points question ("max_positions")
+	MaxVertices     int // vertices of one polygon, multipolygon or track ("max_vertices")
+	MaxAreaCells    int // output cells of one area answer ("max_area_cells")
+	MaxInputCells   int // input cells read by one area answer ("max_input_cells")
+	MaxTrackSamples int // samples along one track ("max_track_samples")
+	MaxParameters   int // parameters in one question ("max_parameters")
+	MaxTileZoom     int // deepest tile zoom ("max_tile_zoom")
+	GridCacheCells  int // grid cells kept in memory across questions (float32 each)
+}
+
+// DefaultLimits are the limits used when a Limits field is zero.
+var DefaultLimits = Limits{
+	MaxPositions:    1000,
+	MaxVertices:     10000,
+	MaxAreaCells:    4_000_000,
+	MaxInputCells:   20_000_000,
+	MaxTrackSamples: 100_000,
+	MaxParameters:   9,
+	MaxTileZoom:     14,
+	GridCacheCells:  150_000_000,
+}
+
+func (l Limits) withDefaults() Limits {
+	d := DefaultLimits
+	for _, f := range []struct{ v, dv *int }{
+		{&l.MaxPositions, &d.MaxPositions}, {&l.MaxVertices, &d.MaxVertices}, {&l.MaxAreaCells, &d.MaxAreaCells},
+		{&l.MaxInputCells, &d.MaxInputCells}, {&l.MaxTrackSamples, &d.MaxTrackSamples},
+		{&l.MaxParameters, &d.MaxParameters}, {&l.MaxTileZoom, &d.MaxTileZoom}, {&l.GridCacheCells, &d.GridCacheCells},
+	} {
+		if *f.v <= 0 {
+			*f.v = *f.dv
+		}
+	}
+	return l
+}
+
+// Config configures a Service.
+type Config struct {
+	Store   store.Store // catalogue, grid files, custom models (required for dataset questions)
+	Version string      // software version for provenance ("dev" when empty)
+	Limits  Limits
+}
+
+// Service answers questions about the datasets of one store. It owns the caches (grids by
+// content hash, datasets for DatasetTTL, models and sediment tables) and is safe for concurrent
+// use. Every way in (HTTP handlers, job workers, the command line) asks the same Service.
+type Service struct {
+	st      store.Store
+	version string
+	limits  Limits
+
+	grids     *gridCache
+	datasets  sync.Map // id -> cachedDataset
+	models    modelCache
+	modelRefs sync.Map // thermal.Params -> *ModelRef
+}
+
+// New returns a Service over cfg.Store.
+func New(cfg Config) *Service {
+	if cfg.Version == "" {
+		cfg.Version = "dev"
+	}
+	l := cfg.Limits.withDefaults()
+	return &Service{st: cfg.Store, version: cfg.Version, limits: l, grids: newGridCache(l.GridCacheCells),
+		models: modelCache{m: map[thermal.Params]thermal.Model{}}}
+}
+
+// Limits returns the service's limits (defaults filled in).
+func (s *Service) Limits() Limits { return s.limits }
+
+// Version is the software version the service states in provenance.
+func (s *Service) Version() string { return s.version }
+
+// ---- grid cache ----
+
+// gridCache keeps decoded grid files in memory, least recently used first out, bounded by a
+// total number of cells. Keys are content hashes (plus a suffix for overviews), so a changed
+// file is a new key.
+type gridCache struct {
+	mu       sync.Mutex
+	maxCells int
+	cells    int
+	ll       *list.List
+	items    map[string]*list.Element
+	group    singleflight.Group
+}
+
+type cacheEntry struct {
+	key string
+	g   *geo.Grid
+}
+
+func newGridCache(maxCells int) *gridCache {
+	return &gridCache{maxCells: maxCells, ll: list.New(), items: map[string]*list.Element{}}
+}
+
+func (c *gridCache) get(key string) (*geo.Grid, bool) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if e, ok := c.items[key]; ok {
+		c.ll.MoveToFront(e)
+		return e.Value.(*cacheEntry).g, true
+	}
+	return nil, false
+}
+
+func (c *gridCache) put(key string, g *geo.Grid) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if _, ok := c.items[key]; ok {
+		return
+	}
+	n := len(g.Data)
+	if n > c.maxCells {
+		return
+	}
+	c.items[key] = c.ll.PushFront(&cacheEntry{key, g})
+	c.cells += n
+	for c.cells > c.maxCells {
+		e := c.ll.Back()
+		ce := e.Value.(*cacheEntry)
+		c.ll.Remove(e)
+		delete(c.items, ce.key)
+		c.cells -= len(ce.g.Data)
+	}
+}
+
+// load returns the cached value for key or builds it once (concurrent callers share one build).
+func (c *gridCache) load(key string, build func() (*geo.Grid, error)) (*geo.Grid, error) {
+	if g, ok := c.get(key); ok {
+		return g, nil
+	}
+	v, err, _ := c.group.Do(key, func() (any, error) {
+		if g, ok := c.get(key); ok {
+			return g, nil
+		}
+		g, err := build()
+		if err != nil {
+			return nil, err
+		}
+		c.put(key, g)
+		return g, nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	return v.(*geo.Grid), nil
+}
+
+// loadGrid reads a catalogued grid file (cached by content hash).
+func (s *Service) loadGrid(ctx context.Context, row store.Grid) (*geo.Grid, error) {
+	return s.grids.load(row.ContentHash, func() (*geo.Grid, error) {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		path, err := s.st.Blobs().Path(row.Path)
+		if err != nil {
+			return nil, err
+		}
+		opt := gdal.ReadOptions{}
+		switch row.Registration {
+		case store.CellCentre:
+			opt.Registration = "cell-centre"
+		case store.Node:
+			opt.Registration = "node"
+		}
+		g, _, err := gdal.Read(path, opt)
+		if err != nil {
+			return nil, fmt.Errorf("reading grid %s: %w", row.ID, err)
+		}
+		return g, nil
+	})
+}
+
+// overview returns g coarsened by factor f (cached under ref), or g itself for f ≤ 1.
+func (s *Service) overview(g *geo.Grid, ref string, f int) (*geo.Grid, error) {
+	if f <= 1 || g == nil {
+		return g, nil
+	}
+	return s.grids.load(fmt.Sprintf("%s@%d", ref, f), func() (*geo.Grid, error) {
+		return g.Resample(float64(f)*g.DX, float64(f)*g.DY)
+	})
+}
+
+// ---- datasets ----
+
+// Dataset is a stored dataset with its grids (loaded by Dataset, not by DatasetMeta).
+type Dataset struct {
+	Row        store.Dataset
+	Age        *geo.Grid
+	Depth      *geo.Grid // observed bathymetry in the sense DepthSense
+	DepthSense geo.VerticalSense
+	Sediment   *geo.Grid
+	Crust      *geo.Grid
+	Refs       []GridRef
+	// From the catalogue rows (known without reading any grid file):
+	Bounds      orb.Bound // footprint of the age grid
+	HasDepth    bool
+	HasSediment bool
+}
+
+// Available lists the parameters the dataset can answer, in the order of Parameters.
+func (d *Dataset) Available() []Parameter {
+	var out []Parameter
+	for _, p := range Parameters {
+		if d.answers(p) {
+			out = append(out, p)
+		}
+	}
+	return out
+}
+
+func (d *Dataset) answers(p Parameter) bool {
+	return !(p.NeedsDepth && !d.HasDepth || p.NeedsSed && !d.HasSediment)
+}
+
+func (d *Dataset) ref(role string) string {
+	for _, g := range d.Refs {
+		if g.Role == role {
+			return g.SHA256
+		}
+	}
+	return role
+}
+
+// DatasetTTL is how long a loaded dataset (its row and grid rows; grid values are cached by
+// content hash separately) is reused without asking the store again. Forget drops them at once;
+// changes made by other processes show after at most this long.
+const DatasetTTL = 5 * time.Second
+
+type cachedDataset struct {
+	d  *Dataset
+	at time.Time
+}
+
+// Forget drops every cached dataset; call it after any write to datasets or grids.
+func (s *Service) Forget() { s.datasets.Clear() }
+
+// Dataset returns the dataset id with its grids loaded (cached for DatasetTTL).
+func (s *Service) Dataset(ctx context.Context, id string) (*Dataset, error) {
+	if v, ok := s.datasets.Load(id); ok {
+		if c := v.(cachedDataset); time.Since(c.at) < DatasetTTL {
+			return c.d, nil
+		}
+	}
+	d, rows, err := s.datasetMeta(ctx, id)
+	if err != nil {
+		return nil, err
+	}
+	for i, row := range rows {
+		g, err := s.loadGrid(ctx, row)
+		if err != nil {
+			return nil, err
+		}
+		switch d.Refs[i].Role {
+		case PSeafloorAge:
+			d.Age = g
+		case PObservedDepth:
+			d.Depth = g
+		case PSedimentThickness:
+			d.Sediment = g
+		case RoleCrust:
+			d.Crust = g
+		}
+	}
+	s.datasets.Store(id, cachedDataset{d, time.Now()})
+	return d, nil
+}
+
+// DatasetMeta returns the dataset id described from its catalogue rows, without reading any
+// grid file (its grid fields are nil): enough to describe it as a collection.
+func (s *Service) DatasetMeta(ctx context.Context, id string) (*Dataset, error) {
+	d, _, err := s.datasetMeta(ctx, id)
+	return d, err
+}
+
+func (s *Service) datasetMeta(ctx context.Context, id string) (*Dataset, []store.Grid, error) {
+	if s.st == nil {
+		return nil, nil, fault.New(fault.NotFound, "", "no dataset (collection) %q: there is no store", id)
+	}
+	row, err := s.st.GetDataset(ctx, id)
+	if err != nil {
+		if errors.Is(err, store.ErrNotFound) {
+			return nil, nil, fault.New(fault.NotFound, "", "no dataset (collection) %q%w", id, quiet(err))
+		}
+		return nil, nil, err
+	}
+	if row.AgeGridID == "" {
+		return nil, nil, fault.New(fault.NoData, "", "dataset %q has no age grid", id)
+	}
+	d := &Dataset{Row: row}
+	var rows []store.Grid
+	for _, sl := range []struct{ id, role string }{
+		{row.AgeGridID, PSeafloorAge},
+		{row.DepthGridID, PObservedDepth},
+		{row.SedimentGridID, PSedimentThickness},
+		{row.CrustGridID, RoleCrust},
+	} {
+		if sl.id == "" {
+			continue
+		}
+		gr, err := s.st.GetGrid(ctx, sl.id)
+		if err != nil {
+			return nil, nil, fmt.Errorf("dataset %s: grid %s: %w", id, sl.id, err)
+		}
+		rows = append(rows, gr)
+		d.Refs = append(d.Refs, GridRef{ID: gr.ID, Role: sl.role, SHA256: gr.ContentHash})
+		switch sl.role {
+		case PSeafloorAge:
+			d.Bounds = gr.Footprint.Bound()
+		case PObservedDepth:
+			d.HasDepth = true
+			d.DepthSense = geo.DepthPositiveDown
+			if gr.Kind == store.KindElevation || gr.VerticalSense == store.ElevationPositiveUp {
+				d.DepthSense = geo.ElevationPositiveUp
+			}
+		case PSedimentThickness:
+			d.HasSediment = true
+		}
+	}
+	return d, rows, nil
+}
+
+// quietErr wraps a cause without adding to the message (for fault.New's trailing %w).
+type quietErr struct{ err error }
+
+func (q quietErr) Error() string { return "" }
+func (q quietErr) Unwrap() error { return q.err }
+
+func quiet(err error) error { return quietErr{err} }
+
+// ---- models ----
+
+// DefaultModel is the model used when a question names none.
+const DefaultModel = thermal.IDGDH1
+
+// modelCache keeps the Model built for each stored custom parameter set, so thermal.TableFor
+// (keyed by parameters) is reused across questions.
+type modelCache struct {
+	mu sync.Mutex
+	m  map[thermal.Params]thermal.Model
+}
+
+func (c *modelCache) get(p thermal.Params) (thermal.Model, error) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if m, ok := c.m[p]; ok {
+		return m, nil
+	}
+	m, err := thermal.NewModel(p)
+	if err != nil {
+		return nil, err
+	}
+	if len(c.m) > 1024 {
+		clear(c.m)
+	}
+	c.m[p] = m
+	return m, nil
+}
+
+// IsBuiltin reports whether id names a built-in model.
+func IsBuiltin(id string) bool {
+	for _, b := range thermal.BuiltinIDs() {
+		if strings.EqualFold(b, strings.TrimSpace(id)) {
+			return true
+		}
+	}
+	return false
+}
+
+// Model resolves a built-in or stored custom model ("" is DefaultModel). An unknown id is a
+// fault.UnknownModel about field "model".
+func (s *Service) Model(ctx context.Context, id string) (thermal.Model, error) {
+	id = strings.TrimSpace(id)
+	if id == "" {
+		id = DefaultModel
+	}
+	if IsBuiltin(id) {
+		return thermal.Builtin(id)
+	}
+	p, err := s.CustomModel(ctx, id)
+	if err != nil {
+		if errors.Is(err, store.ErrNotFound) {
+			return nil, fault.New(fault.UnknownModel, "model", "no model %q; built-in models are %s, or store a custom one with POST /api/models%w",
+				id, strings.Join(thermal.BuiltinIDs(), ", "), quiet(err))
+		}
+		return nil, err
+	}
+	return s.models.get(p)
+}
+
+// CustomModel reads a stored custom parameter set (store.ErrNotFound when there is none).
+func (s *Service) CustomModel(ctx context.Context, id string) (thermal.Params, error) {
+	if s.st == nil {
+		return thermal.Params{}, store.ErrNotFound
+	}
+	m, err := s.st.GetModel(ctx, id)
+	if err != nil {
+		return thermal.Params{}, err
+	}
+	var p thermal.Params
+	if err := json.Unmarshal(m.Params, &p); err != nil {
+		return p, fmt.Errorf("stored model %s: %w", id, err)
+	}
+	p.ID = m.ID
+	return p, nil
+}

@@ -1,0 +1,246 @@
+package evaluate
+
+import (
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"image"
+	"image/color"
+	"math"
+
+	"github.com/paulmach/orb"
+
+	"ridgeflank/colour"
+	"ridgeflank/fault"
+	"ridgeflank/geo"
+)
+
+// TileSize is the width and height of map tiles in pixels.
+const TileSize = 256
+
+// Web-mercator tile maths (the XYZ tiling scheme of EPSG:3857: tile (0,0) at the north-west
+// corner, latitude of a tile row from the inverse Mercator projection φ = atan(sinh(π(1 − 2y/2^z)))).
+
+func tileLon(x float64, n float64) float64 { return x/n*360 - 180 }
+
+func tileLat(y float64, n float64) float64 {
+	return math.Atan(math.Sinh(math.Pi*(1-2*y/n))) * 180 / math.Pi
+}
+
+// TilePlan is a checked tile question: what the picture depends on (ETag) and how its colours
+// are bound, known before anything is computed.
+type TilePlan struct {
+	Query   *Query
+	Param   Parameter
+	Binding colour.Binding
+	ETag    string // quoted entity tag: changes whenever the picture could
+	z, x, y int
+	s       *Service
+}
+
+// Tile checks a tile question: parameter of dataset datasetID at z/x/y (XYZ scheme) with the
+// options o (o.Parameters is ignored). A zoom beyond Limits.MaxTileZoom is
+// fault.Over("max_tile_zoom"); a tile address that does not exist fault.NotFound.
+func (s *Service) Tile(ctx context.Context, datasetID, parameter string, z, x, y int, o Options) (*TilePlan, error) {
+	if z < 0 || z > s.limits.MaxTileZoom {
+		return nil, fault.Over("max_tile_zoom", int64(s.limits.MaxTileZoom), int64(z), "z", "zoom %d is outside 0 to %d", z, s.limits.MaxTileZoom)
+	}
+	n := 1 << z
+	if x < 0 || x >= n || y < 0 || y >= n {
+		return nil, fault.New(fault.NotFound, "", "tile %d/%d/%d does not exist (x and y run from 0 to %d at zoom %d)", z, x, y, n-1, z)
+	}
+	d, err := s.Dataset(ctx, datasetID)
+	if err != nil {
+		return nil, err
+	}
+	p, ok := ParameterByID(parameter)
+	if !ok || !d.answers(p) {
+		return nil, fault.New(fault.UnknownParameter, "parameter", "dataset %q has no parameter %q", d.Row.ID, parameter)
+	}
+	o.Parameters = []string{parameter}
+	q, err := s.Resolve(ctx, d, o)
+	if err != nil {
+		return nil, err
+	}
+	b, ok := colour.BindingFor(parameter)
+	if !ok {
+		return nil, fmt.Errorf("no colour binding for %s", parameter)
+	}
+	h := sha256.New()
+	fmt.Fprintf(h, "%s|%s|%d/%d/%d|%+v|", s.version, parameter, z, x, y, b)
+	for _, g := range d.Refs {
+		fmt.Fprintf(h, "%s=%s|", g.Role, g.SHA256)
+	}
+	if p.Predicted {
+		fmt.Fprintf(h, "%s|%s|", s.ModelRef(q.Model).ParamsSHA256, q.Sediment.Name)
+	}
+	tag := `"` + hex.EncodeToString(h.Sum(nil))[:32] + `"`
+	return &TilePlan{Query: q, Param: p, Binding: b, ETag: tag, z: z, x: x, y: y, s: s}, nil
+}
+
+// Render computes the tile: the parameter colour-mapped through package colour (Paint), no
+// data and refused values transparent. At low zoom the grids are first coarsened (cached
+// overviews, area-weighted block means by powers of two) so a tile never reads many more cells
+// than it has pixels. It returns the number of grid cells evaluated too.
+func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
+	s, q, p, d := t.s, t.Query, t.Param, t.Query.Dataset
+	z, x, y := t.z, t.x, t.y
+	img := image.NewNRGBA(image.Rect(0, 0, TileSize, TileSize))
+	n := float64(int(1) << z)
+	west, east := tileLon(float64(x), n), tileLon(float64(x+1), n)
+	north, south := tileLat(float64(y), n), tileLat(float64(y+1), n)
+
+	// Overview factor: the largest power of two whose cell is no wider than a pixel.
+	pixDeg := (east - west) / TileSize
+	f := 1
+	for float64(2*f)*d.Age.DX <= pixDeg && 2*f <= d.Age.NX/2 && 2*f <= d.Age.NY/2 {
+		f *= 2
+	}
+	ov := func(g *geo.Grid, role string) (*geo.Grid, error) {
+		if g == nil || !sameLattice(d.Age, g) {
+			return g, nil
+		}
+		return s.overview(g, d.ref(role), f)
+	}
+	age, err := s.overview(d.Age, d.ref(PSeafloorAge), f)
+	if err != nil {
+		return nil, 0, err
+	}
+	pad := 2 * age.DX
+	bound := orb.Bound{Min: orb.Point{west - pad, math.Max(-90, south-pad)}, Max: orb.Point{east + pad, math.Min(90, north+pad)}}
+	win, err := age.Window(bound)
+	if err != nil {
+		if errors.Is(err, geo.ErrEmptyWindow) {
+			return img, 0, nil // outside the dataset: a transparent tile
+		}
+		return nil, 0, err
+	}
+	fl := newFlagger(q.Params)
+	var obsL, sedL, crustL, corrL *geo.Grid
+	if fl.need&inObs != 0 && d.Depth != nil {
+		src, err := ov(d.Depth, PObservedDepth)
+		if err != nil {
+			return nil, 0, err
+		}
+		obsL = sampleOnto(win, src)
+		toDepthM(obsL, d.DepthSense)
+	}
+	if fl.need&inSed != 0 && d.Sediment != nil {
+		src, err := ov(d.Sediment, PSedimentThickness)
+		if err != nil {
+			return nil, 0, err
+		}
+		sedL = sampleOnto(win, src)
+	}
+	var vals *geo.Grid
+	switch p.ID {
+	case PSeafloorAge:
+		vals = win.Clone()
+	case PObservedDepth:
+		vals = obsL.Clone()
+	case PSedimentThickness:
+		vals = sedL.Clone()
+	default:
+		want := p.Output
+		in := geo.Inputs{Age: win, Model: q.Model, Compaction: q.Sediment, Workers: 1}
+		if p.NeedsDepth {
+			want |= geo.OutCorrectedDepth
+			in.DepthSense = d.DepthSense
+			if in.Depth, err = ov(d.Depth, PObservedDepth); err != nil {
+				return nil, 0, err
+			}
+			if in.Sediment, err = ov(d.Sediment, PSedimentThickness); err != nil {
+				return nil, 0, err
+			}
+			if in.Crust, err = ov(d.Crust, RoleCrust); err != nil {
+				return nil, 0, err
+			}
+			if in.Crust != nil {
+				crustL = sampleOnto(win, in.Crust)
+			}
+		}
+		res, err := geo.Evaluate(ctx, in, want)
+		if err != nil {
+			return nil, 0, err
+		}
+		vals, corrL = modelGrid(res, p.ID), res.CorrectedDepthM
+	}
+	screenGrids(fl, []*geo.Grid{vals}, geo.Mask{}, win, obsL, sedL, crustL, corrL)
+	// Nearest sample of each pixel centre: columns and rows are separable, so each is found
+	// once (the same rule as geo.Grid.SampleNearest).
+	cols := make([]int, TileSize)
+	for i := range cols {
+		lon := tileLon(float64(x)+(float64(i)+0.5)/TileSize, n)
+		c := math.Round((lon - vals.West) / vals.DX)
+		if c < 0 || c >= float64(vals.NX) { // try the other longitude conventions
+			for _, k := range []float64{360, -360, 720} {
+				if c2 := math.Round((lon + k - vals.West) / vals.DX); c2 >= 0 && c2 < float64(vals.NX) {
+					c = c2
+					break
+				}
+			}
+		}
+		cols[i] = int(c)
+		if c < 0 || c >= float64(vals.NX) {
+			cols[i] = -1
+		}
+	}
+	paint := NewPaint(t.Binding)
+	for j := 0; j < TileSize; j++ {
+		lat := tileLat(float64(y)+(float64(j)+0.5)/TileSize, n) // mercator rows
+		r := math.Round((vals.North - lat) / vals.DY)
+		if r < 0 || r >= float64(vals.NY) {
+			continue
+		}
+		row := vals.Data[int(r)*vals.NX : (int(r)+1)*vals.NX]
+		pix := img.Pix[j*img.Stride : (j+1)*img.Stride]
+		for i, c := range cols {
+			if c >= 0 {
+				paint.set(pix[4*i:4*i+4], float64(row[c]))
+			}
+		}
+	}
+	return img, len(vals.Data), nil
+}
+
+// Paint maps values to colours through a colour.Binding (colour.Binding.Position onto a
+// 256-entry palette of its ramp); NaN is transparent.
+type Paint struct {
+	b   colour.Binding
+	pal []color.NRGBA
+}
+
+// NewPaint prepares the palette of b.
+func NewPaint(b colour.Binding) *Paint {
+	ramp, ok := colour.RampByID(b.Ramp)
+	p := &Paint{b: b, pal: make([]color.NRGBA, 256)}
+	if ok {
+		p.pal = ramp.Palette(256)
+	}
+	return p
+}
+
+// set writes the colour of v into px (4 bytes, non-premultiplied RGBA); NaN leaves px as it is.
+func (p *Paint) set(px []uint8, v float64) {
+	if v != v {
+		return
+	}
+	t := p.b.Position(v)
+	k := int(math.Round(math.Max(0, math.Min(1, t)) * 255))
+	c := p.pal[k]
+	px[0], px[1], px[2], px[3] = c.R, c.G, c.B, c.A
+}
+
+// Image colour-maps a lon/lat grid row by row (no data transparent).
+func (p *Paint) Image(g *geo.Grid) *image.NRGBA {
+	img := image.NewNRGBA(image.Rect(0, 0, g.NX, g.NY))
+	for row := 0; row < g.NY; row++ {
+		pix := img.Pix[row*img.Stride : (row+1)*img.Stride]
+		for col := 0; col < g.NX; col++ {
+			p.set(pix[4*col:4*col+4], float64(g.Data[row*g.NX+col]))
+		}
+	}
+	return img
+}
