@@ -116,6 +116,10 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		deps.Assets = web.Assets()
 	}
 
+	// One evaluation service (datasets, grid caches, models) shared by the handlers and the
+	// export worker.
+	deps.Evaluate = server.NewEvaluate(deps)
+
 	// The durable job queue, in the store's database.
 	handlers := jobs.Handlers{Import: server.ImportWorker(st, log), Export: server.ExportWorker(deps)}
 	qopts := queue.Options{Logger: log.With("component", "jobs")}
