@@ -17,13 +17,17 @@ type seamChain struct {
 	east   bool
 }
 
-// seamCross returns the point where edge a→b meets the meridian x = s.
+// seamCross returns the point where edge a→b meets the meridian x = s. The result does not
+// depend on the edge's direction, so that two polygons sharing an edge get the same point.
 func seamCross(a, b orb.Point, s float64) orb.Point {
 	if a[0] == s {
 		return a
 	}
 	if b[0] == s {
 		return b
+	}
+	if b[0] < a[0] || (b[0] == a[0] && b[1] < a[1]) {
+		a, b = b, a
 	}
 	t := (s - a[0]) / (b[0] - a[0])
 	return orb.Point{s, a[1] + t*(b[1]-a[1])}
@@ -247,25 +251,71 @@ func splitPolygonAt(rings orb.Polygon, s float64, pi int) (west, east []orb.Poly
 			orientRing(r, true)
 			pieces = append(pieces, orb.Polygon{r})
 		}
+		filled := make([]bool, len(pieces))
 		for _, h := range holes[side] {
-			probe := h[0]
-			for _, p := range h {
-				if p[0] != s {
-					probe = p
-					break
-				}
-			}
-			k := slices.IndexFunc(pieces, func(pc orb.Polygon) bool { return ringContainsPoint(pc[0], probe) })
+			k, fills := pieceOfHole(pieces, h)
 			if k < 0 {
 				return nil, nil, regionErr("polygon %d has a hole outside its exterior ring", pi)
+			}
+			if fills {
+				filled[k] = true // the hole is the whole piece (it touched its exterior)
+				continue
 			}
 			hc := append(orb.Ring(nil), h...)
 			orientRing(hc, false)
 			pieces[k] = append(pieces[k], hc)
 		}
-		sides[side] = pieces
+		for k, pc := range pieces {
+			if !filled[k] {
+				sides[side] = append(sides[side], pc)
+			}
+		}
 	}
 	return sides[0], sides[1], nil
+}
+
+// pieceOfHole returns the index of the piece whose exterior holds hole h (a hole lying on one
+// side of a split), or −1. The hole may touch a piece's boundary (at the splitting meridian, or
+// where it touched its exterior), so the probe is the first of its vertices, then of its edge
+// midpoints, that lies strictly inside a piece. When none does but all lie on the boundary of
+// one piece, the hole is that whole piece (fills is true).
+func pieceOfHole(pieces []orb.Polygon, h orb.Ring) (k int, fills bool) {
+	if k := pieceInside(pieces, h); k >= 0 {
+		return k, false
+	}
+	for k, pc := range pieces {
+		on := true
+		for i := 0; i+1 < len(h) && on; i++ {
+			on = locateInRing(pc[0], h[i]) == 0 && locateInRing(pc[0], lerp(h[i], h[i+1], 0.5)) == 0
+		}
+		if on {
+			return k, true
+		}
+	}
+	return -1, false
+}
+
+// pieceInside returns the piece holding a vertex or edge midpoint of h strictly inside, or −1.
+func pieceInside(pieces []orb.Polygon, h orb.Ring) int {
+	try := func(p orb.Point) int {
+		for k, pc := range pieces {
+			if locateInRing(pc[0], p) > 0 {
+				return k
+			}
+		}
+		return -1
+	}
+	for _, p := range h[:len(h)-1] {
+		if k := try(p); k >= 0 {
+			return k
+		}
+	}
+	for i := 0; i+1 < len(h); i++ {
+		if k := try(lerp(h[i], h[i+1], 0.5)); k >= 0 {
+			return k
+		}
+	}
+	return -1
 }
 
 // SelfIntersectionPairBudget bounds the work of the self-intersection and topology checks: rings
