@@ -599,3 +599,71 @@ func TestConcurrentUploadsSameID(t *testing.T) {
 		})
 	}
 }
+
+// A sediment grid declared in km, uploaded through the API, is answered in metres by a dataset
+// query (issue 9 item 1: it was used as metres and gave a corrected depth of 3.7 million m).
+// The correction is checked against the closed form of Sclater & Christie's (1980)
+// exponential porosity law under Airy isostasy: mean porosity φ̄ = φ0 (1 − e^{−cS})/(cS),
+// bulk density ρs = φ̄ ρw + (1 − φ̄) ρg, correction = S (ρm − ρs)/(ρm − ρw), with the shale
+// constants φ0 = 0.63, c = 0.51 /km, ρg = 2720 kg/m³ (Sclater & Christie 1980, from memory)
+// and GDH1's ρm = 3330, ρw = 1000 kg/m³ (Stein & Stein 1992).
+func TestKmSedimentAnsweredInMetres(t *testing.T) {
+	api := newAPIWay(t, "sqlite", 1)
+	ctx := context.Background()
+	ds, err := api.st.GetDataset(ctx, demobasin.DatasetID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// 2.5 km of sediment everywhere in a 4° × 3° box inside the basin.
+	g := geo.NewGrid(40, 30, -139.95, -29.05, 0.1, 0.1, geo.CellCentre)
+	for i := range g.Data {
+		g.Data[i] = 2.5
+	}
+	path := filepath.Join(t.TempDir(), "sediment-km.tif")
+	if err := gdal.WriteCOG(path, g, gdal.Meta{Units: "km", Title: "uniform sediment (SYNTHETIC)"}); err != nil {
+		t.Fatal(err)
+	}
+	o := api.importFile(path, form{"kind": "sediment_thickness"})
+	if !o.OK || o.Units != "m" {
+		t.Fatalf("import: %v", o)
+	}
+	body := fmt.Sprintf(`{"id":"km-sediment","name":"km sediment","age_grid_id":%q,"depth_grid_id":%q,"sediment_grid_id":%q}`,
+		ds.AgeGridID, ds.DepthGridID, o.ID)
+	req, _ := http.NewRequest("POST", api.url+"/api/datasets", strings.NewReader(body))
+	req.Header.Set("Content-Type", "application/json")
+	req.Header.Set("Authorization", "Bearer "+api.token)
+	resp, err := http.DefaultClient.Do(req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	resp.Body.Close()
+	if resp.StatusCode != http.StatusCreated {
+		t.Fatalf("creating the dataset answered %d", resp.StatusCode)
+	}
+	resp, err = http.Get(api.url + "/api/collections/km-sediment/position?coords=POINT(-138%20-30.5)&f=geojson" +
+		"&model=gdh1&sediment=shale&parameter-name=observed_depth,sediment_thickness,corrected_depth")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer resp.Body.Close()
+	var fc struct {
+		Features []struct {
+			Properties map[string]float64 `json:"properties"`
+		} `json:"features"`
+	}
+	if err := json.NewDecoder(resp.Body).Decode(&fc); err != nil || len(fc.Features) != 1 {
+		t.Fatalf("position answer %d: %v", resp.StatusCode, err)
+	}
+	p := fc.Features[0].Properties
+	const sKm, phi0, c, rhoG, rhoM, rhoW = 2.5, 0.63, 0.51, 2720.0, 3330.0, 1000.0
+	mean := phi0 * (1 - math.Exp(-c*sKm)) / (c * sKm)
+	rhoS := mean*rhoW + (1-mean)*rhoG
+	want := 1000 * sKm * (rhoM - rhoS) / (rhoM - rhoW)
+	if got := p["sediment_thickness"]; math.Abs(got-2500) > 0.01 {
+		t.Errorf("sediment_thickness = %g m, want 2500 m", got)
+	}
+	// Tolerance 0.5 m: float32 storage and the service's tabulated correction.
+	if got := p["corrected_depth"] - p["observed_depth"]; math.Abs(got-want) > 0.5 {
+		t.Errorf("corrected − observed depth = %g m, want %g m (Sclater & Christie closed form)", got, want)
+	}
+}
