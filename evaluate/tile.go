@@ -124,7 +124,7 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 		if err != nil {
 			return nil, 0, err
 		}
-		obsL = sampleOnto(win, src)
+		obsL = windowOnto(win, src, bound)
 		toDepthM(obsL, d.DepthSense)
 	}
 	if fl.need&inSed != 0 && d.Sediment != nil {
@@ -132,7 +132,7 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 		if err != nil {
 			return nil, 0, err
 		}
-		sedL = sampleOnto(win, src)
+		sedL = windowOnto(win, src, bound)
 	}
 	var vals *geo.Grid
 	switch p.ID {
@@ -158,7 +158,7 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 				return nil, 0, err
 			}
 			if in.Crust != nil {
-				crustL = sampleOnto(win, in.Crust)
+				crustL = windowOnto(win, in.Crust, bound)
 			}
 		}
 		res, err := geo.Evaluate(ctx, in, want)
@@ -243,4 +243,15 @@ func (p *Paint) Image(g *geo.Grid) *image.NRGBA {
 		}
 	}
 	return img
+}
+
+// windowOnto is src on the lattice of win, a window of bound: a grid on the same lattice is
+// windowed the same way (a copy of whole cells), any other is sampled bilinearly.
+func windowOnto(win, src *geo.Grid, bound orb.Bound) *geo.Grid {
+	if sameLattice(win, src) {
+		if w, err := src.Window(bound); err == nil {
+			return sampleOnto(win, w)
+		}
+	}
+	return sampleOnto(win, src)
 }
