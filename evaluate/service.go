@@ -45,7 +45,8 @@ var DefaultLimits = Limits{
 	GridCacheCells:  150_000_000,
 }
 
-func (l Limits) withDefaults() Limits {
+// WithDefaults returns l with every zero field set to DefaultLimits' value.
+func (l Limits) WithDefaults() Limits {
 	d := DefaultLimits
 	for _, f := range []struct{ v, dv *int }{
 		{&l.MaxPositions, &d.MaxPositions}, {&l.MaxVertices, &d.MaxVertices}, {&l.MaxAreaCells, &d.MaxAreaCells},
@@ -85,7 +86,7 @@ func New(cfg Config) *Service {
 	if cfg.Version == "" {
 		cfg.Version = "dev"
 	}
-	l := cfg.Limits.withDefaults()
+	l := cfg.Limits.WithDefaults()
 	return &Service{st: cfg.Store, version: cfg.Version, limits: l, grids: newGridCache(l.GridCacheCells),
 		models: modelCache{m: map[thermal.Params]thermal.Model{}}}
 }

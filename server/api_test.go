@@ -23,6 +23,7 @@ import (
 	"github.com/santhosh-tekuri/jsonschema/v6"
 
 	"ridgeflank/demobasin"
+	"ridgeflank/evaluate"
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
 )
@@ -648,7 +649,7 @@ func TestExportJob(t *testing.T) {
 
 func TestBodyAndRateLimits(t *testing.T) {
 	e := newEnv(t, "sqlite", Config{RateLimitPerMinute: 3})
-	small := httptest.NewServer(New(Deps{Store: e.st, Limits: Limits{MaxBodyBytes: 100, MaxAreaCells: 50}, Config: Config{RateLimitPerMinute: -1}}))
+	small := httptest.NewServer(New(Deps{Store: e.st, Limits: Limits{MaxBodyBytes: 100, Limits: evaluate.Limits{MaxAreaCells: 50}}, Config: Config{RateLimitPerMinute: -1}}))
 	defer small.Close()
 	ds := "/api/collections/" + e.dataset
 	se := *e

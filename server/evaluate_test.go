@@ -15,6 +15,7 @@ import (
 
 	"github.com/paulmach/orb"
 
+	"ridgeflank/evaluate"
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
 	"ridgeflank/store"
@@ -268,7 +269,7 @@ func TestRegionValidityOneRule(t *testing.T) {
 func TestLimitProblems(t *testing.T) {
 	for _, b := range []string{"sqlite", "postgis"} {
 		t.Run(b, func(t *testing.T) {
-			e := newEnvLimits(t, b, Config{}, Limits{MaxVertices: 6, MaxTrackSamples: 10, MaxAreaCells: 50})
+			e := newEnvLimits(t, b, Config{}, Limits{Limits: evaluate.Limits{MaxVertices: 6, MaxTrackSamples: 10, MaxAreaCells: 50}})
 			installGlobe(t, e)
 			ds := "/api/collections/globe"
 			heptagon := "POLYGON((0 0,2 0,3 1,2 2,1 3,0 2,0 0))" // 7 positions

@@ -20,42 +20,31 @@ import (
 // answered 413 (bodies) or 422 (everything else) with a problem naming the
 // limit and its value. Zero fields take DefaultLimits' value.
 type Limits struct {
+	// Limits are the limits of the questions themselves (positions, vertices, cells, samples,
+	// parameters, tile zoom, grid cache), owned by the evaluate service.
+	evaluate.Limits
 	MaxBodyBytes    int64         // JSON bodies (regions, models, trajectories), bytes
 	MaxUploadBytes  int64         // multipart grid uploads, bytes
-	MaxPositions    int           // points in one position query
-	MaxVertices     int           // vertices of one polygon/multipolygon/trajectory
-	MaxAreaCells    int           // output cells of one area query
-	MaxTrackSamples int           // samples along one trajectory
 	MaxCurvePoints  int           // ages in one /curve request
-	MaxParameters   int           // entries in parameter-name
 	RequestTimeout  time.Duration // every API request except uploads
 	UploadTimeout   time.Duration // grid uploads (streamed to disk)
-	MaxTileZoom     int           // deepest tile zoom served
-	MaxInputCells   int           // input cells read by one area/locations query
 	SyncExportCells int           // COG/netCDF area answers above this many cells become export jobs
-	GridCacheCells  int           // grid cells kept in memory across requests (float32 each)
 }
 
 // DefaultLimits are the limits used when Deps.Limits leaves a field zero.
 var DefaultLimits = Limits{
+	Limits:          evaluate.DefaultLimits,
 	MaxBodyBytes:    4 << 20,
 	MaxUploadBytes:  2 << 30,
-	MaxPositions:    1000,
-	MaxVertices:     10000,
-	MaxAreaCells:    4_000_000,
-	MaxTrackSamples: 100_000,
 	MaxCurvePoints:  10_001,
-	MaxParameters:   9,
 	RequestTimeout:  30 * time.Second,
 	UploadTimeout:   30 * time.Minute,
-	MaxTileZoom:     14,
-	MaxInputCells:   20_000_000,
 	SyncExportCells: 1_000_000,
-	GridCacheCells:  150_000_000,
 }
 
 func (l Limits) withDefaults() Limits {
 	d := DefaultLimits
+	l.Limits = l.Limits.WithDefaults()
 	set64 := func(v *int64, dv int64) {
 		if *v <= 0 {
 			*v = dv
@@ -73,17 +62,9 @@ func (l Limits) withDefaults() Limits {
 	}
 	set64(&l.MaxBodyBytes, d.MaxBodyBytes)
 	set64(&l.MaxUploadBytes, d.MaxUploadBytes)
-	set(&l.MaxPositions, d.MaxPositions)
-	set(&l.MaxVertices, d.MaxVertices)
-	set(&l.MaxAreaCells, d.MaxAreaCells)
-	set(&l.MaxTrackSamples, d.MaxTrackSamples)
 	set(&l.MaxCurvePoints, d.MaxCurvePoints)
-	set(&l.MaxParameters, d.MaxParameters)
 	setD(&l.RequestTimeout, d.RequestTimeout)
 	setD(&l.UploadTimeout, d.UploadTimeout)
-	set(&l.MaxTileZoom, d.MaxTileZoom)
-	set(&l.MaxInputCells, d.MaxInputCells)
-	set(&l.GridCacheCells, d.GridCacheCells)
 	set(&l.SyncExportCells, d.SyncExportCells)
 	return l
 }
@@ -173,12 +154,7 @@ type handlerFunc func(w http.ResponseWriter, r *http.Request) error
 // RFC 9457 application/problem+json.
 // NewEvaluate builds the evaluate service of deps: its store, version and limits.
 func NewEvaluate(deps Deps) *evaluate.Service {
-	l := deps.Limits.withDefaults()
-	return evaluate.New(evaluate.Config{Store: deps.Store, Version: deps.Version, Limits: evaluate.Limits{
-		MaxPositions: l.MaxPositions, MaxVertices: l.MaxVertices, MaxAreaCells: l.MaxAreaCells,
-		MaxInputCells: l.MaxInputCells, MaxTrackSamples: l.MaxTrackSamples, MaxParameters: l.MaxParameters,
-		MaxTileZoom: l.MaxTileZoom, GridCacheCells: l.GridCacheCells,
-	}})
+	return evaluate.New(evaluate.Config{Store: deps.Store, Version: deps.Version, Limits: deps.Limits.withDefaults().Limits})
 }
 
 func (s *server) h(fn handlerFunc) http.HandlerFunc {
