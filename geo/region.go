@@ -210,7 +210,8 @@ func toPolygon(c [][][]float64, pi int) (orb.Polygon, error) {
 // ring; holes of one polygon overlapping each other are an error. After the split at the
 // antimeridian, a polygon that exactly repeats an earlier one once normalised is dropped (a
 // repair); polygons whose interiors overlap otherwise are an error naming both. Rings and
-// polygons touching at points or along edges are accepted. PrepareRegion reports the repairs.
+// polygons touching at points or along edges (within TouchToleranceDeg) are accepted.
+// PrepareRegion reports the repairs.
 // Cost: the sweep finds the k pairs of meeting edges in O(n log n + k); each pair of rings whose
 // bounds overlap then needs a point-in-ring test, O(size of the ring), per piece between
 // meeting points (one when the rings do not meet).

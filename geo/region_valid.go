@@ -70,10 +70,30 @@ func (m ringMeets) pairs(i, j int) []edgePair {
 	return out
 }
 
-// locateInRing returns +1 if p lies inside ring r, −1 outside, 0 on its boundary.
+// TouchToleranceDeg is the distance in degrees (about 0.1 mm) within which the topology checks
+// count a point as lying on an edge, so that a vertex placed on another ring's edge by software
+// working in decimal degrees touches that edge rather than crossing it by a rounding error.
+const TouchToleranceDeg = 1e-9
+
+// nearLine reports whether orientation d (orient2 against a segment of length l) puts the point
+// within TouchToleranceDeg of the segment's line.
+func nearLine(d, l float64) bool { return math.Abs(d) <= TouchToleranceDeg*l }
+
+// nearSegment reports whether p, within tolerance of the line through a–b, lies within the
+// segment's bounding box widened by TouchToleranceDeg.
+func nearSegment(a, b, p orb.Point) bool {
+	const e = TouchToleranceDeg
+	return math.Min(a[0], b[0])-e <= p[0] && p[0] <= math.Max(a[0], b[0])+e &&
+		math.Min(a[1], b[1])-e <= p[1] && p[1] <= math.Max(a[1], b[1])+e
+}
+
+func segLen(a, b orb.Point) float64 { return math.Hypot(b[0]-a[0], b[1]-a[1]) }
+
+// locateInRing returns +1 if p lies inside ring r, −1 outside, 0 on its boundary (within
+// TouchToleranceDeg).
 func locateInRing(r orb.Ring, p orb.Point) int {
 	for i := 0; i+1 < len(r); i++ {
-		if orient2(r[i], r[i+1], p) == 0 && onSegment(r[i], r[i+1], p) {
+		if nearLine(orient2(r[i], r[i+1], p), segLen(r[i], r[i+1])) && nearSegment(r[i], r[i+1], p) {
 			return 0
 		}
 	}
@@ -117,7 +137,9 @@ func relateRings(a, b orb.Ring, meets []edgePair) (ringRel, orb.Point) {
 		q1, q2 := a[m.a], a[m.a+1]
 		d1, d2 := orient2(q1, q2, p1), orient2(q1, q2, p2)
 		d3, d4 := orient2(p1, p2, q1), orient2(p1, p2, q2)
-		if d1*d2 < 0 && d3*d4 < 0 {
+		lq, lp := segLen(q1, q2), segLen(p1, p2)
+		z1, z2, z3, z4 := nearLine(d1, lq), nearLine(d2, lq), nearLine(d3, lp), nearLine(d4, lp)
+		if !z1 && !z2 && !z3 && !z4 && d1*d2 < 0 && d3*d4 < 0 {
 			t := d1 / (d1 - d2)
 			return relCross, lerp(p1, p2, t)
 		}
@@ -126,7 +148,7 @@ func relateRings(a, b orb.Ring, meets []edgePair) (ringRel, orb.Point) {
 			c = &contacts{}
 			byEdge[m.b] = c
 		}
-		if d1 == 0 && d2 == 0 {
+		if z1 && z2 {
 			t1, t2 := segParam(p1, p2, q1), segParam(p1, p2, q2)
 			lo, hi := math.Max(0, math.Min(t1, t2)), math.Min(1, math.Max(t1, t2))
 			if hi > lo {
@@ -135,17 +157,17 @@ func relateRings(a, b orb.Ring, meets []edgePair) (ringRel, orb.Point) {
 			c.ts = append(c.ts, lo, hi)
 			continue
 		}
-		if d1 == 0 && onSegment(q1, q2, p1) {
+		if z1 && nearSegment(q1, q2, p1) {
 			c.ts = append(c.ts, 0)
 		}
-		if d2 == 0 && onSegment(q1, q2, p2) {
+		if z2 && nearSegment(q1, q2, p2) {
 			c.ts = append(c.ts, 1)
 		}
-		if d3 == 0 && onSegment(p1, p2, q1) {
-			c.ts = append(c.ts, segParam(p1, p2, q1))
+		if z3 && nearSegment(p1, p2, q1) {
+			c.ts = append(c.ts, min(1, max(0, segParam(p1, p2, q1))))
 		}
-		if d4 == 0 && onSegment(p1, p2, q2) {
-			c.ts = append(c.ts, segParam(p1, p2, q2))
+		if z4 && nearSegment(p1, p2, q2) {
+			c.ts = append(c.ts, min(1, max(0, segParam(p1, p2, q2))))
 		}
 	}
 	in, out := false, false
