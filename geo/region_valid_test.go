@@ -318,7 +318,6 @@ func TestPrepareRegionRandomTriangles(t *testing.T) {
 			}
 		}
 	}
-	const tol = 1e-9
 	shift := func(r orb.Ring, dx float64) orb.Ring {
 		c := append(orb.Ring(nil), r...)
 		shiftRing(c, dx)
