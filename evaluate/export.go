@@ -97,17 +97,24 @@ func (s *Service) FileMeta(res *AreaResult) gdal.Meta {
 
 // EncodeRaster answers an export request as the bytes of the file.
 func (s *Service) EncodeRaster(ctx context.Context, req ExportRequest) ([]byte, *AreaResult, error) {
-	res, meta, err := s.Raster(ctx, req)
+	res, _, err := s.Raster(ctx, req)
 	if err != nil {
 		return nil, nil, err
 	}
-	var raw []byte
-	if req.Format == FormatCOG {
-		raw, err = gdal.EncodeCOG(res.Grids[0], meta)
-	} else {
-		raw, err = gdal.EncodeNetCDF(res.Grids[0], meta)
-	}
+	raw, err := s.EncodeFile(res, req.Format)
 	return raw, res, err
+}
+
+// EncodeFile encodes res's first parameter as a file of format (FormatCOG or FormatNetCDF)
+// with FileMeta's metadata.
+func (s *Service) EncodeFile(res *AreaResult, format string) ([]byte, error) {
+	switch format {
+	case FormatCOG:
+		return gdal.EncodeCOG(res.Grids[0], s.FileMeta(res))
+	case FormatNetCDF:
+		return gdal.EncodeNetCDF(res.Grids[0], s.FileMeta(res))
+	}
+	return nil, fault.New(fault.UnsupportedFormat, "f", "files are written as %s or %s, not %q", FormatCOG, FormatNetCDF, format)
 }
 
 // Export answers an export request as a file at path (written beside it and renamed into

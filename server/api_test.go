@@ -349,6 +349,43 @@ func TestAPI(t *testing.T) {
 					t.Errorf("%s histogram lacks edges%s", c.param, c.suffix)
 				}
 			}
+			// The region as a file: the same values as its CoverageJSON answer (the mean of the
+			// file's valid cells equals the unweighted mean of the coverage's values).
+			for _, f := range []struct{ f, magic string }{{"COG", "II*\x00"}, {"netcdf", "\x89HDF"}} {
+				file := e.get(ds + "/locations/" + demobasin.RegionID + "?parameter-name=residual_depth&resolution-x=0.1&resolution-y=0.1&f=" + f.f)
+				e.want(file, 200)
+				if !bytes.HasPrefix(file.Body, []byte(f.magic)) && !bytes.HasPrefix(file.Body, []byte("CDF")) {
+					t.Errorf("%s answer starts %q", f.f, file.Body[:8])
+				}
+				if cd := file.Header.Get("Content-Disposition"); !strings.Contains(cd, demobasin.RegionID+"-residual_depth") {
+					t.Errorf("%s Content-Disposition %q", f.f, cd)
+				}
+				path := filepath.Join(t.TempDir(), "region"+map[string]string{"COG": ".tif", "netcdf": ".nc"}[f.f])
+				os.WriteFile(path, file.Body, 0o644)
+				g, _, err := gdal.Read(path)
+				if err != nil {
+					t.Fatal(err)
+				}
+				values := r.json(t)["ranges"].(map[string]any)[PResidualDepth].(map[string]any)["values"].([]any)
+				var sumFile, sumCov float64
+				var nFile, nCov int
+				for _, v := range g.Data {
+					if v == v {
+						sumFile += float64(v)
+						nFile++
+					}
+				}
+				for _, v := range values {
+					if v != nil {
+						sumCov += num(t, v)
+						nCov++
+					}
+				}
+				// float32 storage in both answers: agreement to 1e-3 m (common practice, no source).
+				if nFile != nCov || math.Abs(sumFile/float64(nFile)-sumCov/float64(nCov)) > 1e-3 {
+					t.Errorf("%s: %d cells with mean %g; the coverage has %d with mean %g", f.f, nFile, sumFile/float64(nFile), nCov, sumCov/float64(nCov))
+				}
+			}
 			wantProblem(t, e.get(ds+"/locations/nope"), 404, CodeNotFound)
 		})
 

@@ -15,7 +15,6 @@ import (
 	"ridgeflank/evaluate"
 	"ridgeflank/fault"
 	"ridgeflank/geo"
-	"ridgeflank/geo/gdal"
 	"ridgeflank/store"
 	"ridgeflank/thermal"
 )
@@ -115,6 +114,35 @@ func parseResolution(r *http.Request, name string) (float64, error) {
 	return f, nil
 }
 
+// areaQuery is what area and location queries read from the request besides their geometry.
+type areaQuery struct {
+	resX, resY float64 // resolution-x, resolution-y (0: the grid's own)
+	format     outFormat
+	covType    string
+	options    evaluate.Options
+}
+
+// parseAreaQuery reads resolution-x/-y, the format and the query options; files and pictures
+// answer exactly one parameter.
+func parseAreaQuery(r *http.Request) (areaQuery, error) {
+	var q areaQuery
+	var err error
+	if q.resX, err = parseResolution(r, "resolution-x"); err != nil {
+		return q, err
+	}
+	if q.resY, err = parseResolution(r, "resolution-y"); err != nil {
+		return q, err
+	}
+	if q.format, q.covType, err = negotiate(r, fmtCovJSON, fmtCSV, fmtCOG, fmtNetCDF, fmtPNG); err != nil {
+		return q, err
+	}
+	q.options = queryOptions(r)
+	if (q.format == fmtCOG || q.format == fmtNetCDF || q.format == fmtPNG) && len(q.options.Parameters) != 1 {
+		return q, problem(CodeInvalidParameter, "%s answers one parameter: give exactly one parameter-name", formatNames[q.format]).withParam("parameter-name")
+	}
+	return q, nil
+}
+
 func (s *server) area(w http.ResponseWriter, r *http.Request) error {
 	id := chi.URLParam(r, "datasetId")
 	coords := strings.TrimSpace(r.URL.Query().Get("coords"))
@@ -132,22 +160,11 @@ func (s *server) area(w http.ResponseWriter, r *http.Request) error {
 	if err != nil {
 		return err
 	}
-	resX, err := parseResolution(r, "resolution-x")
+	q, err := parseAreaQuery(r)
 	if err != nil {
 		return err
 	}
-	resY, err := parseResolution(r, "resolution-y")
-	if err != nil {
-		return err
-	}
-	format, covType, err := negotiate(r, fmtCovJSON, fmtCSV, fmtCOG, fmtNetCDF, fmtPNG)
-	if err != nil {
-		return err
-	}
-	o := queryOptions(r)
-	if (format == fmtCOG || format == fmtNetCDF || format == fmtPNG) && len(o.Parameters) != 1 {
-		return problem(CodeInvalidParameter, "%s answers one parameter: give exactly one parameter-name", formatNames[format]).withParam("parameter-name")
-	}
+	resX, resY, format, covType, o := q.resX, q.resY, q.format, q.covType, q.options
 	if format == fmtCOG || format == fmtNetCDF {
 		req := evaluate.ExportRequest{Dataset: id, Options: o, Coords: coords, ResX: resX, ResY: resY, Format: evaluate.FormatCOG,
 			Filename: id + "-area-" + o.Parameters[0] + ".tif"}
@@ -302,43 +319,27 @@ func (s *server) locationsList(w http.ResponseWriter, r *http.Request) error {
 // the region (as an area query) with area-weighted statistics per parameter.
 func (s *server) location(w http.ResponseWriter, r *http.Request) error {
 	id := chi.URLParam(r, "datasetId")
-	resX, err := parseResolution(r, "resolution-x")
+	q, err := parseAreaQuery(r)
 	if err != nil {
 		return err
 	}
-	resY, err := parseResolution(r, "resolution-y")
-	if err != nil {
-		return err
-	}
-	format, covType, err := negotiate(r, fmtCovJSON, fmtCSV, fmtCOG, fmtNetCDF, fmtPNG)
-	if err != nil {
-		return err
-	}
-	o := queryOptions(r)
-	if (format == fmtCOG || format == fmtNetCDF || format == fmtPNG) && len(o.Parameters) != 1 {
-		return problem(CodeInvalidParameter, "%s answers one parameter: give exactly one parameter-name", formatNames[format]).withParam("parameter-name")
-	}
+	resX, resY, format, covType, o := q.resX, q.resY, q.format, q.covType, q.options
 	res, rg, err := s.ev.Region(r.Context(), id, chi.URLParam(r, "regionId"), o, resX, resY)
 	if err != nil {
 		return err
 	}
 	if format == fmtCOG || format == fmtNetCDF {
-		meta := s.ev.FileMeta(res)
-		var raw []byte
 		p := res.Query.Params[0]
-		if format == fmtCOG {
-			raw, err = gdal.EncodeCOG(res.Grids[0], meta)
-			w.Header().Set("Content-Type", MediaCOG)
-			w.Header().Set("Content-Disposition", `attachment; filename="`+id+"-"+rg.ID+"-"+p.ID+`.tif"`)
-		} else {
-			raw, err = gdal.EncodeNetCDF(res.Grids[0], meta)
-			w.Header().Set("Content-Type", MediaNetCDF)
-			w.Header().Set("Content-Disposition", `attachment; filename="`+id+"-"+rg.ID+"-"+p.ID+`.nc"`)
+		file, media, ext := evaluate.FormatCOG, MediaCOG, ".tif"
+		if format == fmtNetCDF {
+			file, media, ext = evaluate.FormatNetCDF, MediaNetCDF, ".nc"
 		}
+		raw, err := s.ev.EncodeFile(res, file)
 		if err != nil {
-			w.Header().Del("Content-Disposition")
 			return err
 		}
+		w.Header().Set("Content-Type", media)
+		w.Header().Set("Content-Disposition", `attachment; filename="`+id+"-"+rg.ID+"-"+p.ID+ext+`"`)
 		setProvenance(w, s.ev.Provenance(res.Query))
 		_, err = w.Write(raw)
 		return err
