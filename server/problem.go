@@ -93,7 +93,7 @@ func init() {
 		{Code: CodeBadRequest, Status: 400, Title: "Bad request"},
 		{Code: CodeInvalidCoords, Status: 400, Title: "Malformed coords (WKT)"},
 		{Code: CodeInvalidGeoJSON, Status: 400, Title: "Malformed GeoJSON"},
-		{Code: CodeInvalidParameter, Status: 400, Title: "Invalid query parameter"},
+		{Code: CodeInvalidParameter, Status: 400, Title: "Invalid parameter or form field"},
 		{Code: CodeUnknownParameter, Status: 400, Title: "Unknown parameter-name"},
 		{Code: CodeUnknownModel, Status: 400, Title: "Unknown cooling model"},
 		{Code: CodeUnknownSediment, Status: 400, Title: "Unknown sediment compaction set"},
