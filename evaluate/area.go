@@ -167,19 +167,6 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 	fl := newFlagger(q.Params)
 	want := q.outputs()
 	needCorr := fl.need&(inCorr) != 0 && d.Depth != nil && want&(geo.OutCorrectedDepth|geo.OutResidualDepth) != 0
-	if needCorr {
-		want |= geo.OutCorrectedDepth
-	}
-	var ev *geo.Result
-	if want != 0 {
-		in := geo.Inputs{Age: ageW, Model: q.Model, Compaction: q.Sediment, Mask: mask}
-		if needCorr {
-			in.Depth, in.DepthSense, in.Sediment, in.Crust = depthW, d.DepthSense, sedW, crustW
-		}
-		if ev, err = geo.Evaluate(ctx, in, want); err != nil {
-			return nil, err
-		}
-	}
 	// The inputs on the output lattice, for the answers and the plausibility checks.
 	var obsL, sedL, crustL *geo.Grid
 	if depthW != nil && fl.need&inObs != 0 {
@@ -191,6 +178,19 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 	}
 	if crustW != nil && fl.need&inCrust != 0 && needCorr {
 		crustL = sampleOnto(ageW, crustW)
+	}
+	if needCorr && corrCanExceed(obsL, sedL, crustW != nil) {
+		want |= geo.OutCorrectedDepth
+	}
+	var ev *geo.Result
+	if want != 0 {
+		in := geo.Inputs{Age: ageW, Model: q.Model, Compaction: q.Sediment, Mask: mask}
+		if needCorr {
+			in.Depth, in.DepthSense, in.Sediment, in.Crust = depthW, d.DepthSense, sedW, crustW
+		}
+		if ev, err = geo.Evaluate(ctx, in, want); err != nil {
+			return nil, err
+		}
 	}
 	res := &AreaResult{Query: q, Region: r, Lattice: ageW, Mask: mask}
 	for _, p := range q.Params {

@@ -5,6 +5,7 @@ import (
 	"math"
 	"sort"
 
+	"ridgeflank/geo"
 	"ridgeflank/thermal"
 )
 
@@ -151,3 +152,31 @@ func (f *flagger) flags() []Flag {
 var nan = math.NaN()
 
 var ageRangeReason = fmt.Sprintf("seafloor age beyond the model's range (0 to %g Ma)", MaxAgeMa)
+
+// corrCanExceed reports whether a corrected depth beyond MaxDepthM can occur over the cells of
+// obs (observed depth, m positive down) and sed (sediment thickness, m), so that corrected
+// depth must be computed for the check. Without a crustal-thickness grid the corrected depth is
+// at most observed + sediment thickness: the unloading correction S·(ρm − ρs)/(ρm − ρw) is less
+// than S because the sediment is denser than water (Airy isostasy; Sclater & Christie 1980).
+// With a crustal-thickness grid, whose correction may have either sign, it is always computed.
+// A nil obs means the check cannot find a cause; a nil sed counts as no sediment.
+func corrCanExceed(obs, sed *geo.Grid, crust bool) bool {
+	if crust {
+		return true
+	}
+	if obs == nil {
+		return false
+	}
+	for k, o := range obs.Data {
+		v := float64(o)
+		if sed != nil {
+			if s := float64(sed.Data[k]); s > 0 {
+				v += s
+			}
+		}
+		if v > MaxDepthM {
+			return true
+		}
+	}
+	return false
+}

@@ -3,6 +3,9 @@ package evaluate
 import (
 	"math"
 	"testing"
+
+	"ridgeflank/geo"
+	"ridgeflank/thermal"
 )
 
 // The plausibility thresholds (common practice, no source: seafloor no deeper than 12 km,
@@ -50,6 +53,53 @@ func TestFlaggerRefusesDependents(t *testing.T) {
 				if fl.Input != c.input || fl.Count != 1 {
 					t.Errorf("flag %+v, want input %q count 1", fl, c.input)
 				}
+			}
+		})
+	}
+}
+
+// corrCanExceed skips computing corrected depth only where it cannot pass 12 km: its premise is
+// that the sediment unloading correction is less than the sediment thickness, checked here for
+// every compaction set and both mantle densities in use (3300 kg/m³ half-space, 3330 kg/m³
+// PSM/GDH1; Parsons & Sclater 1977, Stein & Stein 1992) over 0–20 km of sediment.
+func TestCorrCanExceed(t *testing.T) {
+	for _, name := range thermal.CompactionNames() {
+		c, _ := thermal.CompactionByName(name)
+		for _, rhoM := range []float64{3300, 3330} {
+			sc, err := thermal.NewSedimentCorrector(c, rhoM, 1000)
+			if err != nil {
+				t.Fatal(err)
+			}
+			for s := 1.0; s <= MaxSedimentM; s *= 1.5 {
+				if corr := sc.CorrectionM(s); !(corr > 0 && corr < s) {
+					t.Errorf("%s, ρm %g: correction of %g m of sediment is %g m, not within (0, %g)", name, rhoM, s, corr, s)
+				}
+			}
+		}
+	}
+	grid := func(v ...float32) *geo.Grid {
+		g := geo.NewGrid(len(v), 1, 0, 0, 1, 1, geo.CellCentre)
+		copy(g.Data, v)
+		return g
+	}
+	nan := float32(math.NaN())
+	for _, c := range []struct {
+		name     string
+		obs, sed *geo.Grid
+		crust    bool
+		want     bool
+	}{
+		{"shallow with sediment", grid(5000, 9000), grid(500, 2500), false, false},
+		{"deep plus sediment passes 12 km", grid(5000, 11000), grid(500, 1500), false, true},
+		{"observed alone beyond 12 km", grid(12500), nil, false, true},
+		{"no data", grid(nan), grid(nan), false, false},
+		{"negative sediment does not count", grid(11900), grid(-500), false, false},
+		{"a crust grid always computes", grid(100), nil, true, true},
+		{"no depth grid", nil, grid(30000), false, false},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			if got := corrCanExceed(c.obs, c.sed, c.crust); got != c.want {
+				t.Errorf("corrCanExceed = %v, want %v", got, c.want)
 			}
 		})
 	}

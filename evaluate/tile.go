@@ -146,7 +146,6 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 		want := p.Output
 		in := geo.Inputs{Age: win, Model: q.Model, Compaction: q.Sediment, Workers: 1}
 		if p.NeedsDepth {
-			want |= geo.OutCorrectedDepth
 			in.DepthSense = d.DepthSense
 			if in.Depth, err = ov(d.Depth, PObservedDepth); err != nil {
 				return nil, 0, err
@@ -160,6 +159,9 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 			if in.Crust != nil {
 				crustL = windowOnto(win, in.Crust, bound)
 			}
+		}
+		if p.NeedsDepth && corrCanExceed(obsL, sedL, in.Crust != nil) {
+			want |= geo.OutCorrectedDepth
 		}
 		res, err := geo.Evaluate(ctx, in, want)
 		if err != nil {
@@ -228,7 +230,14 @@ func (p *Paint) set(px []uint8, v float64) {
 		return
 	}
 	t := p.b.Position(v)
-	k := int(math.Round(math.Max(0, math.Min(1, t)) * 255))
+	// Clamp to [0, 1] with comparisons (math.Min/Max handle signed zeros and NaN through a
+	// call that costs more than the rest of the pixel).
+	if !(t > 0) {
+		t = 0
+	} else if t > 1 {
+		t = 1
+	}
+	k := int(math.Round(t * 255))
 	c := p.pal[k]
 	px[0], px[1], px[2], px[3] = c.R, c.G, c.B, c.A
 }
