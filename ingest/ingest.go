@@ -137,10 +137,11 @@ func (r Request) Check() error {
 // or other content under r.ID, is a fault.Conflict with Field "id".
 //
 // The grid is never held in memory: one pass reads it in blocks of whole rows (at most
-// gdal.DefaultStreamBlockBytes each, at least 16 rows), converts, checks and digests each block
-// and writes it to a compressed staging GeoTIFF in the system's temporary directory, and the
-// COG is then built from that file by GDAL within its block cache (gdal.COGStream). No size
-// limit applies. The cost of the single pass is the staging file: it is written even when the
+// gdal.DefaultStreamBlockBytes each, at least 16 rows; two blocks in memory, as GDAL reads the
+// next while the last is worked on), converts, checks and digests each block and writes it to
+// a compressed staging GeoTIFF in the system's temporary directory, and the COG is then built
+// from that file by GDAL within its block cache (gdal.COGStream, GDAL_CACHEMAX). No size limit
+// applies. The cost of the single pass is the staging file: it is written even when the
 // values are then refused or the grid is already stored, and it needs free space in TMPDIR of
 // about the grid's compressed size.
 //
@@ -193,27 +194,28 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 		return Result{}, err
 	}
 	defer cogw.Close()
-	rows := cogw.BlockRows()
-	blk := make([]float32, rows*g.NX)
+	// GDAL reads the next block while this one is converted, checked and staged.
+	blocks, stopReading := readBlocks(d, g.NX, g.NY, cogw.BlockRows())
+	defer stopReading()
 	var stats Stats
 	dig := newDigest()
-	for row := 0; row < g.NY; row += rows {
+	for b := range blocks {
 		if err := ctx.Err(); err != nil {
 			return Result{}, err
 		}
-		n := min(rows, g.NY-row)
-		b := blk[:n*g.NX]
-		if err := d.ReadRows(row, b); err != nil {
-			return Result{}, readFault(name, err)
+		if b.err != nil {
+			return Result{}, readFault(name, b.err)
 		}
-		prepare(b, factor)
-		stats.Add(b)
-		dig.add(b)
-		if err := cogw.WriteRows(row, b); err != nil {
+		prepare(b.data, factor)
+		stats.Add(b.data)
+		dig.add(b.data)
+		if err := cogw.WriteRows(b.row, b.data); err != nil {
 			return Result{}, err
 		}
-		progress(0.05+0.5*float64(row+n)/float64(g.NY), "reading and checking values")
+		b.release()
+		progress(0.05+0.5*float64(b.row+b.n)/float64(g.NY), "reading and checking values")
 	}
+	stopReading()
 	if err := d.Close(); err != nil {
 		return Result{}, readFault(name, err)
 	}
@@ -292,6 +294,57 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 	res.Grid, res.Created = got, created
 	progress(1, "stored")
 	return res, nil
+}
+
+// rowBlock is one block of rows read by readBlocks; release hands its buffer back.
+type rowBlock struct {
+	row, n  int
+	data    []float32
+	err     error
+	release func()
+}
+
+// readBlocks reads d in blocks of rows (the last may be shorter) on a goroutine of its own,
+// with two buffers, so that reading overlaps the caller's work on the previous block. The
+// channel closes after the last block or the first failed one. stop (idempotent) ends the
+// reading and waits for the goroutine; call it before closing d.
+func readBlocks(d *gdal.Dataset, nx, ny, rows int) (<-chan rowBlock, func()) {
+	free := make(chan []float32, 2)
+	free <- make([]float32, rows*nx)
+	free <- make([]float32, rows*nx)
+	out := make(chan rowBlock)
+	quit, done := make(chan struct{}), make(chan struct{})
+	go func() {
+		defer close(done)
+		defer close(out)
+		for row := 0; row < ny; row += rows {
+			var buf []float32
+			select {
+			case buf = <-free:
+			case <-quit:
+				return
+			}
+			n := min(rows, ny-row)
+			err := d.ReadRows(row, buf[:n*nx])
+			b := rowBlock{row: row, n: n, data: buf[:n*nx], err: err, release: func() { free <- buf }}
+			select {
+			case out <- b:
+			case <-quit:
+				return
+			}
+			if err != nil {
+				return
+			}
+		}
+	}()
+	var once bool
+	return out, func() {
+		if !once {
+			once = true
+			close(quit)
+			<-done
+		}
+	}
 }
 
 func idTaken(id string) error {
