@@ -11,6 +11,7 @@ import (
 	"math"
 	"path/filepath"
 	"strings"
+	"unsafe"
 
 	"github.com/paulmach/orb"
 
@@ -452,8 +453,16 @@ type digest struct {
 
 func newDigest() *digest { return &digest{h: sha256.New(), buf: make([]byte, 4<<10)} }
 
-// add hashes the values' little-endian bytes, through a small buffer of its own.
+// littleEndian: float32 values in memory are already the bytes the digest hashes.
+var littleEndian = binary.NativeEndian.Uint16([]byte{1, 0}) == 1
+
+// add hashes the values' little-endian bytes (in place on little-endian machines, else
+// through a small buffer of its own).
 func (d *digest) add(blk []float32) {
+	if littleEndian && len(blk) > 0 {
+		d.h.Write(unsafe.Slice((*byte)(unsafe.Pointer(&blk[0])), 4*len(blk)))
+		return
+	}
 	for len(blk) > 0 {
 		n := min(len(blk), len(d.buf)/4)
 		for i, v := range blk[:n] {
