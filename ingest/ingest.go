@@ -146,9 +146,11 @@ func (r Request) Check() error {
 // values are then refused or the grid is already stored, and it needs free space in TMPDIR of
 // about the grid's compressed size.
 //
-// progress (may be nil) receives fractions in [0, 1] with a short message. Bad input is a
-// *fault.Error (InvalidParameter, InvalidGrid, LimitExceeded, Conflict); other errors are
-// failures of the store or the disk, which a retry may fix.
+// progress (may be nil) receives fractions in [0, 1] with a short message: the first half
+// follows the blocks read, the second GDAL's building of the COG. Calls never overlap, but
+// those during the COG step come from another goroutine. Bad input is a *fault.Error
+// (InvalidParameter, InvalidGrid, Conflict); other errors are failures of the store or the
+// disk, which a retry may fix.
 func Import(ctx context.Context, st store.Store, r Request, progress func(fraction float64, message string)) (Result, error) {
 	if progress == nil {
 		progress = func(float64, string) {}
