@@ -8,6 +8,7 @@ import (
 	"os"
 	"path/filepath"
 	"testing"
+	"time"
 
 	"ridgeflank/geo"
 )
@@ -202,4 +203,32 @@ func TestTranslateCOG(t *testing.T) {
 	}
 	sameHeader(t, back, g)
 	sameData(t, back, g)
+}
+
+// TestCOGStreamCancelledDuringCopy: cancelling the context while GDAL builds the COG stops it
+// with the context's error and leaves no file. The 4000×2000 grid takes far longer than the
+// 30 ms before the cancellation (about a second on this project's machine).
+func TestCOGStreamCancelledDuringCopy(t *testing.T) {
+	dir := t.TempDir()
+	g := streamGrid(4000, 2000, geo.CellCentre)
+	s, err := NewCOGStream(*g, StreamOptions{StageDir: dir})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	for row := 0; row < g.NY; row += s.BlockRows() {
+		n := min(s.BlockRows(), g.NY-row)
+		if err := s.WriteRows(row, g.Data[row*g.NX:(row+n)*g.NX]); err != nil {
+			t.Fatal(err)
+		}
+	}
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Millisecond)
+	defer cancel()
+	out := filepath.Join(dir, "out.tif")
+	if err := s.Finish(ctx, out, Meta{}, nil); !errors.Is(err, context.DeadlineExceeded) {
+		t.Fatalf("finish cancelled during the copy: %v, want context.DeadlineExceeded", err)
+	}
+	if left, _ := filepath.Glob(filepath.Join(dir, "*out.tif*")); len(left) > 0 {
+		t.Fatalf("files left: %v", left)
+	}
 }
