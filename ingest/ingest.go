@@ -11,6 +11,7 @@ import (
 	"math"
 	"path/filepath"
 	"strings"
+	"unsafe"
 
 	"github.com/paulmach/orb"
 
@@ -20,12 +21,9 @@ import (
 	"ridgeflank/store"
 )
 
-// MaxCells is the largest grid an import reads (gdal.DefaultMaxCells: 2²⁸ cells, 1 GiB of
-// float32); larger files are refused with a limit-exceeded fault named "max_grid_cells".
-const MaxCells = gdal.DefaultMaxCells
-
-// blockRows is the number of rows read, converted and checked at a time.
-const blockRows = 256
+// blockBytes bounds the rows read, converted, checked and written at a time (see
+// gdal.StreamOptions.BlockBytes); tests lower it.
+var blockBytes = gdal.DefaultStreamBlockBytes
 
 // Request is one import: the file and what the caller declares about it. Every way in (command
 // line, upload job, demo installer) fills one and calls Import; only Name, Provenance and
@@ -139,9 +137,20 @@ func (r Request) Check() error {
 // r.ID is returned with Created false (a retried import); the same content under another id,
 // or other content under r.ID, is a fault.Conflict with Field "id".
 //
-// progress (may be nil) receives fractions in [0, 1] with a short message. Bad input is a
-// *fault.Error (InvalidParameter, InvalidGrid, LimitExceeded, Conflict); other errors are
-// failures of the store or the disk, which a retry may fix.
+// The grid is never held in memory: one pass reads it in blocks of whole rows (at most
+// gdal.DefaultStreamBlockBytes each, at least 16 rows; two blocks in memory, as GDAL reads the
+// next while the last is worked on), converts, checks and digests each block and writes it to
+// a compressed staging GeoTIFF in the system's temporary directory, and the COG is then built
+// from that file by GDAL within its block cache (gdal.COGStream, GDAL_CACHEMAX). No size limit
+// applies. The cost of the single pass is the staging file: it is written even when the
+// values are then refused or the grid is already stored, and it needs free space in TMPDIR of
+// about the grid's compressed size.
+//
+// progress (may be nil) receives fractions in [0, 1] with a short message: the first half
+// follows the blocks read, the second GDAL's building of the COG. Calls never overlap, but
+// those during the COG step come from another goroutine. Bad input is a *fault.Error
+// (InvalidParameter, InvalidGrid, Conflict); other errors are failures of the store or the
+// disk, which a retry may fix.
 func Import(ctx context.Context, st store.Store, r Request, progress func(fraction float64, message string)) (Result, error) {
 	if progress == nil {
 		progress = func(float64, string) {}
@@ -159,10 +168,6 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 	defer d.Close()
 	g, meta := d.Header(), d.Meta()
 	g.West, g.North, g.DX, g.DY = snap(g.West), snap(g.North), snap(g.DX), snap(g.DY)
-	if cells := int64(g.NX) * int64(g.NY); cells > MaxCells {
-		return Result{}, fault.Over("max_grid_cells", MaxCells, cells, "file",
-			"%s has %d × %d cells, more than the %d an import reads", name, g.NX, g.NY, MaxCells)
-	}
 	var res Result
 
 	// Units: the request's declaration, else the file's, else the kind's own.
@@ -185,24 +190,35 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 		res.Notes = append(res.Notes, fmt.Sprintf("values converted from %s to %s", declared, unit))
 	}
 
-	// One pass: read, convert, canonicalise no-data, accumulate statistics and the content digest.
-	g.Data = make([]float32, g.NX*g.NY)
+	// One pass: read, convert, canonicalise no-data, accumulate statistics and the content
+	// digest, and stage the block for the COG.
+	cogw, err := gdal.NewCOGStream(g, gdal.StreamOptions{BlockBytes: blockBytes})
+	if err != nil {
+		return Result{}, err
+	}
+	defer cogw.Close()
+	// GDAL reads the next block while this one is converted, checked and staged.
+	blocks, stopReading := readBlocks(d, g.NX, g.NY, cogw.BlockRows())
+	defer stopReading()
 	var stats Stats
 	dig := newDigest()
-	for row := 0; row < g.NY; row += blockRows {
+	for b := range blocks {
 		if err := ctx.Err(); err != nil {
 			return Result{}, err
 		}
-		n := min(blockRows, g.NY-row)
-		blk := g.Data[row*g.NX : (row+n)*g.NX]
-		if err := d.ReadRows(row, blk); err != nil {
-			return Result{}, readFault(name, err)
+		if b.err != nil {
+			return Result{}, readFault(name, b.err)
 		}
-		prepare(blk, factor)
-		stats.Add(blk)
-		dig.add(blk)
-		progress(0.05+0.5*float64(row+n)/float64(g.NY), "reading and checking values")
+		prepare(b.data, factor)
+		stats.Add(b.data)
+		dig.add(b.data)
+		if err := cogw.WriteRows(b.row, b.data); err != nil {
+			return Result{}, err
+		}
+		b.release()
+		progress(0.05+0.5*float64(b.row+b.n)/float64(g.NY), "reading and checking values")
 	}
+	stopReading()
 	if err := d.Close(); err != nil {
 		return Result{}, readFault(name, err)
 	}
@@ -258,7 +274,9 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 	// The file's metadata: exactly what the content id covers, nothing that differs between
 	// ways in (no name, title, source, file name or time).
 	cog := gdal.Meta{Name: string(kind), Units: unit, Sense: sense, Metadata: map[string]string{"kind": string(kind)}}
-	got, created, err := st.ImportGrid(ctx, row, func(tmp string) error { return gdal.WriteCOG(tmp, &g, cog) })
+	got, created, err := st.ImportGrid(ctx, row, func(tmp string) error {
+		return cogw.Finish(ctx, tmp, cog, func(f float64) { progress(0.6+0.39*f, "writing cloud-optimized GeoTIFF") })
+	})
 	switch {
 	case errors.Is(err, store.ErrConflict) && r.ID != "":
 		return Result{}, idTaken(r.ID)
@@ -279,6 +297,57 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 	res.Grid, res.Created = got, created
 	progress(1, "stored")
 	return res, nil
+}
+
+// rowBlock is one block of rows read by readBlocks; release hands its buffer back.
+type rowBlock struct {
+	row, n  int
+	data    []float32
+	err     error
+	release func()
+}
+
+// readBlocks reads d in blocks of rows (the last may be shorter) on a goroutine of its own,
+// with two buffers, so that reading overlaps the caller's work on the previous block. The
+// channel closes after the last block or the first failed one. stop (idempotent) ends the
+// reading and waits for the goroutine; call it before closing d.
+func readBlocks(d *gdal.Dataset, nx, ny, rows int) (<-chan rowBlock, func()) {
+	free := make(chan []float32, 2)
+	free <- make([]float32, rows*nx)
+	free <- make([]float32, rows*nx)
+	out := make(chan rowBlock)
+	quit, done := make(chan struct{}), make(chan struct{})
+	go func() {
+		defer close(done)
+		defer close(out)
+		for row := 0; row < ny; row += rows {
+			var buf []float32
+			select {
+			case buf = <-free:
+			case <-quit:
+				return
+			}
+			n := min(rows, ny-row)
+			err := d.ReadRows(row, buf[:n*nx])
+			b := rowBlock{row: row, n: n, data: buf[:n*nx], err: err, release: func() { free <- buf }}
+			select {
+			case out <- b:
+			case <-quit:
+				return
+			}
+			if err != nil {
+				return
+			}
+		}
+	}()
+	var once bool
+	return out, func() {
+		if !once {
+			once = true
+			close(quit)
+			<-done
+		}
+	}
 }
 
 func idTaken(id string) error {
@@ -379,16 +448,31 @@ func senseText(s geo.VerticalSense) string {
 }
 
 // digest hashes a grid's values block by block, in row order.
-type digest struct{ h hash.Hash }
+type digest struct {
+	h   hash.Hash
+	buf []byte
+}
 
-func newDigest() *digest { return &digest{h: sha256.New()} }
+func newDigest() *digest { return &digest{h: sha256.New(), buf: make([]byte, 4<<10)} }
 
+// littleEndian: float32 values in memory are already the bytes the digest hashes.
+var littleEndian = binary.NativeEndian.Uint16([]byte{1, 0}) == 1
+
+// add hashes the values' little-endian bytes (in place on little-endian machines, else
+// through a small buffer of its own).
 func (d *digest) add(blk []float32) {
-	buf := make([]byte, 4*len(blk))
-	for i, v := range blk {
-		binary.LittleEndian.PutUint32(buf[4*i:], math.Float32bits(v))
+	if littleEndian && len(blk) > 0 {
+		d.h.Write(unsafe.Slice((*byte)(unsafe.Pointer(&blk[0])), 4*len(blk)))
+		return
 	}
-	d.h.Write(buf)
+	for len(blk) > 0 {
+		n := min(len(blk), len(d.buf)/4)
+		for i, v := range blk[:n] {
+			binary.LittleEndian.PutUint32(d.buf[4*i:], math.Float32bits(v))
+		}
+		d.h.Write(d.buf[:4*n])
+		blk = blk[n:]
+	}
 }
 
 // id is ContentID from the values' digest and the description.

@@ -38,6 +38,10 @@ and bathymetry), and values no grid of KIND can hold (negative ages or
 thicknesses, ages beyond 400 Ma, sediment over 20 km, crust over 100 km,
 bathymetry beyond 12 km) are refused.
 
+Grids of any size are imported in bounded memory (a few hundred MB): the file
+is read in blocks of rows and staged in the temporary directory (TMPDIR),
+which needs free space for about the grid's compressed size.
+
 A progress bar is shown on stderr when it is a terminal.
 
 Examples:

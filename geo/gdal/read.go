@@ -26,7 +26,8 @@ import (
 )
 
 // DefaultMaxCells is the largest grid Read loads into memory unless ReadOptions.MaxCells says
-// otherwise: 2²⁸ cells (1 GiB of float32). Use Open and ReadRows to stream larger files.
+// otherwise: 2²⁸ cells (1 GiB of float32). Use Open and ReadRows to stream larger files (and
+// COGStream to write them).
 const DefaultMaxCells = 1 << 28
 
 // Errors callers can test with errors.Is.

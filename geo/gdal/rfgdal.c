@@ -273,3 +273,161 @@ int rf_geod_line(double lat1, double lon1, double lat2, double lon2, double spac
 	}
 	return (int)n;
 }
+
+/* ---- streaming COG writer ---- */
+
+static OGRSpatialReferenceH rf_wgs84_srs(void) {
+	OGRSpatialReferenceH srs = OSRNewSpatialReference(NULL);
+	OSRImportFromEPSG(srs, 4326);
+	OSRSetAxisMappingStrategy(srs, OAMS_TRADITIONAL_GIS_ORDER);
+	return srs;
+}
+
+/* Creates the staging GeoTIFF: float32, tiles of bx×by, no-data NaN, EPSG:4326, geotransform gt. */
+GDALDatasetH rf_stage_create(const char *path, int nx, int ny, int bx, int by, const double *gt, char **copts, rf_err *e) {
+	RF_BEGIN(e);
+	GDALDatasetH ds = NULL;
+	GDALDriverH drv = GDALGetDriverByName("GTiff");
+	if (drv == NULL) {
+		rf_fail(e, "GDAL driver GTiff not available");
+		goto done;
+	}
+	char **o = CSLDuplicate(copts);
+	o = CSLSetNameValue(o, "TILED", "YES");
+	char num[32];
+	snprintf(num, sizeof num, "%d", bx);
+	o = CSLSetNameValue(o, "BLOCKXSIZE", num);
+	snprintf(num, sizeof num, "%d", by);
+	o = CSLSetNameValue(o, "BLOCKYSIZE", num);
+	ds = GDALCreate(drv, path, nx, ny, 1, GDT_Float32, o);
+	CSLDestroy(o);
+	if (ds == NULL) {
+		if (e->failed == 0) rf_fail(e, "GDAL could not create the staging file");
+		goto done;
+	}
+	GDALSetGeoTransform(ds, (double *)gt);
+	OGRSpatialReferenceH srs = rf_wgs84_srs();
+	GDALSetSpatialRef(ds, srs);
+	OSRDestroySpatialReference(srs);
+	GDALSetRasterNoDataValue(GDALGetRasterBand(ds, 1), NAN);
+	if (e->failed) {
+		GDALClose(ds);
+		ds = NULL;
+	}
+done:
+	RF_END();
+	return ds;
+}
+
+/* Writes nrows whole rows (row0 a multiple of the tile height, nrows the tile height except at
+   the bottom) tile by tile with GDALWriteBlock, so that GDAL's block cache never holds a
+   partial tile; tile holds one bx×by tile. Cells outside the raster are padded with NaN. */
+int rf_stage_write(GDALDatasetH ds, int row0, int nrows, int nx, const float *rows, float *tile, rf_err *e) {
+	RF_BEGIN(e);
+	int ok = 0;
+	GDALRasterBandH b = GDALGetRasterBand(ds, 1);
+	int bx = 0, by = 0;
+	GDALGetBlockSize(b, &bx, &by);
+	if (by <= 0 || row0 % by != 0 || nrows > by) {
+		rf_fail(e, "staging write is not aligned to the tiles");
+		goto done;
+	}
+	int ty = row0 / by;
+	for (int tx = 0; tx * bx < nx; tx++) {
+		int x0 = tx * bx;
+		int w = nx - x0 < bx ? nx - x0 : bx;
+		for (int r = 0; r < by; r++) {
+			float *dst = tile + (size_t)r * bx;
+			if (r < nrows) {
+				memcpy(dst, rows + (size_t)r * nx + x0, (size_t)w * sizeof(float));
+				for (int c = w; c < bx; c++) dst[c] = NAN;
+			} else {
+				for (int c = 0; c < bx; c++) dst[c] = NAN;
+			}
+		}
+		if (GDALWriteBlock(b, tx, ty, tile) != CE_None) {
+			if (e->failed == 0) rf_fail(e, "writing the staging file failed");
+			goto done;
+		}
+	}
+	ok = e->failed == 0;
+done:
+	RF_END();
+	return ok;
+}
+
+static int CPL_STDCALL rf_progress_fn(double f, const char *msg, void *arg) {
+	(void)msg;
+	rf_progress *p = (rf_progress *)arg;
+	if (p == NULL) return TRUE;
+	p->fraction = f;
+	return !p->cancel;
+}
+
+/* Records the metadata on the staging file, closes it, reopens it read-only and copies it to
+   dst with the COG driver. The staging handle is closed in every case. */
+int rf_stage_finish(GDALDatasetH stage, const char *stage_path, const char *dst, const char *units, const char *desc,
+                    char **ds_md, char **band_md, char **copts, rf_progress *p, rf_err *e) {
+	RF_BEGIN(e);
+	int ok = 0;
+	GDALDatasetH src = NULL, out = NULL;
+	GDALRasterBandH b = GDALGetRasterBand(stage, 1);
+	if (units != NULL && units[0] != 0) GDALSetRasterUnitType(b, units);
+	if (desc != NULL && desc[0] != 0) GDALSetDescription(b, desc);
+	if (band_md != NULL) GDALSetMetadata(b, band_md, NULL);
+	if (ds_md != NULL) GDALSetMetadata(stage, ds_md, NULL);
+	GDALClose(stage); /* flushes tiles and metadata; failures arrive through the handler */
+	if (e->failed) goto done;
+	src = GDALOpenEx(stage_path, GDAL_OF_RASTER | GDAL_OF_READONLY | GDAL_OF_VERBOSE_ERROR, NULL, NULL, NULL);
+	if (src == NULL) {
+		if (e->failed == 0) rf_fail(e, "GDAL cannot reopen the staging file");
+		goto done;
+	}
+	GDALDriverH drv = GDALGetDriverByName("COG");
+	if (drv == NULL) {
+		rf_fail(e, "GDAL driver COG not available");
+		goto done;
+	}
+	out = GDALCreateCopy(drv, dst, src, FALSE, copts, rf_progress_fn, p);
+	if (out != NULL) {
+		GDALClose(out);
+		ok = e->failed == 0;
+	} else if (e->failed == 0) {
+		rf_fail(e, p != NULL && p->cancel ? "cancelled" : "GDAL could not create the file");
+	}
+done:
+	if (src != NULL) GDALClose(src);
+	RF_END();
+	return ok;
+}
+
+/* GDALTranslate(src → dst) with command-line style options (the library form of the
+   translate tool). */
+int rf_translate(const char *src, const char *dst, char **argv, rf_progress *p, rf_err *e) {
+	RF_BEGIN(e);
+	int ok = 0;
+	GDALDatasetH in = GDALOpenEx(src, GDAL_OF_RASTER | GDAL_OF_READONLY | GDAL_OF_VERBOSE_ERROR, NULL, NULL, NULL);
+	if (in == NULL) {
+		if (e->failed == 0) rf_fail(e, "GDAL cannot open the file as a raster");
+		goto done;
+	}
+	GDALTranslateOptions *o = GDALTranslateOptionsNew(argv, NULL);
+	if (o == NULL) {
+		if (e->failed == 0) rf_fail(e, "bad translate options");
+		goto done;
+	}
+	GDALTranslateOptionsSetProgress(o, rf_progress_fn, p);
+	int usage = 0;
+	GDALDatasetH out = GDALTranslate(dst, in, o, &usage);
+	GDALTranslateOptionsFree(o);
+	if (out != NULL) {
+		GDALClose(out);
+		ok = e->failed == 0;
+	} else if (e->failed == 0) {
+		rf_fail(e, "translate failed");
+	}
+done:
+	if (in != NULL) GDALClose(in);
+	RF_END();
+	return ok;
+}

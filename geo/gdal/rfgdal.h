@@ -36,6 +36,17 @@ GDALDatasetH rf_warp_lonlat(GDALDatasetH src, rf_err *e);
 int rf_write(const char *driver, const char *path, float *data, int nx, int ny, const double *gt,
              int has_nodata, double nodata, const char *units, const char *desc, char **ds_md,
              char **band_md, char **copts, rf_err *e);
+/* Streaming COG writer: rows go block by block into a tiled staging GeoTIFF, which is then
+   copied to a COG. The progress struct is polled by Go (no callbacks into Go). */
+typedef struct {
+	volatile double fraction;
+	volatile int cancel;
+} rf_progress;
+GDALDatasetH rf_stage_create(const char *path, int nx, int ny, int bx, int by, const double *gt, char **copts, rf_err *e);
+int rf_stage_write(GDALDatasetH ds, int row0, int nrows, int nx, const float *rows, float *tile, rf_err *e);
+int rf_stage_finish(GDALDatasetH stage, const char *stage_path, const char *dst, const char *units, const char *desc,
+                    char **ds_md, char **band_md, char **copts, rf_progress *p, rf_err *e);
+int rf_translate(const char *src, const char *dst, char **argv, rf_progress *p, rf_err *e);
 unsigned char *rf_vsimem_take(const char *name, unsigned long long *len);
 
 /* PROJ geodesics (Karney 2013) on WGS84. */

@@ -112,24 +112,13 @@ func writeRaster(driver, path string, g *geo.Grid, m Meta) error {
 		return fmt.Errorf("write grid %s: %w", path, err)
 	}
 	netcdf := driver == "netCDF"
-	name := m.Name
-	if name == "" {
-		name = "z"
-	}
-	if netcdf && !ncNameRE.MatchString(name) {
-		return fmt.Errorf("write grid %s: variable name %q must be letters, digits and _ (not starting with a digit)", path, name)
-	}
-	// no-data
-	hasND := true
-	nd := math.NaN()
-	if m.NoData != nil {
-		nd = *m.NoData
-	} else if netcdf {
-		nd = NetCDFFillFloat
+	l, err := layoutOf(g, m, netcdf)
+	if err != nil {
+		return fmt.Errorf("write grid %s: %w", path, err)
 	}
 	data := g.Data
-	if !math.IsNaN(nd) {
-		nd32 := float32(nd)
+	if !math.IsNaN(l.nodata) {
+		nd32 := float32(l.nodata)
 		var cp []float32
 		for i, v := range data {
 			if v != v {
@@ -143,7 +132,69 @@ func writeRaster(driver, path string, g *geo.Grid, m Meta) error {
 			data = cp
 		}
 	}
-	gt := [6]C.double{C.double(g.West - g.DX/2), C.double(g.DX), 0, C.double(g.North + g.DY/2), 0, C.double(-g.DY)}
+	gt := geoTransform(g)
+	cDriver, cPath := C.CString(driver), C.CString(path)
+	cUnits, cDesc := C.CString(m.Units), C.CString(l.name)
+	defer C.free(unsafe.Pointer(cDriver))
+	defer C.free(unsafe.Pointer(cPath))
+	defer C.free(unsafe.Pointer(cUnits))
+	defer C.free(unsafe.Pointer(cDesc))
+	cds, cband, copt := cStrings(l.dsMD), cStrings(l.bandMD), cStrings(l.copts)
+	defer freeCStrings(cds)
+	defer freeCStrings(cband)
+	defer freeCStrings(copt)
+	if netcdf {
+		hdfMu.Lock()
+		defer hdfMu.Unlock()
+	}
+	var e C.rf_err
+	ok := C.rf_write(cDriver, cPath, (*C.float)(unsafe.Pointer(&data[0])), C.int(g.NX), C.int(g.NY), &gt[0],
+		1, C.double(l.nodata), cUnits, cDesc, cds, cband, copt, &e)
+	if ok == 0 {
+		if err := cErr(&e, "write grid "+path); err != nil {
+			return err
+		}
+		return fmt.Errorf("write grid %s: GDAL failed", path)
+	}
+	return nil
+}
+
+// geoTransform is g's GDAL geotransform: the outer corner of the first cell for every
+// registration (see Open), north up.
+func geoTransform(g *geo.Grid) [6]C.double {
+	return [6]C.double{C.double(g.West - g.DX/2), C.double(g.DX), 0, C.double(g.North + g.DY/2), 0, C.double(-g.DY)}
+}
+
+// cogOptions are the COG creation options of every COG this package writes.
+var cogOptions = []string{"COMPRESS=DEFLATE", "PREDICTOR=YES", "BLOCKSIZE=512", "BIGTIFF=IF_SAFER",
+	"NUM_THREADS=ALL_CPUS", "RESAMPLING=AVERAGE", "OVERVIEWS=AUTO"}
+
+// layout is what a writer records besides the values: the band name, the value stored for
+// NaN, dataset and band metadata items and the driver's creation options.
+type layout struct {
+	name         string
+	nodata       float64
+	dsMD, bandMD []string
+	copts        []string
+}
+
+// layoutOf builds the layout of g written with m as netCDF or as COG (see WriteCOG and
+// WriteNetCDF). Only the header of g is used.
+func layoutOf(g *geo.Grid, m Meta, netcdf bool) (layout, error) {
+	name := m.Name
+	if name == "" {
+		name = "z"
+	}
+	if netcdf && !ncNameRE.MatchString(name) {
+		return layout{}, fmt.Errorf("variable name %q must be letters, digits and _ (not starting with a digit)", name)
+	}
+	// no-data
+	nd := math.NaN()
+	if m.NoData != nil {
+		nd = *m.NoData
+	} else if netcdf {
+		nd = NetCDFFillFloat
+	}
 	history := strings.TrimRight(m.History, "\n")
 	line := "ridgeflank: written as " + map[bool]string{true: "CF netCDF", false: "COG"}[netcdf]
 	if !m.Written.IsZero() {
@@ -217,42 +268,12 @@ func writeRaster(driver, path string, g *geo.Grid, m Meta) error {
 			add(&dsMD, "AREA_OR_POINT", "Area")
 		}
 	}
-	var copts []string
+	copts := cogOptions
 	if netcdf {
 		copts = []string{"FORMAT=NC4C", "COMPRESS=DEFLATE", "ZLEVEL=4", "WRITE_BOTTOMUP=YES",
 			"WRITE_GDAL_HISTORY=NO", "WRITE_GDAL_VERSION=NO"}
-	} else {
-		copts = []string{"COMPRESS=DEFLATE", "PREDICTOR=YES", "BLOCKSIZE=512", "BIGTIFF=IF_SAFER",
-			"NUM_THREADS=ALL_CPUS", "RESAMPLING=AVERAGE", "OVERVIEWS=AUTO"}
 	}
-	cDriver, cPath := C.CString(driver), C.CString(path)
-	cUnits, cDesc := C.CString(m.Units), C.CString(name)
-	defer C.free(unsafe.Pointer(cDriver))
-	defer C.free(unsafe.Pointer(cPath))
-	defer C.free(unsafe.Pointer(cUnits))
-	defer C.free(unsafe.Pointer(cDesc))
-	cds, cband, copt := cStrings(dsMD), cStrings(bandMD), cStrings(copts)
-	defer freeCStrings(cds)
-	defer freeCStrings(cband)
-	defer freeCStrings(copt)
-	if netcdf {
-		hdfMu.Lock()
-		defer hdfMu.Unlock()
-	}
-	ndFlag := 0
-	if hasND {
-		ndFlag = 1
-	}
-	var e C.rf_err
-	ok := C.rf_write(cDriver, cPath, (*C.float)(unsafe.Pointer(&data[0])), C.int(g.NX), C.int(g.NY), &gt[0],
-		C.int(ndFlag), C.double(nd), cUnits, cDesc, cds, cband, copt, &e)
-	if ok == 0 {
-		if err := cErr(&e, "write grid "+path); err != nil {
-			return err
-		}
-		return fmt.Errorf("write grid %s: GDAL failed", path)
-	}
-	return nil
+	return layout{name: name, nodata: nd, dsMD: dsMD, bandMD: bandMD, copts: copts}, nil
 }
 
 func sortedKeys(m map[string]string) []string {
