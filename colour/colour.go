@@ -35,6 +35,7 @@ type Ramp struct {
 	Description string `json:"description"`
 	Stops       []Stop `json:"stops"`
 	lab         []lab
+	pal256      []color.NRGBA // Palette(256), made at start-up
 }
 
 // Binding ties a data parameter to a ramp and its default value range.
@@ -109,6 +110,7 @@ func init() {
 			}
 			r.lab[i] = toOKLab(c)
 		}
+		r.pal256 = r.Palette(256)
 	}
 }
 
@@ -157,6 +159,15 @@ func (r *Ramp) At(t float64) color.NRGBA {
 	return fromOKLab(lab{la.L + f*(lb.L-la.L), la.A + f*(lb.A-la.A), la.B + f*(lb.B-la.B)})
 }
 
+// Palette256 is Palette(256) of a ramp of this package, made once at start-up (callers must
+// not change it).
+func (r *Ramp) Palette256() []color.NRGBA {
+	if r.pal256 == nil {
+		return r.Palette(256)
+	}
+	return r.pal256
+}
+
 // Palette samples the ramp into n colours (n ≥ 2), evenly spaced from 0 to 1.
 func (r *Ramp) Palette(n int) []color.NRGBA {
 	if n < 2 {
@@ -169,24 +180,29 @@ func (r *Ramp) Palette(n int) []color.NRGBA {
 	return out
 }
 
-// Position maps a data value to [0, 1] for the binding's range. Diverging
-// ramps place Centre at 0.5 and scale both sides by the larger half-range, so
-// equal distances from the centre get equal colour strength.
+// Position maps a data value to [0, 1] for the binding's range: (v − lo)/span with Linear's lo
+// and span (0.5 for an empty range, NaN for NaN). Diverging ramps place Centre at 0.5 and
+// scale both sides by the larger half-range, so equal distances from the centre get equal
+// colour strength.
 func (b Binding) Position(v float64) float64 {
 	if math.IsNaN(v) {
 		return math.NaN()
 	}
-	if r, ok := RampByID(b.Ramp); ok && r.Kind == Diverging {
-		half := math.Max(b.Max-b.Centre, b.Centre-b.Min)
-		if half <= 0 {
-			return 0.5
-		}
-		return 0.5 + 0.5*(v-b.Centre)/half
-	}
-	if b.Max == b.Min {
+	lo, span := b.Linear()
+	if !(span > 0) {
 		return 0.5
 	}
-	return (v - b.Min) / (b.Max - b.Min)
+	return (v - lo) / span
+}
+
+// Linear is the affine map behind Position, for loops that colour many values: the value at
+// position 0 and the width of the range. Diverging ramps span Centre ± the larger half-range.
+func (b Binding) Linear() (lo, span float64) {
+	if r, ok := RampByID(b.Ramp); ok && r.Kind == Diverging {
+		half := math.Max(b.Max-b.Centre, b.Centre-b.Min)
+		return b.Centre - half, 2 * half
+	}
+	return b.Min, b.Max - b.Min
 }
 
 // Hex formats a colour as "#rrggbb".
@@ -228,7 +244,7 @@ func NewDocument() Document {
 	}
 	for _, r := range ramps {
 		rj := RampJSON{Ramp: *r}
-		rj.lab = nil
+		rj.lab, rj.pal256 = nil, nil
 		for _, c := range r.Palette(32) {
 			rj.Samples = append(rj.Samples, Hex(c))
 		}

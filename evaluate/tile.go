@@ -197,12 +197,7 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 			continue
 		}
 		row := vals.Data[int(r)*vals.NX : (int(r)+1)*vals.NX]
-		pix := img.Pix[j*img.Stride : (j+1)*img.Stride]
-		for i, c := range cols {
-			if c >= 0 {
-				paint.set(pix[4*i:4*i+4], float64(row[c]))
-			}
-		}
+		paint.Row(img.Pix[j*img.Stride:(j+1)*img.Stride], row, cols)
 	}
 	return img, len(vals.Data), nil
 }
@@ -210,46 +205,62 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 // Paint maps values to colours through a colour.Binding (colour.Binding.Position onto a
 // 256-entry palette of its ramp); NaN is transparent.
 type Paint struct {
-	b   colour.Binding
-	pal []color.NRGBA
+	b        colour.Binding
+	lo, span float64 // b.Linear()
+	pal      []color.NRGBA
 }
 
 // NewPaint prepares the palette of b.
 func NewPaint(b colour.Binding) *Paint {
 	ramp, ok := colour.RampByID(b.Ramp)
 	p := &Paint{b: b, pal: make([]color.NRGBA, 256)}
+	p.lo, p.span = b.Linear()
 	if ok {
-		p.pal = ramp.Palette(256)
+		p.pal = ramp.Palette256()
 	}
 	return p
 }
 
-// set writes the colour of v into px (4 bytes, non-premultiplied RGBA); NaN leaves px as it is.
-func (p *Paint) set(px []uint8, v float64) {
-	if v != v {
-		return
+// Row colours pixel i of pix (4 bytes each, non-premultiplied RGBA) with vals[cols[i]], or with
+// vals[i] when cols is nil; a negative column or a NaN value leaves the pixel as it is. The
+// position is colour.Binding.Position's affine map, computed once in NewPaint.
+func (p *Paint) Row(pix []uint8, vals []float32, cols []int) {
+	n := len(cols)
+	if cols == nil {
+		n = len(vals)
 	}
-	t := p.b.Position(v)
-	// Clamp to [0, 1] with comparisons (math.Min/Max handle signed zeros and NaN through a
-	// call that costs more than the rest of the pixel).
-	if !(t > 0) {
-		t = 0
-	} else if t > 1 {
-		t = 1
+	for i := 0; i < n; i++ {
+		c := i
+		if cols != nil {
+			if c = cols[i]; c < 0 {
+				continue
+			}
+		}
+		v := float64(vals[c])
+		if v != v {
+			continue
+		}
+		t := 0.5
+		if p.span > 0 {
+			t = (v - p.lo) / p.span
+		}
+		// Clamped with comparisons: math.Min and math.Max cost more than the rest of the pixel.
+		if !(t > 0) {
+			t = 0
+		} else if t > 1 {
+			t = 1
+		}
+		col := p.pal[int(math.Round(t*255))]
+		px := pix[4*i : 4*i+4 : 4*i+4]
+		px[0], px[1], px[2], px[3] = col.R, col.G, col.B, col.A
 	}
-	k := int(math.Round(t * 255))
-	c := p.pal[k]
-	px[0], px[1], px[2], px[3] = c.R, c.G, c.B, c.A
 }
 
 // Image colour-maps a lon/lat grid row by row (no data transparent).
 func (p *Paint) Image(g *geo.Grid) *image.NRGBA {
 	img := image.NewNRGBA(image.Rect(0, 0, g.NX, g.NY))
 	for row := 0; row < g.NY; row++ {
-		pix := img.Pix[row*img.Stride : (row+1)*img.Stride]
-		for col := 0; col < g.NX; col++ {
-			p.set(pix[4*col:4*col+4], float64(g.Data[row*g.NX+col]))
-		}
+		p.Row(img.Pix[row*img.Stride:(row+1)*img.Stride], g.Data[row*g.NX:(row+1)*g.NX], nil)
 	}
 	return img
 }
