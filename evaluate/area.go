@@ -194,15 +194,8 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 	}
 	res := &AreaResult{Query: q, Region: r, Lattice: ageW, Mask: mask}
 	for _, p := range q.Params {
-		var g *geo.Grid
-		switch p.ID {
-		case PSeafloorAge:
-			g = ageW.Clone()
-		case PObservedDepth:
-			g = obsL.Clone()
-		case PSedimentThickness:
-			g = sedL.Clone()
-		default:
+		g, ok := inputGrid(p.ID, ageW, obsL, sedL)
+		if !ok {
 			g = modelGrid(ev, p.ID)
 		}
 		if !p.Predicted {
@@ -240,6 +233,21 @@ func screenGrids(fl *flagger, grids []*geo.Grid, mask geo.Mask, age, obs, sed, c
 		fl.check(sample{age: at(age, k), obs: at(obs, k), sed: at(sed, k), crust: at(crust, k), corr: at(corr, k)},
 			func(i int) { grids[i].Data[k] = nan32 })
 	}
+}
+
+// inputGrid is a copy of the input grid that answers parameter id (age, observed depth in m
+// positive down, sediment thickness, all on the output lattice); ok is false for a parameter
+// the model computes.
+func inputGrid(id string, age, obs, sed *geo.Grid) (g *geo.Grid, ok bool) {
+	switch id {
+	case PSeafloorAge:
+		return age.Clone(), true
+	case PObservedDepth:
+		return obs.Clone(), true
+	case PSedimentThickness:
+		return sed.Clone(), true
+	}
+	return nil, false
 }
 
 // modelGrid is the grid of model output parameter id in ev (nil for a parameter the model does

@@ -5,6 +5,7 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -148,14 +149,29 @@ func (s *Service) Export(ctx context.Context, req ExportRequest, path string, pr
 	if err := os.Rename(tmp, path); err != nil {
 		return ExportResult{}, err
 	}
-	raw, err := os.ReadFile(path)
+	size, sum, err := hashFile(path)
 	if err != nil {
 		return ExportResult{}, err
 	}
-	sum := sha256.Sum256(raw)
 	name := req.Filename
 	if name == "" {
 		name = fmt.Sprintf("%s-area-%s%s", req.Dataset, res.Query.Params[0].ID, filepath.Ext(path))
 	}
-	return ExportResult{Filename: name, MediaType: media, Bytes: int64(len(raw)), SHA256: hex.EncodeToString(sum[:])}, nil
+	return ExportResult{Filename: name, MediaType: media, Bytes: size, SHA256: sum}, nil
+}
+
+// hashFile returns the size of the file at path and its SHA-256 (lower-case hex), read as a
+// stream.
+func hashFile(path string) (int64, string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return 0, "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	n, err := io.Copy(h, f)
+	if err != nil {
+		return 0, "", err
+	}
+	return n, hex.EncodeToString(h.Sum(nil)), nil
 }

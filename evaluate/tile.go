@@ -134,15 +134,8 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 		}
 		sedL = windowOnto(win, src, bound)
 	}
-	var vals *geo.Grid
-	switch p.ID {
-	case PSeafloorAge:
-		vals = win.Clone()
-	case PObservedDepth:
-		vals = obsL.Clone()
-	case PSedimentThickness:
-		vals = sedL.Clone()
-	default:
+	vals, isInput := inputGrid(p.ID, win, obsL, sedL)
+	if !isInput {
 		want := p.Output
 		in := geo.Inputs{Age: win, Model: q.Model, Compaction: q.Sediment, Workers: 1}
 		if p.NeedsDepth {

@@ -505,17 +505,8 @@ func TestAPI(t *testing.T) {
 			wantProblem(t, e.do("POST", "/api/grids", bytes.NewReader(body.Bytes()), "Content-Type", mw.FormDataContentType()), 401, CodeUnauthorized)
 			up := e.do("POST", "/api/grids", bytes.NewReader(body.Bytes()), "Content-Type", mw.FormDataContentType(), "Authorization", "Bearer "+e.editor)
 			e.want(up, 202)
-			loc := up.Header.Get("Location")
-			jobPath := loc[strings.Index(loc, "/api/jobs/"):]
-			deadline := time.Now().Add(30 * time.Second)
-			var job map[string]any
-			for {
-				job = e.get(jobPath).json(t)
-				if job["state"] == "succeeded" || job["state"] == "failed" || time.Now().After(deadline) {
-					break
-				}
-				time.Sleep(100 * time.Millisecond)
-			}
+			jobPath := jobOf(up)
+			job := e.waitJob(jobPath)
 			if job["state"] != "succeeded" || num(t, job["progress"]) != 1 {
 				t.Fatalf("import job %v", job)
 			}
@@ -531,16 +522,8 @@ func TestAPI(t *testing.T) {
 			bw.Close()
 			up = e.do("POST", "/api/grids", &bad, "Content-Type", bw.FormDataContentType(), "Authorization", "Bearer "+e.editor)
 			e.want(up, 202)
-			loc = up.Header.Get("Location")
-			jobPath = loc[strings.Index(loc, "/api/jobs/"):]
-			deadline = time.Now().Add(30 * time.Second)
-			for {
-				job = e.get(jobPath).json(t)
-				if job["state"] == "succeeded" || job["state"] == "failed" || time.Now().After(deadline) {
-					break
-				}
-				time.Sleep(100 * time.Millisecond)
-			}
+			jobPath = jobOf(up)
+			job = e.waitJob(jobPath)
 			if job["state"] != "failed" || !strings.Contains(fmt.Sprint(job["errors"]), "not a readable grid") {
 				t.Errorf("bad upload job %v", job)
 			}
@@ -653,8 +636,7 @@ func TestExportJob(t *testing.T) {
 	poly := esc("POLYGON((-145 -31,-142 -31,-142 -28,-145 -28,-145 -31))")
 	r := e.get("/api/collections/" + e.dataset + "/area?coords=" + poly + "&parameter-name=residual_depth&f=COG")
 	e.want(r, 202)
-	loc := r.Header.Get("Location")
-	jobPath := loc[strings.Index(loc, "/api/jobs/"):]
+	jobPath := jobOf(r)
 	// Before the job has succeeded its file is a conflict; a quick worker may already have
 	// finished it, and then the file is there.
 	if early := e.get(jobPath + "/result"); early.StatusCode != 200 {
@@ -662,15 +644,7 @@ func TestExportJob(t *testing.T) {
 	} else if st := e.get(jobPath).json(t)["state"]; st != "succeeded" {
 		t.Fatalf("the file was served while the job was %v", st)
 	}
-	deadline := time.Now().Add(30 * time.Second)
-	var job map[string]any
-	for {
-		job = e.get(jobPath).json(t)
-		if job["state"] == "succeeded" || job["state"] == "failed" || time.Now().After(deadline) {
-			break
-		}
-		time.Sleep(100 * time.Millisecond)
-	}
+	job := e.waitJob(jobPath)
 	if job["state"] != "succeeded" {
 		t.Fatalf("export job %v", job)
 	}

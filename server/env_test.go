@@ -23,9 +23,9 @@ import (
 	"ridgeflank/jobs"
 	"ridgeflank/jobs/queue"
 	"ridgeflank/store"
-	"ridgeflank/store/pgtest"
 	_ "ridgeflank/store/postgis"
 	_ "ridgeflank/store/sqlite"
+	"ridgeflank/store/storetest"
 )
 
 // env is one running API over one store with the synthetic demo basin
@@ -68,19 +68,8 @@ func newEnvLimits(t testing.TB, backend string, cfg Config, limits Limits) *env 
 	ctx := context.Background()
 	e := &env{t: t, backend: backend}
 	dir := t.TempDir()
-	scfg := store.Config{DataDir: dir, Logger: slog.New(slog.DiscardHandler)}
+	e.st = storetest.OpenStore(t, backend, dir)
 	var err error
-	switch backend {
-	case "sqlite":
-		e.st, err = store.Open(ctx, scfg)
-	case "postgis":
-		scfg.DatabaseURL = pgtest.NewDB(t)
-		e.st, err = store.Open(ctx, scfg)
-	}
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { e.st.Close() })
 	if e.dataset, err = demobasin.Install(ctx, e.st, testBasin(t)); err != nil {
 		t.Fatal(err)
 	}
@@ -137,7 +126,7 @@ type reply struct {
 	Body []byte
 }
 
-func (r reply) json(t *testing.T) map[string]any {
+func (r reply) json(t testing.TB) map[string]any {
 	t.Helper()
 	var m map[string]any
 	if err := json.Unmarshal(r.Body, &m); err != nil {
@@ -199,6 +188,26 @@ func (e *env) do(method, path string, body io.Reader, hdr ...string) reply {
 }
 
 func (e *env) get(path string, hdr ...string) reply { return e.do("GET", path, nil, hdr...) }
+
+// jobOf is the job path named by the Location header of a 202 answer.
+func jobOf(r reply) string {
+	loc := r.Header.Get("Location")
+	return loc[strings.Index(loc, "/api/jobs/"):]
+}
+
+// waitJob polls the job at jobPath until it has succeeded or failed (at most 30 s) and returns
+// its last document.
+func (e *env) waitJob(jobPath string) map[string]any {
+	e.t.Helper()
+	deadline := time.Now().Add(30 * time.Second)
+	for {
+		job := e.get(jobPath).json(e.t)
+		if job["state"] == "succeeded" || job["state"] == "failed" || time.Now().After(deadline) {
+			return job
+		}
+		time.Sleep(100 * time.Millisecond)
+	}
+}
 
 func (e *env) want(r reply, status int) {
 	e.t.Helper()

@@ -11,7 +11,6 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
-	"time"
 
 	"github.com/paulmach/orb"
 
@@ -160,17 +159,8 @@ func TestExportJobWindowAndSameFile(t *testing.T) {
 				"&parameter-name=seafloor_age&f=COG"
 			r := e.get(q)
 			e.want(r, 202)
-			loc := r.Header.Get("Location")
-			jobPath := loc[strings.Index(loc, "/api/jobs/"):]
-			deadline := time.Now().Add(30 * time.Second)
-			var job map[string]any
-			for {
-				job = e.get(jobPath).json(t)
-				if job["state"] == "succeeded" || job["state"] == "failed" || time.Now().After(deadline) {
-					break
-				}
-				time.Sleep(100 * time.Millisecond)
-			}
+			jobPath := jobOf(r)
+			job := e.waitJob(jobPath)
 			if job["state"] != "succeeded" {
 				t.Fatalf("export job %v", job)
 			}

@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
-	"log/slog"
 	"mime/multipart"
 	"net/http"
 	"net/http/httptest"
@@ -18,7 +17,7 @@ import (
 	"ridgeflank/jobs"
 	"ridgeflank/jobs/queue"
 	"ridgeflank/store"
-	"ridgeflank/store/pgtest"
+	"ridgeflank/store/storetest"
 )
 
 // An upload accepted (202) by a server whose process then stops before the
@@ -29,15 +28,7 @@ func TestAcceptedUploadSurvivesRestart(t *testing.T) {
 		t.Run(backend, func(t *testing.T) {
 			ctx := context.Background()
 			dir := t.TempDir()
-			cfg := store.Config{DataDir: dir, Logger: slog.New(slog.DiscardHandler)}
-			if backend == "postgis" {
-				cfg.DatabaseURL = pgtest.NewDB(t)
-			}
-			st, err := store.Open(ctx, cfg)
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer st.Close()
+			st := storetest.OpenStore(t, backend, dir)
 			_, tok, err := st.CreateToken(ctx, "t", store.RoleEditor)
 			if err != nil {
 				t.Fatal(err)

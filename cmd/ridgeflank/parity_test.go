@@ -27,7 +27,7 @@ import (
 	"ridgeflank/jobs/queue"
 	"ridgeflank/server"
 	"ridgeflank/store"
-	"ridgeflank/store/pgtest"
+	"ridgeflank/store/storetest"
 )
 
 // The import parity suite: one table of files and declarations, each run through the command
@@ -161,15 +161,7 @@ func newAPIWay(t *testing.T, backend string, workers int) apiWay {
 	t.Helper()
 	ctx := context.Background()
 	dir := t.TempDir()
-	cfg := store.Config{DataDir: dir, Logger: slog.New(slog.DiscardHandler)}
-	if backend == "postgis" {
-		cfg.DatabaseURL = pgtest.NewDB(t)
-	}
-	st, err := store.Open(ctx, cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { st.Close() })
+	st := storetest.OpenStore(t, backend, dir)
 	if _, err := demobasin.Install(ctx, st, smallBasin(t)); err != nil {
 		t.Fatal(err)
 	}

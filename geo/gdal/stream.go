@@ -162,21 +162,16 @@ func (s *COGStream) Finish(ctx context.Context, path string, m Meta, progress fu
 	stage := s.stage
 	s.stage = nil
 	cStage := C.CString(s.stagePath)
-	cUnits, cDesc := C.CString(m.Units), C.CString(l.name)
 	defer C.free(unsafe.Pointer(cStage))
-	defer C.free(unsafe.Pointer(cUnits))
-	defer C.free(unsafe.Pointer(cDesc))
-	cds, cband, copt := cStrings(l.dsMD), cStrings(l.bandMD), cStrings(l.copts)
-	defer freeCStrings(cds)
-	defer freeCStrings(cband)
-	defer freeCStrings(copt)
+	c := l.toC(m.Units)
+	defer c.free()
 	return writeAtomic(path, ".tif", func(tmp string) error {
 		cTmp := C.CString(tmp)
 		defer C.free(unsafe.Pointer(cTmp))
 		var e C.rf_err
 		var ok C.int
 		err := watchProgress(ctx, progress, func(p *C.rf_progress) {
-			ok = C.rf_stage_finish(stage, cStage, cTmp, cUnits, cDesc, cds, cband, copt, p, &e)
+			ok = C.rf_stage_finish(stage, cStage, cTmp, c.units, c.desc, c.ds, c.band, c.opts, p, &e)
 		})
 		if ok == 0 {
 			if err != nil {

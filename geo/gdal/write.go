@@ -134,22 +134,17 @@ func writeRaster(driver, path string, g *geo.Grid, m Meta) error {
 	}
 	gt := geoTransform(g)
 	cDriver, cPath := C.CString(driver), C.CString(path)
-	cUnits, cDesc := C.CString(m.Units), C.CString(l.name)
 	defer C.free(unsafe.Pointer(cDriver))
 	defer C.free(unsafe.Pointer(cPath))
-	defer C.free(unsafe.Pointer(cUnits))
-	defer C.free(unsafe.Pointer(cDesc))
-	cds, cband, copt := cStrings(l.dsMD), cStrings(l.bandMD), cStrings(l.copts)
-	defer freeCStrings(cds)
-	defer freeCStrings(cband)
-	defer freeCStrings(copt)
+	c := l.toC(m.Units)
+	defer c.free()
 	if netcdf {
 		hdfMu.Lock()
 		defer hdfMu.Unlock()
 	}
 	var e C.rf_err
 	ok := C.rf_write(cDriver, cPath, (*C.float)(unsafe.Pointer(&data[0])), C.int(g.NX), C.int(g.NY), &gt[0],
-		1, C.double(l.nodata), cUnits, cDesc, cds, cband, copt, &e)
+		1, C.double(l.nodata), c.units, c.desc, c.ds, c.band, c.opts, &e)
 	if ok == 0 {
 		if err := cErr(&e, "write grid "+path); err != nil {
 			return err
@@ -176,6 +171,26 @@ type layout struct {
 	nodata       float64
 	dsMD, bandMD []string
 	copts        []string
+}
+
+// cLayout is a layout with the band's units as C strings, for one call of a C helper.
+type cLayout struct {
+	units, desc    *C.char
+	ds, band, opts **C.char
+}
+
+// toC converts l (and the band's units) to C strings; free releases them.
+func (l layout) toC(units string) cLayout {
+	return cLayout{units: C.CString(units), desc: C.CString(l.name),
+		ds: cStrings(l.dsMD), band: cStrings(l.bandMD), opts: cStrings(l.copts)}
+}
+
+func (c cLayout) free() {
+	C.free(unsafe.Pointer(c.units))
+	C.free(unsafe.Pointer(c.desc))
+	freeCStrings(c.ds)
+	freeCStrings(c.band)
+	freeCStrings(c.opts)
 }
 
 // layoutOf builds the layout of g written with m as netCDF or as COG (see WriteCOG and

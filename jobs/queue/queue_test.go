@@ -5,7 +5,6 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"log/slog"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -14,25 +13,16 @@ import (
 
 	"ridgeflank/jobs"
 	"ridgeflank/store"
-	"ridgeflank/store/pgtest"
 	_ "ridgeflank/store/postgis"
 	_ "ridgeflank/store/sqlite"
+	"ridgeflank/store/storetest"
 )
 
 // testStore opens a store of the given backend in a fresh directory (and, for PostGIS, a
 // fresh database).
 func testStore(t *testing.T, backend string) store.Store {
 	t.Helper()
-	cfg := store.Config{DataDir: t.TempDir(), Logger: slog.New(slog.DiscardHandler)}
-	if backend == store.BackendPostGIS {
-		cfg.DatabaseURL = pgtest.NewDB(t)
-	}
-	st, err := store.Open(context.Background(), cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { st.Close() })
-	return st
+	return storetest.OpenStore(t, backend, t.TempDir())
 }
 
 // testQueue opens and migrates a queue on st; workers < 0 makes it insert-only.

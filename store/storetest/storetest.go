@@ -3,6 +3,7 @@ package storetest
 import (
 	"context"
 	"errors"
+	"log/slog"
 	"os"
 	"path/filepath"
 	"sort"
@@ -11,6 +12,7 @@ import (
 	"time"
 
 	"ridgeflank/store"
+	"ridgeflank/store/pgtest"
 )
 
 // Opener opens (or re-opens) one store: every call returns a new handle on the same database
@@ -168,4 +170,22 @@ func testContextCancelled(t *testing.T, open Opener) {
 	if err := s.Ping(ctx); err == nil {
 		t.Error("Ping with a cancelled context succeeded")
 	}
+}
+
+// OpenStore opens a store of backend (store.BackendSQLite or store.BackendPostGIS) on dataDir,
+// for tests of the packages above the store: PostGIS gets a fresh database cloned from the
+// test template (pgtest.NewDB, which skips the test when no server is reachable). The store
+// is closed when the test ends.
+func OpenStore(t testing.TB, backend, dataDir string) store.Store {
+	t.Helper()
+	cfg := store.Config{DataDir: dataDir, Logger: slog.New(slog.DiscardHandler)}
+	if backend == store.BackendPostGIS {
+		cfg.DatabaseURL = pgtest.NewDB(t)
+	}
+	st, err := store.Open(context.Background(), cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { st.Close() })
+	return st
 }

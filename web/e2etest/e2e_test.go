@@ -828,23 +828,7 @@ func TestPageUploadAndDataset(t *testing.T) {
 	requireBrowserAndPage(t)
 	ts := startServer(t, true)
 	// A coarser basin than the demo's, so its age grid is new content.
-	basin, err := demobasin.Generate(demobasin.Options{CellDeg: 0.25})
-	if err != nil {
-		t.Fatal(err)
-	}
-	files, err := demobasin.WriteFiles(t.TempDir(), basin)
-	if err != nil {
-		t.Fatal(err)
-	}
-	agePath := ""
-	for _, f := range files {
-		if strings.HasSuffix(f, "-age.tif") {
-			agePath = f
-		}
-	}
-	if agePath == "" {
-		t.Fatalf("no age GeoTIFF among %v", files)
-	}
+	agePath := demoAgeFile(t, 0.25)
 	b := newBrowser(t)
 	b.do(30*time.Second, chromedp.Navigate(ts.URL+"/"))
 	b.waitReadyAfter(0)
@@ -913,4 +897,25 @@ func distinctColours(img image.Image, r image.Rectangle) int {
 		}
 	}
 	return len(seen)
+}
+
+// demoAgeFile writes the files of a synthetic basin at cellDeg degrees (as `ridgeflank demo
+// --out` does) and returns the path of its age GeoTIFF.
+func demoAgeFile(t *testing.T, cellDeg float64) string {
+	t.Helper()
+	basin, err := demobasin.Generate(demobasin.Options{CellDeg: cellDeg})
+	if err != nil {
+		t.Fatal(err)
+	}
+	files, err := demobasin.WriteFiles(t.TempDir(), basin)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range files {
+		if strings.HasSuffix(f, "-age.tif") {
+			return f
+		}
+	}
+	t.Fatalf("no age GeoTIFF among %v", files)
+	return ""
 }

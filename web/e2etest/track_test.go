@@ -18,8 +18,6 @@ import (
 	"time"
 
 	"github.com/chromedp/chromedp"
-
-	"ridgeflank/demobasin"
 )
 
 // fixtureTrack is the project's degrees-and-decimal-minutes CSV track.
@@ -291,23 +289,7 @@ func TestPageTrackFileAndParameters(t *testing.T) {
 func TestPageUploadWrongUnits(t *testing.T) {
 	requireBrowserAndPage(t)
 	ts := startServer(t, true)
-	basin, err := demobasin.Generate(demobasin.Options{CellDeg: 0.5})
-	if err != nil {
-		t.Fatal(err)
-	}
-	files, err := demobasin.WriteFiles(t.TempDir(), basin)
-	if err != nil {
-		t.Fatal(err)
-	}
-	agePath := ""
-	for _, f := range files {
-		if strings.HasSuffix(f, "-age.tif") {
-			agePath = f
-		}
-	}
-	if agePath == "" {
-		t.Fatalf("no age GeoTIFF among %v", files)
-	}
+	agePath := demoAgeFile(t, 0.5)
 	b := newBrowser(t)
 	b.do(30*time.Second, chromedp.Navigate(ts.URL+"/"))
 	b.waitReadyAfter(0)
