@@ -396,22 +396,61 @@ func gridSpan(lo, hi float64, reg Registration) (i0, i1 int) {
 // global in longitude the window is always contiguous, wrapping across the grid's seam, and its
 // West is reported in −180..180 (so Lon may run past 180 across the antimeridian). A bound 360°
 // or wider keeps every column. Non-global grids are clipped to their extent. ErrEmptyWindow is
-// returned when nothing is selected.
+// returned when nothing is selected. WindowSpec says which samples are kept without copying.
 func (g *Grid) Window(b orb.Bound) (*Grid, error) {
 	if err := g.Validate(); err != nil {
 		return nil, err
 	}
+	sp, err := g.WindowSpec(b)
+	if err != nil {
+		return nil, err
+	}
+	out := sp.Out
+	out.Data = make([]float32, out.NX*out.NY)
+	for r := 0; r < out.NY; r++ {
+		src := g.Data[(sp.Row0+r)*g.NX : (sp.Row0+r+1)*g.NX]
+		dst := out.Data[r*out.NX : (r+1)*out.NX]
+		for _, run := range sp.Runs {
+			dst = dst[copy(dst, src[run.Src0:run.Src0+run.N]):]
+		}
+	}
+	return &out, nil
+}
+
+// WindowSpec says which samples Window keeps for bound b: the window's shape (Out, with no
+// Data), its first row in the grid (Row0; rows are contiguous) and its columns as runs of
+// contiguous grid columns in output order (two runs when a global grid's window wraps across
+// its seam). It needs only the grid's shape, not its data, so a windowed reader can use it
+// for grids held in files.
+type WindowSpec struct {
+	Out  Grid
+	Row0 int
+	Runs []ColumnRun
+}
+
+// ColumnRun is N contiguous grid columns starting at Src0.
+type ColumnRun struct{ Src0, N int }
+
+// WindowSpec computes the samples Window(b) keeps (see Window for the rules); g's Data may be
+// nil.
+func (g *Grid) WindowSpec(b orb.Bound) (WindowSpec, error) {
+	if g == nil {
+		return WindowSpec{}, gridErr("nil grid")
+	}
+	if err := g.validateShape(); err != nil {
+		return WindowSpec{}, err
+	}
 	minX, maxX, minY, maxY := b.Min.X(), b.Max.X(), b.Min.Y(), b.Max.Y()
 	for _, v := range []float64{minX, maxX, minY, maxY} {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fault.New(fault.InvalidCoords, "", "window bound %v is not finite", b)
+			return WindowSpec{}, fault.New(fault.InvalidCoords, "", "window bound %v is not finite", b)
 		}
 	}
 	if minY > maxY {
-		return nil, fault.New(fault.InvalidCoords, "", "window bound south %g is north of its north %g", minY, maxY)
+		return WindowSpec{}, fault.New(fault.InvalidCoords, "", "window bound south %g is north of its north %g", minY, maxY)
 	}
 	if minY < -90-1e-9 || maxY > 90+1e-9 {
-		return nil, fault.New(fault.InvalidCoords, "", "window latitudes %g..%g outside −90..90", minY, maxY)
+		return WindowSpec{}, fault.New(fault.InvalidCoords, "", "window latitudes %g..%g outside −90..90", minY, maxY)
 	}
 	width := maxX - minX
 	if width < 0 {
@@ -421,29 +460,27 @@ func (g *Grid) Window(b orb.Bound) (*Grid, error) {
 	r0, r1 := gridSpan((g.North-maxY)/g.DY, (g.North-minY)/g.DY, g.Registration)
 	r0, r1 = max(r0, 0), min(r1, g.NY-1)
 	if r0 > r1 {
-		return nil, emptyWindow("latitudes %g..%g vs grid %g..%g", minY, maxY, g.South(), g.North)
+		return WindowSpec{}, emptyWindow("latitudes %g..%g vs grid %g..%g", minY, maxY, g.South(), g.North)
 	}
-	// columns: list of source columns in order
-	var cols []int
+	// columns, as runs of source columns in order
+	var runs []ColumnRun
 	west := 0.0
 	p := g.periodCols()
 	switch {
 	case width >= 360-1e-9:
-		cols = make([]int, g.NX)
-		for i := range cols {
-			cols[i] = i
-		}
+		runs = []ColumnRun{{0, g.NX}}
 		west = g.West
 	case p > 0:
 		c0, c1 := gridSpan((minX-g.West)/g.DX, (minX+width-g.West)/g.DX, g.Registration)
 		n := min(c1-c0+1, p)
 		if n <= 0 {
-			return nil, emptyWindow("longitudes %g..%g", minX, maxX)
+			return WindowSpec{}, emptyWindow("longitudes %g..%g", minX, maxX)
 		}
 		c0 = wrapCol(c0, p)
-		cols = make([]int, n)
-		for i := range cols {
-			cols[i] = (c0 + i) % p
+		if c0+n <= p {
+			runs = []ColumnRun{{c0, n}}
+		} else {
+			runs = []ColumnRun{{c0, p - c0}, {0, n - (p - c0)}}
 		}
 		west = LonTo180(g.West + float64(c0)*g.DX)
 		// keep an exact representation when no shift happened
@@ -461,33 +498,21 @@ func (g *Grid) Window(b orb.Bound) (*Grid, error) {
 			}
 		}
 		if best1 < best0 {
-			return nil, emptyWindow("longitudes %g..%g vs grid %g..%g", minX, maxX, g.West, g.East())
+			return WindowSpec{}, emptyWindow("longitudes %g..%g vs grid %g..%g", minX, maxX, g.West, g.East())
 		}
-		cols = make([]int, best1-best0+1)
-		for i := range cols {
-			cols[i] = best0 + i
-		}
+		runs = []ColumnRun{{best0, best1 - best0 + 1}}
 		west = g.Lon(best0)
 	}
-	out := &Grid{
-		NX: len(cols), NY: r1 - r0 + 1,
-		West: west, North: g.Lat(r0), DX: g.DX, DY: g.DY,
-		Registration: g.Registration,
+	nx := 0
+	for _, r := range runs {
+		nx += r.N
 	}
-	out.Data = make([]float32, out.NX*out.NY)
-	contiguous := cols[len(cols)-1]-cols[0] == len(cols)-1
-	for r := r0; r <= r1; r++ {
-		src := g.Data[r*g.NX : (r+1)*g.NX]
-		dst := out.Data[(r-r0)*out.NX : (r-r0+1)*out.NX]
-		if contiguous {
-			copy(dst, src[cols[0]:cols[0]+len(cols)])
-			continue
-		}
-		for i, c := range cols {
-			dst[i] = src[c]
-		}
-	}
-	return out, nil
+	return WindowSpec{
+		Out: Grid{NX: nx, NY: r1 - r0 + 1, West: west, North: g.Lat(r0), DX: g.DX, DY: g.DY,
+			Registration: g.Registration},
+		Row0: r0,
+		Runs: runs,
+	}, nil
 }
 
 // AreaWeight returns cos(latitude) of row row's sample position: the usual weight for averaging

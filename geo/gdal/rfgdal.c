@@ -431,3 +431,41 @@ done:
 	RF_END();
 	return ok;
 }
+
+int rf_overviews(GDALDatasetH ds, int band, int *sizes, int max, rf_err *e) {
+	RF_BEGIN(e);
+	int n = 0;
+	GDALRasterBandH b = GDALGetRasterBand(ds, band);
+	if (b == NULL) {
+		rf_fail(e, "no such band");
+	} else {
+		int k = GDALGetOverviewCount(b);
+		for (int i = 0; i < k && n < max; i++) {
+			GDALRasterBandH o = GDALGetOverview(b, i);
+			if (o == NULL) continue;
+			sizes[2 * n] = GDALGetRasterBandXSize(o);
+			sizes[2 * n + 1] = GDALGetRasterBandYSize(o);
+			n++;
+		}
+	}
+	RF_END();
+	return n;
+}
+
+int rf_read_window(GDALDatasetH ds, int band, int level, int x0, int y0, int nx, int ny, float *buf, rf_err *e) {
+	RF_BEGIN(e);
+	int ok = 0;
+	GDALRasterBandH b = GDALGetRasterBand(ds, band);
+	if (b != NULL && level > 0) b = GDALGetOverview(b, level - 1);
+	if (b == NULL) {
+		rf_fail(e, "no such band or overview");
+	} else {
+		CPLErr err = GDALRasterIO(b, GF_Read, x0, y0, nx, ny, buf, nx, ny, GDT_Float32, 0, 0);
+		ok = err == CE_None && e->failed == 0;
+		if (!ok && e->failed == 0) rf_fail(e, "raster read failed");
+	}
+	RF_END();
+	return ok;
+}
+
+void rf_set_cache_max(long long bytes) { GDALSetCacheMax64((GIntBig)bytes); }

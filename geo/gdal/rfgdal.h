@@ -32,6 +32,9 @@ GDALDatasetH rf_open(const char *path, rf_err *e);
 int rf_info(GDALDatasetH ds, int band, rf_info_t *out, rf_err *e);
 int rf_read_rows(GDALDatasetH ds, int band, int row0, int nrows, int nx, float *buf, rf_err *e);
 void rf_close(GDALDatasetH ds, rf_err *e);
+int rf_overviews(GDALDatasetH ds, int band, int *sizes, int max, rf_err *e);
+int rf_read_window(GDALDatasetH ds, int band, int level, int x0, int y0, int nx, int ny, float *buf, rf_err *e);
+void rf_set_cache_max(long long bytes);
 GDALDatasetH rf_warp_lonlat(GDALDatasetH src, rf_err *e);
 int rf_write(const char *driver, const char *path, float *data, int nx, int ny, const double *gt,
              int has_nodata, double nodata, const char *units, const char *desc, char **ds_md,
