@@ -9,6 +9,7 @@ import (
 
 	"ridgeflank/fault"
 	"ridgeflank/geo"
+	"ridgeflank/raster"
 	"ridgeflank/store"
 )
 
@@ -43,8 +44,9 @@ func (s *Service) AreaCells(ctx context.Context, datasetID string, r geo.Prepare
 	if err != nil {
 		return 0, err
 	}
-	inX, inY := inputSize(d.Age, r.Bound)
-	fx, fy := factors(d.Age, resX, resY)
+	h := d.AgeHeader()
+	inX, inY := inputSize(&h, r.Bound)
+	fx, fy := factors(&h, resX, resY)
 	return int64(ceilDiv(inX, fx)) * int64(ceilDiv(inY, fy)), nil
 }
 
@@ -110,11 +112,11 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 		}
 	}
 	d := q.Dataset
-	age := d.Age
+	age := d.AgeHeader()
 	bound := r.Bound
-	fx, fy := factors(age, resX, resY)
-	// Size check before any copy: cells of the answer and of the input window.
-	inX, inY := inputSize(age, bound)
+	fx, fy := factors(&age, resX, resY)
+	// Size check before any read: cells of the answer and of the input window.
+	inX, inY := inputSize(&age, bound)
 	outCells := int64(ceilDiv(inX, fx)) * int64(ceilDiv(inY, fy))
 	if outCells > int64(s.limits.MaxAreaCells) {
 		need := math.Sqrt(float64(outCells)/float64(s.limits.MaxAreaCells)) * math.Max(age.DX*float64(fx), age.DY*float64(fy))
@@ -122,41 +124,58 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 			"the answer would have about %d cells; the limit is %d: ask for a smaller area or set resolution-x and resolution-y to about %.3g degrees or more",
 			outCells, s.limits.MaxAreaCells, need)
 	}
-	if in := int64(inX) * int64(inY); in > int64(s.limits.MaxInputCells) {
+	// The coarsest exact overview whose factor divides the asked coarsening: read it and
+	// coarsen the rest of the way (area-weighted block means, geo.Grid.Resample).
+	lvl, k := areaLevel(d.Files.Age, fx, fy)
+	rx, ry := fx/k, fy/k
+	if in := int64(ceilDiv(inX, k)) * int64(ceilDiv(inY, k)); in > int64(s.limits.MaxInputCells) {
 		return nil, fault.Over("max_input_cells", int64(s.limits.MaxInputCells), in, "coords",
 			"the area covers about %d input cells; the limit is %d", in, s.limits.MaxInputCells)
 	}
-	win := func(g *geo.Grid) (*geo.Grid, error) {
-		wg, err := g.Window(bound)
-		if err != nil {
-			return nil, err
-		}
-		if fx > 1 || fy > 1 {
-			return wg.Resample(float64(fx)*g.DX, float64(fy)*g.DY)
-		}
-		return wg, nil
+	fl := newFlagger(q.Params)
+	want := q.outputs()
+	needCorr := fl.need&(inCorr) != 0 && d.Files.Depth != nil && want&(geo.OutCorrectedDepth|geo.OutResidualDepth) != 0
+	read := roleAge
+	if needCorr || fl.need&inObs != 0 {
+		read |= roleDepth
 	}
-	ageW, err := win(age)
+	if needCorr || fl.need&inSed != 0 {
+		read |= roleSed
+	}
+	if needCorr {
+		read |= roleCrust
+	}
+	v, err := s.window(ctx, d, bound, lvl, read)
 	if err != nil {
-		if errors.Is(err, geo.ErrEmptyWindow) {
+		if isEmptyWindow(err) {
 			b := age.Bounds()
 			return nil, fault.New(fault.NoData, "coords", "the area does not overlap dataset %q (longitude %g to %g, latitude %g to %g)",
 				d.Row.ID, b.Min[0], b.Max[0], b.Min[1], b.Max[1])
 		}
 		return nil, err
 	}
+	coarsen := func(g *geo.Grid) (*geo.Grid, error) {
+		if rx > 1 || ry > 1 {
+			return g.Resample(float64(rx)*g.DX, float64(ry)*g.DY)
+		}
+		return g, nil
+	}
+	ageW, err := coarsen(v.Age)
+	if err != nil {
+		return nil, err
+	}
 	companion := func(g *geo.Grid) *geo.Grid {
-		if g == nil || !sameLattice(age, g) {
+		if g == nil || g.NX != v.Age.NX || g.NY != v.Age.NY || !sameLattice(v.Age, g) {
 			return g
 		}
-		cw, err := win(g)
-		if err != nil || cw.NX != ageW.NX || cw.NY != ageW.NY || !sameLattice(ageW, cw) ||
-			math.Abs(cw.West-ageW.West) > 1e-6*ageW.DX || math.Abs(cw.North-ageW.North) > 1e-6*ageW.DY {
+		cw, err := coarsen(g)
+		if err != nil {
 			return g
 		}
 		return cw
 	}
-	depthW, sedW, crustW := companion(d.Depth), companion(d.Sediment), companion(d.Crust)
+	depthW, sedW, crustW := companion(v.Depth), companion(v.Sediment), companion(v.Crust)
+	needCorr = needCorr && depthW != nil
 	mask, err := geo.GridMask(ageW, r.Parts)
 	if err != nil {
 		return nil, fault.New(fault.InvalidCoords, "coords", "%v", err)
@@ -164,9 +183,6 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 	if mask.Count() == 0 {
 		return nil, fault.New(fault.NoData, "coords", "no cell centre of dataset %q lies inside the area; try a larger area or a finer resolution", d.Row.ID)
 	}
-	fl := newFlagger(q.Params)
-	want := q.outputs()
-	needCorr := fl.need&(inCorr) != 0 && d.Depth != nil && want&(geo.OutCorrectedDepth|geo.OutResidualDepth) != 0
 	// The inputs on the output lattice, for the answers and the plausibility checks.
 	var obsL, sedL, crustL *geo.Grid
 	if depthW != nil && fl.need&inObs != 0 {
@@ -313,6 +329,9 @@ func ceilDiv(a, b int) int { return (a + b - 1) / b }
 // inputSize is the number of columns and rows of age inside bound (an upper estimate, computed
 // before any copy).
 func inputSize(age *geo.Grid, bound orb.Bound) (int, int) {
+	if bound.Max[0]-bound.Min[0] < 0 {
+		bound.Max[0] += 360
+	}
 	inX := int(math.Ceil((bound.Max[0]-bound.Min[0])/age.DX)) + 1
 	inY := int(math.Ceil((bound.Max[1]-bound.Min[1])/age.DY)) + 1
 	return min(inX, age.NX), min(inY, age.NY)
@@ -329,3 +348,18 @@ func factors(age *geo.Grid, resX, resY float64) (int, int) {
 	}
 	return fx, fy
 }
+
+// areaLevel is the level to read for whole coarsening factors fx, fy of the age grid: the
+// coarsest exact overview (raster.File.ExactLevel) whose factor k, a power of two, divides both,
+// with k (1 and level 0 when none does).
+func areaLevel(f *raster.File, fx, fy int) (lvl, k int) {
+	lvl, k = 0, 1
+	for p := 2; fx%p == 0 && fy%p == 0; p *= 2 {
+		if l := f.ExactLevel(p); l >= 0 {
+			lvl, k = l, p
+		}
+	}
+	return lvl, k
+}
+
+func isEmptyWindow(err error) bool { return errors.Is(err, geo.ErrEmptyWindow) }

@@ -8,6 +8,7 @@ import (
 	"ridgeflank/fault"
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
+	"ridgeflank/raster"
 )
 
 // PointsResult are the values of a question's parameters at positions.
@@ -16,6 +17,8 @@ type PointsResult struct {
 	Lons, Lats []float64   // degrees, longitudes in −180..180
 	Values     [][]float64 // Values[parameter][position]; NaN where there is no answer
 	Flags      []Flag      // values refused as physically impossible, by cause
+
+	onAge int // positions with an age value
 }
 
 // Points evaluates the parameters of o at each position. A position count over
@@ -40,36 +43,35 @@ func (s *Service) Points(ctx context.Context, datasetID string, o Options, lons,
 	if err != nil {
 		return nil, err
 	}
-	for i := range res.Lons {
-		if !math.IsNaN(float64(q.Dataset.Age.SampleBilinear(res.Lons[i], res.Lats[i]))) {
-			return res, nil
-		}
+	if res.onAge > 0 {
+		return res, nil
 	}
-	b := q.Dataset.Age.Bounds()
+	h := q.Dataset.AgeHeader()
+	b := h.Bounds()
 	return nil, fault.New(fault.NoData, "coords", "no position lies on dataset %q's age grid (longitude %g to %g, latitude %g to %g)",
 		q.Dataset.Row.ID, b.Min[0], b.Max[0], b.Min[1], b.Max[1])
 }
 
 // points evaluates q's parameters at each position through geo.PointEvaluator (the arithmetic
-// of geo.Evaluate) and refuses impossible values.
+// of geo.Evaluate) and refuses impossible values. Positions are taken in runs of neighbours
+// (pointRuns); each run reads one small window of the grids at full resolution.
 func (s *Service) points(ctx context.Context, q *Query, lons, lats []float64) (*PointsResult, error) {
 	d := q.Dataset
 	want := q.outputs()
 	fl := newFlagger(q.Params)
-	needCorr := fl.need&(inObs|inSed|inCrust|inCorr) != 0 && d.Depth != nil
+	needCorr := fl.need&(inObs|inSed|inCrust|inCorr) != 0 && d.Files.Depth != nil
 	if needCorr {
 		want |= geo.OutCorrectedDepth
 	}
-	in := geo.Inputs{Age: d.Age, Model: q.Model, Compaction: q.Sediment}
-	if needCorr {
-		in.Depth, in.DepthSense, in.Sediment, in.Crust = d.Depth, d.DepthSense, d.Sediment, d.Crust
+	read := roleAge
+	if needCorr || fl.need&inObs != 0 {
+		read |= roleDepth
 	}
-	var pe *geo.PointEvaluator
-	if want != 0 {
-		var err error
-		if pe, err = geo.NewPointEvaluator(in, want); err != nil {
-			return nil, err
-		}
+	if needCorr || fl.need&inSed != 0 {
+		read |= roleSed
+	}
+	if needCorr {
+		read |= roleCrust
 	}
 	res := &PointsResult{Query: q, Lons: make([]float64, len(lons)), Lats: append([]float64(nil), lats...),
 		Values: make([][]float64, len(q.Params))}
@@ -77,35 +79,108 @@ func (s *Service) points(ctx context.Context, q *Query, lons, lats []float64) (*
 		res.Values[i] = make([]float64, len(lons))
 	}
 	for j := range lons {
-		if j%4096 == 0 {
-			if err := ctx.Err(); err != nil {
+		res.Lons[j] = geo.LonTo180(lons[j])
+	}
+	spacing, pad := s.pointSpacing(d)
+	for _, run := range pointRuns(res.Lons, lats, 512*spacing, 4096) {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		b := pointBound(run.lons, lats[run.from:run.to], pad)
+		v, err := s.window(ctx, d, b, 0, read)
+		if err != nil && !isEmptyWindow(err) {
+			return nil, err
+		}
+		var pe *geo.PointEvaluator
+		if v != nil && want != 0 {
+			in := geo.Inputs{Age: v.Age, Model: q.Model, Compaction: q.Sediment}
+			if needCorr && v.Depth != nil {
+				in.Depth, in.DepthSense, in.Sediment, in.Crust = v.Depth, d.DepthSense, v.Sediment, v.Crust
+			}
+			w := want
+			if in.Depth == nil {
+				w &^= geo.OutCorrectedDepth | geo.OutResidualDepth
+			}
+			if pe, err = geo.NewPointEvaluator(in, w); err != nil {
 				return nil, err
 			}
 		}
-		lon, lat := geo.LonTo180(lons[j]), lats[j]
-		res.Lons[j] = lon
-		var v geo.SampleValues
-		if pe != nil {
-			v = pe.At(lon, lat)
-		} else {
-			v = geo.SampleValues{AgeMa: float64(d.Age.SampleBilinear(lon, lat)), ObservedDepthM: nan, SedimentM: nan, CrustKm: nan, CorrectedDepthM: nan}
-		}
-		if !needCorr {
-			if d.Depth != nil && fl.need&inObs != 0 {
-				v.ObservedDepthM = geo.ToDepthM(float64(d.Depth.SampleBilinear(lon, lat)), d.DepthSense)
+		for j := run.from; j < run.to; j++ {
+			lon, lat := res.Lons[j], lats[j]
+			sv := geo.SampleValues{AgeMa: nan, ObservedDepthM: nan, SedimentM: nan, CrustKm: nan, CorrectedDepthM: nan,
+				PredictedDepthM: nan, HeatFlowMWm2: nan, ThermalThicknessKm: nan, Depth600CKm: nan, ResidualDepthM: nan}
+			if v != nil {
+				if pe != nil {
+					sv = pe.At(lon, lat)
+				} else {
+					sv.AgeMa = float64(v.Age.SampleBilinear(lon, lat))
+				}
+				if !needCorr || v.Depth == nil {
+					if v.Depth != nil && fl.need&inObs != 0 {
+						sv.ObservedDepthM = geo.ToDepthM(float64(v.Depth.SampleBilinear(lon, lat)), d.DepthSense)
+					}
+					if v.Sediment != nil && fl.need&inSed != 0 {
+						sv.SedimentM = float64(v.Sediment.SampleBilinear(lon, lat))
+					}
+				}
 			}
-			if d.Sediment != nil && fl.need&inSed != 0 {
-				v.SedimentM = float64(d.Sediment.SampleBilinear(lon, lat))
+			if !math.IsNaN(sv.AgeMa) {
+				res.onAge++
 			}
+			for i, p := range q.Params {
+				res.Values[i][j] = pick(p.ID, sv)
+			}
+			fl.check(sample{age: sv.AgeMa, obs: sv.ObservedDepthM, sed: sv.SedimentM, crust: sv.CrustKm, corr: sv.CorrectedDepthM},
+				func(i int) { res.Values[i][j] = nan })
 		}
-		for i, p := range q.Params {
-			res.Values[i][j] = pick(p.ID, v)
-		}
-		fl.check(sample{age: v.AgeMa, obs: v.ObservedDepthM, sed: v.SedimentM, crust: v.CrustKm, corr: v.CorrectedDepthM},
-			func(i int) { res.Values[i][j] = nan })
 	}
 	res.Flags = fl.flags()
 	return res, nil
+}
+
+// pointSpacing is the dataset's coarsest full-resolution spacing (degrees) and the margin to
+// read around positions so bilinear sampling has every neighbour: two of those cells.
+func (s *Service) pointSpacing(d *Dataset) (spacing, pad float64) {
+	for _, f := range []*raster.File{d.Files.Age, d.Files.Depth, d.Files.Sediment, d.Files.Crust} {
+		if f != nil {
+			h := f.Header()
+			spacing = math.Max(spacing, math.Max(h.DX, h.DY))
+		}
+	}
+	return spacing, 2 * spacing
+}
+
+// pointRun is positions from..to−1 with their longitudes unwrapped to one side of the first
+// (so a run across the antimeridian has one contiguous longitude range).
+type pointRun struct {
+	from, to int
+	lons     []float64
+}
+
+// pointRuns splits positions into runs of consecutive neighbours: at most maxN positions whose
+// unwrapped longitudes and latitudes each span at most maxSpan degrees (a run holds at least one
+// position).
+func pointRuns(lons, lats []float64, maxSpan float64, maxN int) []pointRun {
+	var runs []pointRun
+	for i := 0; i < len(lons); {
+		run := pointRun{from: i, lons: []float64{lons[i]}}
+		loX, hiX, loY, hiY := lons[i], lons[i], lats[i], lats[i]
+		j := i + 1
+		for ; j < len(lons) && j-i < maxN; j++ {
+			x := lons[i] + geo.LonTo180(lons[j]-lons[i])
+			nloX, nhiX := math.Min(loX, x), math.Max(hiX, x)
+			nloY, nhiY := math.Min(loY, lats[j]), math.Max(hiY, lats[j])
+			if nhiX-nloX > maxSpan || nhiY-nloY > maxSpan {
+				break
+			}
+			loX, hiX, loY, hiY = nloX, nhiX, nloY, nhiY
+			run.lons = append(run.lons, x)
+		}
+		run.to = j
+		runs = append(runs, run)
+		i = j
+	}
+	return runs
 }
 
 // pick is parameter id's value in v.
@@ -172,7 +247,7 @@ func (s *Service) Track(ctx context.Context, datasetID string, o Options, waypoi
 	if spacingKm <= 0 {
 		// The age grid's row spacing at a nominal 111.32 km per degree (2π × 6378.137 km / 360,
 		// the WGS84 equatorial radius; worked by hand).
-		spacingKm = q.Dataset.Age.DY * 111.32
+		spacingKm = q.Dataset.AgeHeader().DY * 111.32
 	}
 	samples, err := geo.Densify(gdal.WGS84(), wps, spacingKm*1000, s.limits.MaxTrackSamples)
 	if err != nil {

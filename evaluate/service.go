@@ -16,6 +16,7 @@ import (
 	"ridgeflank/fault"
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
+	"ridgeflank/raster"
 	"ridgeflank/store"
 	"ridgeflank/thermal"
 )
@@ -30,7 +31,6 @@ type Limits struct {
 	MaxTrackSamples int // samples along one track ("max_track_samples")
 	MaxParameters   int // parameters in one question ("max_parameters")
 	MaxTileZoom     int // deepest tile zoom ("max_tile_zoom")
-	GridCacheCells  int // grid cells kept in memory across questions (float32 each)
 }
 
 // DefaultLimits are the limits used when a Limits field is zero.
@@ -42,7 +42,6 @@ var DefaultLimits = Limits{
 	MaxTrackSamples: 100_000,
 	MaxParameters:   9,
 	MaxTileZoom:     14,
-	GridCacheCells:  150_000_000,
 }
 
 // WithDefaults returns l with every zero field set to DefaultLimits' value.
@@ -51,7 +50,7 @@ func (l Limits) WithDefaults() Limits {
 	for _, f := range []struct{ v, dv *int }{
 		{&l.MaxPositions, &d.MaxPositions}, {&l.MaxVertices, &d.MaxVertices}, {&l.MaxAreaCells, &d.MaxAreaCells},
 		{&l.MaxInputCells, &d.MaxInputCells}, {&l.MaxTrackSamples, &d.MaxTrackSamples},
-		{&l.MaxParameters, &d.MaxParameters}, {&l.MaxTileZoom, &d.MaxTileZoom}, {&l.GridCacheCells, &d.GridCacheCells},
+		{&l.MaxParameters, &d.MaxParameters}, {&l.MaxTileZoom, &d.MaxTileZoom},
 	} {
 		if *f.v <= 0 {
 			*f.v = *f.dv
@@ -65,6 +64,20 @@ type Config struct {
 	Store   store.Store // catalogue, grid files, custom models (required for dataset questions)
 	Version string      // software version for provenance ("dev" when empty)
 	Limits  Limits
+	// MemoryBudget bounds, in bytes, the memory the service keeps between questions: decoded
+	// grid blocks (raster.Cache) and GDAL's own block cache together (0: DefaultMemoryBudget).
+	// See BudgetShares for how it is divided.
+	MemoryBudget int64
+}
+
+// DefaultMemoryBudget is the memory budget used when Config.MemoryBudget is 0: 512 MiB.
+const DefaultMemoryBudget int64 = 512 << 20
+
+// BudgetShares divides a memory budget: three quarters for decoded blocks of the stored grids
+// (raster.Cache), one sixteenth for GDAL's cache of file blocks (gdal.SetCacheBytes), and the
+// rest left for the questions in flight and for the model and sediment tables (a few MB).
+func BudgetShares(budget int64) (blocks, gdalCache int64) {
+	return budget / 4 * 3, max(budget/16, 8<<20)
 }
 
 // Service answers questions about the datasets of one store. It owns the caches (grids by
@@ -75,7 +88,9 @@ type Service struct {
 	version string
 	limits  Limits
 
-	grids     *gridCache
+	budget    int64
+	blocks    *raster.Cache
+	files     fileSet
 	datasets  sync.Map // id -> cachedDataset
 	models    modelCache
 	modelRefs sync.Map // thermal.Params -> *ModelRef
@@ -87,9 +102,21 @@ func New(cfg Config) *Service {
 		cfg.Version = "dev"
 	}
 	l := cfg.Limits.WithDefaults()
-	return &Service{st: cfg.Store, version: cfg.Version, limits: l, grids: newGridCache(l.GridCacheCells),
+	if cfg.MemoryBudget <= 0 {
+		cfg.MemoryBudget = DefaultMemoryBudget
+	}
+	blocks, gdalCache := BudgetShares(cfg.MemoryBudget)
+	gdal.SetCacheBytes(gdalCache)
+	return &Service{st: cfg.Store, version: cfg.Version, limits: l, budget: cfg.MemoryBudget, blocks: raster.NewCache(blocks),
+		files:  fileSet{m: map[string]*list.Element{}, ll: list.New()},
 		models: modelCache{m: map[thermal.Params]thermal.Model{}}}
 }
+
+// MemoryBudget is the service's memory budget in bytes.
+func (s *Service) MemoryBudget() int64 { return s.budget }
+
+// CacheStats describes the decoded-block cache (for health and metrics).
+func (s *Service) CacheStats() raster.CacheStats { return s.blocks.Stats() }
 
 // Limits returns the service's limits (defaults filled in).
 func (s *Service) Limits() Limits { return s.limits }
@@ -97,88 +124,33 @@ func (s *Service) Limits() Limits { return s.limits }
 // Version is the software version the service states in provenance.
 func (s *Service) Version() string { return s.version }
 
-// ---- grid cache ----
+// ---- grid files ----
 
-// gridCache keeps decoded grid files in memory, least recently used first out, bounded by a
-// total number of cells. Keys are content hashes (plus a suffix for overviews), so a changed
-// file is a new key.
-type gridCache struct {
-	mu       sync.Mutex
-	maxCells int
-	cells    int
-	ll       *list.List
-	items    map[string]*list.Element
-	group    singleflight.Group
+// maxOpenFiles bounds the grid files kept open for windowed reads (each holds a few GDAL handles).
+const maxOpenFiles = 64
+
+// fileSet keeps the stored grid files open for windowed reads, by content hash and path, least
+// recently used first out (a closed file finishes the reads in flight).
+type fileSet struct {
+	mu    sync.Mutex
+	m     map[string]*list.Element
+	ll    *list.List
+	group singleflight.Group
 }
 
-type cacheEntry struct {
-	key string
-	g   *geo.Grid
-}
-
-func newGridCache(maxCells int) *gridCache {
-	return &gridCache{maxCells: maxCells, ll: list.New(), items: map[string]*list.Element{}}
-}
-
-func (c *gridCache) get(key string) (*geo.Grid, bool) {
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	if e, ok := c.items[key]; ok {
-		c.ll.MoveToFront(e)
-		return e.Value.(*cacheEntry).g, true
+// gridFile returns the catalogued grid row opened for windowed reads.
+func (s *Service) gridFile(row store.Grid) (*raster.File, error) {
+	key := row.ContentHash + "|" + row.Path
+	fs := &s.files
+	fs.mu.Lock()
+	if e, ok := fs.m[key]; ok {
+		fs.ll.MoveToFront(e)
+		f := e.Value.(*raster.File)
+		fs.mu.Unlock()
+		return f, nil
 	}
-	return nil, false
-}
-
-func (c *gridCache) put(key string, g *geo.Grid) {
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	if _, ok := c.items[key]; ok {
-		return
-	}
-	n := len(g.Data)
-	if n > c.maxCells {
-		return
-	}
-	c.items[key] = c.ll.PushFront(&cacheEntry{key, g})
-	c.cells += n
-	for c.cells > c.maxCells {
-		e := c.ll.Back()
-		ce := e.Value.(*cacheEntry)
-		c.ll.Remove(e)
-		delete(c.items, ce.key)
-		c.cells -= len(ce.g.Data)
-	}
-}
-
-// load returns the cached value for key or builds it once (concurrent callers share one build).
-func (c *gridCache) load(key string, build func() (*geo.Grid, error)) (*geo.Grid, error) {
-	if g, ok := c.get(key); ok {
-		return g, nil
-	}
-	v, err, _ := c.group.Do(key, func() (any, error) {
-		if g, ok := c.get(key); ok {
-			return g, nil
-		}
-		g, err := build()
-		if err != nil {
-			return nil, err
-		}
-		c.put(key, g)
-		return g, nil
-	})
-	if err != nil {
-		return nil, err
-	}
-	return v.(*geo.Grid), nil
-}
-
-// loadGrid reads a catalogued grid file (cached by content hash).
-func (s *Service) loadGrid(ctx context.Context, row store.Grid) (*geo.Grid, error) {
-	return s.grids.load(row.ContentHash, func() (*geo.Grid, error) {
-		if err := ctx.Err(); err != nil {
-			return nil, err
-		}
+	fs.mu.Unlock()
+	v, err, _ := fs.group.Do(key, func() (any, error) {
 		path, err := s.st.Blobs().Path(row.Path)
 		if err != nil {
 			return nil, err
@@ -190,40 +162,62 @@ func (s *Service) loadGrid(ctx context.Context, row store.Grid) (*geo.Grid, erro
 		case store.Node:
 			opt.Registration = "node"
 		}
-		g, _, err := gdal.Read(path, opt)
+		f, err := raster.Open(path, row.ContentHash, opt, s.blocks)
 		if err != nil {
 			return nil, fmt.Errorf("reading grid %s: %w", row.ID, err)
 		}
-		return g, nil
+		fs.mu.Lock()
+		defer fs.mu.Unlock()
+		if e, ok := fs.m[key]; ok { // opened meanwhile
+			f.Close(false)
+			return e.Value.(*raster.File), nil
+		}
+		fs.m[key] = fs.ll.PushFront(f)
+		for fs.ll.Len() > maxOpenFiles {
+			e := fs.ll.Back()
+			old := e.Value.(*raster.File)
+			fs.ll.Remove(e)
+			for k, v := range fs.m {
+				if v == e {
+					delete(fs.m, k)
+				}
+			}
+			old.Close(false)
+		}
+		return f, nil
 	})
-}
-
-// overview returns g coarsened by factor f (cached under ref), or g itself for f ≤ 1.
-func (s *Service) overview(g *geo.Grid, ref string, f int) (*geo.Grid, error) {
-	if f <= 1 || g == nil {
-		return g, nil
+	if err != nil {
+		return nil, err
 	}
-	return s.grids.load(fmt.Sprintf("%s@%d", ref, f), func() (*geo.Grid, error) {
-		return g.Resample(float64(f)*g.DX, float64(f)*g.DY)
-	})
+	return v.(*raster.File), nil
 }
 
 // ---- datasets ----
 
-// Dataset is a stored dataset with its grids (loaded by Dataset, not by DatasetMeta).
+// Dataset is a stored dataset with its grid files opened for windowed reads (by Dataset, not by
+// DatasetMeta).
 type Dataset struct {
-	Row        store.Dataset
-	Age        *geo.Grid
-	Depth      *geo.Grid // observed bathymetry in the sense DepthSense
-	DepthSense geo.VerticalSense
-	Sediment   *geo.Grid
-	Crust      *geo.Grid
-	Refs       []GridRef
+	Row   store.Dataset
+	Files DatasetFiles
+	// Age, Depth, Sediment and Crust are windows of the files read for one question
+	// (Service.window); they are nil in the Dataset that Service.Dataset returns. Depth is the
+	// observed bathymetry in the sense DepthSense.
+	Age, Depth, Sediment, Crust *geo.Grid
+	DepthSense                  geo.VerticalSense
+	Refs                        []GridRef
 	// From the catalogue rows (known without reading any grid file):
 	Bounds      orb.Bound // footprint of the age grid
 	HasDepth    bool
 	HasSediment bool
 }
+
+// DatasetFiles are a dataset's grid files (nil where it has none).
+type DatasetFiles struct {
+	Age, Depth, Sediment, Crust *raster.File
+}
+
+// AgeHeader is the shape of the dataset's full-resolution age grid (no Data).
+func (d *Dataset) AgeHeader() geo.Grid { return d.Files.Age.Header() }
 
 // Available lists the parameters the dataset can answer, in the order of Parameters.
 func (d *Dataset) Available() []Parameter {
@@ -262,7 +256,7 @@ type cachedDataset struct {
 // Forget drops every cached dataset; call it after any write to datasets or grids.
 func (s *Service) Forget() { s.datasets.Clear() }
 
-// Dataset returns the dataset id with its grids loaded (cached for DatasetTTL).
+// Dataset returns the dataset id with its grid files open (cached for DatasetTTL).
 func (s *Service) Dataset(ctx context.Context, id string) (*Dataset, error) {
 	if v, ok := s.datasets.Load(id); ok {
 		if c := v.(cachedDataset); time.Since(c.at) < DatasetTTL {
@@ -274,19 +268,22 @@ func (s *Service) Dataset(ctx context.Context, id string) (*Dataset, error) {
 		return nil, err
 	}
 	for i, row := range rows {
-		g, err := s.loadGrid(ctx, row)
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		f, err := s.gridFile(row)
 		if err != nil {
 			return nil, err
 		}
 		switch d.Refs[i].Role {
 		case PSeafloorAge:
-			d.Age = g
+			d.Files.Age = f
 		case PObservedDepth:
-			d.Depth = g
+			d.Files.Depth = f
 		case PSedimentThickness:
-			d.Sediment = g
+			d.Files.Sediment = f
 		case RoleCrust:
-			d.Crust = g
+			d.Files.Crust = f
 		}
 	}
 	s.datasets.Store(id, cachedDataset{d, time.Now()})

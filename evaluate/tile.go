@@ -4,7 +4,6 @@ import (
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
-	"errors"
 	"fmt"
 	"image"
 	"image/color"
@@ -81,9 +80,9 @@ func (s *Service) Tile(ctx context.Context, datasetID, parameter string, z, x, y
 }
 
 // Render computes the tile: the parameter colour-mapped through package colour (Paint), no
-// data and refused values transparent. At low zoom the grids are first coarsened (cached
-// overviews, area-weighted block means by powers of two) so a tile never reads many more cells
-// than it has pixels. It returns the number of grid cells evaluated too.
+// data and refused values transparent. The grids are read at the coarsest overview whose cell
+// is no wider than a pixel (window), so a tile never reads many more cells than it has pixels,
+// whatever the grid's size. It returns the number of grid cells evaluated too.
 func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 	s, q, p, d := t.s, t.Query, t.Param, t.Query.Dataset
 	z, x, y := t.z, t.x, t.y
@@ -92,47 +91,38 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 	west, east := tileLon(float64(x), n), tileLon(float64(x+1), n)
 	north, south := tileLat(float64(y), n), tileLat(float64(y+1), n)
 
-	// Overview factor: the largest power of two whose cell is no wider than a pixel.
+	// The coarsest level (overview) whose cell is no wider than a pixel.
 	pixDeg := (east - west) / TileSize
-	f := 1
-	for float64(2*f)*d.Age.DX <= pixDeg && 2*f <= d.Age.NX/2 && 2*f <= d.Age.NY/2 {
-		f *= 2
-	}
-	ov := func(g *geo.Grid, role string) (*geo.Grid, error) {
-		if g == nil || !sameLattice(d.Age, g) {
-			return g, nil
-		}
-		return s.overview(g, d.ref(role), f)
-	}
-	age, err := s.overview(d.Age, d.ref(PSeafloorAge), f)
-	if err != nil {
-		return nil, 0, err
-	}
-	pad := 2 * age.DX
+	lvl := d.Files.Age.LevelFor(pixDeg, false)
+	lg := d.Files.Age.Levels()[lvl].Grid
+	pad := 2 * lg.DX
 	bound := orb.Bound{Min: orb.Point{west - pad, math.Max(-90, south-pad)}, Max: orb.Point{east + pad, math.Min(90, north+pad)}}
-	win, err := age.Window(bound)
+	fl := newFlagger(q.Params)
+	read := roleAge
+	if p.NeedsDepth {
+		read |= roleDepth | roleSed | roleCrust
+	}
+	if fl.need&inObs != 0 {
+		read |= roleDepth
+	}
+	if fl.need&inSed != 0 {
+		read |= roleSed
+	}
+	v, err := s.window(ctx, d, bound, lvl, read)
 	if err != nil {
-		if errors.Is(err, geo.ErrEmptyWindow) {
+		if isEmptyWindow(err) {
 			return img, 0, nil // outside the dataset: a transparent tile
 		}
 		return nil, 0, err
 	}
-	fl := newFlagger(q.Params)
+	win := v.Age
 	var obsL, sedL, crustL, corrL *geo.Grid
-	if fl.need&inObs != 0 && d.Depth != nil {
-		src, err := ov(d.Depth, PObservedDepth)
-		if err != nil {
-			return nil, 0, err
-		}
-		obsL = windowOnto(win, src, bound)
+	if fl.need&inObs != 0 && v.Depth != nil {
+		obsL = sampleOnto(win, v.Depth)
 		toDepthM(obsL, d.DepthSense)
 	}
-	if fl.need&inSed != 0 && d.Sediment != nil {
-		src, err := ov(d.Sediment, PSedimentThickness)
-		if err != nil {
-			return nil, 0, err
-		}
-		sedL = windowOnto(win, src, bound)
+	if fl.need&inSed != 0 && v.Sediment != nil {
+		sedL = sampleOnto(win, v.Sediment)
 	}
 	vals, isInput := inputGrid(p.ID, win, obsL, sedL)
 	if !isInput {
@@ -140,17 +130,9 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 		in := geo.Inputs{Age: win, Model: q.Model, Compaction: q.Sediment, Workers: 1}
 		if p.NeedsDepth {
 			in.DepthSense = d.DepthSense
-			if in.Depth, err = ov(d.Depth, PObservedDepth); err != nil {
-				return nil, 0, err
-			}
-			if in.Sediment, err = ov(d.Sediment, PSedimentThickness); err != nil {
-				return nil, 0, err
-			}
-			if in.Crust, err = ov(d.Crust, RoleCrust); err != nil {
-				return nil, 0, err
-			}
+			in.Depth, in.Sediment, in.Crust = v.Depth, v.Sediment, v.Crust
 			if in.Crust != nil {
-				crustL = windowOnto(win, in.Crust, bound)
+				crustL = sampleOnto(win, in.Crust)
 			}
 		}
 		if p.NeedsDepth && corrCanExceed(obsL, sedL, in.Crust != nil) {
@@ -258,13 +240,3 @@ func (p *Paint) Image(g *geo.Grid) *image.NRGBA {
 	return img
 }
 
-// windowOnto is src on the lattice of win, a window of bound: a grid on the same lattice is
-// windowed the same way (a copy of whole cells), any other is sampled bilinearly.
-func windowOnto(win, src *geo.Grid, bound orb.Bound) *geo.Grid {
-	if sameLattice(win, src) {
-		if w, err := src.Window(bound); err == nil {
-			return sampleOnto(win, w)
-		}
-	}
-	return sampleOnto(win, src)
-}
