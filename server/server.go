@@ -88,6 +88,9 @@ type Config struct {
 	// PublicURL is the externally visible base URL (for absolute links); empty
 	// means links are built from the request's Host.
 	PublicURL string
+	// MemoryBudgetBytes bounds the memory kept between requests (decoded grid blocks and GDAL's
+	// block cache together; evaluate.Config.MemoryBudget); 0 means evaluate.DefaultMemoryBudget.
+	MemoryBudgetBytes int64
 }
 
 // Deps are everything the handlers need; New keeps no global state.
@@ -154,7 +157,8 @@ type handlerFunc func(w http.ResponseWriter, r *http.Request) error
 // RFC 9457 application/problem+json.
 // NewEvaluate builds the evaluate service of deps: its store, version and limits.
 func NewEvaluate(deps Deps) *evaluate.Service {
-	return evaluate.New(evaluate.Config{Store: deps.Store, Version: deps.Version, Limits: deps.Limits.withDefaults().Limits})
+	return evaluate.New(evaluate.Config{Store: deps.Store, Version: deps.Version, Limits: deps.Limits.withDefaults().Limits,
+		MemoryBudget: deps.Config.MemoryBudgetBytes})
 }
 
 func (s *server) h(fn handlerFunc) http.HandlerFunc {

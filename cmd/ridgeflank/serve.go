@@ -6,9 +6,12 @@ import (
 	"fmt"
 	"io"
 	"log/slog"
+	"math"
 	"net"
 	"net/http"
 	"path/filepath"
+	"runtime/debug"
+	"strconv"
 	"strings"
 	"time"
 
@@ -37,6 +40,11 @@ On first start with an empty embedded store the synthetic demo basin (Quillon
 Basin, SYNTHETIC) is loaded. When bound to a loopback address, an editor token is
 printed at start-up so the page on this machine can save regions; tokens printed
 by earlier starts are revoked. Nobody from another host can write without a token.
+
+--memory-budget (default 512MiB) bounds what is kept between requests: decoded
+blocks of the stored grids and GDAL's own block cache together. Grids of any
+size are read in windows at the overview level a request needs, so resident
+memory stays near the budget whatever the number and size of grids.
 
 Predicted depths are model estimates, not for navigation.
 
@@ -71,8 +79,16 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	publicURL := fs.String("public-url", "", "externally visible base URL for links (default: from the request)")
 	logFormat := fs.String("log-format", "text", "log format: text or json")
 	logLevel := fs.String("log-level", "info", "log level: debug, info, warn or error")
+	budgetText := fs.String("memory-budget", "512MiB", "memory kept between requests: decoded grid blocks and GDAL's block cache together (e.g. 512MiB, 2GB)")
 	if err := parseFlags(ctx, serveCmd, fs, args, stdout, false); err != nil {
 		return err
+	}
+	budget, err := parseBytes(*budgetText)
+	if err != nil {
+		return usagef("--memory-budget %q: %v", *budgetText, err)
+	}
+	if budget < 16<<20 {
+		return usagef("--memory-budget %q: at least 16MiB is needed", *budgetText)
 	}
 	if loc.databaseURL == "" {
 		if v, ok := envLookup(ctx)("DATABASE_URL"); ok {
@@ -110,15 +126,20 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		Limits: server.Limits{RequestTimeout: *timeout},
 		Config: server.Config{CORSOrigins: origins, RateLimitPerMinute: *rate, ReadAuth: *readAuth,
 			UploadDir: filepath.Join(loc.dataDir, "uploads"), ExportDir: filepath.Join(loc.dataDir, "exports"),
-			PublicURL: *publicURL},
+			PublicURL: *publicURL, MemoryBudgetBytes: budget},
 	}
 	if web.HasPage() {
 		deps.Assets = web.Assets()
 	}
 
 	// One evaluation service (datasets, grid caches, models) shared by the handlers and the
-	// export worker.
+	// export worker. The Go heap is asked to stay near the budget too (unless GOMEMLIMIT says
+	// otherwise): the block cache is most of it.
 	deps.Evaluate = server.NewEvaluate(deps)
+	if _, ok := envLookup(ctx)("GOMEMLIMIT"); !ok {
+		debug.SetMemoryLimit(max(budget*5/4, budget+128<<20))
+	}
+	log.Info("memory budget", "bytes", budget)
 
 	// The durable job queue, in the store's database.
 	handlers := jobs.Handlers{Import: server.ImportWorker(st, log), Export: server.ExportWorker(deps)}
@@ -240,4 +261,29 @@ func startupToken(ctx context.Context, st store.Store) (string, error) {
 	}
 	_, plain, err := st.CreateToken(ctx, startupTokenName, store.RoleEditor)
 	return plain, err
+}
+
+// parseBytes reads a byte size: a number with an optional unit B, KB, MB, GB, TB (powers of
+// 1000) or KiB, MiB, GiB, TiB (powers of 1024), case-insensitive, e.g. "512MiB", "2GB", "1e9".
+func parseBytes(s string) (int64, error) {
+	t := strings.TrimSpace(s)
+	i := len(t)
+	for i > 0 && (t[i-1] < '0' || t[i-1] > '9') && t[i-1] != '.' {
+		i--
+	}
+	num, unit := strings.TrimSpace(t[:i]), strings.ToLower(strings.TrimSpace(t[i:]))
+	v, err := strconv.ParseFloat(num, 64)
+	if err != nil || v < 0 || math.IsInf(v, 0) {
+		return 0, fmt.Errorf("want a size such as 512MiB or 2GB")
+	}
+	mult := map[string]float64{"": 1, "b": 1, "kb": 1e3, "mb": 1e6, "gb": 1e9, "tb": 1e12,
+		"kib": 1 << 10, "mib": 1 << 20, "gib": 1 << 30, "tib": 1 << 40, "k": 1 << 10, "m": 1 << 20, "g": 1 << 30}
+	m, ok := mult[unit]
+	if !ok {
+		return 0, fmt.Errorf("unknown unit %q (use B, KB, MB, GB, KiB, MiB or GiB)", t[i:])
+	}
+	if v*m > math.MaxInt64/2 {
+		return 0, fmt.Errorf("too large")
+	}
+	return int64(v * m), nil
 }

@@ -94,3 +94,28 @@ func TestServeLoopbackTokenDemoAndShutdown(t *testing.T) {
 		t.Errorf("old start-up token: %d, want 401", got)
 	}
 }
+
+func TestParseBytes(t *testing.T) {
+	for _, tc := range []struct {
+		in   string
+		want int64
+		ok   bool
+	}{
+		{"512MiB", 512 << 20, true}, // IEC 80000-13 binary prefix: Mi = 2^20
+		{"2GB", 2e9, true},          // SI prefix: G = 10^9
+		{"1.5 GiB", 3 << 29, true},
+		{"1048576", 1 << 20, true},
+		{"64m", 64 << 20, true},
+		{"", 0, false},
+		{"lots", 0, false},
+		{"12XB", 0, false},
+		{"-5MB", 0, false},
+	} {
+		t.Run(tc.in, func(t *testing.T) {
+			got, err := parseBytes(tc.in)
+			if (err == nil) != tc.ok || got != tc.want {
+				t.Fatalf("parseBytes(%q) = %d, %v; want %d (ok=%v)", tc.in, got, err, tc.want, tc.ok)
+			}
+		})
+	}
+}
