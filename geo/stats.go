@@ -71,6 +71,25 @@ type Stats struct {
 	P75       float64    `json:"p75"`
 	P95       float64    `json:"p95"`
 	Histogram *Histogram `json:"histogram,omitempty"`
+	// PercentileErrorBound bounds |reported − exact| for Median, P05, P25, P75 and P95, in the
+	// grid's unit. It is 0 from AreaWeightedStats (exact percentiles). From StatsStream it is the
+	// largest, over the five percentiles, of half the spread (hi−lo)/2 of the values in the fine
+	// bin holding the percentile; it is at most half a fine bin, (Max−Min)/(2·StreamQuantileBins)
+	// (up to rounding of the bin index), and 0 when every such bin holds one distinct value.
+	//
+	// Proof: the fine bin of a value v, ⌊(v−Min)·StreamQuantileBins/(Max−Min)⌋ clamped to the
+	// last bin, never decreases as v grows (floating-point subtraction, multiplication by a
+	// positive number and truncation are monotone), so the bins split the sorted values into
+	// consecutive runs. Let C_b be the weight of bins 0..b and b* the first bin with positive
+	// weight and C_b* ≥ p·Σw; lo, hi the smallest and largest value of positive weight in b*.
+	// weight(≤ hi) = C_b* ≥ p·Σw, so the exact percentile q ≤ hi; every value of positive weight
+	// below lo lies in an earlier bin, so weight(≤ it) ≤ C_(b*−1) < p·Σw, and q (which has
+	// positive weight: a zero-weight value never first reaches the target) ≥ lo. The reported
+	// value (lo+hi)/2 is then within (hi−lo)/2 of q. Reporting a bin edge would need the whole
+	// bin width as bound, the bin's middle half of it. The argument is exact for the weight sums
+	// as computed: when the exact weight up to a value equals p·Σw to within the rounding of the
+	// sums, the neighbouring value may be reported instead (as for any weighted quantile).
+	PercentileErrorBound float64 `json:"percentile_error_bound,omitempty"`
 }
 
 // seamColumns returns how many columns to use so that a grid global in longitude whose last
