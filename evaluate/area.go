@@ -51,22 +51,15 @@ func (s *Service) AreaCells(ctx context.Context, datasetID string, r geo.Prepare
 }
 
 // Region evaluates o's parameters over the stored region regionID, as Area does, with
-// area-weighted statistics of every parameter (geo.AreaWeightedStats; histograms of 50 m bins
-// for parameters in metres, else 50 bins over the data's range). A region with no value of some
-// parameter is fault.NoData.
+// area-weighted statistics of every parameter computed as Statistics computes them (the same
+// streams, here fed the answer's grids). A region with no value of some parameter is
+// fault.NoData.
 func (s *Service) Region(ctx context.Context, datasetID, regionID string, o Options, resX, resY float64) (*AreaResult, store.Region, error) {
 	q, err := s.load(ctx, datasetID, o)
 	if err != nil {
 		return nil, store.Region{}, err
 	}
-	rg, err := s.st.GetRegion(ctx, regionID)
-	if err != nil {
-		if errors.Is(err, store.ErrNotFound) {
-			return nil, rg, fault.New(fault.NotFound, "", "no location (region) %q%w", regionID, quiet(err))
-		}
-		return nil, rg, err
-	}
-	r, err := s.PrepareRegion(rg.Geometry, "geometry")
+	rg, r, err := s.storedRegion(ctx, regionID)
 	if err != nil {
 		return nil, rg, err
 	}
@@ -75,7 +68,7 @@ func (s *Service) Region(ctx context.Context, datasetID, regionID string, o Opti
 		return nil, rg, err
 	}
 	for i, p := range q.Params {
-		st, err := regionStats(res.Grids[i], res.Mask, p)
+		st, err := gridStats(res.Grids[i], res.Mask, p)
 		if err != nil {
 			return nil, rg, err
 		}
@@ -87,52 +80,98 @@ func (s *Service) Region(ctx context.Context, datasetID, regionID string, o Opti
 	return res, rg, nil
 }
 
-// regionStats are the area-weighted statistics of one parameter over a region, with a
-// histogram: 50 m bins for parameters in metres (edges at whole multiples of 50 m), else 50
-// equal bins over the data's range.
-func regionStats(g *geo.Grid, mask geo.Mask, p Parameter) (geo.Stats, error) {
-	opt := geo.StatsOptions{HistogramBins: 50}
-	if p.Unit == "m" {
-		opt = geo.StatsOptions{HistogramBinWidth: 50}
+// gridStats are the statistics of one parameter's grid inside mask, by the streams
+// Statistics uses (one block, two passes).
+func gridStats(g *geo.Grid, mask geo.Mask, p Parameter) (geo.Stats, error) {
+	st, err := geo.NewStatsStream(statsOptions(p), 0)
+	if err != nil {
+		return geo.Stats{}, err
 	}
-	st, err := geo.AreaWeightedStats(g, mask, opt)
-	if err != nil && opt.HistogramBinWidth > 0 { // too many 50 m bins: fall back to 50 bins
-		st, err = geo.AreaWeightedStats(g, mask, geo.StatsOptions{HistogramBins: 50})
+	if err := st.AddMoments(g, mask); err != nil {
+		return geo.Stats{}, err
 	}
-	return st, err
+	if err := st.BeginHistogram(); err != nil {
+		return geo.Stats{}, err
+	}
+	if err := st.AddHistogram(g, mask); err != nil {
+		return geo.Stats{}, err
+	}
+	return st.Result()
 }
 
-func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX, resY float64) (*AreaResult, error) {
+// areaPlan is how an area question reads its grids: the level of the age file (an exact
+// overview) and the whole factors rx, ry that coarsen it further to the answer's lattice.
+type areaPlan struct {
+	lvl, k, rx, ry int
+	inX, inY       int // full-resolution cells of the age grid inside the bound (upper estimate)
+}
+
+// planArea checks the resolution and chooses the level: the coarsest exact overview whose
+// factor k divides the asked coarsening fx × fy (areaLevel), coarsened the rest of the way by
+// area-weighted block means (geo.Grid.Resample).
+func planArea(d *Dataset, bound orb.Bound, resX, resY float64) (areaPlan, error) {
 	for _, v := range []struct {
 		name string
 		v    float64
 	}{{"resolution-x", resX}, {"resolution-y", resY}} {
 		if math.IsNaN(v.v) || v.v < 0 || v.v > 90 {
-			return nil, fault.New(fault.InvalidParameter, v.name, "%s=%g must be a positive number of degrees (at most 90)", v.name, v.v)
+			return areaPlan{}, fault.New(fault.InvalidParameter, v.name, "%s=%g must be a positive number of degrees (at most 90)", v.name, v.v)
 		}
 	}
-	d := q.Dataset
 	age := d.AgeHeader()
-	bound := r.Bound
 	fx, fy := factors(&age, resX, resY)
-	// Size check before any read: cells of the answer and of the input window.
 	inX, inY := inputSize(&age, bound)
-	outCells := int64(ceilDiv(inX, fx)) * int64(ceilDiv(inY, fy))
-	if outCells > int64(s.limits.MaxAreaCells) {
-		need := math.Sqrt(float64(outCells)/float64(s.limits.MaxAreaCells)) * math.Max(age.DX*float64(fx), age.DY*float64(fy))
-		return nil, fault.Over("max_area_cells", int64(s.limits.MaxAreaCells), outCells, "coords",
-			"the answer would have about %d cells; the limit is %d: ask for a smaller area or set resolution-x and resolution-y to about %.3g degrees or more",
-			outCells, s.limits.MaxAreaCells, need)
-	}
-	// The coarsest exact overview whose factor divides the asked coarsening: read it and
-	// coarsen the rest of the way (area-weighted block means, geo.Grid.Resample).
 	lvl, k := areaLevel(d.Files.Age, fx, fy)
-	rx, ry := fx/k, fy/k
-	if in := int64(ceilDiv(inX, k)) * int64(ceilDiv(inY, k)); in > int64(s.limits.MaxInputCells) {
+	return areaPlan{lvl: lvl, k: k, rx: fx / k, ry: fy / k, inX: inX, inY: inY}, nil
+}
+
+// outCells is the number of cells of the answer's lattice inside the bound.
+func (p areaPlan) outCells() int64 {
+	return int64(ceilDiv(p.inX, p.k*p.rx)) * int64(ceilDiv(p.inY, p.k*p.ry))
+}
+
+// readCells is the number of cells read at the plan's level.
+func (p areaPlan) readCells() int64 {
+	return int64(ceilDiv(p.inX, p.k)) * int64(ceilDiv(p.inY, p.k))
+}
+
+func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX, resY float64) (*AreaResult, error) {
+	d := q.Dataset
+	plan, err := planArea(d, r.Bound, resX, resY)
+	if err != nil {
+		return nil, err
+	}
+	// Size checks before any read: cells of the answer and of the input window.
+	age := d.AgeHeader()
+	if out := plan.outCells(); out > int64(s.limits.MaxAreaCells) {
+		need := math.Sqrt(float64(out)/float64(s.limits.MaxAreaCells)) * math.Max(age.DX*float64(plan.k*plan.rx), age.DY*float64(plan.k*plan.ry))
+		return nil, fault.Over("max_area_cells", int64(s.limits.MaxAreaCells), out, "coords",
+			"the answer would have about %d cells; the limit is %d: ask for a smaller area or set resolution-x and resolution-y to about %.3g degrees or more (statistics alone: the statistics query)",
+			out, s.limits.MaxAreaCells, need)
+	}
+	if in := plan.readCells(); in > int64(s.limits.MaxInputCells) {
 		return nil, fault.Over("max_input_cells", int64(s.limits.MaxInputCells), in, "coords",
 			"the area covers about %d input cells; the limit is %d", in, s.limits.MaxInputCells)
 	}
 	fl := newFlagger(q.Params)
+	res, err := s.evalWindow(ctx, q, r, r.Bound, plan, fl, false)
+	if err != nil {
+		return nil, err
+	}
+	if res == nil {
+		return nil, fault.New(fault.NoData, "coords", "no cell centre of dataset %q lies inside the area; try a larger area or a finer resolution", d.Row.ID)
+	}
+	res.Flags = fl.flags()
+	return res, nil
+}
+
+// evalWindow evaluates q's parameters on the plan's lattice over the window of bound (all of
+// the region's bound, or one band of it), masked to r, refusing impossible values through fl.
+// scan reads without keeping new blocks in the cache (raster.File.Scan). A window with no cell
+// inside the region answers nil.
+func (s *Service) evalWindow(ctx context.Context, q *Query, r geo.PreparedRegion, bound orb.Bound, plan areaPlan, fl *flagger, scan bool) (*AreaResult, error) {
+	d := q.Dataset
+	age := d.AgeHeader()
 	want := q.outputs()
 	needCorr := fl.need&(inCorr) != 0 && d.Files.Depth != nil && want&(geo.OutCorrectedDepth|geo.OutResidualDepth) != 0
 	read := roleAge
@@ -145,7 +184,10 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 	if needCorr {
 		read |= roleCrust
 	}
-	v, err := s.window(ctx, d, bound, lvl, read)
+	if scan {
+		read |= roleScan
+	}
+	v, err := s.window(ctx, d, bound, plan.lvl, read)
 	if err != nil {
 		if isEmptyWindow(err) {
 			b := age.Bounds()
@@ -154,6 +196,7 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 		}
 		return nil, err
 	}
+	rx, ry := plan.rx, plan.ry
 	coarsen := func(g *geo.Grid) (*geo.Grid, error) {
 		if rx > 1 || ry > 1 {
 			return g.Resample(float64(rx)*g.DX, float64(ry)*g.DY)
@@ -181,7 +224,7 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 		return nil, fault.New(fault.InvalidCoords, "coords", "%v", err)
 	}
 	if mask.Count() == 0 {
-		return nil, fault.New(fault.NoData, "coords", "no cell centre of dataset %q lies inside the area; try a larger area or a finer resolution", d.Row.ID)
+		return nil, nil
 	}
 	// The inputs on the output lattice, for the answers and the plausibility checks.
 	var obsL, sedL, crustL *geo.Grid
@@ -203,6 +246,8 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 		in := geo.Inputs{Age: ageW, Model: q.Model, Compaction: q.Sediment, Mask: mask}
 		if needCorr {
 			in.Depth, in.DepthSense, in.Sediment, in.Crust = depthW, d.DepthSense, sedW, crustW
+		} else {
+			want &^= geo.OutCorrectedDepth | geo.OutResidualDepth
 		}
 		if ev, err = geo.Evaluate(ctx, in, want); err != nil {
 			return nil, err
@@ -213,6 +258,9 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 		g, ok := inputGrid(p.ID, ageW, obsL, sedL)
 		if !ok {
 			g = modelGrid(ev, p.ID)
+		}
+		if g == nil { // an input the window does not reach
+			g = geo.NewGrid(ageW.NX, ageW.NY, ageW.West, ageW.North, ageW.DX, ageW.DY, ageW.Registration)
 		}
 		if !p.Predicted {
 			for i := range g.Data {
@@ -228,7 +276,6 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 		corrL = ev.CorrectedDepthM
 	}
 	screenGrids(fl, res.Grids, mask, ageW, obsL, sedL, crustL, corrL)
-	res.Flags = fl.flags()
 	return res, nil
 }
 

@@ -31,6 +31,9 @@ type Limits struct {
 	MaxTrackSamples int // samples along one track ("max_track_samples")
 	MaxParameters   int // parameters in one question ("max_parameters")
 	MaxTileZoom     int // deepest tile zoom ("max_tile_zoom")
+	// MaxStatisticsCells bounds the cells one statistics question reads at its level
+	// ("max_statistics_cells"); statistics stream in bands, so this bounds time, not memory.
+	MaxStatisticsCells int
 }
 
 // DefaultLimits are the limits used when a Limits field is zero.
@@ -42,6 +45,8 @@ var DefaultLimits = Limits{
 	MaxTrackSamples: 100_000,
 	MaxParameters:   9,
 	MaxTileZoom:     14,
+	// 200 M cells: a whole ocean at 1′ in a few seconds on two cores.
+	MaxStatisticsCells: 200_000_000,
 }
 
 // WithDefaults returns l with every zero field set to DefaultLimits' value.
@@ -51,6 +56,7 @@ func (l Limits) WithDefaults() Limits {
 		{&l.MaxPositions, &d.MaxPositions}, {&l.MaxVertices, &d.MaxVertices}, {&l.MaxAreaCells, &d.MaxAreaCells},
 		{&l.MaxInputCells, &d.MaxInputCells}, {&l.MaxTrackSamples, &d.MaxTrackSamples},
 		{&l.MaxParameters, &d.MaxParameters}, {&l.MaxTileZoom, &d.MaxTileZoom},
+		{&l.MaxStatisticsCells, &d.MaxStatisticsCells},
 	} {
 		if *f.v <= 0 {
 			*f.v = *f.dv

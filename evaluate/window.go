@@ -18,7 +18,9 @@ const (
 	roleDepth
 	roleSed
 	roleCrust
-	allRoles = roleAge | roleDepth | roleSed | roleCrust
+	// roleScan reads without keeping newly read blocks in the cache (a scan larger than the
+	// budget must not push out what other questions use).
+	roleScan
 )
 
 // window returns a copy of d whose Age, Depth, Sediment and Crust (those asked for in want and
@@ -31,7 +33,13 @@ func (s *Service) window(ctx context.Context, d *Dataset, b orb.Bound, lvl int, 
 	v := *d
 	v.Age, v.Depth, v.Sediment, v.Crust = nil, nil, nil, nil
 	age := d.Files.Age
-	ag, err := age.Window(ctx, b, lvl)
+	read := func(f *raster.File, b orb.Bound, l int) (*geo.Grid, error) {
+		if want&roleScan != 0 {
+			return f.Scan(ctx, b, l)
+		}
+		return f.Window(ctx, b, l)
+	}
+	ag, err := read(age, b, lvl)
 	if err != nil {
 		return nil, err
 	}
@@ -42,7 +50,7 @@ func (s *Service) window(ctx context.Context, d *Dataset, b orb.Bound, lvl int, 
 			return nil, nil
 		}
 		if sameFile(age, f) && lvl < len(f.Levels()) {
-			return f.Window(ctx, b, lvl)
+			return read(f, b, lvl)
 		}
 		l := f.LevelFor(spacing, false)
 		g := f.Levels()[l].Grid
@@ -51,7 +59,7 @@ func (s *Service) window(ctx context.Context, d *Dataset, b orb.Bound, lvl int, 
 		if b.Max[0]-b.Min[0] >= 360-1e-9 {
 			pb.Min[0], pb.Max[0] = b.Min[0], b.Max[0]
 		}
-		w, err := f.Window(ctx, pb, l)
+		w, err := read(f, pb, l)
 		if err != nil {
 			if isEmptyWindow(err) {
 				return nil, nil // the companion does not reach here: no data

@@ -109,6 +109,12 @@ func (f *File) Window(ctx context.Context, b orb.Bound, level int) (*geo.Grid, e
 	return f.window(ctx, b, level, true)
 }
 
+// Scan is Window for a read that should not fill the cache: blocks already cached are used,
+// newly read ones are not kept.
+func (f *File) Scan(ctx context.Context, b orb.Bound, level int) (*geo.Grid, error) {
+	return f.window(ctx, b, level, false)
+}
+
 func (f *File) window(ctx context.Context, b orb.Bound, level int, keep bool) (*geo.Grid, error) {
 	if level < 0 || level >= len(f.levels) {
 		return nil, fmt.Errorf("raster: no level %d in %s", level, f.path)

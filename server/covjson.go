@@ -111,6 +111,7 @@ func (u unitStats) MarshalJSON() ([]byte, error) {
 		{"count", s.Count}, {"no_data", s.NoData}, {"weight_sum", s.WeightSum},
 		{"mean" + sfx, s.Mean}, {"std" + sfx, s.Std}, {"min" + sfx, s.Min}, {"max" + sfx, s.Max},
 		{"median" + sfx, s.Median}, {"p05" + sfx, s.P05}, {"p25" + sfx, s.P25}, {"p75" + sfx, s.P75}, {"p95" + sfx, s.P95},
+		{"percentile_error_bound" + sfx, s.PercentileErrorBound},
 	}
 	if h := s.Histogram; h != nil {
 		obj = append(obj, member{"histogram", orderedJSON{

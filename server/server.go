@@ -216,6 +216,8 @@ func (s *server) routes() http.Handler {
 			r.With(s.bodyLimit(s.limits.MaxBodyBytes)).Post("/trajectory", s.h(s.trajectoryPost))
 			r.Get("/locations", s.h(s.locationsList))
 			r.Get("/locations/{regionId}", s.h(s.location))
+			r.Get("/locations/{regionId}/statistics", s.h(s.locationStatistics))
+			r.Get("/statistics", s.h(s.areaStatistics))
 		})
 
 		r.Get("/models", s.h(s.listModels))

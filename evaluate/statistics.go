@@ -1,0 +1,235 @@
+package evaluate
+
+import (
+	"context"
+	"errors"
+	"math"
+
+	"github.com/paulmach/orb"
+
+	"ridgeflank/fault"
+	"ridgeflank/geo"
+	"ridgeflank/raster"
+	"ridgeflank/store"
+)
+
+// StatsResult are area-weighted statistics of a question's parameters over a region, without
+// the gridded values.
+type StatsResult struct {
+	Query  *Query
+	Region geo.PreparedRegion
+	// Lattice is the shape (no Data) of the lattice the statistics were computed on over the
+	// region's bound: the age grid's, coarsened to the asked resolution.
+	Lattice geo.Grid
+	Cells   int64       // lattice cells inside the region (valid or not)
+	Stats   []geo.Stats // one per parameter, in Query.Params order
+	Flags   []Flag      // values refused as physically impossible, by cause
+}
+
+// statsKeepCells is the number of lattice cells (all parameters together) up to which a
+// statistics question keeps its evaluated bands between the two passes instead of computing
+// them again: 16 M float32 values, 64 MB.
+const statsKeepCells = 16 << 20
+
+// Statistics computes area-weighted statistics (geo.StatsStream: mean, standard deviation,
+// minimum, maximum, median and percentiles with their stated error bound, histogram: 50 m
+// bins for parameters in metres, else 50 bins) of o's parameters over region r on the lattice
+// Area would answer (resX, resY degrees; 0: full resolution), without ever holding the whole
+// lattice: the region's window is evaluated in bands of rows, twice (moments, then histograms),
+// reading blocks without filling the cache. More lattice cells read than
+// Limits.MaxStatisticsCells is fault.Over("max_statistics_cells"); a region with no value of
+// some parameter is fault.NoData. progress, if not nil, is called with the fraction done.
+func (s *Service) Statistics(ctx context.Context, datasetID string, o Options, r geo.PreparedRegion, resX, resY float64, progress func(float64)) (*StatsResult, error) {
+	q, err := s.load(ctx, datasetID, o)
+	if err != nil {
+		return nil, err
+	}
+	return s.statistics(ctx, q, r, resX, resY, progress)
+}
+
+// RegionStatistics is Statistics over the stored region regionID.
+func (s *Service) RegionStatistics(ctx context.Context, datasetID, regionID string, o Options, resX, resY float64, progress func(float64)) (*StatsResult, store.Region, error) {
+	q, err := s.load(ctx, datasetID, o)
+	if err != nil {
+		return nil, store.Region{}, err
+	}
+	rg, r, err := s.storedRegion(ctx, regionID)
+	if err != nil {
+		return nil, rg, err
+	}
+	res, err := s.statistics(ctx, q, r, resX, resY, progress)
+	return res, rg, err
+}
+
+// storedRegion reads and prepares a stored region (fault.NotFound when there is none).
+func (s *Service) storedRegion(ctx context.Context, regionID string) (store.Region, geo.PreparedRegion, error) {
+	rg, err := s.st.GetRegion(ctx, regionID)
+	if err != nil {
+		if errors.Is(err, store.ErrNotFound) {
+			return rg, geo.PreparedRegion{}, fault.New(fault.NotFound, "", "no location (region) %q%w", regionID, quiet(err))
+		}
+		return rg, geo.PreparedRegion{}, err
+	}
+	r, err := s.PrepareRegion(rg.Geometry, "geometry")
+	return rg, r, err
+}
+
+// StatisticsCells is the number of cells Statistics would read (at the level it reads), for
+// choosing between an answer now and a job.
+func (s *Service) StatisticsCells(ctx context.Context, datasetID string, r geo.PreparedRegion, resX, resY float64) (int64, error) {
+	d, err := s.Dataset(ctx, datasetID)
+	if err != nil {
+		return 0, err
+	}
+	plan, err := planArea(d, r.Bound, resX, resY)
+	if err != nil {
+		return 0, err
+	}
+	return plan.readCells(), nil
+}
+
+func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion, resX, resY float64, progress func(float64)) (*StatsResult, error) {
+	d := q.Dataset
+	plan, err := planArea(d, r.Bound, resX, resY)
+	if err != nil {
+		return nil, err
+	}
+	if in := plan.readCells(); in > int64(s.limits.MaxStatisticsCells) {
+		return nil, fault.Over("max_statistics_cells", int64(s.limits.MaxStatisticsCells), in, "coords",
+			"the statistics would read about %d cells; the limit is %d: ask for a coarser resolution (resolution-x, resolution-y) or a smaller area",
+			in, s.limits.MaxStatisticsCells)
+	}
+	if progress == nil {
+		progress = func(float64) {}
+	}
+	bands, err := statsBands(d.Files.Age, r.Bound, plan)
+	if err != nil {
+		if isEmptyWindow(err) {
+			return nil, fault.New(fault.NoData, "coords", "the area does not overlap dataset %q", d.Row.ID)
+		}
+		return nil, err
+	}
+	streams := make([]*geo.StatsStream, len(q.Params))
+	for i, p := range q.Params {
+		if streams[i], err = geo.NewStatsStream(statsOptions(p), 0); err != nil {
+			return nil, err
+		}
+	}
+	fl := newFlagger(q.Params)
+	res := &StatsResult{Query: q, Region: r}
+	keep := plan.outCells()*int64(len(q.Params)) <= statsKeepCells
+	var kept []*AreaResult
+	scan := len(bands) > 1
+	steps := float64(2 * len(bands))
+	for i, b := range bands {
+		ar, err := s.evalWindow(ctx, q, r, b, plan, fl, scan)
+		if err != nil {
+			if isEmptyWindow(err) || fault.KindOf(err) == fault.NoData {
+				continue
+			}
+			return nil, err
+		}
+		if ar == nil {
+			continue
+		}
+		if i == 0 || res.Lattice.NX == 0 {
+			res.Lattice = *ar.Lattice
+			res.Lattice.Data = nil
+		}
+		res.Cells += int64(ar.Mask.Count())
+		for k, g := range ar.Grids {
+			if err := streams[k].AddMoments(g, ar.Mask); err != nil {
+				return nil, err
+			}
+		}
+		if keep {
+			kept = append(kept, ar)
+		}
+		progress(float64(i+1) / steps)
+	}
+	if res.Cells == 0 {
+		return nil, fault.New(fault.NoData, "coords", "no cell centre of dataset %q lies inside the area; try a larger area or a finer resolution", d.Row.ID)
+	}
+	for _, st := range streams {
+		if err := st.BeginHistogram(); err != nil {
+			return nil, err
+		}
+	}
+	second := func(ar *AreaResult) error {
+		for k, g := range ar.Grids {
+			if err := streams[k].AddHistogram(g, ar.Mask); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+	if keep {
+		for _, ar := range kept {
+			if err := second(ar); err != nil {
+				return nil, err
+			}
+		}
+	} else {
+		discard := newFlagger(q.Params) // refusals were counted in the first pass
+		for i, b := range bands {
+			ar, err := s.evalWindow(ctx, q, r, b, plan, discard, scan)
+			if err != nil {
+				if isEmptyWindow(err) || fault.KindOf(err) == fault.NoData {
+					continue
+				}
+				return nil, err
+			}
+			if ar != nil {
+				if err := second(ar); err != nil {
+					return nil, err
+				}
+			}
+			progress(float64(len(bands)+i+1) / steps)
+		}
+	}
+	for i, p := range q.Params {
+		st, err := streams[i].Result()
+		if err != nil {
+			return nil, err
+		}
+		if st.Count == 0 {
+			return nil, fault.New(fault.NoData, "", "no cell of the region has a %s value in dataset %q", p.ID, d.Row.ID)
+		}
+		res.Stats = append(res.Stats, st)
+	}
+	res.Flags = fl.flags()
+	progress(1)
+	return res, nil
+}
+
+// statsBands splits bound into bands of rows of the age file at the plan's level: whole
+// multiples of the plan's further coarsening ry, about one block (raster.BlockSize rows) each,
+// so the bands' lattices join into the lattice Area answers.
+func statsBands(age *raster.File, bound orb.Bound, plan areaPlan) ([]orb.Bound, error) {
+	lv := age.Levels()[plan.lvl].Grid
+	sp, err := lv.WindowSpec(bound)
+	if err != nil {
+		return nil, err
+	}
+	rows := plan.ry * max(1, int(math.Ceil(float64(raster.BlockSize)/float64(plan.ry))))
+	if sp.Out.NY <= rows {
+		return []orb.Bound{bound}, nil
+	}
+	var out []orb.Bound
+	for r := 0; r < sp.Out.NY; r += rows {
+		n := min(rows, sp.Out.NY-r)
+		north := lv.Lat(sp.Row0 + r)
+		south := lv.Lat(sp.Row0 + r + n - 1)
+		out = append(out, orb.Bound{Min: orb.Point{bound.Min[0], south}, Max: orb.Point{bound.Max[0], north}})
+	}
+	return out, nil
+}
+
+// statsOptions are the statistics options of parameter p: a histogram of 50 m bins (edges at
+// whole multiples of 50 m) for parameters in metres, else 50 equal bins over the data's range.
+func statsOptions(p Parameter) geo.StatsOptions {
+	if p.Unit == "m" {
+		return geo.StatsOptions{HistogramBinWidth: 50}
+	}
+	return geo.StatsOptions{HistogramBins: 50}
+}
