@@ -239,4 +239,3 @@ func (p *Paint) Image(g *geo.Grid) *image.NRGBA {
 	}
 	return img
 }
-
