@@ -170,6 +170,12 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 // scan reads without keeping new blocks in the cache (raster.File.Scan). A window with no cell
 // inside the region answers nil.
 func (s *Service) evalWindow(ctx context.Context, q *Query, r geo.PreparedRegion, bound orb.Bound, plan areaPlan, fl *flagger, scan bool) (*AreaResult, error) {
+	return s.evalWindowAll(ctx, q, r, bound, plan, fl, scan, false)
+}
+
+// evalWindowAll is evalWindow; keepEmpty answers a window with no cell inside the region with
+// grids of no data on its lattice instead of nil (a file needs every row).
+func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedRegion, bound orb.Bound, plan areaPlan, fl *flagger, scan, keepEmpty bool) (*AreaResult, error) {
 	d := q.Dataset
 	age := d.AgeHeader()
 	want := q.outputs()
@@ -224,7 +230,14 @@ func (s *Service) evalWindow(ctx context.Context, q *Query, r geo.PreparedRegion
 		return nil, fault.New(fault.InvalidCoords, "coords", "%v", err)
 	}
 	if mask.Count() == 0 {
-		return nil, nil
+		if !keepEmpty {
+			return nil, nil
+		}
+		res := &AreaResult{Query: q, Region: r, Lattice: ageW, Mask: mask}
+		for range q.Params {
+			res.Grids = append(res.Grids, geo.NewGrid(ageW.NX, ageW.NY, ageW.West, ageW.North, ageW.DX, ageW.DY, ageW.Registration))
+		}
+		return res, nil
 	}
 	// The inputs on the output lattice, for the answers and the plausibility checks.
 	var obsL, sedL, crustL *geo.Grid
@@ -238,18 +251,26 @@ func (s *Service) evalWindow(ctx context.Context, q *Query, r geo.PreparedRegion
 	if crustW != nil && fl.need&inCrust != 0 && needCorr {
 		crustL = sampleOnto(ageW, crustW)
 	}
-	if needCorr && corrCanExceed(obsL, sedL, crustW != nil) {
-		want |= geo.OutCorrectedDepth
+	// Corrected depths for the plausibility screen, when the window could hold an impossible
+	// one, are computed on their own: asking for them with the residual would change the
+	// kernel's path for the residual (geo.Evaluate fuses predicted and corrected depth through
+	// tables otherwise, within 1 cm), and the answer must not depend on how a question is cut
+	// into windows.
+	screenCorr := needCorr && want&geo.OutCorrectedDepth == 0 && corrCanExceed(obsL, sedL, crustW != nil)
+	var ev, evCorr *geo.Result
+	in := geo.Inputs{Age: ageW, Model: q.Model, Compaction: q.Sediment, Mask: mask}
+	if needCorr {
+		in.Depth, in.DepthSense, in.Sediment, in.Crust = depthW, d.DepthSense, sedW, crustW
+	} else {
+		want &^= geo.OutCorrectedDepth | geo.OutResidualDepth
 	}
-	var ev *geo.Result
 	if want != 0 {
-		in := geo.Inputs{Age: ageW, Model: q.Model, Compaction: q.Sediment, Mask: mask}
-		if needCorr {
-			in.Depth, in.DepthSense, in.Sediment, in.Crust = depthW, d.DepthSense, sedW, crustW
-		} else {
-			want &^= geo.OutCorrectedDepth | geo.OutResidualDepth
-		}
 		if ev, err = geo.Evaluate(ctx, in, want); err != nil {
+			return nil, err
+		}
+	}
+	if screenCorr {
+		if evCorr, err = geo.Evaluate(ctx, in, geo.OutCorrectedDepth); err != nil {
 			return nil, err
 		}
 	}
@@ -274,6 +295,9 @@ func (s *Service) evalWindow(ctx context.Context, q *Query, r geo.PreparedRegion
 	var corrL *geo.Grid
 	if ev != nil {
 		corrL = ev.CorrectedDepthM
+	}
+	if evCorr != nil {
+		corrL = evCorr.CorrectedDepthM
 	}
 	screenGrids(fl, res.Grids, mask, ageW, obsL, sedL, crustL, corrL)
 	return res, nil

@@ -255,4 +255,44 @@ func TestServedLargerThanBudgetEqualsInMemory(t *testing.T) {
 			t.Fatalf("error %v, want limit max_statistics_cells", err)
 		}
 	})
+
+	t.Run("large export streamed in bands equals the area answer", func(t *testing.T) {
+		small := New(Config{Store: st, MemoryBudget: budget, Limits: Limits{MaxAreaCells: 100_000}})
+		for _, res := range []float64{0, 0.45} {
+			wktArea := "POLYGON((-170 -70,160 -70,160 70,-170 70,-170 -70))"
+			req := ExportRequest{Dataset: "big", Options: Options{Parameters: []string{PResidualDepth}}, Coords: wktArea,
+				ResX: res, ResY: res, Format: FormatCOG}
+			path := filepath.Join(dir, fmt.Sprintf("export-%g.tif", res))
+			var fractions []float64
+			if _, err := small.Export(ctx, req, path, func(f float64, _ string) { fractions = append(fractions, f) }); err != nil {
+				t.Fatal(err)
+			}
+			got, _, err := gdal.Read(path)
+			if err != nil {
+				t.Fatal(err)
+			}
+			mp, _ := ParseArea(wktArea)
+			r, _ := s.PrepareRegion(mp, "coords")
+			want, err := s.Area(ctx, "big", req.Options, r, res, res)
+			if err != nil {
+				t.Fatal(err)
+			}
+			w := want.Grids[0]
+			if got.NX != w.NX || got.NY != w.NY || math.Abs(got.West-w.West) > 1e-9 || math.Abs(got.North-w.North) > 1e-9 {
+				t.Fatalf("resolution %g: file %d×%d at %g,%g; area %d×%d at %g,%g", res, got.NX, got.NY, got.West, got.North, w.NX, w.NY, w.West, w.North)
+			}
+			// The sediment grid lies on another lattice and is interpolated relative to each
+			// band's window rather than the whole area's: equal to float32 rounding (2⁻²⁰
+			// relative); cells on the age lattice are read, not interpolated, and equal exactly.
+			for i := range w.Data {
+				a, b := got.Data[i], w.Data[i]
+				if (a != a) != (b != b) || math.Abs(float64(a-b)) > math.Abs(float64(b))/(1<<20) {
+					t.Fatalf("resolution %g: cell %d file %v, area %v", res, i, a, b)
+				}
+			}
+			if len(fractions) < 3 || fractions[len(fractions)-1] != 1 {
+				t.Fatalf("progress %v", fractions)
+			}
+		}
+	})
 }

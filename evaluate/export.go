@@ -14,6 +14,7 @@ import (
 	"github.com/paulmach/orb/encoding/wkt"
 
 	"ridgeflank/fault"
+	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
 )
 
@@ -64,23 +65,36 @@ func ParseArea(coords string) (orb.MultiPolygon, error) {
 	return nil, fault.New(fault.InvalidCoords, "coords", "area queries take POLYGON or MULTIPOLYGON, not %s", g.GeoJSONType())
 }
 
-// Raster answers an export request in memory: the area result and the file's metadata.
-func (s *Service) Raster(ctx context.Context, req ExportRequest) (*AreaResult, gdal.Meta, error) {
+// exportQuestion checks an export request: format, one parameter, the area and the options.
+func (s *Service) exportQuestion(ctx context.Context, req ExportRequest) (*Query, geo.PreparedRegion, error) {
 	if req.Format != FormatCOG && req.Format != FormatNetCDF {
-		return nil, gdal.Meta{}, fault.New(fault.UnsupportedFormat, "f", "files are written as %s or %s, not %q", FormatCOG, FormatNetCDF, req.Format)
+		return nil, geo.PreparedRegion{}, fault.New(fault.UnsupportedFormat, "f", "files are written as %s or %s, not %q", FormatCOG, FormatNetCDF, req.Format)
 	}
 	if len(req.Options.Parameters) != 1 {
-		return nil, gdal.Meta{}, fault.New(fault.InvalidParameter, "parameter-name", "a file answers one parameter: give exactly one parameter-name")
+		return nil, geo.PreparedRegion{}, fault.New(fault.InvalidParameter, "parameter-name", "a file answers one parameter: give exactly one parameter-name")
 	}
 	mp, err := ParseArea(req.Coords)
 	if err != nil {
-		return nil, gdal.Meta{}, err
+		return nil, geo.PreparedRegion{}, err
 	}
 	r, err := s.PrepareRegion(mp, "coords")
 	if err != nil {
+		return nil, geo.PreparedRegion{}, err
+	}
+	q, err := s.load(ctx, req.Dataset, req.Options)
+	if err != nil {
+		return nil, geo.PreparedRegion{}, err
+	}
+	return q, r, nil
+}
+
+// Raster answers an export request in memory: the area result and the file's metadata.
+func (s *Service) Raster(ctx context.Context, req ExportRequest) (*AreaResult, gdal.Meta, error) {
+	q, r, err := s.exportQuestion(ctx, req)
+	if err != nil {
 		return nil, gdal.Meta{}, err
 	}
-	res, err := s.Area(ctx, req.Dataset, req.Options, r, req.ResX, req.ResY)
+	res, err := s.area(ctx, q, r, req.ResX, req.ResY)
 	if err != nil {
 		return nil, gdal.Meta{}, err
 	}
@@ -89,10 +103,12 @@ func (s *Service) Raster(ctx context.Context, req ExportRequest) (*AreaResult, g
 
 // FileMeta is the metadata of a file holding res's first parameter: names, units, title and the
 // provenance (with the navigation caution where it applies).
-func (s *Service) FileMeta(res *AreaResult) gdal.Meta {
-	p := res.Query.Params[0]
-	prov := s.Provenance(res.Query)
-	return gdal.Meta{Name: p.ID, LongName: p.Label, Units: p.Unit, Title: res.Query.Dataset.Row.Name + ": " + p.Label,
+func (s *Service) FileMeta(res *AreaResult) gdal.Meta { return s.fileMeta(res.Query) }
+
+func (s *Service) fileMeta(q *Query) gdal.Meta {
+	p := q.Params[0]
+	prov := s.Provenance(q)
+	return gdal.Meta{Name: p.ID, LongName: p.Label, Units: p.Unit, Title: q.Dataset.Row.Name + ": " + p.Label,
 		Source: "ridgeflank " + s.version, Metadata: prov.Metadata()}
 }
 
@@ -119,18 +135,23 @@ func (s *Service) EncodeFile(res *AreaResult, format string) ([]byte, error) {
 }
 
 // Export answers an export request as a file at path (written beside it and renamed into
-// place). progress, if not nil, is told what is being done (fraction 0..1).
+// place). An answer of up to Limits.MaxAreaCells cells is computed in memory (Raster); a larger
+// one, up to Limits.MaxExportCells, is computed and written band by band of rows (the bands
+// Statistics uses) through a streaming COG or netCDF writer, in bounded memory whatever its
+// size, with the same values. progress, if not nil, is told what is being done (fraction 0..1).
 func (s *Service) Export(ctx context.Context, req ExportRequest, path string, progress func(frac float64, msg string)) (ExportResult, error) {
 	if progress == nil {
 		progress = func(float64, string) {}
 	}
-	progress(0.05, "loading dataset "+req.Dataset)
-	progress(0.2, "computing")
-	res, meta, err := s.Raster(ctx, req)
+	progress(0.02, "loading dataset "+req.Dataset)
+	q, r, err := s.exportQuestion(ctx, req)
 	if err != nil {
 		return ExportResult{}, err
 	}
-	progress(0.7, "encoding")
+	plan, err := planArea(q.Dataset, r.Bound, req.ResX, req.ResY)
+	if err != nil {
+		return ExportResult{}, err
+	}
 	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
 		return ExportResult{}, err
 	}
@@ -138,9 +159,24 @@ func (s *Service) Export(ctx context.Context, req ExportRequest, path string, pr
 	media := MediaCOG
 	if req.Format == FormatNetCDF {
 		media = MediaNetCDF
-		err = gdal.WriteNetCDF(tmp, res.Grids[0], meta)
+	}
+	if out := plan.outCells(); out > int64(s.limits.MaxAreaCells) {
+		if out > s.limits.MaxExportCells {
+			return ExportResult{}, fault.Over("max_export_cells", s.limits.MaxExportCells, out, "coords",
+				"the file would have about %d cells; the limit is %d: ask for a coarser resolution or a smaller area", out, s.limits.MaxExportCells)
+		}
+		err = s.streamExport(ctx, q, r, plan, req.Format, tmp, progress)
 	} else {
-		err = gdal.WriteCOG(tmp, res.Grids[0], meta)
+		progress(0.1, "computing")
+		var res *AreaResult
+		if res, err = s.area(ctx, q, r, req.ResX, req.ResY); err == nil {
+			progress(0.7, "encoding")
+			if req.Format == FormatNetCDF {
+				err = gdal.WriteNetCDF(tmp, res.Grids[0], s.FileMeta(res))
+			} else {
+				err = gdal.WriteCOG(tmp, res.Grids[0], s.FileMeta(res))
+			}
+		}
 	}
 	if err != nil {
 		os.Remove(tmp)
@@ -155,9 +191,94 @@ func (s *Service) Export(ctx context.Context, req ExportRequest, path string, pr
 	}
 	name := req.Filename
 	if name == "" {
-		name = fmt.Sprintf("%s-area-%s%s", req.Dataset, res.Query.Params[0].ID, filepath.Ext(path))
+		name = fmt.Sprintf("%s-area-%s%s", req.Dataset, q.Params[0].ID, filepath.Ext(path))
 	}
+	progress(1, "written")
 	return ExportResult{Filename: name, MediaType: media, Bytes: size, SHA256: sum}, nil
+}
+
+// streamExport writes q's parameter over r on plan's lattice to path, band by band of rows
+// (rowBands, evalWindowAll), never holding more than a few bands.
+func (s *Service) streamExport(ctx context.Context, q *Query, r geo.PreparedRegion, plan areaPlan, format, path string, progress func(float64, string)) error {
+	d := q.Dataset
+	bands, err := rowBands(d.Files.Age, r.Bound, plan)
+	if err != nil {
+		if isEmptyWindow(err) {
+			return fault.New(fault.NoData, "coords", "the area does not overlap dataset %q", d.Row.ID)
+		}
+		return err
+	}
+	fl := newFlagger(q.Params)
+	// The file's lattice: the first band's columns and origin, every band's rows.
+	first, err := s.evalWindowAll(ctx, q, r, bands[0], plan, fl, true, true)
+	if err != nil {
+		return err
+	}
+	header := *first.Lattice
+	header.Data = nil
+	header.NY = 0
+	for _, b := range bands {
+		n, err := s.bandRows(d, b, plan)
+		if err != nil {
+			return err
+		}
+		header.NY += n
+	}
+	var w rowWriter
+	meta := s.fileMeta(q)
+	if format == FormatNetCDF {
+		w, err = newNetCDFWriter(path, header, meta)
+	} else {
+		w, err = newCOGWriter(header, filepath.Dir(path))
+	}
+	if err != nil {
+		return err
+	}
+	defer w.Close()
+	buf := newRowBuffer(w, header.NX)
+	for i, b := range bands {
+		ar := first
+		if i > 0 {
+			if ar, err = s.evalWindowAll(ctx, q, r, b, plan, fl, true, true); err != nil {
+				return err
+			}
+		}
+		g := ar.Grids[0]
+		if g.NX != header.NX {
+			return fmt.Errorf("export: band %d has %d columns, the file %d", i, g.NX, header.NX)
+		}
+		if err := buf.add(g.Data); err != nil {
+			return err
+		}
+		progress(0.05+0.75*float64(i+1)/float64(len(bands)), fmt.Sprintf("computed %d of %d bands of rows", i+1, len(bands)))
+	}
+	if err := buf.flush(); err != nil {
+		return err
+	}
+	if buf.rows != header.NY {
+		return fmt.Errorf("export: %d rows computed, the file has %d", buf.rows, header.NY)
+	}
+	progress(0.8, "writing the file")
+	return w.Finish(ctx, path, meta, func(f float64) { progress(0.8+0.19*f, "writing the file") })
+}
+
+// bandRows is the number of rows the plan's lattice has in band b (the rows read at the
+// plan's level, coarsened as geo.Grid.Resample coarsens them).
+func (s *Service) bandRows(d *Dataset, b orb.Bound, plan areaPlan) (int, error) {
+	lv := d.Files.Age.Levels()[plan.lvl].Grid
+	sp, err := lv.WindowSpec(b)
+	if err != nil {
+		return 0, err
+	}
+	if plan.rx == 1 && plan.ry == 1 {
+		return sp.Out.NY, nil
+	}
+	probe := geo.NewGrid(plan.rx, sp.Out.NY, sp.Out.West, sp.Out.North, sp.Out.DX, sp.Out.DY, sp.Out.Registration)
+	c, err := probe.Resample(float64(plan.rx)*sp.Out.DX, float64(plan.ry)*sp.Out.DY)
+	if err != nil {
+		return 0, err
+	}
+	return c.NY, nil
 }
 
 // hashFile returns the size of the file at path and its SHA-256 (lower-case hex), read as a

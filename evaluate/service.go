@@ -34,6 +34,9 @@ type Limits struct {
 	// MaxStatisticsCells bounds the cells one statistics question reads at its level
 	// ("max_statistics_cells"); statistics stream in bands, so this bounds time, not memory.
 	MaxStatisticsCells int
+	// MaxExportCells bounds the cells of one exported file ("max_export_cells"); files
+	// larger than MaxAreaCells are written band by band, so this bounds time and disk.
+	MaxExportCells int64
 }
 
 // DefaultLimits are the limits used when a Limits field is zero.
@@ -47,6 +50,8 @@ var DefaultLimits = Limits{
 	MaxTileZoom:     14,
 	// 200 M cells: a whole ocean at 1′ in a few seconds on two cores.
 	MaxStatisticsCells: 200_000_000,
+	// 4 G cells: a 15-arc-second global grid (86400 × 43200 = 3.7 G).
+	MaxExportCells: 4_000_000_000,
 }
 
 // WithDefaults returns l with every zero field set to DefaultLimits' value.
@@ -61,6 +66,9 @@ func (l Limits) WithDefaults() Limits {
 		if *f.v <= 0 {
 			*f.v = *f.dv
 		}
+	}
+	if l.MaxExportCells <= 0 {
+		l.MaxExportCells = d.MaxExportCells
 	}
 	return l
 }

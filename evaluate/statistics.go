@@ -102,7 +102,7 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 	if progress == nil {
 		progress = func(float64) {}
 	}
-	bands, err := statsBands(d.Files.Age, r.Bound, plan)
+	bands, err := rowBands(d.Files.Age, r.Bound, plan)
 	if err != nil {
 		if isEmptyWindow(err) {
 			return nil, fault.New(fault.NoData, "coords", "the area does not overlap dataset %q", d.Row.ID)
@@ -202,10 +202,11 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 	return res, nil
 }
 
-// statsBands splits bound into bands of rows of the age file at the plan's level: whole
+// rowBands splits bound into bands of rows of the age file at the plan's level: whole
 // multiples of the plan's further coarsening ry, about one block (raster.BlockSize rows) each,
-// so the bands' lattices join into the lattice Area answers.
-func statsBands(age *raster.File, bound orb.Bound, plan areaPlan) ([]orb.Bound, error) {
+// so the bands' lattices join into the lattice Area answers. Statistics and large exports
+// evaluate them one at a time.
+func rowBands(age *raster.File, bound orb.Bound, plan areaPlan) ([]orb.Bound, error) {
 	lv := age.Levels()[plan.lvl].Grid
 	sp, err := lv.WindowSpec(bound)
 	if err != nil {
