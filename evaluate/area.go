@@ -379,11 +379,13 @@ func sampleOnto(lattice, src *geo.Grid) *geo.Grid {
 		return src.Clone()
 	}
 	out := geo.NewGrid(lattice.NX, lattice.NY, lattice.West, lattice.North, lattice.DX, lattice.DY, lattice.Registration)
+	lons := make([]float64, lattice.NX)
+	for col := range lons {
+		lons[col] = lattice.Lon(col)
+	}
+	sm := src.NewBilinearSampler(lons)
 	for row := 0; row < lattice.NY; row++ {
-		lat := lattice.Lat(row)
-		for col := 0; col < lattice.NX; col++ {
-			out.Data[row*lattice.NX+col] = src.SampleBilinear(lattice.Lon(col), lat)
-		}
+		sm.Row(lattice.Lat(row), out.Data[row*lattice.NX:(row+1)*lattice.NX])
 	}
 	return out
 }

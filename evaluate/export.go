@@ -210,7 +210,8 @@ func (s *Service) streamExport(ctx context.Context, q *Query, r geo.PreparedRegi
 	}
 	fl := newFlagger(q.Params)
 	// The file's lattice: the first band's columns and origin, every band's rows.
-	first, err := s.evalWindowAll(ctx, q, r, bands[0], plan, fl, true, true)
+	scan := s.scans(plan)
+	first, err := s.evalWindowAll(ctx, q, r, bands[0], plan, fl, scan, true)
 	if err != nil {
 		return err
 	}
@@ -239,7 +240,7 @@ func (s *Service) streamExport(ctx context.Context, q *Query, r geo.PreparedRegi
 	for i, b := range bands {
 		ar := first
 		if i > 0 {
-			if ar, err = s.evalWindowAll(ctx, q, r, b, plan, fl, true, true); err != nil {
+			if ar, err = s.evalWindowAll(ctx, q, r, b, plan, fl, scan, true); err != nil {
 				return err
 			}
 		}

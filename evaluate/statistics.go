@@ -119,7 +119,7 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 	res := &StatsResult{Query: q, Region: r}
 	keep := plan.outCells()*int64(len(q.Params)) <= statsKeepCells
 	var kept []*AreaResult
-	scan := len(bands) > 1
+	scan := s.scans(plan)
 	steps := float64(2 * len(bands))
 	for i, b := range bands {
 		ar, err := s.evalWindow(ctx, q, r, b, plan, fl, scan)
@@ -200,6 +200,14 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 	res.Flags = fl.flags()
 	progress(1)
 	return res, nil
+}
+
+// scans reports whether a question reading plan's cells should read without filling the
+// block cache: when its blocks (every grid of the dataset) would take more than half of the
+// cache, so they would push out what other questions use and not stay for the next one.
+func (s *Service) scans(plan areaPlan) bool {
+	blocks, _ := BudgetShares(s.budget)
+	return plan.readCells()*4*4 > blocks/2
 }
 
 // rowBands splits bound into bands of rows of the age file at the plan's level: whole

@@ -396,10 +396,11 @@ type residualPlan struct {
 
 // residualSource maps output rows to rows of one input grid.
 type residualSource struct {
-	g      *Grid
-	direct bool
-	colOff int // input column = output column + colOff (direct mode)
-	rowOff int // input row = output row + rowOff (direct mode)
+	g       *Grid
+	sampler *BilinearSampler // sampling mode: g at the output lattice's longitudes
+	direct  bool
+	colOff  int // input column = output column + colOff (direct mode)
+	rowOff  int // input row = output row + rowOff (direct mode)
 }
 
 type residualWorker struct {
@@ -532,21 +533,31 @@ func newResidualSource(what string, g, out *Grid) (residualSource, error) {
 	const tol = 1e-6 // of a cell
 	if math.Abs(g.DX-out.DX) > tol*out.DX/float64(max(out.NX, g.NX)) ||
 		math.Abs(g.DY-out.DY) > tol*out.DY/float64(max(out.NY, g.NY)) {
-		return s, nil
+		return sampled(s, out), nil
 	}
 	fc := (out.West - g.West) / g.DX
 	fr := (g.North - out.North) / g.DY
 	c, r := math.Round(fc), math.Round(fr)
 	if math.Abs(fc-c) > tol || math.Abs(fr-r) > tol {
-		return s, nil
+		return sampled(s, out), nil
 	}
 	s.colOff, s.rowOff = int(c), int(r)
 	// A global input that the output runs past would need wrapping: sample it instead.
 	if g.IsGlobalLon() && (s.colOff < 0 || s.colOff+out.NX > g.NX) {
-		return s, nil
+		return sampled(s, out), nil
 	}
 	s.direct = true
 	return s, nil
+}
+
+// sampled is a source in sampling mode with its sampler for the output longitudes.
+func sampled(s residualSource, out *Grid) residualSource {
+	lons := make([]float64, out.NX)
+	for i := range lons {
+		lons[i] = out.Lon(i)
+	}
+	s.sampler = s.g.NewBilinearSampler(lons)
+	return s
 }
 
 // row returns the input values along output row r (len nx), using scratch when it cannot hand
@@ -554,10 +565,7 @@ func newResidualSource(what string, g, out *Grid) (residualSource, error) {
 func (s *residualSource) row(p *residualPlan, r int, scratch []float32) []float32 {
 	nx := len(p.lons)
 	if !s.direct {
-		lat := p.lat.Lat(r)
-		for i, lon := range p.lons {
-			scratch[i] = s.g.SampleBilinear(lon, lat)
-		}
+		s.sampler.Row(p.lat.Lat(r), scratch)
 		return scratch
 	}
 	g := s.g
