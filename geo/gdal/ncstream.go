@@ -3,6 +3,7 @@ package gdal
 /*
 #cgo pkg-config: netcdf
 #include <stdlib.h>
+#include <string.h>
 #include <netcdf.h>
 #include "rfgdal.h"
 
@@ -13,6 +14,19 @@ static int rf_nc_rename_var(const char *path, const char *from, const char *to) 
 	if ((st = nc_open(path, NC_WRITE, &nc)) != NC_NOERR) return st;
 	if ((st = nc_inq_varid(nc, from, &id)) == NC_NOERR && (st = nc_redef(nc)) == NC_NOERR) {
 		st = nc_rename_var(nc, id, to);
+		int st2 = nc_enddef(nc);
+		if (st == NC_NOERR) st = st2;
+	}
+	int st3 = nc_close(nc);
+	return st != NC_NOERR ? st : st3;
+}
+
+// rf_nc_put_global sets the text attribute key of the netCDF file path's global attributes.
+static int rf_nc_put_global(const char *path, const char *key, const char *value) {
+	int nc, st;
+	if ((st = nc_open(path, NC_WRITE, &nc)) != NC_NOERR) return st;
+	if ((st = nc_redef(nc)) == NC_NOERR) {
+		st = nc_put_att_text(nc, NC_GLOBAL, key, strlen(value), value);
 		int st2 = nc_enddef(nc);
 		if (st == NC_NOERR) st = st2;
 	}
@@ -136,9 +150,10 @@ func (s *NetCDFStream) WriteRows(row0 int, rows []float32) error {
 	return nil
 }
 
-// Finish closes the file (GDAL flushes it) and renames it to path. Every row must have been
-// written.
-func (s *NetCDFStream) Finish() error {
+// Finish closes the file (GDAL flushes it), adds the global attributes of extra (known only
+// once the values are written, e.g. counts; keys must be netCDF names) and renames it to
+// path. Every row must have been written.
+func (s *NetCDFStream) Finish(extra map[string]string) error {
 	if s.h == nil {
 		return errors.New("write grid: stream is finished or closed")
 	}
@@ -165,6 +180,23 @@ func (s *NetCDFStream) Finish() error {
 		if st != 0 {
 			os.Remove(s.tmp)
 			return fmt.Errorf("write grid %s: naming the variable %s: %s", s.path, s.name, C.GoString(C.rf_nc_strerror(st)))
+		}
+	}
+	for _, k := range sortedKeys(extra) {
+		if !ncNameRE.MatchString(k) {
+			os.Remove(s.tmp)
+			return fmt.Errorf("write grid %s: attribute name %q must be letters, digits and _", s.path, k)
+		}
+		cTmp, cKey, cVal := C.CString(s.tmp), C.CString(k), C.CString(extra[k])
+		hdfMu.Lock()
+		st := C.rf_nc_put_global(cTmp, cKey, cVal)
+		hdfMu.Unlock()
+		C.free(unsafe.Pointer(cTmp))
+		C.free(unsafe.Pointer(cKey))
+		C.free(unsafe.Pointer(cVal))
+		if st != 0 {
+			os.Remove(s.tmp)
+			return fmt.Errorf("write grid %s: attribute %s: %s", s.path, k, C.GoString(C.rf_nc_strerror(st)))
 		}
 	}
 	if err := os.Rename(s.tmp, s.path); err != nil {

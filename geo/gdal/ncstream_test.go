@@ -39,7 +39,7 @@ func TestNetCDFStreamMatchesWriteNetCDF(t *testing.T) {
 					t.Fatal(err)
 				}
 			}
-			if err := s.Finish(); err != nil {
+			if err := s.Finish(map[string]string{"ridgeflank_refused": "none"}); err != nil {
 				t.Fatal(err)
 			}
 			a, ma, err := Read(whole)
@@ -59,7 +59,8 @@ func TestNetCDFStreamMatchesWriteNetCDF(t *testing.T) {
 					t.Fatalf("cell %d: stream %g, whole %g, source %g", i, y, x, g.Data[i])
 				}
 			}
-			if mb.Name != ma.Name || mb.Units != ma.Units || mb.Metadata["NC_GLOBAL#ridgeflank_model"] != "gdh1" || mb.Metadata["NC_GLOBAL#Conventions"] != "CF-1.8" {
+			if mb.Name != ma.Name || mb.Units != ma.Units || mb.Metadata["NC_GLOBAL#ridgeflank_model"] != "gdh1" || mb.Metadata["NC_GLOBAL#Conventions"] != "CF-1.8" ||
+				mb.Metadata["NC_GLOBAL#ridgeflank_refused"] != "none" {
 				t.Fatalf("meta %q %q %v, want %q %q", mb.Name, mb.Units, mb.Metadata, ma.Name, ma.Units)
 			}
 		})
