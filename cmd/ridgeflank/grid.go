@@ -145,6 +145,10 @@ func (f *gridFlags) check() (string, error) {
 	return format, nil
 }
 
+// gridBlockBytes bounds one block of output rows (128 rows of a 15-arc-second global grid,
+// 256 of coarser ones; at least 16 rows); tests lower it.
+var gridBlockBytes = 48 << 20
+
 // gridInput is one opened input: its reader, role and what provenance records about it.
 type gridInput struct {
 	role   string
@@ -286,7 +290,7 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 		finish       func(extra map[string]string) error
 		abandon      func() error
 	)
-	const blockBytes = 48 << 20 // 128 rows of a 15-arc-second global grid, 256 of coarser ones
+	blockBytes := gridBlockBytes
 	if format == "cog" {
 		cogw, err := gdal.NewCOGStream(lattice, gdal.StreamOptions{BlockBytes: blockBytes})
 		if err != nil {
