@@ -145,10 +145,14 @@ func TestGridMatchesArea(t *testing.T) {
 	for _, src := range sources {
 		for _, param := range []string{evaluate.PResidualDepth, evaluate.PPredictedDepth} {
 			want := areaAnswer(t, f.dataDir, src.dataset, param)
-			for _, ext := range []string{".tif", ".nc"} {
-				t.Run(src.name+"/"+param+ext, func(t *testing.T) {
+			for _, form := range []struct {
+				ext, name string
+				args      []string
+			}{{".tif", ".tif", nil}, {".nc", ".nc", nil}, {".tif", "-zstd.tif", []string{"--compress", "zstd"}}} {
+				ext := form.ext
+				t.Run(src.name+"/"+param+form.name, func(t *testing.T) {
 					out := filepath.Join(t.TempDir(), param+ext)
-					args := append([]string{"grid", "--parameter", param, "--out", out}, src.args...)
+					args := append(append([]string{"grid", "--parameter", param, "--out", out}, form.args...), src.args...)
 					code, stdout, stderr := runCLI(t, nil, args...)
 					if code != 0 {
 						t.Fatalf("exit %d: %s", code, stderr)
