@@ -151,9 +151,9 @@ func (f *gridFlags) check() (string, error) {
 	return format, nil
 }
 
-// gridBlockBytes bounds one block of output rows (128 rows of a 15-arc-second global grid,
+// gridBlockBytes bounds one block of output rows (64 rows of a 15-arc-second global grid,
 // 256 of coarser ones; at least 16 rows); tests lower it.
-var gridBlockBytes = 48 << 20
+var gridBlockBytes = 24 << 20
 
 // gridInput is one opened input: its reader, role and what provenance records about it.
 type gridInput struct {
@@ -251,7 +251,8 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 				return fmt.Errorf("%s file: %w", strings.ReplaceAll(spec.role, "_", " "), err)
 			}
 			for _, n := range r.Notes() {
-				notes = append(notes, name+": "+n)
+				// Import's wording is about storing; grid only reads.
+				notes = append(notes, name+": "+strings.ReplaceAll(n, "stored as", "read as"))
 			}
 			inputs = append(inputs, &gridInput{role: spec.role, name: name, reader: r, closer: r.Close, file: r})
 			if spec.role == evaluate.PObservedDepth {
