@@ -38,9 +38,11 @@ Observed, corrected and residual depth need --depth; sediment_thickness needs
 --sediment; without --sediment no sediment correction is made; --crust adds
 the crustal-thickness correction.
 
-Grids of any size are processed in blocks of rows in bounded memory (a few
-hundred MB for a 15-arc-second global grid); a COG is staged in TMPDIR, which
-needs free space for about the output's compressed size. Nothing is left at
+Grids of any size are processed in blocks of rows in bounded memory (peak
+about 0.35 GB for 10800 columns, 0.65 GB for 86400 columns: it grows with the
+width, not the number of rows); a COG is staged in TMPDIR, which needs free
+space for about the output's compressed size. --compress zstd writes a COG
+about twice as fast as the default deflate, for readers with ZSTD support. Nothing is left at
 --out when the command fails. The file records the model and its parameters,
 the sediment set, the inputs (file names and the content id import would give
 each) and the software version. A progress bar is shown on stderr when it is

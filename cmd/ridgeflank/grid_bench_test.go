@@ -77,6 +77,17 @@ func BenchmarkGridResidual(b *testing.B) {
 			}
 		})
 	}
+	b.Run("grid-zstd.tif", func(b *testing.B) {
+		b.ReportAllocs()
+		out := filepath.Join(dir, "residual-zstd.tif")
+		for b.Loop() {
+			code := run(context.Background(), []string{"grid", "--parameter", "residual_depth", "--out", out, "--compress", "zstd",
+				"--age", age, "--depth", elev, "--vertical", "elevation-positive-up", "--sediment", sed}, io.Discard, io.Discard)
+			if code != 0 {
+				b.Fatalf("exit %d", code)
+			}
+		}
+	})
 	b.Run("grid-auto-sense.tif", func(b *testing.B) {
 		b.ReportAllocs()
 		out := filepath.Join(dir, "residual-auto.tif")
