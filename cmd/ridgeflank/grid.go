@@ -39,7 +39,7 @@ Observed, corrected and residual depth need --depth; sediment_thickness needs
 the crustal-thickness correction.
 
 Grids of any size are processed in blocks of rows in bounded memory (peak
-about 0.35 GB for 10800 columns, 0.65 GB for 86400 columns: it grows with the
+about 0.38 GB for 10800 columns, 0.65 GB for 86400 columns: it grows with the
 width, not the number of rows); a COG is staged in TMPDIR, which needs free
 space for about the output's compressed size. --compress zstd writes a COG
 about twice as fast as the default deflate, for readers with ZSTD support. Nothing is left at

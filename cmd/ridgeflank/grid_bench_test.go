@@ -60,6 +60,11 @@ func benchGlobal(b *testing.B, dir string, nx, ny int) (age, elev, sed string) {
 // streaming-pass reference) and, when installed, `gdal_calc.py` computing the GDH1 fit
 // residual (d = 2600 + 365√t for t < 20 Ma, else 5651 − 2473·exp(−t/36), Stein & Stein 1992;
 // residual = d − observed depth) to a GeoTIFF. Compare ns/op across the sub-benchmarks.
+//
+// Measured on this project's 2-core machine (shared, one run, -benchtime 2x): grid to COG
+// 11.2 s (deflate) and 6.6 s (zstd), to netCDF 9.4 s; gdal_translate -of COG 7.9 s;
+// gdal_calc.py 5.6 s (uncompressed GeoTIFF, no overviews). Peak RSS (/usr/bin/time -v):
+// grid 0.38 GB, gdal_calc.py 0.80 GB.
 func BenchmarkGridResidual(b *testing.B) {
 	dir := b.TempDir()
 	age, elev, sed := benchGlobal(b, dir, 10800, 5400)
