@@ -53,7 +53,7 @@ Predicted depths are model estimates, not for navigation.
 Examples:
   ridgeflank grid --parameter residual_depth --age age.nc --depth bathy.tif --vertical auto --sediment sed.nc --out residual.tif
   ridgeflank grid --parameter heat_flow --model psm --age age.nc --out heat_flow.nc
-  ridgeflank grid --parameter residual_depth --dataset demo-basin --data ./data --out residual.nc`,
+  ridgeflank grid --parameter residual_depth --dataset quillon-basin-synthetic --data ./data --out residual.nc`,
 }
 
 func init() {
