@@ -170,24 +170,10 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 	g.West, g.North, g.DX, g.DY = snap(g.West), snap(g.North), snap(g.DX), snap(g.DY)
 	var res Result
 
-	// Units: the request's declaration, else the file's, else the kind's own.
-	declared := r.Units
-	if declared == "" {
-		declared = strings.TrimSpace(meta.Units)
-	}
-	if declared == "" && StoredUnit(r.Kind) != "" {
-		declared = StoredUnit(r.Kind)
-		res.Notes = append(res.Notes, fmt.Sprintf("the file declares no units, so its values are taken as %s", declared))
-	}
-	factor, unit, ok := unitFactor(r.Kind, declared)
-	if !ok {
-		return Result{}, fault.New(fault.InvalidGrid, "units",
-			"the file's values are in %q, which cannot be converted to %s (the unit of %s grids); declare the units of the values with units", declared, unit, r.Kind)
-	}
-	convertedFrom := ""
-	if factor != 1 {
-		convertedFrom = declared
-		res.Notes = append(res.Notes, fmt.Sprintf("values converted from %s to %s", declared, unit))
+	factor, unit, convertedFrom, notes, err := resolveUnits(r, meta.Units)
+	res.Notes = append(res.Notes, notes...)
+	if err != nil {
+		return Result{}, err
 	}
 
 	// One pass: read, convert, canonicalise no-data, accumulate statistics and the content
@@ -297,6 +283,31 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 	res.Grid, res.Created = got, created
 	progress(1, "stored")
 	return res, nil
+}
+
+// resolveUnits decides the units of a file's values: the request's declaration, else the
+// file's (fileUnits), else the kind's stored unit. It returns the factor converting them to the
+// stored unit, that unit, the declared units when a conversion happens ("" otherwise), and
+// notes for the caller. Units that cannot be converted are a fault.InvalidGrid about "units".
+func resolveUnits(r Request, fileUnits string) (factor float64, unit, convertedFrom string, notes []string, err error) {
+	declared := r.Units
+	if declared == "" {
+		declared = strings.TrimSpace(fileUnits)
+	}
+	if declared == "" && StoredUnit(r.Kind) != "" {
+		declared = StoredUnit(r.Kind)
+		notes = append(notes, fmt.Sprintf("the file declares no units, so its values are taken as %s", declared))
+	}
+	factor, unit, ok := unitFactor(r.Kind, declared)
+	if !ok {
+		return 0, unit, "", notes, fault.New(fault.InvalidGrid, "units",
+			"the file's values are in %q, which cannot be converted to %s (the unit of %s grids); declare the units of the values with units", declared, unit, r.Kind)
+	}
+	if factor != 1 {
+		convertedFrom = declared
+		notes = append(notes, fmt.Sprintf("values converted from %s to %s", declared, unit))
+	}
+	return factor, unit, convertedFrom, notes, nil
 }
 
 // rowBlock is one block of rows read by readBlocks; release hands its buffer back.

@@ -111,6 +111,12 @@ func checkValues(s Stats, k store.GridKind, unit, converted string) error {
 	if s.Valid == 0 && s.Inf == 0 {
 		return fault.New(fault.InvalidGrid, "file", "the grid holds no data (every cell is no-data)")
 	}
+	return checkRange(s, k, unit, converted)
+}
+
+// checkRange is checkValues without the test for a grid with no data, so that it can judge
+// the statistics of part of a grid (a block of rows).
+func checkRange(s Stats, k store.GridKind, unit, converted string) error {
 	if s.Inf > 0 {
 		return fault.New(fault.InvalidGrid, "file", "the grid holds %d infinite values; mark missing cells as no-data", s.Inf)
 	}

@@ -469,3 +469,59 @@ int rf_read_window(GDALDatasetH ds, int band, int level, int x0, int y0, int nx,
 }
 
 void rf_set_cache_max(long long bytes) { GDALSetCacheMax64((GIntBig)bytes); }
+/* Creates a one-band float32 raster with driver (for row-by-row writing with rf_write_rows):
+   geotransform, EPSG:4326, no-data, units, band description and metadata are set before any
+   value is written (the netCDF driver defines its variables then). */
+GDALDatasetH rf_create(const char *driver, const char *path, int nx, int ny, const double *gt,
+                       int has_nodata, double nodata, const char *units, const char *desc, char **ds_md,
+                       char **band_md, char **copts, rf_err *e) {
+	RF_BEGIN(e);
+	GDALDatasetH ds = NULL;
+	GDALDriverH drv = GDALGetDriverByName(driver);
+	if (drv == NULL) {
+		rf_fail(e, "GDAL driver not available");
+		goto done;
+	}
+	ds = GDALCreate(drv, path, nx, ny, 1, GDT_Float32, copts);
+	if (ds == NULL) {
+		if (e->failed == 0) rf_fail(e, "GDAL could not create the file");
+		goto done;
+	}
+	GDALSetGeoTransform(ds, (double *)gt);
+	OGRSpatialReferenceH srs = OSRNewSpatialReference(NULL);
+	OSRImportFromEPSG(srs, 4326);
+	OSRSetAxisMappingStrategy(srs, OAMS_TRADITIONAL_GIS_ORDER);
+	GDALSetSpatialRef(ds, srs);
+	OSRDestroySpatialReference(srs);
+	if (ds_md != NULL) GDALSetMetadata(ds, ds_md, NULL);
+	GDALRasterBandH b = GDALGetRasterBand(ds, 1);
+	if (band_md != NULL) {
+		for (char **kv = band_md; *kv != NULL; kv++) {
+			char *key = NULL;
+			const char *val = CPLParseNameValue(*kv, &key);
+			if (key != NULL && val != NULL) GDALSetMetadataItem(b, key, val, NULL);
+			CPLFree(key);
+		}
+	}
+	if (has_nodata) GDALSetRasterNoDataValue(b, nodata);
+	if (units != NULL && units[0] != 0) GDALSetRasterUnitType(b, units);
+	if (desc != NULL && desc[0] != 0) GDALSetDescription(b, desc);
+	if (e->failed) {
+		GDALClose(ds);
+		ds = NULL;
+	}
+done:
+	RF_END();
+	return ds;
+}
+
+/* Writes nrows whole rows from row0 of band 1. */
+int rf_write_rows(GDALDatasetH ds, int row0, int nrows, int nx, const float *rows, rf_err *e) {
+	RF_BEGIN(e);
+	GDALRasterBandH b = GDALGetRasterBand(ds, 1);
+	CPLErr err = GDALRasterIO(b, GF_Write, 0, row0, nx, nrows, (void *)rows, nx, nrows, GDT_Float32, 0, 0);
+	int ok = err == CE_None && e->failed == 0;
+	if (!ok && e->failed == 0) rf_fail(e, "raster write failed");
+	RF_END();
+	return ok;
+}

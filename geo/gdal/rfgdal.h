@@ -49,6 +49,10 @@ GDALDatasetH rf_stage_create(const char *path, int nx, int ny, int bx, int by, c
 int rf_stage_write(GDALDatasetH ds, int row0, int nrows, int nx, const float *rows, float *tile, rf_err *e);
 int rf_stage_finish(GDALDatasetH stage, const char *stage_path, const char *dst, const char *units, const char *desc,
                     char **ds_md, char **band_md, char **copts, rf_progress *p, rf_err *e);
+GDALDatasetH rf_create(const char *driver, const char *path, int nx, int ny, const double *gt,
+                       int has_nodata, double nodata, const char *units, const char *desc, char **ds_md,
+                       char **band_md, char **copts, rf_err *e);
+int rf_write_rows(GDALDatasetH ds, int row0, int nrows, int nx, const float *rows, rf_err *e);
 int rf_translate(const char *src, const char *dst, char **argv, rf_progress *p, rf_err *e);
 unsigned char *rf_vsimem_take(const char *name, unsigned long long *len);
 

@@ -1,0 +1,212 @@
+package ingest
+
+import (
+	"context"
+	"fmt"
+	"strings"
+	"sync"
+
+	"ridgeflank/fault"
+	"ridgeflank/geo"
+	"ridgeflank/geo/gdal"
+	"ridgeflank/store"
+)
+
+// Reader reads a grid file in blocks of whole rows under import's rules, without storing it:
+// values are converted to the stored unit of the request's kind (StoredUnit), every no-data
+// cell is one NaN, values outside the kind's plausible range are refused (PlausibleRange), and
+// a bathymetry grid gets its vertical sense decided as Import decides it. Batch computations
+// that read input files directly use it, so that a file gives the same values there as once
+// imported. A Reader's methods may be called from several goroutines.
+type Reader struct {
+	d         *gdal.Dataset
+	name      string
+	header    geo.Grid
+	kind      store.GridKind
+	unit      string
+	converted string
+	factor    float64
+	sense     geo.VerticalSense
+	notes     []string
+
+	mu      sync.Mutex
+	dig     *digest // content digest of the rows read in order so far
+	digNext int     // next row the digest expects; -1 once rows were skipped
+	id      string  // ContentID once every row was digested
+}
+
+// OpenReader opens the file of r for reading in blocks of rows. r.Kind says what the grid
+// holds; r.Units and r.Registration are taken as Import takes them. For bathymetry (kind depth
+// or elevation), r.Vertical decides the vertical sense: "depth" or "elevation" (also
+// "depth-positive-down", "elevation-positive-up") force it, with a note when the values read
+// otherwise, as Import does; "" or "auto" take the file's declaration, checked against the
+// signs of the values (Import's rule: a contradiction is refused), or, when the file declares
+// none, the sense the values show (geo.SenseOfNegativeFraction; too mixed a grid is refused).
+// Both need one streaming pass over the values before the first block is returned; progress
+// (may be nil) follows that pass with fractions in [0, 1]. Bad input is a *fault.Error.
+func OpenReader(ctx context.Context, r Request, progress func(fraction float64)) (*Reader, error) {
+	r = r.normalised()
+	auto := strings.EqualFold(r.Vertical, "auto")
+	if auto {
+		r.Vertical = ""
+	}
+	if err := r.Check(); err != nil {
+		return nil, err
+	}
+	name := displayName(r.Path)
+	d, err := gdal.Open(r.Path, gdal.ReadOptions{Variable: r.Variable, Registration: r.Registration})
+	if err != nil {
+		return nil, readFault(name, err)
+	}
+	g, meta := d.Header(), d.Meta()
+	g.West, g.North, g.DX, g.DY = snap(g.West), snap(g.North), snap(g.DX), snap(g.DY)
+	rd := &Reader{d: d, name: name, header: g, kind: r.Kind, dig: newDigest()}
+	fail := func(err error) (*Reader, error) {
+		d.Close()
+		return nil, err
+	}
+	var notes []string
+	rd.factor, rd.unit, rd.converted, notes, err = resolveUnits(r, meta.Units)
+	rd.notes = append(rd.notes, notes...)
+	if err != nil {
+		return fail(err)
+	}
+	if r.Kind != store.KindDepth && r.Kind != store.KindElevation {
+		return rd, nil
+	}
+	explicit, _ := geo.ParseVerticalSense(r.Vertical) // checked by Check
+	if explicit != geo.SenseUnknown {
+		// Forced: no pass over the values is needed to decide.
+		rd.sense = explicit
+		rd.kind = store.KindDepth
+		if explicit == geo.ElevationPositiveUp {
+			rd.kind = store.KindElevation
+		}
+		return rd, nil
+	}
+	// One streaming pass: the statistics decide (or check) the sense; the digest is made on
+	// the way.
+	var st Stats
+	blocks, stop := readBlocks(d, g.NX, g.NY, blockRows(g.NX))
+	for b := range blocks {
+		if err := ctx.Err(); err != nil {
+			stop()
+			return fail(err)
+		}
+		if b.err != nil {
+			stop()
+			return fail(readFault(name, b.err))
+		}
+		prepare(b.data, rd.factor)
+		st.Add(b.data)
+		rd.dig.add(b.data)
+		b.release()
+		if progress != nil {
+			progress(float64(b.row+b.n) / float64(g.NY))
+		}
+	}
+	stop()
+	asked := r.Kind
+	if meta.Sense == geo.SenseUnknown && auto {
+		guess := geo.SenseOfNegativeFraction(st.NegativeFraction())
+		switch guess {
+		case geo.DepthPositiveDown:
+			asked = store.KindDepth
+		case geo.ElevationPositiveUp:
+			asked = store.KindElevation
+		default:
+			return fail(fault.New(fault.InvalidGrid, "vertical",
+				"%s declares no vertical sense and %.0f%% of its values are negative, too mixed to tell depth from elevation; declare it with vertical: depth or elevation",
+				name, 100*st.NegativeFraction()))
+		}
+		rd.notes = append(rd.notes, fmt.Sprintf("%s: %.0f%% of the values are negative, so the grid is read as %s", name, 100*st.NegativeFraction(), senseText(guess)))
+	}
+	kind, sense, notes, err := reconcileSense(asked, "", meta.Sense, &st)
+	rd.notes = append(rd.notes, notes...)
+	if err != nil {
+		return fail(err)
+	}
+	if err := checkValues(st, kind, rd.unit, rd.converted); err != nil {
+		return fail(err)
+	}
+	rd.kind, rd.sense = kind, sense
+	rd.id = rd.dig.id(&rd.header, rd.kind, rd.unit, storeSense(sense))
+	rd.digNext = -1 // digest complete
+	return rd, nil
+}
+
+// blockRows is the number of rows of the sense pass's blocks (gdal.DefaultStreamBlockBytes,
+// 16 to 256 rows, like an import's).
+func blockRows(nx int) int {
+	return min(256, max(16, blockBytes/(4*max(nx, 1))))
+}
+
+func storeSense(s geo.VerticalSense) store.VerticalSense {
+	switch s {
+	case geo.DepthPositiveDown:
+		return store.DepthPositiveDown
+	case geo.ElevationPositiveUp:
+		return store.ElevationPositiveUp
+	}
+	return store.VerticalNone
+}
+
+// Header is the grid's lattice (origin and spacing snapped as Import snaps them; no Data).
+func (r *Reader) Header() geo.Grid { return r.header }
+
+// Name is the file's base name.
+func (r *Reader) Name() string { return r.name }
+
+// Kind is the kind the values are read as (for bathymetry: depth or elevation, per Sense).
+func (r *Reader) Kind() store.GridKind { return r.kind }
+
+// Unit is the unit ReadRows returns values in (the kind's stored unit).
+func (r *Reader) Unit() string { return r.unit }
+
+// Sense is the vertical sense of a bathymetry grid (geo.SenseUnknown for other kinds).
+func (r *Reader) Sense() geo.VerticalSense { return r.sense }
+
+// Notes are the decisions the caller should see (units assumed or converted, sense decided).
+func (r *Reader) Notes() []string { return r.notes }
+
+// ContentID is the id Import would give the grid (ContentID: values in the stored unit,
+// lattice, kind, units and sense), or "" when the rows were not all read in order: it is known
+// after the sense pass, or after ReadRows calls that covered every row in increasing order
+// (they may overlap).
+func (r *Reader) ContentID() string {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	return r.id
+}
+
+// ReadRows fills dst with len(dst)/NX whole rows from row0 (row 0 northernmost) in the stored
+// unit, no-data as NaN. Values outside the kind's plausible range are a fault.InvalidGrid.
+func (r *Reader) ReadRows(row0 int, dst []float32) error {
+	if err := r.d.ReadRows(row0, dst); err != nil {
+		return readFault(r.name, err)
+	}
+	prepare(dst, r.factor)
+	var st Stats
+	st.Add(dst)
+	if err := checkRange(st, r.kind, r.unit, r.converted); err != nil {
+		return fault.New(fault.InvalidGrid, "file", "%s: %w", r.name, err)
+	}
+	nx := r.header.NX
+	n := len(dst) / nx
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	if r.digNext >= 0 && row0 <= r.digNext && row0+n > r.digNext {
+		r.dig.add(dst[(r.digNext-row0)*nx:])
+		r.digNext = row0 + n
+		if r.digNext == r.header.NY {
+			r.id = r.dig.id(&r.header, r.kind, r.unit, storeSense(r.sense))
+			r.digNext = -1
+		}
+	} else if r.digNext >= 0 && row0 > r.digNext {
+		r.digNext = -1 // a gap: no content id
+	}
+	return nil
+}
+
+// Close releases the file.
+func (r *Reader) Close() error { return r.d.Close() }
