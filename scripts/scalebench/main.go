@@ -600,6 +600,9 @@ func ms(d time.Duration) string { return fmt.Sprintf("%.1f ms", float64(d)/float
 
 // describe writes "p50 … p95 … max … (n ok, e errors)".
 func (s *series) describe() string {
+	if len(s.durs) == 0 {
+		return fmt.Sprintf("no successful request (%d failed)", s.errs)
+	}
 	out := fmt.Sprintf("p50 %s, p95 %s, max %s (%d ok", ms(s.pct(50)), ms(s.pct(95)), ms(s.pct(100)), len(s.durs))
 	if s.errs > 0 {
 		out += fmt.Sprintf(", %d failed", s.errs)
@@ -851,7 +854,7 @@ func (b *bench) mixed(ctx context.Context, sec, ds string, sz size, tiles []tile
 			b.r.fail("%s mixed %s: %d failed; first: %s", sec, k, s.errs, s.first)
 		}
 	}
-	b.r.add(figure{Section: sec, Name: "mixed run throughput", Value: fmt.Sprintf("%.1f requests/s", float64(total)/b.c.mixed.Seconds())})
+	b.r.add(figure{Section: sec, Name: "mixed run throughput", Value: fmt.Sprintf("%.1f requests/s (every kind, failed ones included)", float64(total)/b.c.mixed.Seconds())})
 }
 
 // ---- datasets ----
@@ -989,6 +992,8 @@ func run(c config, r *report) {
 		}
 	}
 	memoryFigures(r, srv)
+	srv.stop()
+	serverErrors(r, filepath.Join(c.dir, "serve.log"))
 }
 
 func memoryFigures(r *report, p *serverProc) {
@@ -996,7 +1001,7 @@ func memoryFigures(r *report, p *serverProc) {
 	defer p.mu.Unlock()
 	sec := "Server memory (VmRSS sampled every 100 ms from /proc/PID/status)"
 	for _, ph := range p.order {
-		r.figures = append(r.figures, figure{Section: sec, Name: "max VmRSS during " + ph, Value: gib(p.phaseMaxRSS[ph])})
+		r.figures = append(r.figures, figure{Section: sec, Name: "max VmRSS during " + ph, Value: phaseRSS(p.phaseMaxRSS[ph])})
 	}
 	r.figures = append(r.figures, figure{Section: sec, Name: "max VmRSS of the run", Value: gib(p.maxRSS), Goal: "≤ 1 GB (512 MB budget)",
 		Verdict: verdict(p.maxRSS*1024 <= 1e9), Note: fmt.Sprintf("%d samples", p.samples)})
@@ -1008,3 +1013,31 @@ func memoryFigures(r *report, p *serverProc) {
 }
 
 func gib(kb int64) string { return fmt.Sprintf("%.2f GiB", float64(kb)/(1<<20)) }
+
+// serverErrors adds the distinct errors the server logged (its answers say only "internal error"),
+// at most five, to the report's failures.
+func serverErrors(r *report, logPath string) {
+	raw, err := os.ReadFile(logPath)
+	if err != nil {
+		return
+	}
+	seen := map[string]bool{}
+	for _, l := range strings.Split(string(raw), "\n") {
+		_, e, ok := strings.Cut(l, ` err="`)
+		if !ok {
+			continue
+		}
+		e, _, _ = strings.Cut(e, `"`)
+		if !seen[e] && len(seen) < 5 {
+			seen[e] = true
+			r.fail("the server logged: %s", e)
+		}
+	}
+}
+
+func phaseRSS(kb int64) string {
+	if kb == 0 {
+		return "no sample (the phase was shorter than the 100 ms sampling interval)"
+	}
+	return gib(kb)
+}
