@@ -8,13 +8,15 @@ BIN := bin/ridgeflank
 VERSION ?= $(shell git describe --always --dirty 2>/dev/null || echo dev)
 LDFLAGS := -X main.version=$(VERSION)
 GO_TEST_FLAGS ?= -timeout 30m -p 2
+# Global grid sizes measured by bench-scale (1m, 30s, 15s; comma-separated).
+SCALE_SIZES ?= 1m,15s
 # Pinned analysers, run through the Go module proxy with `go run` (nothing added to go.mod).
 STATICCHECK ?= honnef.co/go/tools/cmd/staticcheck@v0.8.2
 DEADCODE ?= golang.org/x/tools/cmd/deadcode@v0.45.0
 # Database drivers the HTTP package must not link (job types live in jobs, the drivers in jobs/queue and store/*).
 SERVER_FORBIDDEN_DEPS := riverpgxv5|riversqlite|modernc.org/sqlite|jackc/pgx
 
-.PHONY: help run build web deps-build deps-test test test-web test-go lint deadcode fmt bench clean
+.PHONY: help run build web deps-build deps-test test test-web test-go lint deadcode fmt bench bench-scale clean
 
 help: ## list the targets
 	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sort | awk -F ':.*## ' '{printf "  %-11s %s\n", $$1, $$2}'
@@ -58,6 +60,9 @@ test-go: ## run every Go test on SQLite and PostGIS (brings up the test database
 
 bench: deps-build web ## run the Go benchmarks (figures for the closing notes)
 	$(GO) test -run '^$$' -bench . -benchmem ./...
+
+bench-scale: build ## measure import and serving at global sizes (SCALE_SIZES=1m,15s) on SYNTHETIC grids; writes build/scale/report.md
+	SCALE_SIZES=$(SCALE_SIZES) BIN=$(BIN) scripts/bench-scale.sh
 
 fmt: ## gofmt every Go file
 	gofmt -w $$(git ls-files '*.go')
