@@ -301,7 +301,6 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 			}
 			if err := geo.EvaluateInto(ctx, gin, dst); err != nil {
 				runErr = err
-				break
 			}
 		}
 		if runErr != nil {

@@ -248,15 +248,6 @@ func (d *Dataset) answers(p Parameter) bool {
 	return !(p.NeedsDepth && !d.HasDepth || p.NeedsSed && !d.HasSediment)
 }
 
-func (d *Dataset) ref(role string) string {
-	for _, g := range d.Refs {
-		if g.Role == role {
-			return g.SHA256
-		}
-	}
-	return role
-}
-
 // DatasetTTL is how long a loaded dataset (its row and grid rows; grid values are cached by
 // content hash separately) is reused without asking the store again. Forget drops them at once;
 // changes made by other processes show after at most this long.
