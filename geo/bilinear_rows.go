@@ -54,34 +54,7 @@ func (s *BilinearSampler) Row(lat float64, dst []float32) {
 			dst[i] = nan
 			continue
 		}
-		c0, c1, tx := s.c0[i], s.c1[i], s.tx[i]
-		v00, v10 := row0[c0], row0[c1]
-		v01, v11 := row1[c0], row1[c1]
-		w00 := (1 - tx) * (1 - ty)
-		w10 := tx * (1 - ty)
-		w01 := (1 - tx) * ty
-		w11 := tx * ty
-		var sum, wsum float64
-		if !isNaN32(v00) {
-			sum += w00 * float64(v00)
-			wsum += w00
-		}
-		if !isNaN32(v10) {
-			sum += w10 * float64(v10)
-			wsum += w10
-		}
-		if !isNaN32(v01) {
-			sum += w01 * float64(v01)
-			wsum += w01
-		}
-		if !isNaN32(v11) {
-			sum += w11 * float64(v11)
-			wsum += w11
-		}
-		if wsum <= 0 {
-			dst[i] = nan
-		} else {
-			dst[i] = float32(sum / wsum)
-		}
+		c0, c1 := s.c0[i], s.c1[i]
+		dst[i] = bilinear4(row0[c0], row0[c1], row1[c0], row1[c1], s.tx[i], ty)
 	}
 }

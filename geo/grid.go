@@ -326,8 +326,13 @@ func (g *Grid) SampleBilinear(lon, lat float64) float32 {
 	}
 	r0, r1, ty := gridAxisPair(fy, g.NY)
 	d := g.Data
-	v00, v10 := d[r0*g.NX+c0], d[r0*g.NX+c1]
-	v01, v11 := d[r1*g.NX+c0], d[r1*g.NX+c1]
+	return bilinear4(d[r0*g.NX+c0], d[r0*g.NX+c1], d[r1*g.NX+c0], d[r1*g.NX+c1], tx, ty)
+}
+
+// bilinear4 interpolates between v00 (first column, first row), v10, v01 and v11 with
+// fractional weights tx, ty of the second column and row. No-data (NaN) values are dropped and
+// the remaining weights renormalised; NaN when none with non-zero weight is left.
+func bilinear4(v00, v10, v01, v11 float32, tx, ty float64) float32 {
 	w00 := (1 - tx) * (1 - ty)
 	w10 := tx * (1 - ty)
 	w01 := (1 - tx) * ty

@@ -143,20 +143,27 @@ func parseAreaQuery(r *http.Request) (areaQuery, error) {
 	return q, nil
 }
 
-func (s *server) area(w http.ResponseWriter, r *http.Request) error {
-	id := chi.URLParam(r, "datasetId")
+// areaParam reads and prepares the polygon of coords= (WKT, longitude first), the one rule of
+// the area and statistics queries.
+func (s *server) areaParam(r *http.Request) (string, geo.PreparedRegion, error) {
 	coords := strings.TrimSpace(r.URL.Query().Get("coords"))
 	if coords == "" {
-		return problem(CodeInvalidCoords, "coords= is required (WKT, longitude first)").withParam("coords")
+		return "", geo.PreparedRegion{}, problem(CodeInvalidCoords, "coords= is required (WKT, longitude first)").withParam("coords")
 	}
 	mp, err := evaluate.ParseArea(coords)
 	if err != nil {
-		return err
+		return "", geo.PreparedRegion{}, err
 	}
 	if err := checkLonLat(mp); err != nil {
-		return err
+		return "", geo.PreparedRegion{}, err
 	}
 	region, err := s.ev.PrepareRegion(mp, "coords")
+	return coords, region, err
+}
+
+func (s *server) area(w http.ResponseWriter, r *http.Request) error {
+	id := chi.URLParam(r, "datasetId")
+	coords, region, err := s.areaParam(r)
 	if err != nil {
 		return err
 	}

@@ -2,7 +2,6 @@ package server
 
 import (
 	"net/http"
-	"strings"
 
 	"github.com/go-chi/chi/v5"
 
@@ -31,18 +30,7 @@ type statisticsAnswer struct {
 // resolution.
 func (s *server) areaStatistics(w http.ResponseWriter, r *http.Request) error {
 	id := chi.URLParam(r, "datasetId")
-	coords := strings.TrimSpace(r.URL.Query().Get("coords"))
-	if coords == "" {
-		return problem(CodeInvalidCoords, "coords= is required (WKT, longitude first)").withParam("coords")
-	}
-	mp, err := evaluate.ParseArea(coords)
-	if err != nil {
-		return err
-	}
-	if err := checkLonLat(mp); err != nil {
-		return err
-	}
-	region, err := s.ev.PrepareRegion(mp, "coords")
+	_, region, err := s.areaParam(r)
 	if err != nil {
 		return err
 	}

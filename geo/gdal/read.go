@@ -635,16 +635,22 @@ func (d *Dataset) ReadRows(row0 int, dst []float32) error {
 		return cErr(&e, "read grid "+d.path)
 	}
 	if d.flip {
-		tmp := make([]float32, nx)
-		for i, j := 0, n-1; i < j; i, j = i+1, j-1 {
-			a, b := dst[i*nx:(i+1)*nx], dst[j*nx:(j+1)*nx]
-			copy(tmp, a)
-			copy(a, b)
-			copy(b, tmp)
-		}
+		flipRows(dst, nx, n)
 	}
 	unpack(dst, d.hasNodata, d.nodata, d.scale, d.offset)
 	return nil
+}
+
+// flipRows reverses the order of the n rows of nx values in dst (a south-up raster read
+// north first).
+func flipRows(dst []float32, nx, n int) {
+	tmp := make([]float32, nx)
+	for i, j := 0, n-1; i < j; i, j = i+1, j-1 {
+		a, b := dst[i*nx:(i+1)*nx], dst[j*nx:(j+1)*nx]
+		copy(tmp, a)
+		copy(a, b)
+		copy(b, tmp)
+	}
 }
 
 // unpack turns no-data into NaN and applies value = raw·scale + offset.

@@ -99,13 +99,7 @@ func (d *Dataset) ReadWindow(level, col0, row0, nx, ny int, dst []float32) error
 		return cErr(&e, "read grid "+d.path)
 	}
 	if d.flip {
-		tmp := make([]float32, nx)
-		for i, j := 0, ny-1; i < j; i, j = i+1, j-1 {
-			a, b := dst[i*nx:(i+1)*nx], dst[j*nx:(j+1)*nx]
-			copy(tmp, a)
-			copy(a, b)
-			copy(b, tmp)
-		}
+		flipRows(dst, nx, ny)
 	}
 	unpack(dst, d.hasNodata, d.nodata, d.scale, d.offset)
 	return nil
