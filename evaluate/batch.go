@@ -372,7 +372,7 @@ func grow(s []float32, n int) []float32 {
 
 // onto writes src's values at the sample positions of lattice into dst (len NX·NY of lattice)
 // and returns it: by index when src's samples coincide with lattice's (same spacing, origin
-// offset by whole cells), else bilinear samples (geo.Grid.SampleBilinear), as Area's
+// offset by whole cells), else bilinear samples (geo.BilinearSampler, SampleBilinear's values), as Area's
 // sampleOnto gives them.
 func onto(dst []float32, lattice, src *geo.Grid) []float32 {
 	nx := lattice.NX
@@ -395,17 +395,19 @@ func onto(dst []float32, lattice, src *geo.Grid) []float32 {
 			return dst
 		}
 	}
+	lons := make([]float64, nx)
+	for c := range lons {
+		lons[c] = lattice.Lon(c)
+	}
+	sm := src.NewBilinearSampler(lons)
 	for r := range lattice.NY {
-		lat := lattice.Lat(r)
-		d := dst[r*nx : (r+1)*nx]
-		for c := range d {
-			d[c] = src.SampleBilinear(lattice.Lon(c), lat)
-		}
+		sm.Row(lattice.Lat(r), dst[r*nx:(r+1)*nx])
 	}
 	return dst
 }
 
-// corrCanExceedRows is corrCanExceed over slices of one block.
+// corrCanExceedRows is the rule of corrCanExceed over slices (obs and sed of equal length, or
+// nil): whether some observed depth plus positive sediment exceeds MaxDepthM.
 func corrCanExceedRows(obs, sed []float32, crust bool) bool {
 	if crust {
 		return true

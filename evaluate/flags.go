@@ -161,22 +161,12 @@ var ageRangeReason = fmt.Sprintf("seafloor age beyond the model's range (0 to %g
 // With a crustal-thickness grid, whose correction may have either sign, it is always computed.
 // A nil obs means the check cannot find a cause; a nil sed counts as no sediment.
 func corrCanExceed(obs, sed *geo.Grid, crust bool) bool {
-	if crust {
-		return true
+	var o, sd []float32
+	if obs != nil {
+		o = obs.Data
 	}
-	if obs == nil {
-		return false
+	if sed != nil {
+		sd = sed.Data
 	}
-	for k, o := range obs.Data {
-		v := float64(o)
-		if sed != nil {
-			if s := float64(sed.Data[k]); s > 0 {
-				v += s
-			}
-		}
-		if v > MaxDepthM {
-			return true
-		}
-	}
-	return false
+	return corrCanExceedRows(o, sd, crust)
 }
