@@ -25,7 +25,9 @@ type Line struct {
 	Waypoints []geo.Waypoint `json:"waypoints"`
 }
 
-// Settings are what a plan is checked under. Zero values take the defaults of Defaults(); a
+// Settings are what a plan is checked under. Zero values (nil pointers) take the defaults of
+// Defaults(), except OverlapPct, SafetyDepthM and TransducerM, where zero means zero (no overlap,
+// no safety-depth test, transducer at the surface); a
 // swath is given either by SwathAngleDeg (total opening angle) or by SwathWidthM (fixed width on
 // the seafloor), not both. Depths are metres positive down.
 type Settings struct {
@@ -43,8 +45,9 @@ type Settings struct {
 	TransducerM    float64 `json:"transducer_depth_m,omitempty"`
 
 	// Sound speed: a profile (depth-ordered) or single values for the whole water column.
-	WaterTemperatureC float64       `json:"water_temperature_c,omitempty"` // °C
-	SalinityPSU       float64       `json:"salinity_psu,omitempty"`        // practical salinity (‰)
+	// nil takes the default (0 °C is a real temperature, so these are pointers).
+	WaterTemperatureC *float64      `json:"water_temperature_c,omitempty"` // °C
+	SalinityPSU       *float64      `json:"salinity_psu,omitempty"`        // practical salinity (‰)
 	SoundProfile      []ProfileStep `json:"sound_profile,omitempty"`
 
 	// Hazard thresholds.
