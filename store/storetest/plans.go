@@ -3,11 +3,13 @@ package storetest
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"reflect"
 	"slices"
 	"sort"
 	"strings"
+	"sync"
 	"testing"
 
 	"github.com/paulmach/orb"
@@ -200,5 +202,49 @@ func testPlanPaging(t *testing.T, open Opener) {
 				t.Fatalf("got %v, want %v", got, want)
 			}
 		})
+	}
+}
+
+// testPlanConcurrentSameVersion: writers holding the same version of a plan; exactly one may
+// win, and the stored plan is wholly the winner's (its lines and settings together).
+func testPlanConcurrentSameVersion(t *testing.T, open Opener) {
+	ctx := ctxT(t)
+	s := open(t)
+	p := must[store.Plan](t, "CreatePlan")(s.CreatePlan(ctx, planFixture()))
+	const n = 8
+	var wg sync.WaitGroup
+	errs := make([]error, n)
+	start := make(chan struct{})
+	for i := range n {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			<-start
+			u := p
+			u.Lines = []store.PlanLine{{Name: fmt.Sprintf("writer %d", i), Waypoints: orb.LineString{{float64(i), 0}, {float64(i), 1}}}}
+			u.Settings = json.RawMessage(fmt.Sprintf(`{"writer": %d}`, i))
+			_, errs[i] = s.UpdatePlan(ctx, u)
+		}()
+	}
+	close(start)
+	wg.Wait()
+	winner := -1
+	for i, err := range errs {
+		switch {
+		case err == nil && winner < 0:
+			winner = i
+		case err == nil:
+			t.Fatalf("writers %d and %d both succeeded with version 1", winner, i)
+		case !errors.Is(err, store.ErrVersionMismatch):
+			t.Errorf("writer %d: unexpected error %v", i, err)
+		}
+	}
+	if winner < 0 {
+		t.Fatal("no writer succeeded")
+	}
+	got := must[store.Plan](t, "GetPlan")(s.GetPlan(ctx, p.ID))
+	if got.Version != 2 || len(got.Lines) != 1 || got.Lines[0].Name != fmt.Sprintf("writer %d", winner) ||
+		got.Lines[0].Waypoints[0][0] != float64(winner) || string(got.Settings) != fmt.Sprintf(`{"writer": %d}`, winner) {
+		t.Fatalf("stored plan %+v (settings %s), want wholly writer %d's at version 2", got, got.Settings, winner)
 	}
 }

@@ -46,6 +46,7 @@ func Run(t *testing.T, fresh func(t *testing.T) Opener) {
 		{"PlanCRUD", testPlanCRUD},
 		{"PlanValidation", testPlanValidation},
 		{"PlanPaging", testPlanPaging},
+		{"PlanConcurrentSameVersion", testPlanConcurrentSameVersion},
 		{"Models", testModels},
 		{"Tokens", testTokens},
 		{"TokenPlaintextNotStored", testTokenPlaintextNotStored},
