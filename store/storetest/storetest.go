@@ -50,6 +50,7 @@ func Run(t *testing.T, fresh func(t *testing.T) Opener) {
 		{"Models", testModels},
 		{"Tokens", testTokens},
 		{"TokenPlaintextNotStored", testTokenPlaintextNotStored},
+		{"IDsNoStoreHolds", testIDsNoStoreHolds},
 		{"Reopen", testReopen},
 		{"ContextCancelled", testContextCancelled},
 	}
