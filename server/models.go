@@ -147,11 +147,14 @@ func parseRange(name, v string, maxPoints int) ([]float64, error) {
 	if step <= 0 || stop < start {
 		return nil, problem(CodeInvalidParameter, "%s=%q: need start ≤ stop and step > 0", name, v).withParam(name)
 	}
-	n := int(math.Floor((stop-start)/step+1e-9)) + 1
-	if n > maxPoints {
+	// Count in floating point first: a tiny step over a huge span overflows int (and Inf or
+	// NaN converts to nonsense), so the limit is checked before any integer is made.
+	nf := math.Floor((stop-start)/step+1e-9) + 1
+	if !(nf <= float64(maxPoints)) {
 		return nil, limitProblem(http.StatusUnprocessableEntity, "max_curve_points", int64(maxPoints),
-			"%s=%q asks for %d values; the limit is %d", name, v, n, maxPoints).withParam(name)
+			"%s=%q asks for %.4g values; the limit is %d", name, v, nf, maxPoints).withParam(name)
 	}
+	n := int(nf)
 	out := make([]float64, n)
 	for i := range out {
 		out[i] = start + float64(i)*step
