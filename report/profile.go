@@ -149,6 +149,9 @@ func (d *doc) drawProfile(dc draw.Canvas, i int, r vg.Rectangle) {
 	summary := fmt.Sprintf("Length %s km (%s nmi); time on line %s h; expected depth %s to %s m, mean %s m; swath at the shallowest %s m; line spacing %s m; hazards %d.",
 		num(l.LengthKm, 2), num(l.LengthNmi, 2), num(l.TimeOnLineH, 2), num(l.MinDepthM, 0), num(l.MaxDepthM, 0),
 		num(l.MeanDepthM, 0), num(l.MinSwathM, 0), num(l.LineSpacingM, 0), len(d.hazards[i]))
+	if n := len(s.DistanceKm); n > maxDrawn {
+		summary += fmt.Sprintf(" The curve is drawn through %d of the %d samples, keeping the shallowest, deepest and most uncertain of every stretch.", len(thin(s)), n)
+	}
 	st := style(sans, bodySize, black)
 	lines := wrap(st, summary, r.Max.X-r.Min.X)
 	for j, t := range lines {
@@ -159,12 +162,6 @@ func (d *doc) drawProfile(dc draw.Canvas, i int, r vg.Rectangle) {
 	plotR := vg.Rectangle{Min: vg.Point{X: r.Min.X, Y: r.Min.Y + vg.Length(len(lines))*rowH + 6}, Max: vg.Point{X: r.Max.X - legendW, Y: y}}
 	p, leg := d.profilePlot(i)
 	p.Draw(sub(dc, plotR))
-	if n := len(s.DistanceKm); n > maxDrawn {
-		note := style(sansIt, 7, grey)
-		note.XAlign = draw.XRight
-		note.YAlign = draw.YBottom
-		dc.FillText(note, vg.Point{X: plotR.Max.X, Y: plotR.Max.Y + 2}, fmt.Sprintf("%d samples, drawn thinned keeping extremes", n))
-	}
 	leg.Draw(sub(dc, vg.Rectangle{Min: vg.Point{X: r.Max.X - legendW + 10, Y: plotR.Min.Y}, Max: vg.Point{X: r.Max.X, Y: plotR.Max.Y - 6}}))
 }
 
@@ -194,6 +191,7 @@ func (d *doc) profilePlot(i int) (*plot.Plot, plot.Legend) {
 	axisStyle(&p.X, "Distance along the line (km)")
 	axisStyle(&p.Y, "Expected depth (m, positive down)")
 	p.Y.Scale = plot.InvertedScale{Normalizer: plot.LinearScale{}}
+	p.X.Tick.Marker, p.Y.Tick.Marker = stepTicks{}, stepTicks{}
 	p.Add(plotter.NewGrid())
 	leg := newLegend()
 	idx := thin(s)
@@ -385,4 +383,32 @@ func runs(idx []int, ok func(int) bool, same func(a, b int) bool, f func([]int))
 	if len(cur) > 0 {
 		f(cur)
 	}
+}
+
+// stepTicks marks an axis at a round step (1, 2 or 5 × 10^k) giving five to ten labelled ticks,
+// with an unlabelled tick half-way between.
+type stepTicks struct{}
+
+func (stepTicks) Ticks(lo, hi float64) []plot.Tick {
+	span := hi - lo
+	if !(span > 0) || !finite(span) {
+		return nil
+	}
+	step := math.Pow(10, math.Floor(math.Log10(span/5)))
+	for _, m := range []float64{1, 2, 5, 10} {
+		if span/(m*step) <= 10 {
+			step *= m
+			break
+		}
+	}
+	prec := max(0, int(-math.Floor(math.Log10(step))))
+	var ticks []plot.Tick
+	for k := math.Ceil(lo / step * 2); k <= math.Floor(hi/step*2); k++ {
+		t := plot.Tick{Value: k * step / 2}
+		if math.Mod(k, 2) == 0 {
+			t.Label = strconv.FormatFloat(k*step/2, 'f', prec, 64)
+		}
+		ticks = append(ticks, t)
+	}
+	return ticks
 }

@@ -360,3 +360,32 @@ func BenchmarkPlanPNGPage(b *testing.B) {
 		}
 	}
 }
+
+func TestRaggedCheckDoesNotPanic(t *testing.T) {
+	// Columns of unequal length, indices out of range, infinities: drawn where possible, never a
+	// panic (a check built by another version of the service must still print).
+	c := syntheticCheck(2, 50)
+	s := &c.Lines[0].Samples
+	s.Lon, s.UncertaintyM, s.DepthSource = s.Lon[:10], nil, s.DepthSource[:5]
+	s.ExpectedDepthM[20] = math.Inf(1)
+	c.Lines[1].Samples = survey.Samples{}
+	c.Hazards = append(c.Hazards, survey.Hazard{Kind: "unknown_kind", Line: 9, FromSample: -4, ToSample: 1e6,
+		DistanceKm: math.Inf(-1), DepthM: math.NaN(), Lon: math.NaN(), Lat: 91})
+	c.Transits = append(c.Transits, survey.Transit{FromLine: 7, ToLine: -1})
+	c.Lines[0].Legs = append(c.Lines[0].Legs, survey.Leg{From: 99, To: 100})
+	for _, format := range []string{"pdf", "png"} {
+		o := testOptions()
+		o.Format = format
+		n, err := Pages(c, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for p := 1; p <= n && (format == "png" || p == 1); p++ {
+			o.Page = p
+			o.DPI = MinDPI
+			if len(render(t, c, o)) == 0 {
+				t.Errorf("%s page %d: empty", format, p)
+			}
+		}
+	}
+}
