@@ -3,6 +3,7 @@ package report
 import (
 	"math"
 	"strconv"
+	"strings"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/font"
@@ -18,10 +19,14 @@ const maxWaypointLabels = 40
 type degreeTicks struct{ lon bool }
 
 func (t degreeTicks) Ticks(lo, hi float64) []plot.Tick {
-	ticks := plot.DefaultTicks{}.Ticks(lo, hi)
+	ticks := stepTicks{max: 5}.Ticks(lo, hi)
 	for i := range ticks {
 		if ticks[i].Label == "" {
 			continue
+		}
+		prec := 0 // as many decimals as the step's label has
+		if j := strings.IndexByte(ticks[i].Label, '.'); j >= 0 {
+			prec = len(ticks[i].Label) - j - 1
 		}
 		v := ticks[i].Value
 		pos, neg := "N", "S"
@@ -32,10 +37,11 @@ func (t degreeTicks) Ticks(lo, hi float64) []plot.Tick {
 		if v < 0 {
 			h, v = neg, -v
 		}
-		if v == 0 || (!t.lon && v == 90) || (t.lon && v == 180) {
+		s := strconv.FormatFloat(v, 'f', prec, 64)
+		if f, _ := strconv.ParseFloat(s, 64); f == 0 || (!t.lon && f == 90) || (t.lon && f == 180) {
 			h = ""
 		}
-		ticks[i].Label = strconv.FormatFloat(v, 'f', -1, 64) + "°" + h
+		ticks[i].Label = s + "°" + h
 	}
 	return ticks
 }

@@ -191,7 +191,7 @@ func (d *doc) profilePlot(i int) (*plot.Plot, plot.Legend) {
 	axisStyle(&p.X, "Distance along the line (km)")
 	axisStyle(&p.Y, "Expected depth (m, positive down)")
 	p.Y.Scale = plot.InvertedScale{Normalizer: plot.LinearScale{}}
-	p.X.Tick.Marker, p.Y.Tick.Marker = stepTicks{}, stepTicks{}
+	p.X.Tick.Marker, p.Y.Tick.Marker = stepTicks{max: 10}, stepTicks{max: 9}
 	p.Add(plotter.NewGrid())
 	leg := newLegend()
 	idx := thin(s)
@@ -385,18 +385,19 @@ func runs(idx []int, ok func(int) bool, same func(a, b int) bool, f func([]int))
 	}
 }
 
-// stepTicks marks an axis at a round step (1, 2 or 5 × 10^k) giving five to ten labelled ticks,
-// with an unlabelled tick half-way between.
-type stepTicks struct{}
+// stepTicks marks an axis at the finest round step (1, 2 or 5 × 10^k) that leaves at most max
+// steps between labelled ticks, with an unlabelled tick half-way between.
+type stepTicks struct{ max int }
 
-func (stepTicks) Ticks(lo, hi float64) []plot.Tick {
+func (t stepTicks) Ticks(lo, hi float64) []plot.Tick {
 	span := hi - lo
 	if !(span > 0) || !finite(span) {
 		return nil
 	}
-	step := math.Pow(10, math.Floor(math.Log10(span/5)))
+	n := float64(max(t.max, 2))
+	step := math.Pow(10, math.Floor(math.Log10(span/n)))
 	for _, m := range []float64{1, 2, 5, 10} {
-		if span/(m*step) <= 10 {
+		if span/(m*step) <= n {
 			step *= m
 			break
 		}

@@ -389,3 +389,32 @@ func TestRaggedCheckDoesNotPanic(t *testing.T) {
 		}
 	}
 }
+
+func TestStepTicks(t *testing.T) {
+	// Worked by hand: span 1.5 with at most 5 steps; steps 0.1 (15 steps) and 0.2 (7.5) are too
+	// fine, 0.5 (3) gives 29.5, 30.0, 30.5, 31.0 with unlabelled ticks half-way between.
+	// Span 4500 m with at most 9 steps: 200 (22.5) is too fine, 500 (9) fits: 10 labels.
+	tests := []struct {
+		name   string
+		max    int
+		lo, hi float64
+		want   []string
+	}{
+		{"latitudes", 5, 29.5, 31, []string{"29.5", "30.0", "30.5", "31.0"}},
+		{"depths", 9, 0, 4500, []string{"0", "500", "1000", "1500", "2000", "2500", "3000", "3500", "4000", "4500"}},
+		{"no span", 5, 3, 3, nil},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			var got []string
+			for _, tk := range (stepTicks{max: tc.max}).Ticks(tc.lo, tc.hi) {
+				if tk.Label != "" {
+					got = append(got, tk.Label)
+				}
+			}
+			if !slices.Equal(got, tc.want) {
+				t.Errorf("labels %q, want %q", got, tc.want)
+			}
+		})
+	}
+}

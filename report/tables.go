@@ -214,7 +214,7 @@ func (d *doc) tables() []section {
 	var secs []section
 
 	legCols := []column{
-		{"Line", 0.17, false}, {"Leg", 0.26, false}, {"Length\n(km)", 0.075, true}, {"Length\n(nmi)", 0.075, true},
+		{"Line", 0.17, false}, {"Leg", 0.30, false}, {"Length\n(km)", 0.075, true}, {"Length\n(nmi)", 0.075, true},
 		{"Azimuth\n(°)", 0.07, true}, {"Time\n(h)", 0.07, true}, {"Depth\nmin (m)", 0.08, true},
 		{"Depth\nmean (m)", 0.08, true}, {"Depth\nmax (m)", 0.08, true},
 	}
