@@ -225,6 +225,7 @@ func (s *server) routes() http.Handler {
 		r.Get("/models/{modelId}", s.h(s.getModel))
 		r.Get("/models/{modelId}/curve", s.h(s.modelCurve))
 		r.Get("/models/{modelId}/geotherm", s.h(s.modelGeotherm))
+		r.Get("/models/{modelId}/ridge-push", s.h(s.modelRidgePush))
 
 		r.Get("/regions", s.h(s.listRegions))
 		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Post("/regions", s.h(s.createRegion))
