@@ -40,7 +40,6 @@ const (
 // texts and documents quote it.
 const ThicknessDefinition = "the depth below the seafloor where the temperature has risen by 90 % of the difference between mantle and seafloor temperature, T = Ts + 0.9 (Tm − Ts) (Turcotte & Schubert, Geodynamics, 2nd ed. 2002, §4.16, from memory)"
 
-
 // Params is a complete parameter set of a cooling model. It is the
 // JSON-serialisable form custom models are stored in.
 //

@@ -21,8 +21,8 @@ const caution = "Caution: predicted depths and temperatures are model estimates,
 
 // CLI limits (documented in the commands' help).
 const (
-	maxAges     = 10000  // ages per predict call
-	maxParamsKB = 64     // size of a --params file
+	maxAges     = 10000 // ages per predict call
+	maxParamsKB = 64    // size of a --params file
 )
 
 // modelFlags are the flags that choose a cooling model.
