@@ -214,6 +214,7 @@ func (s *server) routes() http.Handler {
 			r.Get("/area", s.h(s.area))
 			r.Get("/trajectory", s.h(s.trajectory))
 			r.With(s.bodyLimit(s.limits.MaxBodyBytes)).Post("/trajectory", s.h(s.trajectoryPost))
+			r.Get("/corridor", s.h(s.corridor))
 			r.Get("/locations", s.h(s.locationsList))
 			r.Get("/locations/{regionId}", s.h(s.location))
 			r.Get("/locations/{regionId}/statistics", s.h(s.locationStatistics))
@@ -225,6 +226,7 @@ func (s *server) routes() http.Handler {
 		r.Get("/models/{modelId}", s.h(s.getModel))
 		r.Get("/models/{modelId}/curve", s.h(s.modelCurve))
 		r.Get("/models/{modelId}/geotherm", s.h(s.modelGeotherm))
+		r.Get("/models/{modelId}/ridge-push", s.h(s.modelRidgePush))
 
 		r.Get("/regions", s.h(s.listRegions))
 		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Post("/regions", s.h(s.createRegion))
