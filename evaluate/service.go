@@ -37,6 +37,12 @@ type Limits struct {
 	// MaxExportCells bounds the cells of one exported file ("max_export_cells"); files
 	// larger than MaxAreaCells are written band by band, so this bounds time and disk.
 	MaxExportCells int64
+	// MaxPlanLines bounds the lines of one survey plan ("max_plan_lines").
+	MaxPlanLines int
+	// MaxPlanSamples bounds the samples of all the lines of one plan checked together
+	// ("max_plan_samples"), as MaxTrackSamples bounds one track's: the check holds every
+	// sample's values, so this bounds its memory (about 200 bytes a sample).
+	MaxPlanSamples int
 }
 
 // DefaultLimits are the limits used when a Limits field is zero.
@@ -52,6 +58,9 @@ var DefaultLimits = Limits{
 	MaxStatisticsCells: 200_000_000,
 	// 4 G cells: a 15-arc-second global grid (86400 × 43200 = 3.7 G).
 	MaxExportCells: 4_000_000_000,
+	// 200 lines and 500,000 samples: 50,000 km at 100 m spacing.
+	MaxPlanLines:   200,
+	MaxPlanSamples: 500_000,
 }
 
 // WithDefaults returns l with every zero field set to DefaultLimits' value.
@@ -61,7 +70,8 @@ func (l Limits) WithDefaults() Limits {
 		{&l.MaxPositions, &d.MaxPositions}, {&l.MaxVertices, &d.MaxVertices}, {&l.MaxAreaCells, &d.MaxAreaCells},
 		{&l.MaxInputCells, &d.MaxInputCells}, {&l.MaxTrackSamples, &d.MaxTrackSamples},
 		{&l.MaxParameters, &d.MaxParameters}, {&l.MaxTileZoom, &d.MaxTileZoom},
-		{&l.MaxStatisticsCells, &d.MaxStatisticsCells},
+		{&l.MaxStatisticsCells, &d.MaxStatisticsCells}, {&l.MaxPlanLines, &d.MaxPlanLines},
+		{&l.MaxPlanSamples, &d.MaxPlanSamples},
 	} {
 		if *f.v <= 0 {
 			*f.v = *f.dv
