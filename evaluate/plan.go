@@ -532,8 +532,8 @@ func planTotals(c *survey.Check) survey.Totals {
 // with WGS84 metres per degree at the sample (survey.MetresPerDegree; b's samples are at most
 // the sample spacing apart, so the plane is exact enough). The lines count as neighbours there
 // only where the nearest point of b lies inside b (not off its ends) and the separation is under
-// the sum of the two swath widths (twice the half-swath sum: farther apart, the lines are
-// separate blocks, not neighbours; our rule, no source). A gap is survey.CoverageGapM > 0;
+// twice the sum of the two swath widths (a gap of up to three mean swath widths is reported;
+// farther apart, the lines are separate blocks, not neighbours: our rule, no source). A gap is survey.CoverageGapM > 0;
 // consecutive gap samples are merged into one Gap positioned at its widest sample.
 func planGaps(ai int, a *survey.Samples, bi int, b *survey.Samples) []survey.Gap {
 	nb := len(b.Lon)
@@ -588,7 +588,7 @@ func planGaps(ai int, a *survey.Samples, bi int, b *survey.Samples) []survey.Gap
 		}
 		wa, wb := a.SwathWidthM[i], b.SwathWidthM[j]
 		gap := survey.CoverageGapM(sep, wa, wb)
-		if !inside || !(sep < wa+wb) || !(gap > 0) {
+		if !inside || !(sep < 2*(wa+wb)) || !(gap > 0) {
 			open = false
 			continue
 		}
