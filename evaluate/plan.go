@@ -45,8 +45,9 @@ const minScatterSamples = 3
 //     standard deviation of the residuals within ±ScatterHalfWindowKm along the line, at least 3
 //     values; else that of the whole line). For an observed depth, the scatter alone. NaN where
 //     neither is known;
-//   - slope: the gradient of the depth grid by central differences one grid cell either side,
-//     in metres with WGS84 metres per degree at the sample's latitude (survey.MetresPerDegree);
+//   - slope: the gradient of the depth grid by central differences at its nodes, in metres
+//     with WGS84 metres per degree at the node's latitude (survey.MetresPerDegree), interpolated
+//     bilinearly to the sample (slopeSampler);
 //   - swath width, mean sound speed (Mackenzie 1981, harmonic mean from the transducer to the
 //     seafloor), two-way travel times at nadir and the outer beam, maximum ping rate and
 //     along-track sounding spacing (package survey).
@@ -347,6 +348,10 @@ func (s *Service) samplePlanGrids(ctx context.Context, ps *planSampler, sm *surv
 			return err
 		}
 		var pe *geo.PointEvaluator
+		var slope *slopeSampler
+		if v != nil && v.Depth != nil {
+			slope = newSlopeSampler(v.Depth)
+		}
 		if v != nil {
 			in := geo.Inputs{Age: v.Age, Model: q.Model, Compaction: q.Sediment}
 			want := geo.OutPredictedDepth
@@ -380,8 +385,8 @@ func (s *Service) samplePlanGrids(ctx context.Context, ps *planSampler, sm *surv
 			if v.AgeUncertainty != nil {
 				ageUnc[j] = float64(v.AgeUncertainty.SampleBilinear(lon, lat))
 			}
-			if v.Depth != nil {
-				sm.SlopeDeg[j] = slopeDeg(v.Depth, lon, lat)
+			if slope != nil {
+				sm.SlopeDeg[j] = slope.at(lon, lat)
 			}
 		}
 	}
@@ -401,18 +406,88 @@ func (ps *planSampler) loaded(pred, sedM, crustKm float64) float64 {
 	return pred
 }
 
-// slopeDeg is the seafloor slope (degrees) of grid g at (lon, lat): the gradient by central
-// differences of bilinear samples one cell either side, converted to metres with WGS84 metres
-// per degree at lat (survey.MetresPerDegree). NaN where a neighbour has no value.
-func slopeDeg(g *geo.Grid, lon, lat float64) float64 {
-	dx, dy := g.DX, g.DY
-	mLat, mLon := survey.MetresPerDegree(lat)
-	e := float64(g.SampleBilinear(lon+dx, lat))
-	w := float64(g.SampleBilinear(lon-dx, lat))
-	n := float64(g.SampleBilinear(lon, lat+dy))
-	s := float64(g.SampleBilinear(lon, lat-dy))
-	gx := (e - w) / (2 * dx * mLon)
-	gy := (n - s) / (2 * dy * mLat)
+// slopeSampler gives the seafloor slope (degrees) of a depth grid g at any position: the
+// gradient at g's nodes by central differences one node either side, in metres with WGS84
+// metres per degree at the node's latitude (survey.MetresPerDegree), its magnitude as an angle,
+// interpolated bilinearly to the position (no-data nodes dropped and the weights renormalised,
+// as Grid.SampleBilinear does). A node without both neighbours in a direction, or next to a
+// no-data node, has no slope. The four node slopes of the last cell are kept, since consecutive
+// samples of a line mostly fall in the same cell. Not safe for concurrent use.
+type slopeSampler struct {
+	g                  *geo.Grid
+	period             int // columns in 360° when g is global in longitude, else 0
+	c0, r0             int // the kept cell's first column and row; −1 when none
+	s00, s10, s01, s11 float64
+}
+
+func newSlopeSampler(g *geo.Grid) *slopeSampler {
+	s := &slopeSampler{g: g, c0: -1, r0: -1}
+	if g.IsGlobalLon() {
+		s.period = int(math.Round(360 / g.DX))
+	}
+	return s
+}
+
+// at is the slope (degrees) at (lon, lat); NaN off the grid or without data.
+func (s *slopeSampler) at(lon, lat float64) float64 {
+	g := s.g
+	fx := (lon - g.West) / g.DX
+	if s.period > 0 {
+		fx = math.Mod(fx, float64(s.period))
+		if fx < 0 {
+			fx += float64(s.period)
+		}
+	} else if fx < 0 || fx > float64(g.NX-1) {
+		fx = math.Mod(lon-g.West, 360)
+		if fx < 0 {
+			fx += 360
+		}
+		fx /= g.DX
+	}
+	fy := (g.North - lat) / g.DY
+	if !(fy >= 0 && fy <= float64(g.NY-1)) || s.period == 0 && !(fx >= 0 && fx <= float64(g.NX-1)) {
+		return math.NaN()
+	}
+	c, r := int(fx), int(fy)
+	c = min(c, g.NX-2)
+	r = min(r, g.NY-2)
+	if s.period == 0 {
+		c = max(c, 0)
+	}
+	if c != s.c0 || r != s.r0 {
+		s.c0, s.r0 = c, r
+		s.s00, s.s10, s.s01, s.s11 = s.node(c, r), s.node(c+1, r), s.node(c, r+1), s.node(c+1, r+1)
+	}
+	tx, ty := fx-float64(c), fy-float64(r)
+	var sum, w float64
+	for _, k := range [4]struct{ v, w float64 }{{s.s00, (1 - tx) * (1 - ty)}, {s.s10, tx * (1 - ty)}, {s.s01, (1 - tx) * ty}, {s.s11, tx * ty}} {
+		if !math.IsNaN(k.v) && k.w > 0 {
+			sum += k.v * k.w
+			w += k.w
+		}
+	}
+	if w == 0 {
+		return math.NaN()
+	}
+	return sum / w
+}
+
+// node is the slope (degrees) at node (c, r) of the grid.
+func (s *slopeSampler) node(c, r int) float64 {
+	g := s.g
+	col := func(c int) int {
+		if s.period > 0 {
+			return ((c % s.period) + s.period) % s.period
+		}
+		return c
+	}
+	if r < 1 || r > g.NY-2 || s.period == 0 && (c < 1 || c > g.NX-2) {
+		return math.NaN()
+	}
+	at := func(c, r int) float64 { return float64(g.Data[r*g.NX+col(c)]) }
+	mLat, mLon := survey.MetresPerDegree(g.Lat(r))
+	gx := (at(c+1, r) - at(c-1, r)) / (2 * g.DX * mLon)
+	gy := (at(c, r-1) - at(c, r+1)) / (2 * g.DY * mLat)
 	return math.Atan(math.Hypot(gx, gy)) * 180 / math.Pi
 }
 
@@ -547,7 +622,11 @@ func planGaps(ai int, a *survey.Samples, bi int, b *survey.Samples) []survey.Gap
 		lon, lat := a.Lon[i], a.Lat[i]
 		mLat, mLon := survey.MetresPerDegree(lat)
 		xy := func(k int) (float64, float64) {
-			return geo.LonTo180(b.Lon[k]-lon) * mLon, (b.Lat[k] - lat) * mLat
+			dl := b.Lon[k] - lon
+			if dl > 180 || dl < -180 {
+				dl = geo.LonTo180(dl)
+			}
+			return dl * mLon, (b.Lat[k] - lat) * mLat
 		}
 		d2 := func(k int) float64 { x, y := xy(k); return x*x + y*y }
 		if j < 0 {
