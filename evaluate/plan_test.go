@@ -415,3 +415,54 @@ func TestResidualScatter(t *testing.T) {
 		}
 	}
 }
+
+// The slope of a plane is its angle: z = 4000 + k·x + k·y (x, y metres east and north, k = 0.1)
+// rises at atan(k·√2) = 8.0495° (worked by hand). Built on a 0.1° node grid around the equator
+// with metres per degree at the equator, so the plane is exact on the equator row; off it the
+// degree of longitude shortens by cos φ (under 2e-6 at 0.1°), so the tolerance is 1e-3°.
+// A global grid with a north–south plane gives atan(k) = 5.7106° across the antimeridian.
+func TestSlopeSampler(t *testing.T) {
+	const k = 0.1
+	mLat, mLon := survey.MetresPerDegree(0)
+	plane := geo.NewGrid(21, 21, -1, 1, 0.1, 0.1, geo.Node)
+	for r := range plane.NY {
+		for c := range plane.NX {
+			plane.Set(c, r, float32(4000+k*plane.Lon(c)*mLon+k*plane.Lat(r)*mLat))
+		}
+	}
+	global := geo.NewGrid(360, 21, -180, 1, 1, 0.1, geo.Node)
+	for r := range global.NY {
+		for c := range global.NX {
+			global.Set(c, r, float32(4000+k*global.Lat(r)*mLat))
+		}
+	}
+	holed := plane.Clone()
+	for _, cr := range [][2]int{{10, 10}, {11, 10}, {10, 11}, {11, 11}} {
+		holed.Set(cr[0], cr[1], float32(math.NaN()))
+	}
+	want2 := math.Atan(k*math.Sqrt2) * 180 / math.Pi
+	want1 := math.Atan(k) * 180 / math.Pi
+	cases := []struct {
+		name     string
+		g        *geo.Grid
+		lon, lat float64
+		want     float64 // NaN: no slope
+	}{
+		{"plane at a node", plane, 0, 0, want2},
+		{"plane inside a cell", plane, 0.537, -0.21, want2},
+		{"plane at the edge: no neighbours", plane, -1, 0, math.NaN()},
+		{"off the grid", plane, 3, 0, math.NaN()},
+		{"no data around", holed, 0.05, 0.05, math.NaN()},
+		{"global, across the antimeridian", global, 179.5, 0, want1},
+		{"global, west of it", global, -179.6, 0.03, want1},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			s := newSlopeSampler(c.g)
+			got := s.at(c.lon, c.lat)
+			if math.IsNaN(c.want) != math.IsNaN(got) || math.Abs(got-c.want) > 1e-3 {
+				t.Errorf("slope %g°, want %g°", got, c.want)
+			}
+		})
+	}
+}
