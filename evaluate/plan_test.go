@@ -192,6 +192,16 @@ func TestCheckPlanFlagsSeamountChain(t *testing.T) {
 					l.UncertaintyM[i], l.SoundSpeedMS[i], l.MaxPingRateHz[i], l.SlopeDeg[i])
 			}
 		}
+		// The acoustics follow the expected depth (default 120° swath, transducer at the surface):
+		// width 2·d·tan 60°, nadir echo after 2d/c̄, one ping per outer-beam echo.
+		for i := range l.Lon {
+			d := l.ExpectedDepthM[i]
+			if math.Abs(l.SwathWidthM[i]-2*d*math.Sqrt(3)) > 1e-6*d || math.Abs(l.TwoWayTimeS[i]*l.SoundSpeedMS[i]/2-d) > 1e-6*d ||
+				math.Abs(l.MaxPingRateHz[i]*l.TwoWayTimeOuterS[i]-1) > 1e-12 || math.Abs(l.TwoWayTimeOuterS[i]-2*l.TwoWayTimeS[i]) > 1e-9 {
+				t.Fatalf("sample %d: depth %g, swath %g, c %g, two-way %g / %g s, ping %g Hz", i, d, l.SwathWidthM[i],
+					l.SoundSpeedMS[i], l.TwoWayTimeS[i], l.TwoWayTimeOuterS[i], l.MaxPingRateHz[i])
+			}
+		}
 		if chk.Caution != Caution || chk.Totals.Hazards != len(chk.Hazards) {
 			t.Errorf("caution %q, totals %+v", chk.Caution, chk.Totals)
 		}
@@ -303,11 +313,12 @@ func TestCheckPlanCoverageGaps(t *testing.T) {
 
 func TestCheckPlanProgressAndTotals(t *testing.T) {
 	s := planService(t, Limits{})
+	cold := 1.0 // below the 2 °C of Mackenzie's fit: noted
 	p := survey.Plan{Name: "three", Lines: []survey.Line{
 		{Waypoints: []geo.Waypoint{wp(-140, -30), wp(-139, -30)}},
 		{Waypoints: []geo.Waypoint{wp(-139, -30.1), wp(-140, -30.1)}},
 		{Waypoints: []geo.Waypoint{wp(-140, -30.2), wp(-139, -30.2), wp(-139, -30.5)}},
-	}, Settings: survey.Settings{Dataset: demobasin.DatasetID, SpeedTransitKn: 12}}
+	}, Settings: survey.Settings{Dataset: demobasin.DatasetID, SpeedTransitKn: 12, WaterTemperatureC: &cold}}
 	var got []float64
 	chk, err := s.CheckPlan(context.Background(), p, func(f float64) { got = append(got, f) })
 	if err != nil {
@@ -328,6 +339,9 @@ func TestCheckPlanProgressAndTotals(t *testing.T) {
 	if math.Abs(tt.LengthKm-km) > 1e-9 || math.Abs(tt.TimeInTransitH-h) > 1e-12 || math.Abs(tt.AreaKm2-area) > 1e-9 ||
 		math.Abs(tt.TimeTotalH-(tt.TimeOnLineH+tt.TimeInTransitH)) > 1e-12 || len(chk.Lines[2].Legs) != 2 {
 		t.Errorf("totals %+v", tt)
+	}
+	if !strings.Contains(strings.Join(chk.Notes, " "), "1 °C") {
+		t.Errorf("notes %q do not say the temperature is outside Mackenzie's range", chk.Notes)
 	}
 	// Defaults filled in: 8 kn on line (survey.DefaultSpeedOnLineKn).
 	if chk.Plan.Settings.SpeedOnLineKn != survey.DefaultSpeedOnLineKn || math.Abs(tt.TimeOnLineH-tt.LengthNmi/8) > 1e-9 {
