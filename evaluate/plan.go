@@ -82,7 +82,7 @@ func (s *Service) CheckPlan(ctx context.Context, p survey.Plan, progress func(fr
 		}
 		n := 1
 		for _, lg := range legs[i] {
-			n += int(min(math.Ceil(lg.LengthKm/spacingKm), math.MaxInt32))
+			n += int(min(math.Ceil(lg.LengthKm*1000/(spacingKm*1000)), math.MaxInt32)) // as geo.Densify counts
 		}
 		if n > s.limits.MaxTrackSamples {
 			return nil, fault.Over("max_track_samples", int64(s.limits.MaxTrackSamples), int64(n), "settings.sample_spacing_km",
