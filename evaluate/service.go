@@ -227,17 +227,25 @@ type Dataset struct {
 	// (Service.window); they are nil in the Dataset that Service.Dataset returns. Depth is the
 	// observed bathymetry in the sense DepthSense.
 	Age, Depth, Sediment, Crust *geo.Grid
-	DepthSense                  geo.VerticalSense
-	Refs                        []GridRef
+	// AgeUncertainty is a window of the age-uncertainty grid (Ma, one standard deviation),
+	// read only by the questions that use it (survey plan checks).
+	AgeUncertainty *geo.Grid
+	DepthSense     geo.VerticalSense
+	Refs           []GridRef
 	// From the catalogue rows (known without reading any grid file):
 	Bounds      orb.Bound // footprint of the age grid
 	HasDepth    bool
 	HasSediment bool
+	// AgeUncertaintyRef is the dataset's age-uncertainty grid (zero when it has none). It is
+	// not in Refs: only the questions that read it (survey plan checks) name it.
+	AgeUncertaintyRef GridRef
+	uncRow            *store.Grid
 }
 
 // DatasetFiles are a dataset's grid files (nil where it has none).
 type DatasetFiles struct {
 	Age, Depth, Sediment, Crust *raster.File
+	AgeUncertainty              *raster.File
 }
 
 // AgeHeader is the shape of the dataset's full-resolution age grid (no Data).
@@ -301,6 +309,13 @@ func (s *Service) Dataset(ctx context.Context, id string) (*Dataset, error) {
 			d.Files.Crust = f
 		}
 	}
+	if d.uncRow != nil {
+		f, err := s.gridFile(*d.uncRow)
+		if err != nil {
+			return nil, err
+		}
+		d.Files.AgeUncertainty = f
+	}
 	s.datasets.Store(id, cachedDataset{d, time.Now()})
 	return d, nil
 }
@@ -355,6 +370,14 @@ func (s *Service) datasetMeta(ctx context.Context, id string) (*Dataset, []store
 		case PSedimentThickness:
 			d.HasSediment = true
 		}
+	}
+	if row.AgeUncertaintyGridID != "" {
+		gr, err := s.st.GetGrid(ctx, row.AgeUncertaintyGridID)
+		if err != nil {
+			return nil, nil, fmt.Errorf("dataset %s: grid %s: %w", id, row.AgeUncertaintyGridID, err)
+		}
+		d.uncRow = &gr
+		d.AgeUncertaintyRef = GridRef{ID: gr.ID, Role: RoleAgeUncertainty, SHA256: gr.ContentHash}
 	}
 	return d, rows, nil
 }
