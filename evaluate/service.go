@@ -60,7 +60,7 @@ var DefaultLimits = Limits{
 	MaxExportCells: 4_000_000_000,
 	// 200 lines and 500,000 samples: 50,000 km at 100 m spacing.
 	MaxPlanLines:   200,
-	MaxPlanSamples: 500_000,
+	MaxPlanSamples: 250_000,
 }
 
 // WithDefaults returns l with every zero field set to DefaultLimits' value.
