@@ -13,6 +13,7 @@ import (
 
 	"ridgeflank/evaluate"
 	"ridgeflank/fault"
+	"ridgeflank/numjson"
 	"ridgeflank/thermal"
 )
 
@@ -329,9 +330,4 @@ func writeCSVText(w http.ResponseWriter, filename, caution string, header []stri
 	return cw.Error()
 }
 
-func formatCSVFloat(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return ""
-	}
-	return strconv.FormatFloat(roundSig(v), 'g', -1, 64)
-}
+func formatCSVFloat(v float64) string { return numjson.CSV(v) }
