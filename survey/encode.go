@@ -225,7 +225,7 @@ func WriteGeoJSON(w io.Writer, c *Check) error {
 		}
 		for k, wp := range l.Waypoints {
 			fc.Features = append(fc.Features, gjFeature{Type: "Feature",
-				Geometry: gjGeometry{Type: "Point", Coordinates: position(geo.LonTo180(wp.Lon), wp.Lat)},
+				Geometry:   gjGeometry{Type: "Point", Coordinates: position(geo.LonTo180(wp.Lon), wp.Lat)},
 				Properties: map[string]any{"feature_kind": "waypoint", "line": li, "line_name": name, "waypoint": k, "name": wp.Name}})
 		}
 	}
