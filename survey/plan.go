@@ -114,8 +114,9 @@ type Samples struct {
 	AgeMa            []float64 `json:"age_ma"`
 	SlopeDeg         []float64 `json:"slope_deg"`
 	SwathWidthM      []float64 `json:"swath_width_m"`
-	SoundSpeedMS     []float64 `json:"sound_speed_m_s"` // mean over the water column
-	TwoWayTimeS      []float64 `json:"two_way_time_s"`
+	SoundSpeedMS     []float64 `json:"sound_speed_m_s"`      // mean over the water column
+	TwoWayTimeS      []float64 `json:"two_way_time_s"`       // at nadir
+	TwoWayTimeOuterS []float64 `json:"outer_two_way_time_s"` // at the outer beam (straight rays)
 	MaxPingRateHz    []float64 `json:"max_ping_rate_hz"`
 	SoundingSpacingM []float64 `json:"sounding_spacing_m"` // along track, at the on-line speed and maximum ping rate
 }
@@ -173,6 +174,7 @@ type Gap struct {
 	DistanceKm  float64 `json:"distance_km"`  // along line A
 	SeparationM float64 `json:"separation_m"` // distance between the lines there
 	GapM        float64 `json:"gap_m"`        // uncovered width
+	LengthKm    float64 `json:"length_km"`    // along-track extent of the gap on line A
 }
 
 // Totals sum a plan.
@@ -200,4 +202,7 @@ type Check struct {
 	Hazards  []Hazard     `json:"hazards"`
 	Gaps     []Gap        `json:"coverage_gaps"`
 	Totals   Totals       `json:"totals"`
+	// Notes say what the check assumed or could not do (sound speed extrapolated outside the
+	// range of its equation, no age-uncertainty grid, …), one sentence each.
+	Notes []string `json:"notes,omitempty"`
 }
