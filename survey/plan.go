@@ -1,6 +1,10 @@
 package survey
 
-import "ridgeflank/geo"
+import (
+	"time"
+
+	"ridgeflank/geo"
+)
 
 // Plan is a named set of survey lines with the settings it is checked under. It is the body of
 // POST /api/plans and /api/plans/check, the stored form of a plan, and what `ridgeflank plan
@@ -16,6 +20,9 @@ type Plan struct {
 	Lines       []Line   `json:"lines"`
 	Settings    Settings `json:"settings"`
 	Version     int64    `json:"version,omitempty"`
+	// Set by the store on stored plans (UTC); ignored in a plan given to create or update.
+	CreatedAt *time.Time `json:"created_at,omitempty"`
+	UpdatedAt *time.Time `json:"updated_at,omitempty"`
 }
 
 // Line is one survey line: at least two waypoints (decimal degrees, optional names) joined by
