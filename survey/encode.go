@@ -171,6 +171,7 @@ type gjCollection struct {
 	Caution  string      `json:"caution"`
 	Totals   Totals      `json:"totals"`
 	Settings Settings    `json:"settings"`
+	Notes    []string    `json:"notes,omitempty"`
 	Features []gjFeature `json:"features"`
 }
 
@@ -199,11 +200,11 @@ func position(lon, lat float64) [2]float64 { return [2]float64{lon, lat} }
 //     fields);
 //
 // and, as foreign members of the collection (RFC 7946 §6.1), "name" (the plan's), "caution",
-// "totals" (Totals) and "settings" (the settings checked under). Numbers follow numjson (NaN
+// "totals" (Totals), "settings" (the settings checked under) and "notes" (Check.Notes). Numbers follow numjson (NaN
 // as null).
 func WriteGeoJSON(w io.Writer, c *Check) error {
 	fc := gjCollection{Type: "FeatureCollection", Name: c.Plan.Name, Caution: c.Caution, Totals: c.Totals,
-		Settings: c.Plan.Settings, Features: []gjFeature{}}
+		Settings: c.Plan.Settings, Notes: c.Notes, Features: []gjFeature{}}
 	for li := range c.Lines {
 		l := &c.Lines[li]
 		ls := make(orb.LineString, len(l.Samples.Lon))

@@ -43,7 +43,7 @@ func encodeFixture() *Check {
 		return Samples{Lon: lon, Lat: lat, Leg: make([]int, n), DistanceKm: col(0), DistanceNmi: col(0.1), TimeH: col(0.2),
 			ExpectedDepthM: depth, DepthSource: src, UncertaintyM: col(50), ObservedDepthM: col(3001), PredictedDepthM: col(3002),
 			ResidualDepthM: col(-1), AgeMa: col(10), SlopeDeg: col(1), SwathWidthM: col(9000), SoundSpeedMS: col(1500),
-			TwoWayTimeS: col(4), MaxPingRateHz: col(0.25), SoundingSpacingM: col(16)}
+			TwoWayTimeS: col(4), TwoWayTimeOuterS: col(5), MaxPingRateHz: col(0.25), SoundingSpacingM: col(16)}
 	}
 	p := Plan{Name: "Fixture, \"two lines\"", Lines: []Line{
 		{Name: "A", Waypoints: []geo.Waypoint{{Lon: -30.5, Lat: 10.25, Name: "A1"}, {Lon: -30, Lat: 10.5, Name: "A2"}}},
