@@ -52,9 +52,23 @@ func Write(w io.Writer, c *Check, f Format) error {
 }
 
 // WriteJSON writes c as JSON under the json tags of Check, numbers by numjson's rule (seven
-// significant digits; NaN, meaning no value, as null), followed by a newline.
+// significant digits; NaN, meaning no value, as null), followed by a newline. Lists the check
+// left empty (no transits for one line, no hazards) are written [] rather than null.
 func WriteJSON(w io.Writer, c *Check) error {
-	b, err := numjson.Marshal(c)
+	cc := *c
+	if cc.Lines == nil {
+		cc.Lines = []LineResult{}
+	}
+	if cc.Transits == nil {
+		cc.Transits = []Transit{}
+	}
+	if cc.Hazards == nil {
+		cc.Hazards = []Hazard{}
+	}
+	if cc.Gaps == nil {
+		cc.Gaps = []Gap{}
+	}
+	b, err := numjson.Marshal(&cc)
 	if err != nil {
 		return err
 	}

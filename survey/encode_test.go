@@ -314,3 +314,25 @@ func TestWriteUnknownFormat(t *testing.T) {
 		t.Fatal("an unknown format must fail")
 	}
 }
+
+// Lists a check leaves empty are [] in JSON, not null.
+func TestWriteJSONEmptyLists(t *testing.T) {
+	c := encodeFixture()
+	c.Hazards, c.Transits, c.Gaps = nil, nil, nil
+	var buf bytes.Buffer
+	if err := WriteJSON(&buf, c); err != nil {
+		t.Fatal(err)
+	}
+	for _, k := range []string{`"transits":[]`, `"hazards":[]`, `"coverage_gaps":[]`} {
+		if !strings.Contains(buf.String(), k) {
+			t.Errorf("want %s in %s", k, trunc(buf.String()))
+		}
+	}
+}
+
+func trunc(s string) string {
+	if len(s) > 300 {
+		return s[:300] + "…"
+	}
+	return s
+}
