@@ -192,6 +192,16 @@ func TestCheckPlanFlagsSeamountChain(t *testing.T) {
 					l.UncertaintyM[i], l.SoundSpeedMS[i], l.MaxPingRateHz[i], l.SlopeDeg[i])
 			}
 		}
+		// The acoustics follow the expected depth (default 120° swath, transducer at the surface):
+		// width 2·d·tan 60°, nadir echo after 2d/c̄, one ping per outer-beam echo.
+		for i := range l.Lon {
+			d := l.ExpectedDepthM[i]
+			if math.Abs(l.SwathWidthM[i]-2*d*math.Sqrt(3)) > 1e-6*d || math.Abs(l.TwoWayTimeS[i]*l.SoundSpeedMS[i]/2-d) > 1e-6*d ||
+				math.Abs(l.MaxPingRateHz[i]*l.TwoWayTimeOuterS[i]-1) > 1e-12 || math.Abs(l.TwoWayTimeOuterS[i]-2*l.TwoWayTimeS[i]) > 1e-9 {
+				t.Fatalf("sample %d: depth %g, swath %g, c %g, two-way %g / %g s, ping %g Hz", i, d, l.SwathWidthM[i],
+					l.SoundSpeedMS[i], l.TwoWayTimeS[i], l.TwoWayTimeOuterS[i], l.MaxPingRateHz[i])
+			}
+		}
 		if chk.Caution != Caution || chk.Totals.Hazards != len(chk.Hazards) {
 			t.Errorf("caution %q, totals %+v", chk.Caution, chk.Totals)
 		}
@@ -303,11 +313,12 @@ func TestCheckPlanCoverageGaps(t *testing.T) {
 
 func TestCheckPlanProgressAndTotals(t *testing.T) {
 	s := planService(t, Limits{})
+	cold := 1.0 // below the 2 °C of Mackenzie's fit: noted
 	p := survey.Plan{Name: "three", Lines: []survey.Line{
 		{Waypoints: []geo.Waypoint{wp(-140, -30), wp(-139, -30)}},
 		{Waypoints: []geo.Waypoint{wp(-139, -30.1), wp(-140, -30.1)}},
 		{Waypoints: []geo.Waypoint{wp(-140, -30.2), wp(-139, -30.2), wp(-139, -30.5)}},
-	}, Settings: survey.Settings{Dataset: demobasin.DatasetID, SpeedTransitKn: 12}}
+	}, Settings: survey.Settings{Dataset: demobasin.DatasetID, SpeedTransitKn: 12, WaterTemperatureC: &cold}}
 	var got []float64
 	chk, err := s.CheckPlan(context.Background(), p, func(f float64) { got = append(got, f) })
 	if err != nil {
@@ -328,6 +339,9 @@ func TestCheckPlanProgressAndTotals(t *testing.T) {
 	if math.Abs(tt.LengthKm-km) > 1e-9 || math.Abs(tt.TimeInTransitH-h) > 1e-12 || math.Abs(tt.AreaKm2-area) > 1e-9 ||
 		math.Abs(tt.TimeTotalH-(tt.TimeOnLineH+tt.TimeInTransitH)) > 1e-12 || len(chk.Lines[2].Legs) != 2 {
 		t.Errorf("totals %+v", tt)
+	}
+	if !strings.Contains(strings.Join(chk.Notes, " "), "1 °C") {
+		t.Errorf("notes %q do not say the temperature is outside Mackenzie's range", chk.Notes)
 	}
 	// Defaults filled in: 8 kn on line (survey.DefaultSpeedOnLineKn).
 	if chk.Plan.Settings.SpeedOnLineKn != survey.DefaultSpeedOnLineKn || math.Abs(tt.TimeOnLineH-tt.LengthNmi/8) > 1e-9 {
@@ -413,5 +427,56 @@ func TestResidualScatter(t *testing.T) {
 		if math.Abs(got[c.i]-c.want) > 1e-9 {
 			t.Errorf("scatter at %g km: %g, want %g", dist[c.i], got[c.i], c.want)
 		}
+	}
+}
+
+// The slope of a plane is its angle: z = 4000 + k·x + k·y (x, y metres east and north, k = 0.1)
+// rises at atan(k·√2) = 8.0495° (worked by hand). Built on a 0.1° node grid around the equator
+// with metres per degree at the equator, so the plane is exact on the equator row; off it the
+// degree of longitude shortens by cos φ (under 2e-6 at 0.1°), so the tolerance is 1e-3°.
+// A global grid with a north–south plane gives atan(k) = 5.7106° across the antimeridian.
+func TestSlopeSampler(t *testing.T) {
+	const k = 0.1
+	mLat, mLon := survey.MetresPerDegree(0)
+	plane := geo.NewGrid(21, 21, -1, 1, 0.1, 0.1, geo.Node)
+	for r := range plane.NY {
+		for c := range plane.NX {
+			plane.Set(c, r, float32(4000+k*plane.Lon(c)*mLon+k*plane.Lat(r)*mLat))
+		}
+	}
+	global := geo.NewGrid(360, 21, -180, 1, 1, 0.1, geo.Node)
+	for r := range global.NY {
+		for c := range global.NX {
+			global.Set(c, r, float32(4000+k*global.Lat(r)*mLat))
+		}
+	}
+	holed := plane.Clone()
+	for _, cr := range [][2]int{{10, 10}, {11, 10}, {10, 11}, {11, 11}} {
+		holed.Set(cr[0], cr[1], float32(math.NaN()))
+	}
+	want2 := math.Atan(k*math.Sqrt2) * 180 / math.Pi
+	want1 := math.Atan(k) * 180 / math.Pi
+	cases := []struct {
+		name     string
+		g        *geo.Grid
+		lon, lat float64
+		want     float64 // NaN: no slope
+	}{
+		{"plane at a node", plane, 0, 0, want2},
+		{"plane inside a cell", plane, 0.537, -0.21, want2},
+		{"plane at the edge: no neighbours", plane, -1, 0, math.NaN()},
+		{"off the grid", plane, 3, 0, math.NaN()},
+		{"no data around", holed, 0.05, 0.05, math.NaN()},
+		{"global, across the antimeridian", global, 179.5, 0, want1},
+		{"global, west of it", global, -179.6, 0.03, want1},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			s := newSlopeSampler(c.g)
+			got := s.at(c.lon, c.lat)
+			if math.IsNaN(c.want) != math.IsNaN(got) || math.Abs(got-c.want) > 1e-3 {
+				t.Errorf("slope %g°, want %g°", got, c.want)
+			}
+		})
 	}
 }

@@ -227,7 +227,15 @@ func TestHazardRuns(t *testing.T) {
 			}
 		})
 	}
-	if n := len(LineHazards(3, "L", s, st)); n != 6 {
-		t.Errorf("LineHazards: %d, want 6 (1 no data + 2 shallow + 1 seamount + 2 slope)", n)
+	// 1 no data + 2 shallow + 1 seamount + 2 slope, in order of their first sample; the three
+	// starting at sample 1 in the order shallow, seamount, slope.
+	all := LineHazards(3, "L", s, st)
+	var kinds []string
+	for _, h := range all {
+		kinds = append(kinds, h.Kind)
+	}
+	want := []string{HazardShallow, HazardSeamount, HazardSlope, HazardNoData, HazardShallow, HazardSlope}
+	if strings.Join(kinds, ",") != strings.Join(want, ",") {
+		t.Errorf("LineHazards kinds %v, want %v", kinds, want)
 	}
 }

@@ -1,8 +1,10 @@
 package survey
 
 import (
+	"cmp"
 	"fmt"
 	"math"
+	"slices"
 )
 
 // ShallowHazards are the stretches of a line whose expected depth (m, positive down) is
@@ -68,14 +70,17 @@ func NoDataHazards(line int, name string, s *Samples) []Hazard {
 		})
 }
 
-// LineHazards are all the hazards of one line under settings st, by kind (no data, shallower
-// than the safety depth, above the prediction, steep slope), each kind in along-track order.
+// LineHazards are all the hazards of one line under settings st (no data, shallower than the
+// safety depth, above the prediction, steep slope) in along-track order of their first sample;
+// hazards starting at the same sample keep that order of kinds.
 func LineHazards(line int, name string, s *Samples, st Settings) []Hazard {
 	var out []Hazard
 	out = append(out, NoDataHazards(line, name, s)...)
 	out = append(out, ShallowHazards(line, name, s, st.SafetyDepthM)...)
 	out = append(out, SeamountHazards(line, name, s, st.SeamountM)...)
-	return append(out, SlopeHazards(line, name, s, st.MaxSlopeDeg)...)
+	out = append(out, SlopeHazards(line, name, s, st.MaxSlopeDeg)...)
+	slices.SortStableFunc(out, func(a, b Hazard) int { return cmp.Compare(a.FromSample, b.FromSample) })
+	return out
 }
 
 // hazardRuns merges consecutive flagged samples of s into one Hazard each: FromSample..ToSample,
