@@ -108,16 +108,19 @@ func layout(c *survey.Check, o Options) (*doc, error) {
 func (d *doc) drawPage(dc draw.Canvas, i int) {
 	x0, x1 := margin, d.w-margin
 	y := d.h - margin
-	dc.FillText(style(sansBold, titleSize, black), vg.Point{X: x0, Y: y}, d.o.Title)
 	gen := style(sans, bodySize, grey)
 	gen.XAlign = draw.XRight
-	dc.FillText(gen, vg.Point{X: x1, Y: y}, "Generated "+d.o.Provenance.Generated.Format("2006-01-02 15:04 UTC"))
+	genText := "Generated " + d.o.Provenance.Generated.Format("2006-01-02 15:04 UTC")
+	dc.FillText(gen, vg.Point{X: x1, Y: y}, genText)
+	title := style(sansBold, titleSize, black)
+	dc.FillText(title, vg.Point{X: x0, Y: y}, fit(title, d.o.Title, x1-x0-gen.Width(genText)-12))
 	y -= titleSize + 4
 	name := d.c.Plan.Name
 	if name == "" {
 		name = "(unnamed plan)"
 	}
-	dc.FillText(style(sans, headSize, black), vg.Point{X: x0, Y: y}, "Plan: "+name)
+	planSt := style(sans, headSize, black)
+	dc.FillText(planSt, vg.Point{X: x0, Y: y}, fit(planSt, "Plan: "+name, x1-x0))
 	y -= 14 + 8
 
 	// The caution, boxed, on every page.

@@ -418,3 +418,30 @@ func TestStepTicks(t *testing.T) {
 		})
 	}
 }
+
+func TestConcurrentRenderingsAgree(t *testing.T) {
+	// The PDF library's package defaults are set under a lock; renderings in parallel must give
+	// the same bytes as one alone (run with -race to check the lock too).
+	c := syntheticCheck(2, 100)
+	want := render(t, c, testOptions())
+	got := make([][]byte, 4)
+	done := make(chan int)
+	for i := range got {
+		go func() {
+			var buf bytes.Buffer
+			if err := Plan(&buf, c, testOptions()); err != nil {
+				t.Error(err)
+			}
+			got[i] = buf.Bytes()
+			done <- i
+		}()
+	}
+	for range got {
+		<-done
+	}
+	for i, g := range got {
+		if !bytes.Equal(g, want) {
+			t.Errorf("rendering %d differs", i)
+		}
+	}
+}
