@@ -361,10 +361,10 @@ func writeCheckTable(w io.Writer, c *survey.Check) error {
 		for k, lg := range l.Legs {
 			from, to := lg.FromName, lg.ToName
 			if from == "" {
-				from = fmt.Sprintf("%s", position(lg.FromLat, lg.FromLon))
+				from = position(lg.FromLat, lg.FromLon)
 			}
 			if to == "" {
-				to = fmt.Sprintf("%s", position(lg.ToLat, lg.ToLon))
+				to = position(lg.ToLat, lg.ToLon)
 			}
 			fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", lineLabel(i, l.Name), k+1, from, to,
 				num(lg.LengthKm, 2), num(lg.LengthNmi, 2), num(lg.AzimuthDeg, 1), num(lg.TimeH, 2),
