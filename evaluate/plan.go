@@ -82,7 +82,7 @@ func (s *Service) CheckPlan(ctx context.Context, p survey.Plan, progress func(fr
 		}
 		n := 1
 		for _, lg := range legs[i] {
-			n += int(min(math.Ceil(lg.LengthKm/spacingKm), math.MaxInt32))
+			n += int(min(math.Ceil(lg.LengthKm*1000/(spacingKm*1000)), math.MaxInt32)) // as geo.Densify counts
 		}
 		if n > s.limits.MaxTrackSamples {
 			return nil, fault.Over("max_track_samples", int64(s.limits.MaxTrackSamples), int64(n), "settings.sample_spacing_km",
@@ -174,12 +174,14 @@ type planSampler struct {
 	crustKgM3   float64
 	mantle, wat float64
 	col         *survey.SoundColumn
+	swath       survey.Swath
 	notes       []string
 }
 
 func newPlanSampler(q *Query, st survey.Settings) (*planSampler, error) {
 	pr := q.Model.Params()
 	ps := &planSampler{q: q, st: st, tbl: thermal.TableFor(q.Model), col: survey.NewSoundColumn(st),
+		swath:  survey.NewSwath(st.TransducerM, st.SwathAngleDeg, st.SwathWidthM),
 		mantle: pr.MantleDensityKgM3, wat: pr.WaterDensityKgM3, crustKgM3: thermal.DefaultCrustDensityKgM3,
 		hasCrust: q.Dataset.Files.Crust != nil}
 	if q.Dataset.Files.Sediment != nil {
@@ -285,7 +287,7 @@ func (s *Service) checkLine(ctx context.Context, ps *planSampler, line survey.Li
 func (ps *planSampler) acoustics(sm *survey.Samples, i int) {
 	st := ps.st
 	d := sm.ExpectedDepthM[i]
-	sm.SwathWidthM[i] = survey.SwathWidthM(d, st.TransducerM, st.SwathAngleDeg, st.SwathWidthM)
+	sm.SwathWidthM[i] = ps.swath.WidthM(d)
 	h := d - st.TransducerM
 	if !(h > 0) {
 		sm.SoundSpeedMS[i], sm.TwoWayTimeS[i], sm.TwoWayTimeOuterS[i] = math.NaN(), math.NaN(), math.NaN()
@@ -295,7 +297,7 @@ func (ps *planSampler) acoustics(sm *survey.Samples, i int) {
 	c := ps.col.MeanSpeedMS(st.TransducerM, d)
 	sm.SoundSpeedMS[i] = c
 	sm.TwoWayTimeS[i] = survey.TwoWayTimeS(h, c)
-	sm.TwoWayTimeOuterS[i] = survey.TwoWayTimeS(survey.SlantRangeM(d, st.TransducerM, st.SwathAngleDeg, st.SwathWidthM), c)
+	sm.TwoWayTimeOuterS[i] = survey.TwoWayTimeS(ps.swath.SlantRangeM(d), c)
 	sm.MaxPingRateHz[i] = survey.MaxPingRateHz(sm.TwoWayTimeOuterS[i])
 	sm.SoundingSpacingM[i] = survey.SoundingSpacingM(st.SpeedOnLineKn, sm.MaxPingRateHz[i])
 }
@@ -618,9 +620,13 @@ func planGaps(ai int, a *survey.Samples, bi int, b *survey.Samples) []survey.Gap
 	var out []survey.Gap
 	open, start := false, 0.0
 	j := -1
+	mLat, mLon, mAt := 0.0, 0.0, math.NaN()
 	for i := range a.Lon {
 		lon, lat := a.Lon[i], a.Lat[i]
-		mLat, mLon := survey.MetresPerDegree(lat)
+		if lat != mAt {
+			mLat, mLon = survey.MetresPerDegree(lat)
+			mAt = lat
+		}
 		xy := func(k int) (float64, float64) {
 			dl := b.Lon[k] - lon
 			if dl > 180 || dl < -180 {
@@ -637,11 +643,20 @@ func planGaps(ai int, a *survey.Samples, bi int, b *survey.Samples) []survey.Gap
 				}
 			}
 		} else {
-			for j+1 < nb && d2(j+1) < d2(j) {
-				j++
+			dj := d2(j)
+			for j+1 < nb {
+				dn := d2(j + 1)
+				if !(dn < dj) {
+					break
+				}
+				j, dj = j+1, dn
 			}
-			for j > 0 && d2(j-1) < d2(j) {
-				j--
+			for j > 0 {
+				dp := d2(j - 1)
+				if !(dp < dj) {
+					break
+				}
+				j, dj = j-1, dp
 			}
 		}
 		sep, inside := math.Inf(1), false

@@ -33,7 +33,7 @@ func benchPlan() survey.Plan {
 // check (getrusage: user + system, all threads), which a machine shared with other work does not
 // inflate as it does wall time.
 func BenchmarkCheckPlan(b *testing.B) {
-	s := planService(b, Limits{})
+	s := checkService(b, Limits{})
 	ctx := context.Background()
 	p := benchPlan()
 	chk, err := s.CheckPlan(ctx, p, nil)

@@ -36,7 +36,7 @@ const planGlobeID = "plan-globe"
 // planGlobeSigma is the SYNTHETIC age uncertainty (Ma) of plan-globe.
 func planGlobeSigma(lon float64) float64 { return 3 + 2*math.Sin(lon*math.Pi/180) }
 
-func planService(t testing.TB, limits Limits) *Service {
+func checkService(t testing.TB, limits Limits) *Service {
 	t.Helper()
 	f := &planFixture
 	f.once.Do(func() {
@@ -87,7 +87,7 @@ func wp(lon, lat float64) geo.Waypoint { return geo.Waypoint{Lon: lon, Lat: lat}
 // lat2, lon2, s12 (m). Tolerance 1 mm and 1e-9°. The second and third lines are the same
 // geodesic, so the transit between them runs it backwards: its length is s12 too.
 func TestCheckPlanLegsGeodTest(t *testing.T) {
-	s := planService(t, Limits{})
+	s := checkService(t, Limits{})
 	cases := [][6]float64{
 		{35.60777, -139.44815, 111.098748429560326, -11.17491, -69.95921, 8935244.5604818305},
 		{-19.79938, -174.47484, 71.167275780171533, -11.99349, -154.35109, 2319004.8601169389},
@@ -135,7 +135,7 @@ func TestCheckPlanLegsGeodTest(t *testing.T) {
 // same GDH1 depth loaded with the same sediment, so the height above the prediction at a
 // summit is the cone's height (fracture-zone troughs aside); tolerance 5 % of the height.
 func TestCheckPlanFlagsSeamountChain(t *testing.T) {
-	s := planService(t, Limits{})
+	s := checkService(t, Limits{})
 	sm := demobasin.Seamounts()
 	first, last := sm[0], sm[len(sm)-1]
 	var cross []geo.Waypoint
@@ -214,7 +214,7 @@ func TestCheckPlanFlagsSeamountChain(t *testing.T) {
 // 365/(2·4) = 45.625 m/Myr and the depth 4060 m; the published coefficient is a rounded fit, so
 // the tolerance is 1 %.
 func TestCheckPlanUncertaintyFollowsAgeUncertainty(t *testing.T) {
-	s := planService(t, Limits{})
+	s := checkService(t, Limits{})
 	p := survey.Plan{Name: "equator", Lines: []survey.Line{{Waypoints: []geo.Waypoint{wp(-60, 0), wp(60, 0)}}},
 		Settings: survey.Settings{Dataset: planGlobeID, SpacingKm: 50}}
 	chk, err := s.CheckPlan(context.Background(), p, nil)
@@ -251,7 +251,7 @@ func TestCheckPlanUncertaintyFollowsAgeUncertainty(t *testing.T) {
 // a·20°·π/180 = 2,226,389.816 m (a = 6378137 m, WGS84; worked by hand), tolerance 1 mm; every
 // sample, on both sides of ±180°, has its age and prediction.
 func TestCheckPlanAntimeridian(t *testing.T) {
-	s := planService(t, Limits{})
+	s := checkService(t, Limits{})
 	p := survey.Plan{Name: "dateline", Lines: []survey.Line{{Waypoints: []geo.Waypoint{wp(170, 0), wp(-170, 0)}}},
 		Settings: survey.Settings{Dataset: planGlobeID, SpacingKm: 10}}
 	chk, err := s.CheckPlan(context.Background(), p, nil)
@@ -283,7 +283,7 @@ func TestCheckPlanAntimeridian(t *testing.T) {
 // separation (gdal.WGS84, written out here) less 10 km, tolerance 5 m (the separation is taken
 // in a local plane). Lines 0.08° apart (about 7.4 km) leave no gap.
 func TestCheckPlanCoverageGaps(t *testing.T) {
-	s := planService(t, Limits{})
+	s := checkService(t, Limits{})
 	plan := func(dLon float64) survey.Plan {
 		return survey.Plan{Name: "pair", Lines: []survey.Line{
 			{Waypoints: []geo.Waypoint{wp(-135, -35), wp(-135, -33)}},
@@ -312,7 +312,7 @@ func TestCheckPlanCoverageGaps(t *testing.T) {
 }
 
 func TestCheckPlanProgressAndTotals(t *testing.T) {
-	s := planService(t, Limits{})
+	s := checkService(t, Limits{})
 	cold := 1.0 // below the 2 °C of Mackenzie's fit: noted
 	p := survey.Plan{Name: "three", Lines: []survey.Line{
 		{Waypoints: []geo.Waypoint{wp(-140, -30), wp(-139, -30)}},
@@ -351,7 +351,7 @@ func TestCheckPlanProgressAndTotals(t *testing.T) {
 
 // Bad plans are faults naming the field.
 func TestCheckPlanFaults(t *testing.T) {
-	s := planService(t, Limits{MaxPlanLines: 2, MaxPlanSamples: 1000})
+	s := checkService(t, Limits{MaxPlanLines: 2, MaxPlanSamples: 1000})
 	line := survey.Line{Waypoints: []geo.Waypoint{wp(-140, -30), wp(-139, -30)}}
 	base := func() survey.Plan {
 		return survey.Plan{Name: "f", Lines: []survey.Line{line}, Settings: survey.Settings{Dataset: demobasin.DatasetID}}

@@ -41,7 +41,7 @@ type Limits struct {
 	MaxPlanLines int
 	// MaxPlanSamples bounds the samples of all the lines of one plan checked together
 	// ("max_plan_samples"), as MaxTrackSamples bounds one track's: the check holds every
-	// sample's values, so this bounds its memory (about 300 bytes a sample).
+	// sample's values, so this bounds its memory (about 200 bytes a sample).
 	MaxPlanSamples int
 }
 
@@ -58,9 +58,9 @@ var DefaultLimits = Limits{
 	MaxStatisticsCells: 200_000_000,
 	// 4 G cells: a 15-arc-second global grid (86400 × 43200 = 3.7 G).
 	MaxExportCells: 4_000_000_000,
-	// 200 lines and 250,000 samples: 25,000 km at 100 m spacing, about 75 MB of answer.
+	// 200 lines and 500,000 samples: 50,000 km at 100 m spacing.
 	MaxPlanLines:   200,
-	MaxPlanSamples: 250_000,
+	MaxPlanSamples: 500_000,
 }
 
 // WithDefaults returns l with every zero field set to DefaultLimits' value.

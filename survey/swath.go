@@ -27,16 +27,43 @@ func KnotsToMS(kn float64) float64 { return kn * MetresPerNauticalMile / 3600 }
 // width (fixedWidthM > 0, angleDeg 0) it is fixedWidthM. NaN for a NaN depth, 0 when the
 // seafloor is not below the transducer. (Plane geometry of the beam fan, straight rays.)
 func SwathWidthM(depthM, transducerM, angleDeg, fixedWidthM float64) float64 {
-	h := depthM - transducerM
+	return NewSwath(transducerM, angleDeg, fixedWidthM).WidthM(depthM)
+}
+
+// Swath is a swath geometry (transducer depth m, total opening angle degrees or a fixed width m,
+// as SwathWidthM takes them) with its trigonometry done once, for many depths.
+type Swath struct {
+	transducerM, fixedWidthM float64
+	tanHalf, cosHalf         float64
+}
+
+// NewSwath prepares the swath of SwathWidthM's arguments.
+func NewSwath(transducerM, angleDeg, fixedWidthM float64) Swath {
+	half := angleDeg / 2 * math.Pi / 180
+	return Swath{transducerM: transducerM, fixedWidthM: fixedWidthM, tanHalf: math.Tan(half), cosHalf: math.Cos(half)}
+}
+
+// WidthM is SwathWidthM at depthM.
+func (w Swath) WidthM(depthM float64) float64 {
+	h := depthM - w.transducerM
 	switch {
 	case math.IsNaN(h):
 		return math.NaN()
-	case fixedWidthM > 0:
-		return fixedWidthM
+	case w.fixedWidthM > 0:
+		return w.fixedWidthM
 	case h <= 0:
 		return 0
 	}
-	return 2 * h * math.Tan(angleDeg/2*math.Pi/180)
+	return 2 * h * w.tanHalf
+}
+
+// SlantRangeM is SlantRangeM at depthM.
+func (w Swath) SlantRangeM(depthM float64) float64 {
+	h := depthM - w.transducerM
+	if w.fixedWidthM > 0 {
+		return math.Hypot(h, w.fixedWidthM/2)
+	}
+	return h / w.cosHalf
 }
 
 // LineSpacingM is the distance (m) between adjacent parallel lines for which swaths of width
@@ -62,11 +89,7 @@ func CoverageGapM(separationM, widthAM, widthBM float64) float64 {
 // outer beam: (depthM − transducerM)/cos(angleDeg/2) for a total opening angle, or
 // √(h² + (fixedWidthM/2)²) for a fixed swath width, h = depthM − transducerM.
 func SlantRangeM(depthM, transducerM, angleDeg, fixedWidthM float64) float64 {
-	h := depthM - transducerM
-	if fixedWidthM > 0 {
-		return math.Hypot(h, fixedWidthM/2)
-	}
-	return h / math.Cos(angleDeg/2*math.Pi/180)
+	return NewSwath(transducerM, angleDeg, fixedWidthM).SlantRangeM(depthM)
 }
 
 // TwoWayTimeS is the two-way travel time (s) of sound over rangeM metres at mean speed
