@@ -20,9 +20,9 @@ import (
 	"ridgeflank/survey"
 )
 
-// storedPlanService is a Service over a fresh SQLite store holding one dataset, "quillon", whose age
+// planService is a Service over a fresh SQLite store holding one dataset, "quillon", whose age
 // grid is a placeholder file (plan storage never reads grid files).
-func storedPlanService(t *testing.T, lim Limits) (*Service, store.Store) {
+func planService(t *testing.T, lim Limits) (*Service, store.Store) {
 	t.Helper()
 	ctx := context.Background()
 	st := storetest.OpenStore(t, store.BackendSQLite, filepath.Join(t.TempDir(), "store"))
@@ -64,7 +64,7 @@ func withoutStoreFields(p survey.Plan) survey.Plan {
 
 func TestPlanCRUD(t *testing.T) {
 	ctx := context.Background()
-	s, st := storedPlanService(t, Limits{})
+	s, st := planService(t, Limits{})
 	in := planInput()
 	p, err := s.CreatePlan(ctx, in)
 	if err != nil {
@@ -141,7 +141,7 @@ func TestPlanCRUD(t *testing.T) {
 // Every refused plan is a fault naming the field at fault, and nothing is stored.
 func TestPlanRules(t *testing.T) {
 	ctx := context.Background()
-	s, _ := storedPlanService(t, Limits{MaxPlanLines: 2, MaxVertices: 3})
+	s, _ := planService(t, Limits{MaxPlanLines: 2, MaxVertices: 3})
 	mod := func(f func(p *survey.Plan)) survey.Plan {
 		p := planInput()
 		f(&p)
@@ -203,7 +203,7 @@ func TestPlanRules(t *testing.T) {
 		t.Fatalf("over-long page: %v, want store.ErrInvalid", err)
 	}
 	// The limits above are the service's: the default service accepts the plan the limits refused.
-	d, _ := storedPlanService(t, Limits{})
+	d, _ := planService(t, Limits{})
 	for _, i := range []int{7, 8} {
 		if _, err := d.CreatePlan(ctx, cases[i].plan); err != nil {
 			t.Fatalf("%s, under the default limits: %v", cases[i].name, err)
