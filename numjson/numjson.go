@@ -36,7 +36,78 @@ func appendFloat(b []byte, v float64) []byte {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return append(b, "null"...)
 	}
-	return strconv.AppendFloat(b, Round(v), 'g', -1, 64)
+	return appendRounded(b, v)
+}
+
+// appendRounded appends what strconv.AppendFloat(b, Round(v), 'g', -1, 64) appends, from one
+// correctly rounded conversion instead of three: the Digits significant digits of 'e' format,
+// trailing zeros dropped (the shortest form of the rounded value), written as 'g' with the
+// shortest form's rule (exponent form when the decimal exponent is below −4 or at least 6, as
+// strconv decides for the shortest form). v must be finite.
+func appendRounded(b []byte, v float64) []byte {
+	if a := math.Abs(v); a != 0 && a < 0x1p-1022 {
+		// Subnormal: fewer significant bits than Digits need, so the shortest form of the
+		// rounded value may have fewer digits; take the long way.
+		return strconv.AppendFloat(b, Round(v), 'g', -1, 64)
+	}
+	var tmp [32]byte
+	e := strconv.AppendFloat(tmp[:0], v, 'e', Digits-1, 64) // [-]d.dddddde±XX
+	if e[0] == '-' {
+		b = append(b, '-')
+		e = e[1:]
+	}
+	i := 0
+	for e[i] != 'e' {
+		i++
+	}
+	var dig [Digits]byte
+	nd := 0
+	for _, c := range e[:i] {
+		if c != '.' {
+			dig[nd] = c
+			nd++
+		}
+	}
+	for nd > 1 && dig[nd-1] == '0' {
+		nd--
+	}
+	x, _ := strconv.Atoi(string(e[i+1:]))
+	d := dig[:nd]
+	switch {
+	case x < -4 || x >= 6: // exponent form, at least two exponent digits, as strconv writes
+		b = append(b, d[0])
+		if nd > 1 {
+			b = append(b, '.')
+			b = append(b, d[1:]...)
+		}
+		b = append(b, 'e')
+		if x < 0 {
+			b = append(b, '-')
+			x = -x
+		} else {
+			b = append(b, '+')
+		}
+		if x < 10 {
+			b = append(b, '0')
+		}
+		return strconv.AppendInt(b, int64(x), 10)
+	case x < 0:
+		b = append(b, '0', '.')
+		for range -x - 1 {
+			b = append(b, '0')
+		}
+		return append(b, d...)
+	}
+	if nd <= x+1 {
+		b = append(b, d...)
+		for range x + 1 - nd {
+			b = append(b, '0')
+		}
+		return b
+	}
+	b = append(b, d[:x+1]...)
+	b = append(b, '.')
+	return append(b, d[x+1:]...)
 }
 
 // Floats converts a slice for encoding.
@@ -49,11 +120,14 @@ func Floats(v []float64) []Float {
 }
 
 // CSV formats v for a CSV cell: Round's digits, and "" for NaN and ±Inf.
-func CSV(v float64) string {
+func CSV(v float64) string { return string(AppendCSV(nil, v)) }
+
+// AppendCSV appends CSV(v) to b.
+func AppendCSV(b []byte, v float64) []byte {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return ""
+		return b
 	}
-	return strconv.FormatFloat(Round(v), 'g', -1, 64)
+	return appendRounded(b, v)
 }
 
 // Marshal encodes v as encoding/json would (struct fields in order under their json tags,
@@ -107,7 +181,7 @@ func (e *encoder) value(v reflect.Value) error {
 	}
 	switch v.Kind() {
 	case reflect.Float32, reflect.Float64:
-		e.buf.Write(appendFloat(nil, v.Float()))
+		e.buf.Write(appendFloat(e.buf.AvailableBuffer(), v.Float()))
 	case reflect.Bool:
 		e.buf.WriteString(strconv.FormatBool(v.Bool()))
 	case reflect.Int, reflect.Int8, reflect.Int16, reflect.Int32, reflect.Int64:
@@ -125,6 +199,17 @@ func (e *encoder) value(v reflect.Value) error {
 	case reflect.Slice:
 		if v.IsNil() {
 			e.buf.WriteString("null")
+			return nil
+		}
+		if t.Elem() == reflect.TypeFor[float64]() { // the columns of a check: no reflection per value
+			e.buf.WriteByte('[')
+			for i, x := range v.Interface().([]float64) {
+				if i > 0 {
+					e.buf.WriteByte(',')
+				}
+				e.buf.Write(appendFloat(e.buf.AvailableBuffer(), x))
+			}
+			e.buf.WriteByte(']')
 			return nil
 		}
 		if t.Elem().Kind() == reflect.Uint8 {

@@ -3,6 +3,8 @@ package numjson
 import (
 	"encoding/json"
 	"math"
+	"math/rand/v2"
+	"strconv"
 	"testing"
 	"time"
 )
@@ -103,5 +105,22 @@ func TestCSV(t *testing.T) {
 				t.Errorf("CSV(%v) = %q, want %q", tc.in, got, tc.want)
 			}
 		})
+	}
+}
+
+// appendRounded gives, byte for byte, the reference rule strconv.AppendFloat(Round(v), 'g', -1)
+// (strconv is the reference: correctly rounded decimal conversion).
+func TestAppendRoundedMatchesStrconv(t *testing.T) {
+	ref := func(v float64) string { return strconv.FormatFloat(Round(v), 'g', -1, 64) }
+	edge := []float64{0, math.Copysign(0, -1), 1, -1, 0.5, 1e-4, 1e-5, 9.9999995e-5, 123456, 999999.5, 1234567, 9999999.5,
+		1e21, 1e-300, 5e-324, math.MaxFloat64, -math.SmallestNonzeroFloat64, 1550.744, 0.1, 100, 1e6, 0.99999995, 12345678}
+	r := rand.New(rand.NewPCG(1, 2))
+	for range 200_000 {
+		edge = append(edge, (r.Float64()-0.5)*math.Pow(10, float64(r.IntN(40)-20)))
+	}
+	for _, v := range edge {
+		if got, want := string(appendRounded(nil, v)), ref(v); got != want {
+			t.Fatalf("appendRounded(%v) = %q, reference %q", v, got, want)
+		}
 	}
 }

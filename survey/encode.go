@@ -2,12 +2,13 @@ package survey
 
 import (
 	"bufio"
-	"encoding/csv"
 	"fmt"
 	"io"
 	"reflect"
 	"strconv"
 	"strings"
+	"unicode"
+	"unicode/utf8"
 
 	"github.com/paulmach/orb"
 
@@ -123,59 +124,97 @@ func CSVHeader() []string {
 // units are in the headers (_m metres positive down, _km, _nmi, _h hours, _deg degrees, _ma
 // million years, _m_s metres per second, _s seconds, _hz hertz).
 func WriteCSV(w io.Writer, c *Check) error {
-	bw := bufio.NewWriter(w)
-	cw := csv.NewWriter(bw)
+	bw := bufio.NewWriterSize(w, 64<<10)
 	cols := sampleColumns()
 	header := CSVHeader()
-	if err := cw.Write(header); err != nil {
-		return err
-	}
-	row := make([]string, len(header))
+	bw.WriteString(strings.Join(quoteAll(header), ",") + "\n")
+	var row []byte
 	first := true
 	for li := range c.Lines {
 		l := &c.Lines[li]
-		sv := reflect.ValueOf(&l.Samples).Elem()
-		n := len(l.Samples.Lon)
-		for i := range n {
-			row[0], row[1], row[2] = strconv.Itoa(li), l.Name, strconv.Itoa(i)
-			for k, col := range cols {
-				row[3+k] = cell(sv.Field(col.field), i)
+		cells := columnWriters(&l.Samples, cols)
+		name := csvField(l.Name)
+		for i := range l.Samples.Lon {
+			row = strconv.AppendInt(row[:0], int64(li), 10)
+			row = append(row, ',')
+			row = append(row, name...)
+			row = append(row, ',')
+			row = strconv.AppendInt(row, int64(i), 10)
+			for _, cell := range cells {
+				row = append(row, ',')
+				row = cell(row, i)
 			}
-			row[len(row)-1] = ""
+			row = append(row, ',')
 			if first {
-				row[len(row)-1] = c.Caution
+				row = append(row, csvField(c.Caution)...)
 				first = false
 			}
-			if err := cw.Write(row); err != nil {
+			row = append(row, '\n')
+			if _, err := bw.Write(row); err != nil {
 				return err
 			}
 		}
 	}
-	cw.Flush()
-	if err := cw.Error(); err != nil {
-		return err
-	}
 	return bw.Flush()
 }
 
-// cell formats element i of a column (a slice of float64, int or string); a column shorter than
-// the line's samples gives an empty cell.
-func cell(col reflect.Value, i int) string {
-	if i >= col.Len() {
-		return ""
+// cellWriter appends the CSV cell of sample i of one column.
+type cellWriter func(b []byte, i int) []byte
+
+// columnWriters returns a writer for each column of s (a column shorter than the samples gives
+// empty cells).
+func columnWriters(s *Samples, cols []sampleColumn) []cellWriter {
+	sv := reflect.ValueOf(s).Elem()
+	out := make([]cellWriter, len(cols))
+	for k, col := range cols {
+		switch x := sv.Field(col.field).Interface().(type) {
+		case []float64:
+			out[k] = func(b []byte, i int) []byte {
+				if i >= len(x) {
+					return b
+				}
+				return numjson.AppendCSV(b, x[i])
+			}
+		case []int:
+			out[k] = func(b []byte, i int) []byte {
+				if i >= len(x) {
+					return b
+				}
+				return strconv.AppendInt(b, int64(x[i]), 10)
+			}
+		case []string:
+			out[k] = func(b []byte, i int) []byte {
+				if i >= len(x) {
+					return b
+				}
+				return append(b, csvField(x[i])...)
+			}
+		default:
+			panic(fmt.Sprintf("survey: Samples column %s of type %T has no CSV rule", col.header, x))
+		}
 	}
-	v := col.Index(i)
-	switch v.Kind() {
-	case reflect.Float64, reflect.Float32:
-		return numjson.CSV(v.Float())
-	case reflect.Int, reflect.Int64, reflect.Int32:
-		return strconv.FormatInt(v.Int(), 10)
-	case reflect.String:
-		return v.String()
-	case reflect.Bool:
-		return strconv.FormatBool(v.Bool())
+	return out
+}
+
+// csvField quotes a cell as RFC 4180 §2 asks, by encoding/csv.Writer's rule: in double quotes,
+// inner quotes doubled, when it holds a comma, a quote, CR or LF, starts with white space, or is
+// `\.`. Records end in LF, as encoding/csv.Writer writes them.
+func csvField(s string) string {
+	if s == "" {
+		return s
 	}
-	return fmt.Sprint(v.Interface())
+	if r, _ := utf8.DecodeRuneInString(s); !(strings.ContainsAny(s, ",\"\r\n") || unicode.IsSpace(r) || s == `\.`) {
+		return s
+	}
+	return `"` + strings.ReplaceAll(s, `"`, `""`) + `"`
+}
+
+func quoteAll(fields []string) []string {
+	out := make([]string, len(fields))
+	for i, f := range fields {
+		out[i] = csvField(f)
+	}
+	return out
 }
 
 // GeoJSON members. Coordinates are longitude, latitude (RFC 7946 §3.1.1).

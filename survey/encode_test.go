@@ -336,3 +336,19 @@ func trunc(s string) string {
 	}
 	return s
 }
+
+// Cells are quoted exactly as encoding/csv.Writer quotes them (the reference writer of RFC 4180
+// records).
+func TestCSVFieldQuotingMatchesEncodingCSV(t *testing.T) {
+	for _, s := range []string{"", "QX-1", "a,b", `say "hi"`, " lead", "\tlead", "line\nbreak", "cr\r", `\.`, "\u00a0nbsp", "tail ", "ünïcode"} {
+		t.Run(fmt.Sprintf("%q", s), func(t *testing.T) {
+			var b bytes.Buffer
+			w := csv.NewWriter(&b)
+			_ = w.Write([]string{s})
+			w.Flush()
+			if want := strings.TrimSuffix(b.String(), "\n"); csvField(s) != want {
+				t.Errorf("csvField(%q) = %q, encoding/csv writes %q", s, csvField(s), want)
+			}
+		})
+	}
+}
