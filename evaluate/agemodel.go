@@ -4,7 +4,7 @@ import (
 	"context"
 	"errors"
 	"math"
-	"strconv"
+	"ridgeflank/numjson"
 
 	"ridgeflank/fault"
 	"ridgeflank/thermal"
@@ -100,18 +100,10 @@ func RidgePush(ctx context.Context, m thermal.Model, field string, ages []float6
 	return out, nil
 }
 
-// FormatNumber writes v for CSV and messages: rounded to 7 significant digits (more than any
-// model parameter or input grid carries) and then written in the shortest form that reads
-// back to the rounded value ('g' format: 1e-300, not 300 zeros); "" for NaN and infinities.
-func FormatNumber(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return ""
-	}
-	if v != 0 {
-		v, _ = strconv.ParseFloat(strconv.FormatFloat(v, 'g', 7, 64), 64)
-	}
-	return strconv.FormatFloat(v, 'g', -1, 64)
-}
+// FormatNumber writes v for CSV and messages: numjson.CSV's rule (7 significant digits, the
+// shortest form that reads back, "" for NaN and infinities), so the CLI and the API print the
+// same numbers.
+func FormatNumber(v float64) string { return numjson.CSV(v) }
 
 // CheckModel validates a custom parameter set: every bad field is named, in one
 // fault.InvalidModel whose Field is the first and whose Invalid lists them all.

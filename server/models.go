@@ -12,6 +12,7 @@ import (
 
 	"ridgeflank/evaluate"
 	"ridgeflank/fault"
+	"ridgeflank/numjson"
 	"ridgeflank/thermal"
 )
 
@@ -292,7 +293,7 @@ func writeCSVText(w http.ResponseWriter, filename, caution string, header []stri
 	return cw.Error()
 }
 
-func formatCSVFloat(v float64) string { return evaluate.FormatNumber(v) }
+func formatCSVFloat(v float64) string { return numjson.CSV(v) }
 
 // modelRidgePush answers the ridge push per unit ridge length (N/m) at ages=start:stop:step
 // (default 0:200:10) under the model: evaluate.RidgePush.

@@ -234,6 +234,14 @@ func (s *server) routes() http.Handler {
 		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Put("/regions/{regionId}", s.h(s.updateRegion))
 		r.With(s.require(RoleEditor)).Delete("/regions/{regionId}", s.h(s.deleteRegion))
 
+		r.Get("/plans", s.h(s.listPlans))
+		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Post("/plans", s.h(s.createPlan))
+		r.With(s.bodyLimit(s.limits.MaxBodyBytes)).Post("/plans/check", s.h(s.checkPlanPost)) // a read: no editor role
+		r.Get("/plans/{planId}", s.h(s.getPlan))
+		r.Get("/plans/{planId}/check", s.h(s.checkStoredPlan))
+		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Put("/plans/{planId}", s.h(s.updatePlan))
+		r.With(s.require(RoleEditor)).Delete("/plans/{planId}", s.h(s.deletePlan))
+
 		r.Get("/grids", s.h(s.listGrids))
 		r.With(s.require(RoleEditor), s.timeout(s.limits.UploadTimeout, ""), s.bodyLimit(s.limits.MaxUploadBytes)).Post("/grids", s.h(s.uploadGrid))
 		r.Get("/grids/{gridId}", s.h(s.getGrid))
