@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"os"
+	"slices"
 
 	"github.com/paulmach/orb"
 
@@ -194,6 +195,9 @@ func DemoPlan() survey.Plan {
 				Lat:  pt[1] + shift*PlanLineShiftLat,
 				Name: name + " " + ends[i],
 			})
+		}
+		if k%2 == 1 { // sailed back and forth, so each transit is a short step across
+			slices.Reverse(wps)
 		}
 		p.Lines = append(p.Lines, survey.Line{Name: name + " (" + Label + ")", Waypoints: wps})
 	}

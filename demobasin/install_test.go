@@ -204,8 +204,20 @@ func TestInstall(t *testing.T) {
 			}
 			// Parallel within 0.5° of bearing (the lines are shifted copies; at 21–25° S the
 			// shift turns them by far less); spacing 11 ± 1 km between neighbours.
-			if d := bearing(w[0], w[len(w)-1]) - bearing(first[0], first[len(first)-1]); math.Abs(d) > 0.5 {
+			// Every other line is sailed the other way (so transits are short steps across):
+			// compare its bearing taken from its end to its start.
+			from, to := w[0], w[len(w)-1]
+			if i%2 == 1 {
+				from, to = to, from
+			}
+			if d := bearing(from, to) - bearing(first[0], first[len(first)-1]); math.Abs(d) > 0.5 {
 				t.Errorf("line %d is %.2f° off parallel", i, d)
+			}
+			if i > 0 {
+				prev := p.Lines[i-1].Waypoints
+				if tr := DistanceKm(prev[len(prev)-1].Lon, prev[len(prev)-1].Lat, w[0].Lon, w[0].Lat); tr > 15 {
+					t.Errorf("transit from line %d to %d is %.1f km; want a short step across (< 15 km)", i-1, i, tr)
+				}
 			}
 			if i > 0 {
 				prev := p.Lines[i-1].Waypoints
