@@ -198,3 +198,16 @@ export function midpoint(a, b) {
   const r = line.Position(line.s13 / 2, Geodesic.LATITUDE | Geodesic.LONGITUDE);
   return { lat: r.lat2, lon: r.lon2 };
 }
+
+/**
+ * mapParts is what a line of waypoints ({lat, lon} or Leaflet's {lat, lng})
+ * looks like on the map: its WGS84 geodesics densified for the deepest zoom
+ * (see geodesicLeg) and split at the antimeridian (see splitForMap), as
+ * pieces of [lat, lon] for L.polyline (draw with smoothFactor 0, so Leaflet
+ * does not simplify the vertices away again).
+ */
+export function mapParts(waypoints, opts = {}) {
+  const wps = waypoints.map((p) => ({ lat: p.lat, lon: p.lon ?? p.lng }));
+  if (wps.length < 2) return wps.map((p) => [[p.lat, p.lon]]);
+  return splitForMap(geodesicPath(wps, opts), opts.zoom ?? 12);
+}
