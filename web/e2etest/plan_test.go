@@ -199,7 +199,7 @@ func TestPagePlanEditing(t *testing.T) {
 	}
 	b.shot("21-plan-line-drawn")
 
-	// vertexXY is the viewport centre of a handle (vertex or midpoint) on the map.
+	// handleXY is the viewport centre of a handle (vertex or midpoint) on the map.
 	handleXY := func(kind string, k int) (float64, float64) {
 		xy := eval[[]float64](b, fmt.Sprintf(`(() => { const h = window.ridgeflank.plans.planMap.handles.getLayers().find(l => l.%s === %d); const r = h._icon.getBoundingClientRect(); return [r.left + r.width / 2, r.top + r.height / 2]; })()`, kind, k))
 		return xy[0], xy[1]
@@ -287,7 +287,7 @@ func TestPagePlanEditing(t *testing.T) {
 	if hint := eval[string](b, `document.getElementById("plan-hint").textContent`); !strings.Contains(hint, "below 60") {
 		t.Errorf("a bad minute value gives the hint %q, want the reason (minutes below 60)", hint)
 	}
-	if lat := eval[float64](b, `window.ridgeflank.plans.plan.lines[0].waypoints[0].lat`); math.Abs(lat-(-(24+30.25/60))) > 1e-12 {
+	if lat := eval[float64](b, `window.ridgeflank.plans.plan.lines[0].waypoints[0].lat`); math.Abs(lat-(-(24 + 30.25/60))) > 1e-12 {
 		t.Errorf("a refused position changed the waypoint to %g", lat)
 	}
 	// The leg list gives the WGS84 length of the leg (PROJ), to the 0.1 km shown.
