@@ -84,6 +84,12 @@ type testServer struct {
 // temporary directory, with the synthetic demo basin when demo is true.
 func startServer(t *testing.T, demo bool) *testServer {
 	t.Helper()
+	return startServerWith(t, demo, nil)
+}
+
+// startServerWith is startServer with the handler wrapped by wrap (nil: as it is).
+func startServerWith(t *testing.T, demo bool, wrap func(http.Handler) http.Handler) *testServer {
+	t.Helper()
 	ctx := context.Background()
 	dataDir := t.TempDir()
 	st, err := store.Open(ctx, store.Config{DataDir: dataDir})
@@ -132,7 +138,11 @@ func startServer(t *testing.T, demo bool) *testServer {
 		Version: "e2e",
 		Config:  server.Config{RateLimitPerMinute: -1, UploadDir: filepath.Join(dataDir, "uploads")},
 	})
-	hs := httptest.NewServer(h)
+	var handler http.Handler = h
+	if wrap != nil {
+		handler = wrap(h)
+	}
+	hs := httptest.NewServer(handler)
 	t.Cleanup(hs.Close)
 	ts.URL = hs.URL
 	return ts

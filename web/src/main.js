@@ -222,6 +222,7 @@ async function start() {
   regions.fillParameters();
   redraw();
   await messages.guard(() => regions.load());
+  await plans.list().catch((err) => ($("plan-status").textContent = err.message));
   await land0;
 }
 

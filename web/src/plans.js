@@ -279,7 +279,11 @@ export class PlansPanel {
       }
       throw err;
     }
-    this.stored = body?.plans || [];
+    if (!body || typeof body !== "object" || !Array.isArray(body.plans)) {
+      $("plan-status").textContent = "This service does not store plans (no plan list at /api/plans).";
+      return;
+    }
+    this.stored = body.plans;
     const sel = $("plan-stored");
     sel.replaceChildren(...this.stored.map((p) => new Option(`${p.name || p.id} (v${p.version ?? "?"})`, p.id)));
     if (!this.stored.length) sel.add(new Option("(no stored plans)", ""));
