@@ -101,10 +101,11 @@ const screenDistanceJS = `(async (samples, wps) => {
 	return [worst, n, segs.length, worstStraight];
 })`
 
-// TestPageGeodesicLineMatchesSamples types a long survey line (two legs, about 4,000 km, one
-// waypoint in degrees and decimal minutes) and checks at several zooms that every position the
-// service samples along it (the trajectory query, WGS84 geodesics through PROJ) lies within one
-// screen pixel of the line the page draws, and that the straight Mercator legs would not.
+// TestPageGeodesicLineMatchesSamples types two long survey lines (two legs and 3,800 km in
+// degrees and decimal minutes; one leg of 2,900 km across the antimeridian) and checks at
+// several zooms that every position the service samples along them (the trajectory query,
+// WGS84 geodesics through PROJ) lies within one screen pixel of the line the page draws, and
+// that the straight Mercator legs would not.
 func TestPageGeodesicLineMatchesSamples(t *testing.T) {
 	requireBrowserAndPage(t)
 	ts := startServer(t, true)
@@ -121,41 +122,76 @@ func TestPageGeodesicLineMatchesSamples(t *testing.T) {
 			{fmt.Sprintf("typed waypoint %d latitude", i+1), wps[i][1], w[1], 1e-12, "degrees and decimal minutes, d + m/60"},
 		})
 	}
-	samples := trajectorySamples(t, ts, wps, 2)
 	g := gdal.WGS84()
-	total := 0.0
-	for i := 1; i < len(wps); i++ {
-		s, _, _ := g.Inverse(wps[i-1][1], wps[i-1][0], wps[i][1], wps[i][0])
-		total += s / 1000
+	// The second line: one leg of 2,900 km from 40°S 165°E at azimuth 70° (its end by PROJ's
+	// direct solution), across the antimeridian, typed in decimal degrees.
+	endLat, endLon := g.Direct(-40, 165, 70, 2900e3)
+	endLon = math.Remainder(endLon, 360)
+	b.typeLine([][2]string{{"-40", "165"}, {fmt.Sprintf("%.7f", endLat), fmt.Sprintf("%.7f", endLon)}})
+
+	lines := []struct {
+		name  string
+		index int
+		views []struct {
+			zoom int
+			at   float64 // where along the samples the view is centred (fraction); < 0: at the antimeridian
+		}
+	}{
+		{"two legs", 0, []struct {
+			zoom int
+			at   float64
+		}{{3, 0.5}, {4, 0.3}, {5, 0.7}, {6, 0.25}, {7, 0.5}, {9, 0.8}, {11, 0.4}, {12, 0.6}}},
+		{"2,900 km across the antimeridian", 1, []struct {
+			zoom int
+			at   float64
+		}{{3, 0.5}, {5, -1}, {6, 0.2}, {8, -1}, {10, 0.9}, {12, -1}}},
 	}
-	t.Logf("line of %.1f km (WGS84, PROJ), %d samples from the service", total, len(samples))
-	if len(samples) < 1000 {
-		t.Fatalf("the service sampled %d positions along %.0f km at 2 km spacing", len(samples), total)
-	}
-	samplesJSON, _ := json.Marshal(samples)
-	wpsJSON, _ := json.Marshal(wps)
-	views := []struct {
-		zoom int
-		at   float64 // where along the samples the view is centred (fraction)
-	}{{3, 0.5}, {4, 0.3}, {5, 0.7}, {6, 0.25}, {7, 0.5}, {9, 0.8}, {11, 0.4}, {12, 0.6}}
-	for _, v := range views {
-		t.Run(fmt.Sprintf("zoom %d", v.zoom), func(t *testing.T) {
-			c := samples[int(v.at*float64(len(samples)-1))]
-			b.do(5*time.Second, chromedp.Evaluate[chromedp.Void](fmt.Sprintf(`window.ridgeflank.map.setView([%g, %g], %d, {animate: false}); void 0`, c[1], c[0], v.zoom)))
-			r := eval[[]float64](b, fmt.Sprintf(`%s(%s, %s)`, screenDistanceJS, samplesJSON, wpsJSON))
-			worst, n, segs, straight := r[0], int(r[1]), int(r[2]), r[3]
-			t.Logf("zoom %d: %d samples in view, %d drawn segments, worst %.3f px from the drawn line; straight legs %.1f px", v.zoom, n, segs, worst, straight)
-			if n < 3 {
-				t.Fatalf("only %d samples in view", n)
+	for _, line := range lines {
+		wps := b.planWaypoints(line.index)
+		samples := trajectorySamples(t, ts, wps, 2)
+		total := 0.0
+		for i := 1; i < len(wps); i++ {
+			s, _, _ := g.Inverse(wps[i-1][1], wps[i-1][0], wps[i][1], wps[i][0])
+			total += s / 1000
+		}
+		t.Logf("%s: %.1f km (WGS84, PROJ), %d samples from the service", line.name, total, len(samples))
+		if len(samples) < 1000 {
+			t.Fatalf("the service sampled %d positions along %.0f km at 2 km spacing", len(samples), total)
+		}
+		crossing := -1 // the first sample after the line crosses ±180
+		for i := 1; i < len(samples); i++ {
+			if math.Abs(samples[i][0]-samples[i-1][0]) > 180 {
+				crossing = i
+				break
 			}
-			if worst > 1 {
-				t.Errorf("a sampled position lies %.3f px from the drawn line (want ≤ 1 px: the drawn line is the sampled line)", worst)
-			}
-			if v.zoom <= 5 && straight <= 1 {
-				t.Errorf("the straight Mercator legs are within %.3f px of the samples: the check would not see a straight drawing", straight)
-			}
-		})
-		b.shot(fmt.Sprintf("20-geodesic-line-zoom-%02d", v.zoom))
+		}
+		samplesJSON, _ := json.Marshal(samples)
+		wpsJSON, _ := json.Marshal(wps)
+		for _, v := range line.views {
+			t.Run(fmt.Sprintf("%s at zoom %d", line.name, v.zoom), func(t *testing.T) {
+				c := samples[int(math.Max(0, v.at)*float64(len(samples)-1))]
+				if v.at < 0 {
+					if crossing < 0 {
+						t.Fatalf("the samples do not cross the antimeridian")
+					}
+					c = samples[crossing-1] // the last sample east of 180°: the view reaches the map's edge
+				}
+				b.do(5*time.Second, chromedp.Evaluate[chromedp.Void](fmt.Sprintf(`window.ridgeflank.map.setView([%g, %g], %d, {animate: false}); void 0`, c[1], c[0], v.zoom)))
+				r := eval[[]float64](b, fmt.Sprintf(`%s(%s, %s)`, screenDistanceJS, samplesJSON, wpsJSON))
+				worst, n, segs, straight := r[0], int(r[1]), int(r[2]), r[3]
+				t.Logf("zoom %d: %d samples in view, %d drawn segments, worst %.3f px from the drawn line; straight legs %.1f px", v.zoom, n, segs, worst, straight)
+				if n < 3 {
+					t.Fatalf("only %d samples in view", n)
+				}
+				if worst > 1 {
+					t.Errorf("a sampled position lies %.3f px from the drawn line (want ≤ 1 px: the drawn line is the sampled line)", worst)
+				}
+				if v.zoom <= 5 && straight <= 1 {
+					t.Errorf("the straight Mercator legs are within %.3f px of the samples: the check would not see a straight drawing", straight)
+				}
+			})
+			b.shot(fmt.Sprintf("20-geodesic-line-%d-zoom-%02d", line.index, v.zoom))
+		}
 	}
 	b.checkNoProblems()
 }
