@@ -75,6 +75,7 @@ export class PlansPanel {
     $("plan-list-refresh").addEventListener("click", () => messages.guard(() => this.list()));
     $("plan-open").addEventListener("click", () => messages.guard(() => this.openStored($("plan-stored").value)));
     $("plan-save").addEventListener("click", () => messages.guard(() => this.save()));
+    $("plan-delete").addEventListener("click", () => messages.guard(() => this.remove()));
     $("plan-check").addEventListener("click", () => messages.guard(() => this.runCheck()));
     for (const f of ["csv", "geojson", "pdf"]) $(`plan-dl-${f}`).addEventListener("click", () => messages.guard(() => this.download(f)));
     $("plan-check-line").addEventListener("change", (e) => this.showCheckLine(Number(e.target.value)));
@@ -179,6 +180,7 @@ export class PlansPanel {
     $("plans").dataset.lines = String(this.plan.lines.length);
     $("plans").dataset.planId = this.plan.id;
     $("plans").dataset.version = String(this.plan.version || 0);
+    $("plan-delete").hidden = !this.plan.id;
     this.renderWaypoints();
   }
 
@@ -305,6 +307,13 @@ export class PlansPanel {
 
   open(plan) {
     this.plan = plan;
+    // A stored plan names its dataset: show it on the map when the page offers it.
+    const ds = plan.settings?.dataset;
+    const sel = $("dataset-select");
+    if (ds && ds !== state.datasetId && [...sel.options].some((o) => o.value === ds)) {
+      sel.value = ds;
+      sel.dispatchEvent(new Event("change"));
+    }
     this.selected = plan.lines.length ? 0 : -1;
     this.fillSettings(plan.settings);
     this.planMap.setLines(plan.lines, this.selected);
@@ -348,6 +357,19 @@ export class PlansPanel {
     this.renderLines();
     $("plan-status").textContent = `Saved ${saved.name} (version ${saved.version}).`;
     document.body.dataset.planSaved = String(Number(document.body.dataset.planSaved || 0) + 1);
+    await this.list().catch(() => {});
+  }
+
+  /** remove deletes the stored plan (DELETE with If-Match) after asking; the lines stay on the page, unsaved. */
+  async remove() {
+    if (!this.plan.id) return;
+    if (!window.confirm(`Delete the stored plan ${this.plan.name || this.plan.id}? Its lines stay on the page, unsaved.`)) return;
+    await request(`/api/plans/${encodeURIComponent(this.plan.id)}`, { method: "DELETE", write: true, headers: { "If-Match": this.plan.etag || `"${this.plan.version}"` }, what: `Deleting plan ${this.plan.name}` });
+    $("plan-status").textContent = `Deleted the stored plan ${this.plan.name || this.plan.id}; its lines are still here, unsaved.`;
+    this.plan.id = "";
+    this.plan.version = 0;
+    this.plan.etag = "";
+    this.renderLines();
     await this.list().catch(() => {});
   }
 
@@ -481,6 +503,11 @@ export class PlansPanel {
       const pos = (s.lon || []).map((lon, k) => [lon, s.lat[k]]);
       for (const part of splitAtAntimeridian(pos)) L.polyline(part, { color: "#ffffff", weight: 1, opacity: 0.9, dashArray: "2 4", smoothFactor: 0, interactive: false, className: "plan-sampled" }).addTo(this.checkLayer);
     }
+    for (const gp of this.check.coverage_gaps || []) {
+      const m = L.circleMarker([gp.lat, gp.lon], { radius: 5, color: "#000", weight: 1, dashArray: "2 2", fillColor: "#ffffff", fillOpacity: 0.9, className: "plan-gap" });
+      m.bindTooltip(`Coverage gap of ${fmt(gp.gap_m, 0, "m")} between lines ${gp.line_a + 1} and ${gp.line_b + 1} (${fmt(gp.separation_m, 0, "m")} apart here)`, { direction: "top" });
+      m.addTo(this.checkLayer);
+    }
     const colour = this.colours?.hazard || "#e07a40";
     for (const h of this.check.hazards || []) {
       const m = L.circleMarker([h.lat, h.lon], { radius: 6, color: "#000", weight: 1.5, fillColor: colour, fillOpacity: 0.95, className: "plan-hazard" });
@@ -505,6 +532,9 @@ export class PlansPanel {
     set("time", fmtDuration(p.timeH[k]));
     set("depth", p.expected[k] === null ? "no data" : `${fmt(p.expected[k], 0, "m")}${p.uncertainty[k] !== null ? ` ± ${fmt(p.uncertainty[k], 0, "m")}` : ""}`);
     set("source", p.source[k] || "none");
+    set("swath", fmt(p.swathM[k], 0, "m"));
+    set("sound", fmt(p.soundSpeed[k], 1, "m/s"));
+    set("soundings", fmt(p.soundingSpacingM[k], 1, "m"));
   }
 
   async download(f) {

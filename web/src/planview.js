@@ -122,6 +122,9 @@ export function lineProfile(check, i) {
     hazards,
     positions: d.map((_, k) => [num(s.lon?.[k]), num(s.lat?.[k])]),
     timeH: col("time_h"),
+    swathM: col("swath_width_m"),
+    soundSpeed: col("sound_speed_m_s"),
+    soundingSpacingM: col("sounding_spacing_m"),
     distanceNmi: col("distance_nmi"),
   };
 }
