@@ -87,6 +87,7 @@ export class PlanMap {
         zIndexOffset: 1000,
       });
       h.planVertex = k;
+      if (w.name) h.bindTooltip(w.name, { permanent: true, direction: "right", offset: [8, 0], className: "waypoint-tooltip" });
       h.on("drag", (e) => {
         const p = e.target.getLatLng();
         wps[k].lat = p.lat;
