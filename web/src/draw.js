@@ -55,7 +55,7 @@ export class Drawer {
 
     // A line is drawn as the WGS84 geodesics the service samples, not as
     // straight Mercator segments.
-    const geodesic = (latlngs) => (kind === "polygon" ? latlngs : mapParts(latlngs));
+    const geodesic = (latlngs) => (kind === "polygon" ? latlngs : mapParts(latlngs, { zoom: map.getMaxZoom() }));
     const refresh = () => {
       shape.setLatLngs(geodesic(pts));
       dots.clearLayers();

@@ -44,7 +44,7 @@ export class PlanMap {
   redraw() {
     this.layer.clearLayers();
     this.shapes = this.lines.map((line, i) => {
-      const shape = L.polyline(mapParts(line.waypoints), {
+      const shape = L.polyline(mapParts(line.waypoints, { zoom: this.map.getMaxZoom() }), {
         color: "#006d77",
         weight: i === this.selected ? 3.5 : 2.5,
         opacity: i === this.selected ? 1 : 0.75,
@@ -67,7 +67,7 @@ export class PlanMap {
 
   /** redrawLine draws line i again (during a drag: no handle rebuild). */
   redrawLine(i) {
-    this.shapes[i]?.setLatLngs(mapParts(this.lines[i].waypoints));
+    this.shapes[i]?.setLatLngs(mapParts(this.lines[i].waypoints, { zoom: this.map.getMaxZoom() }));
   }
 
   buildHandles() {
