@@ -150,10 +150,15 @@ export class PlansPanel {
     this.changed(this.selected);
   }
 
-  /** changed follows every edit: redraw the lists, mark the check stale. */
-  changed(i) {
+  /**
+   * changed follows every edit: redraw the lists (or, with table false, only
+   * the leg list, so a field being typed in keeps its focus), mark the check
+   * stale.
+   */
+  changed(i, { table = true } = {}) {
     if (i !== undefined && i >= 0) this.selected = i;
-    this.renderLines();
+    if (table) this.renderLines();
+    else this.renderLegs();
     if (this.check) $("plan-check-panel").dataset.stale = "true";
     document.body.dataset.planEdits = String(Number(document.body.dataset.planEdits || 0) + 1);
   }
@@ -226,11 +231,17 @@ export class PlansPanel {
           w.lat = la;
           w.lon = lo;
           w.name = name.value.trim();
+          lat.value = show(la, true);
+          lon.value = show(lo, false);
+          this.planMap.setLines(this.plan.lines, this.selected);
+          this.changed(this.selected, { table: false });
         } else {
           line.waypoints.push({ lat: la, lon: lo, name: name.value.trim() });
+          this.planMap.setLines(this.plan.lines, this.selected);
+          this.changed(this.selected);
+          // Typing a line: the next blank row is ready for the next waypoint.
+          body.querySelector("tr.new-row input.wp-lat")?.focus();
         }
-        this.planMap.setLines(this.plan.lines, this.selected);
-        this.changed(this.selected);
       };
       lat.addEventListener("change", apply);
       lon.addEventListener("change", apply);
@@ -238,7 +249,7 @@ export class PlansPanel {
         if (!w) return;
         w.name = name.value.trim();
         this.planMap.setLines(this.plan.lines, this.selected);
-        this.changed(this.selected);
+        this.changed(this.selected, { table: false });
       });
       const cell = el("td");
       if (w) {
@@ -260,7 +271,13 @@ export class PlansPanel {
     };
     line.waypoints.forEach((w, k) => body.append(row(w, k)));
     body.append(row(null, line.waypoints.length));
-    const legs = legsOf(line.waypoints);
+    this.renderLegs();
+  }
+
+  /** renderLegs lists the selected line's legs: WGS84 length (km, nmi) and initial azimuth. */
+  renderLegs() {
+    const line = this.plan.lines[this.selected];
+    const legs = line ? legsOf(line.waypoints) : [];
     const total = legs.reduce((s, l) => s + l.lengthKm, 0);
     $("plan-line-legs").replaceChildren(
       ...legs.map((l) => el("li", {}, `${l.from + 1}→${l.to + 1}: ${fmt(l.lengthKm, 1, "km")} (${fmt(l.lengthNmi, 1, "nmi")}), ${fmt(l.azimuthDeg, 1)}°`)),
