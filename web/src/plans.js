@@ -426,6 +426,7 @@ export class PlansPanel {
   showCheck() {
     const c = this.check;
     $("plan-caution").textContent = c.caution || "Expected depths are model estimates and gridded data, not for navigation.";
+    $("plan-notes").replaceChildren(...(c.notes || []).map((n) => el("li", {}, n)));
     const sel = $("plan-check-line");
     sel.replaceChildren(...(c.lines || []).map((l, i) => new Option(l.name || `Line ${i + 1}`, String(i))));
     this.showTotals();
@@ -522,7 +523,7 @@ export class PlansPanel {
     }
     for (const gp of this.check.coverage_gaps || []) {
       const m = L.circleMarker([gp.lat, gp.lon], { radius: 5, color: "#000", weight: 1, dashArray: "2 2", fillColor: "#ffffff", fillOpacity: 0.9, className: "plan-gap" });
-      m.bindTooltip(`Coverage gap of ${fmt(gp.gap_m, 0, "m")} between lines ${gp.line_a + 1} and ${gp.line_b + 1} (${fmt(gp.separation_m, 0, "m")} apart here)`, { direction: "top" });
+      m.bindTooltip(`Coverage gap of ${fmt(gp.gap_m, 0, "m")}${Number.isFinite(gp.length_km) ? ` over ${fmt(gp.length_km, 1, "km")}` : ""} between lines ${gp.line_a + 1} and ${gp.line_b + 1} (${fmt(gp.separation_m, 0, "m")} apart here)`, { direction: "top" });
       m.addTo(this.checkLayer);
     }
     const colour = this.colours?.hazard || "#e07a40";
