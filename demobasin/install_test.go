@@ -7,6 +7,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 
@@ -17,6 +18,7 @@ import (
 	"ridgeflank/geo/gdal"
 	"ridgeflank/store"
 	_ "ridgeflank/store/sqlite"
+	"ridgeflank/survey"
 )
 
 func TestWriteFilesRoundTrip(t *testing.T) {
@@ -158,6 +160,64 @@ func TestInstall(t *testing.T) {
 			t.Fatalf("track %v does not cross the chain", w)
 		}
 	})
+	t.Run("plan: parallel lines across the chain", func(t *testing.T) {
+		row, err := st.GetPlan(ctx, PlanID)
+		if err != nil {
+			t.Fatal(err)
+		}
+		p, err := survey.FromStored(row)
+		if err != nil {
+			t.Fatal(err)
+		}
+		want := DemoPlan()
+		p.Version, p.CreatedAt, p.UpdatedAt = 0, nil, nil
+		if !reflect.DeepEqual(p, want) {
+			t.Fatalf("stored plan %+v\nwant %+v", p, want)
+		}
+		if err := p.Validate(0, 0); err != nil || p.Settings.Dataset != DatasetID {
+			t.Fatalf("demo plan invalid (%v) or on dataset %q", err, p.Settings.Dataset)
+		}
+		if !strings.Contains(p.Name, Label) || !strings.Contains(p.Description, Label) || len(p.Lines) != PlanLines {
+			t.Fatalf("plan %q (%q) with %d lines: want %d lines labelled %s", p.Name, p.Description, len(p.Lines), PlanLines, Label)
+		}
+		sm := Seamounts()
+		a, e := sm[0], sm[len(sm)-1]
+		side := func(w geo.Waypoint) float64 { return (e.Lon-a.Lon)*(w.Lat-a.Lat) - (e.Lat-a.Lat)*(w.Lon-a.Lon) }
+		// Initial great-circle bearing, degrees from north (the spherical initial-course
+		// formula of great-circle sailing; from memory).
+		bearing := func(from, to geo.Waypoint) float64 {
+			const rad = math.Pi / 180
+			y := math.Sin((to.Lon-from.Lon)*rad) * math.Cos(to.Lat*rad)
+			x := math.Cos(from.Lat*rad)*math.Sin(to.Lat*rad) - math.Sin(from.Lat*rad)*math.Cos(to.Lat*rad)*math.Cos((to.Lon-from.Lon)*rad)
+			return math.Atan2(y, x) / rad
+		}
+		first := p.Lines[0].Waypoints
+		for i, l := range p.Lines {
+			w := l.Waypoints
+			if side(w[0])*side(w[len(w)-1]) >= 0 {
+				t.Errorf("line %d %v does not cross the chain", i, w)
+			}
+			for _, pt := range w {
+				if pt.Lon < WestLon || pt.Lon > EastLon || pt.Lat < SouthLat || pt.Lat > NorthLat || !strings.Contains(pt.Name, "QX-") {
+					t.Errorf("line %d waypoint %+v: outside the basin or unnamed", i, pt)
+				}
+			}
+			// Parallel within 0.5° of bearing (the lines are shifted copies; at 21–25° S the
+			// shift turns them by far less); spacing 11 ± 1 km between neighbours.
+			if d := bearing(w[0], w[len(w)-1]) - bearing(first[0], first[len(first)-1]); math.Abs(d) > 0.5 {
+				t.Errorf("line %d is %.2f° off parallel", i, d)
+			}
+			if i > 0 {
+				prev := p.Lines[i-1].Waypoints
+				if d := DistanceKm(prev[1].Lon, prev[1].Lat, w[1].Lon, w[1].Lat); math.Abs(d-11) > 1 {
+					t.Errorf("lines %d and %d are %.2f km apart at the chain, want 11 ± 1", i-1, i, d)
+				}
+			}
+		}
+		if m := p.Lines[PlanLines/2].Waypoints[1]; m.Lon != sm[2].Lon || m.Lat != sm[2].Lat {
+			t.Errorf("middle line crosses the chain at %+v, want Quillon Seamount C", m)
+		}
+	})
 	t.Run("idempotent", func(t *testing.T) {
 		id2, err := Install(ctx, st, b)
 		if err != nil {
@@ -169,6 +229,9 @@ func TestInstall(t *testing.T) {
 		}
 		if ds2.AgeGridID != ds.AgeGridID || ds2.Version != ds.Version {
 			t.Fatalf("second install changed the dataset: %+v vs %+v", ds2, ds)
+		}
+		if plans, err := st.ListPlans(ctx, store.Page{}); err != nil || len(plans) != 1 || plans[0].Version != 1 {
+			t.Fatalf("plans after two installs: %v, %v; want the one demo plan, unchanged", plans, err)
 		}
 		grids, err := st.ListGrids(ctx, store.GridFilter{})
 		if err != nil {

@@ -18,6 +18,10 @@ const (
 // RoleCrust is the role of a dataset's crustal thickness grid (an input, not a parameter).
 const RoleCrust = "crustal_thickness"
 
+// RoleAgeUncertainty is the role of a dataset's age-uncertainty grid (Ma, one standard
+// deviation; an input of survey plan checks, not a parameter).
+const RoleAgeUncertainty = "age_uncertainty"
+
 // Parameter describes one parameter a dataset can answer: its unit, what it needs, and whether
 // it is a model prediction (which carries the navigation caution).
 type Parameter struct {

@@ -37,6 +37,12 @@ type Limits struct {
 	// MaxExportCells bounds the cells of one exported file ("max_export_cells"); files
 	// larger than MaxAreaCells are written band by band, so this bounds time and disk.
 	MaxExportCells int64
+	// MaxPlanLines bounds the lines of one survey plan ("max_plan_lines").
+	MaxPlanLines int
+	// MaxPlanSamples bounds the samples of all the lines of one plan checked together
+	// ("max_plan_samples"), as MaxTrackSamples bounds one track's: the check holds every
+	// sample's values, so this bounds its memory (about 200 bytes a sample).
+	MaxPlanSamples int
 }
 
 // DefaultLimits are the limits used when a Limits field is zero.
@@ -52,6 +58,9 @@ var DefaultLimits = Limits{
 	MaxStatisticsCells: 200_000_000,
 	// 4 G cells: a 15-arc-second global grid (86400 × 43200 = 3.7 G).
 	MaxExportCells: 4_000_000_000,
+	// 200 lines and 500,000 samples: 50,000 km at 100 m spacing.
+	MaxPlanLines:   200,
+	MaxPlanSamples: 250_000,
 }
 
 // WithDefaults returns l with every zero field set to DefaultLimits' value.
@@ -61,7 +70,8 @@ func (l Limits) WithDefaults() Limits {
 		{&l.MaxPositions, &d.MaxPositions}, {&l.MaxVertices, &d.MaxVertices}, {&l.MaxAreaCells, &d.MaxAreaCells},
 		{&l.MaxInputCells, &d.MaxInputCells}, {&l.MaxTrackSamples, &d.MaxTrackSamples},
 		{&l.MaxParameters, &d.MaxParameters}, {&l.MaxTileZoom, &d.MaxTileZoom},
-		{&l.MaxStatisticsCells, &d.MaxStatisticsCells},
+		{&l.MaxStatisticsCells, &d.MaxStatisticsCells}, {&l.MaxPlanLines, &d.MaxPlanLines},
+		{&l.MaxPlanSamples, &d.MaxPlanSamples},
 	} {
 		if *f.v <= 0 {
 			*f.v = *f.dv
@@ -217,17 +227,25 @@ type Dataset struct {
 	// (Service.window); they are nil in the Dataset that Service.Dataset returns. Depth is the
 	// observed bathymetry in the sense DepthSense.
 	Age, Depth, Sediment, Crust *geo.Grid
-	DepthSense                  geo.VerticalSense
-	Refs                        []GridRef
+	// AgeUncertainty is a window of the age-uncertainty grid (Ma, one standard deviation),
+	// read only by the questions that use it (survey plan checks).
+	AgeUncertainty *geo.Grid
+	DepthSense     geo.VerticalSense
+	Refs           []GridRef
 	// From the catalogue rows (known without reading any grid file):
 	Bounds      orb.Bound // footprint of the age grid
 	HasDepth    bool
 	HasSediment bool
+	// AgeUncertaintyRef is the dataset's age-uncertainty grid (zero when it has none). It is
+	// not in Refs: only the questions that read it (survey plan checks) name it.
+	AgeUncertaintyRef GridRef
+	uncRow            *store.Grid
 }
 
 // DatasetFiles are a dataset's grid files (nil where it has none).
 type DatasetFiles struct {
 	Age, Depth, Sediment, Crust *raster.File
+	AgeUncertainty              *raster.File
 }
 
 // AgeHeader is the shape of the dataset's full-resolution age grid (no Data).
@@ -291,6 +309,13 @@ func (s *Service) Dataset(ctx context.Context, id string) (*Dataset, error) {
 			d.Files.Crust = f
 		}
 	}
+	if d.uncRow != nil {
+		f, err := s.gridFile(*d.uncRow)
+		if err != nil {
+			return nil, err
+		}
+		d.Files.AgeUncertainty = f
+	}
 	s.datasets.Store(id, cachedDataset{d, time.Now()})
 	return d, nil
 }
@@ -345,6 +370,14 @@ func (s *Service) datasetMeta(ctx context.Context, id string) (*Dataset, []store
 		case PSedimentThickness:
 			d.HasSediment = true
 		}
+	}
+	if row.AgeUncertaintyGridID != "" {
+		gr, err := s.st.GetGrid(ctx, row.AgeUncertaintyGridID)
+		if err != nil {
+			return nil, nil, fmt.Errorf("dataset %s: grid %s: %w", id, row.AgeUncertaintyGridID, err)
+		}
+		d.uncRow = &gr
+		d.AgeUncertaintyRef = GridRef{ID: gr.ID, Role: RoleAgeUncertainty, SHA256: gr.ContentHash}
 	}
 	return d, rows, nil
 }

@@ -18,12 +18,14 @@ const (
 	roleDepth
 	roleSed
 	roleCrust
+	// roleAgeUnc reads the age-uncertainty grid (Dataset.AgeUncertainty).
+	roleAgeUnc
 	// roleScan reads without keeping newly read blocks in the cache (a scan larger than the
 	// budget must not push out what other questions use).
 	roleScan
 )
 
-// window returns a copy of d whose Age, Depth, Sediment and Crust (those asked for in want and
+// window returns a copy of d whose Age, Depth, Sediment, Crust and AgeUncertainty (those asked for in want and
 // present) are read from its files for bound b: the age grid at level lvl (raster.File.Levels);
 // a grid on exactly the age grid's lattice and size at the same level, so the windows coincide
 // cell for cell; any other grid at the coarsest of its own levels no coarser than the age
@@ -31,7 +33,7 @@ const (
 // neighbours. This is the one place where a question chooses what to read.
 func (s *Service) window(ctx context.Context, d *Dataset, b orb.Bound, lvl int, want roles) (*Dataset, error) {
 	v := *d
-	v.Age, v.Depth, v.Sediment, v.Crust = nil, nil, nil, nil
+	v.Age, v.Depth, v.Sediment, v.Crust, v.AgeUncertainty = nil, nil, nil, nil, nil
 	age := d.Files.Age
 	read := func(f *raster.File, b orb.Bound, l int) (*geo.Grid, error) {
 		if want&roleScan != 0 {
@@ -72,7 +74,8 @@ func (s *Service) window(ctx context.Context, d *Dataset, b orb.Bound, lvl int, 
 		r   roles
 		f   *raster.File
 		dst **geo.Grid
-	}{{roleDepth, d.Files.Depth, &v.Depth}, {roleSed, d.Files.Sediment, &v.Sediment}, {roleCrust, d.Files.Crust, &v.Crust}} {
+	}{{roleDepth, d.Files.Depth, &v.Depth}, {roleSed, d.Files.Sediment, &v.Sediment}, {roleCrust, d.Files.Crust, &v.Crust},
+		{roleAgeUnc, d.Files.AgeUncertainty, &v.AgeUncertainty}} {
 		if want&c.r == 0 || c.f == nil {
 			continue
 		}

@@ -47,7 +47,17 @@ type Error struct {
 	Field string
 	Msg   string
 	Limit *Limit
-	Err   error // underlying cause, for errors.Is/As and logs
+	// Invalid names every bad field when a request has several (Field is then the first); the
+	// HTTP layer answers them as the problem's "invalid-params" list (RFC 9457 §3, its example
+	// extension member).
+	Invalid []Invalid
+	Err     error // underlying cause, for errors.Is/As and logs
+}
+
+// Invalid is one bad field of a request and why it is refused.
+type Invalid struct {
+	Field  string
+	Reason string
 }
 
 func (e *Error) Error() string { return e.Msg }

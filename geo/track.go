@@ -73,19 +73,9 @@ func lonAnswer(lon float64) float64 {
 // ParseTrack reads waypoints in the given format: "geojson", "gpx", "csv", or "" to recognise it
 // from the content (a first non-blank byte '{' means GeoJSON, '<' means GPX, anything else CSV).
 func ParseTrack(data []byte, format string, maxWaypoints int) ([]Waypoint, error) {
-	f := strings.ToLower(strings.TrimSpace(format))
-	if f == "" {
-		t := bytes.TrimLeft(bytes.TrimPrefix(data, []byte("\ufeff")), " \t\r\n")
-		switch {
-		case len(t) == 0:
-			return nil, trackErr("empty input")
-		case t[0] == '{':
-			f = "geojson"
-		case t[0] == '<':
-			f = "gpx"
-		default:
-			f = "csv"
-		}
+	f, err := trackFormat(data, format)
+	if err != nil {
+		return nil, err
 	}
 	switch f {
 	case "geojson", "json":
@@ -96,6 +86,25 @@ func ParseTrack(data []byte, format string, maxWaypoints int) ([]Waypoint, error
 		return ParseTrackCSV(data, maxWaypoints)
 	}
 	return nil, trackErr("unknown track format %q (want geojson, gpx or csv)", format)
+}
+
+// trackFormat is format lower-cased, or recognised from the content when "" (a first non-blank
+// byte '{' means GeoJSON, '<' GPX, anything else CSV).
+func trackFormat(data []byte, format string) (string, error) {
+	f := strings.ToLower(strings.TrimSpace(format))
+	if f != "" {
+		return f, nil
+	}
+	t := bytes.TrimLeft(bytes.TrimPrefix(data, []byte("\ufeff")), " \t\r\n")
+	switch {
+	case len(t) == 0:
+		return "", trackErr("empty input")
+	case t[0] == '{':
+		return "geojson", nil
+	case t[0] == '<':
+		return "gpx", nil
+	}
+	return "csv", nil
 }
 
 // ParseTrackGeoJSON reads waypoints from GeoJSON (RFC 7946): a LineString or MultiLineString
@@ -172,18 +181,16 @@ func ParseTrackGeoJSON(data []byte, maxWaypoints int) ([]Waypoint, error) {
 	}
 	var wps []Waypoint
 	for li, line := range lines {
-		for k, pos := range line {
-			where := fmt.Sprintf("position %d", k)
+		lw, err := lineWaypoints(line, func(k int) string {
 			if obj.Type == "MultiLineString" {
-				where = fmt.Sprintf("line %d position %d", li, k)
+				return fmt.Sprintf("line %d position %d", li, k)
 			}
-			if len(pos) < 2 {
-				return nil, trackErr("%s has %d number(s); a GeoJSON position needs longitude and latitude", where, len(pos))
-			}
-			if err := checkLonLat(pos[0], pos[1]); err != nil {
-				return nil, trackErr("%s: %v", where, err)
-			}
-			w := Waypoint{Lon: lonAnswer(pos[0]), Lat: pos[1]}
+			return fmt.Sprintf("position %d", k)
+		})
+		if err != nil {
+			return nil, err
+		}
+		for k, w := range lw {
 			if k == 0 && li > 0 && len(wps) > 0 && wps[len(wps)-1] == w {
 				continue
 			}
@@ -194,6 +201,22 @@ func ParseTrackGeoJSON(data []byte, maxWaypoints int) ([]Waypoint, error) {
 		}
 	}
 	return ValidateWaypoints(wps, maxWaypoints)
+}
+
+// lineWaypoints reads the positions of one GeoJSON line (altitudes ignored); where names
+// position k in errors.
+func lineWaypoints(line [][]float64, where func(k int) string) ([]Waypoint, error) {
+	out := make([]Waypoint, 0, len(line))
+	for k, pos := range line {
+		if len(pos) < 2 {
+			return nil, trackErr("%s has %d number(s); a GeoJSON position needs longitude and latitude", where(k), len(pos))
+		}
+		if err := checkLonLat(pos[0], pos[1]); err != nil {
+			return nil, trackErr("%s: %v", where(k), err)
+		}
+		out = append(out, Waypoint{Lon: lonAnswer(pos[0]), Lat: pos[1]})
+	}
+	return out, nil
 }
 
 func pointFeatures(feats []geoJSONObject, maxWaypoints int) ([]Waypoint, error) {

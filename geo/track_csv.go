@@ -123,6 +123,10 @@ func csvColumn(h string) string {
 		return "lat"
 	case "name", "waypoint", "wp", "label", "id":
 		return "name"
+	case "line", "lineid", "track", "trackid":
+		return "line"
+	case "linename", "trackname":
+		return "linename"
 	}
 	return ""
 }
@@ -133,12 +137,59 @@ func csvColumn(h string) string {
 // are ignored, case and a "_deg"/"(deg)" suffix do not matter. The delimiter is a comma, or a
 // semicolon or tab when the header has no comma. Lines starting with '#' and blank lines are
 // skipped. Values are decimal degrees or degrees-and-minutes as written at sea (see
-// ParseLatitude). maxWaypoints <= 0 means DefaultMaxWaypoints. Errors wrap ErrInvalidTrack and
-// name the line.
+// ParseLatitude). A line column (see ParseTracksCSV) is ignored here: all rows are one track.
+// maxWaypoints <= 0 means DefaultMaxWaypoints. Errors wrap ErrInvalidTrack and name the line.
 func ParseTrackCSV(data []byte, maxWaypoints int) ([]Waypoint, error) {
 	if maxWaypoints <= 0 {
 		maxWaypoints = DefaultMaxWaypoints
 	}
+	rows, err := parseCSVTrack(data, maxWaypoints, maxWaypoints)
+	if err != nil {
+		return nil, err
+	}
+	wps := make([]Waypoint, len(rows))
+	for i, r := range rows {
+		wps[i] = r.wp
+	}
+	return ValidateWaypoints(wps, maxWaypoints)
+}
+
+// ParseTracksCSV reads tracks from delimited text as ParseTrackCSV reads one, with an optional
+// line column (line, line_id, track or track_id) that splits the rows into tracks: a new track
+// starts wherever its value changes, and the value names the track unless a line_name (or
+// track_name) column gives the name. Without a line column the file is one track. Limits as
+// ParseTracks.
+func ParseTracksCSV(data []byte, maxTracks, maxWaypoints int) ([]Track, error) {
+	maxTracks, maxWaypoints = trackLimits(maxTracks, maxWaypoints)
+	rows, err := parseCSVTrack(data, maxTracks*maxWaypoints, maxWaypoints)
+	if err != nil {
+		return nil, err
+	}
+	var ts []Track
+	for i, r := range rows {
+		if i == 0 || r.line != rows[i-1].line {
+			name := r.lineName
+			if name == "" {
+				name = r.line
+			}
+			ts = append(ts, Track{Name: name})
+		}
+		t := &ts[len(ts)-1]
+		t.Waypoints = append(t.Waypoints, r.wp)
+	}
+	return validTracks(ts, maxTracks, maxWaypoints, "the CSV")
+}
+
+// csvRow is one waypoint row of a track CSV with its line key and line name ("" without those
+// columns).
+type csvRow struct {
+	wp             Waypoint
+	line, lineName string
+}
+
+// parseCSVTrack reads the rows of a track CSV (see ParseTrackCSV); more than maxRows rows is
+// fault.Over("max_vertices") with limit maxWaypoints.
+func parseCSVTrack(data []byte, maxRows, maxWaypoints int) ([]csvRow, error) {
 	data = bytes.TrimPrefix(data, []byte("\ufeff"))
 	delim := ','
 	for _, line := range bytes.Split(data, []byte("\n")) {
@@ -168,7 +219,8 @@ func ParseTrackCSV(data []byte, maxWaypoints int) ([]Waypoint, error) {
 	if err != nil {
 		return nil, trackErr("CSV: %v", err)
 	}
-	lonCol, latCol, nameCol := -1, -1, -1
+	var rows []csvRow
+	lonCol, latCol, nameCol, lineCol, lineNameCol := -1, -1, -1, -1, -1
 	for i, h := range header {
 		var p *int
 		switch csvColumn(h) {
@@ -178,6 +230,10 @@ func ParseTrackCSV(data []byte, maxWaypoints int) ([]Waypoint, error) {
 			p = &latCol
 		case "name":
 			p = &nameCol
+		case "line":
+			p = &lineCol
+		case "linename":
+			p = &lineNameCol
 		default:
 			continue
 		}
@@ -191,7 +247,12 @@ func ParseTrackCSV(data []byte, maxWaypoints int) ([]Waypoint, error) {
 		line, _ := r.FieldPos(0)
 		return nil, trackErr("line %d: the CSV header must name a longitude column (lon or longitude) and a latitude column (lat or latitude); found %q", line, strings.Join(header, string(delim)))
 	}
-	var wps []Waypoint
+	cellAt := func(rec []string, c int) string {
+		if c >= 0 && c < len(rec) {
+			return strings.TrimSpace(rec[c])
+		}
+		return ""
+	}
 	for {
 		rec, err := r.Read()
 		if err == io.EOF {
@@ -216,20 +277,18 @@ func ParseTrackCSV(data []byte, maxWaypoints int) ([]Waypoint, error) {
 			return nil, trackErr("line %d: longitude: %v", line, err)
 		}
 		w := Waypoint{Lon: lonAnswer(lon), Lat: lat}
-		if nameCol >= 0 && nameCol < len(rec) {
-			w.Name = strings.TrimSpace(rec[nameCol])
-		}
-		if len(wps) == maxWaypoints {
-			asked := len(wps) + 1
+		w.Name = cellAt(rec, nameCol)
+		if len(rows) == maxRows {
+			asked := len(rows) + 1
 			for {
 				if _, err := r.Read(); err != nil {
 					break
 				}
 				asked++
 			}
-			return nil, trackOver(maxWaypoints, asked, "line %d: more than the limit of %d waypoints (the file has %d rows)", line, maxWaypoints, asked)
+			return nil, trackOver(maxWaypoints, asked, "line %d: more than the limit of %d waypoints (the file has %d rows)", line, maxRows, asked)
 		}
-		wps = append(wps, w)
+		rows = append(rows, csvRow{wp: w, line: cellAt(rec, lineCol), lineName: cellAt(rec, lineNameCol)})
 	}
-	return ValidateWaypoints(wps, maxWaypoints)
+	return rows, nil
 }

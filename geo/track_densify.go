@@ -63,6 +63,17 @@ func Legs(g Geodesic, wps []Waypoint) ([]Leg, error) {
 	return legs, nil
 }
 
+// StepSolver is implemented by Geodesic solvers that place many points along one geodesic
+// faster than one Direct call each (ridgeflank/geo/gdal.WGS84()). DirectSteps writes the
+// points at distances k0·stepM … (k0+n−1)·stepM along the geodesic leaving (lat1, lon1) at
+// azimuth azi1Deg to dst as lat, lon pairs (len(dst) ≥ 2n), equal to Direct's answers.
+type StepSolver interface {
+	DirectSteps(lat1, lon1, azi1Deg, stepM float64, k0, n int, dst []float64)
+}
+
+// stepChunk is the most points Densify asks a StepSolver for at once.
+const stepChunk = 4096
+
 // Densify samples a track along the geodesics between its waypoints, at most spacingM metres
 // apart. Each leg of length s is divided into n = ⌈s/spacingM⌉ equal steps of s/n ≤ spacingM
 // (so the spacing differs slightly from leg to leg); the points are found by solving the direct
@@ -112,6 +123,7 @@ func Densify(g Geodesic, wps []Waypoint, spacingM float64, maxSamples int) ([]Tr
 			"%w: the track (%.3f km) would need %d samples at %g m spacing, more than %d samples (the limit)", ErrInvalidTrack, end.StartDistanceKm+end.LengthKm, asked, spacingM, maxSamples)
 	}
 	out := make([]TrackSample, 0, int(total))
+	var buf []float64 // StepSolver answers
 	for i, l := range legs {
 		a := wps[i]
 		startM := l.StartDistanceKm * 1000
@@ -123,6 +135,20 @@ func Densify(g Geodesic, wps []Waypoint, spacingM float64, maxSamples int) ([]Tr
 		}
 		step := lengthM / float64(n)
 		az := l.InitialAzimuthDeg
+		if ss, ok := g.(StepSolver); ok {
+			if buf == nil {
+				buf = make([]float64, 2*stepChunk)
+			}
+			for k0 := 1; k0 < n; k0 += stepChunk {
+				m := min(stepChunk, n-k0)
+				ss.DirectSteps(a.Lat, a.Lon, az, step, k0, m, buf)
+				for j := range m {
+					d := step * float64(k0+j)
+					out = append(out, TrackSample{Lon: lonAnswer(buf[2*j+1]), Lat: buf[2*j], DistanceKm: (startM + d) / 1000, Leg: i, Waypoint: -1})
+				}
+			}
+			continue
+		}
 		for k := 1; k < n; k++ {
 			d := step * float64(k)
 			lat, lon := g.Direct(a.Lat, a.Lon, az, d)

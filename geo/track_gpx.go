@@ -20,11 +20,56 @@ func ParseTrackGPX(data []byte, maxWaypoints int) ([]Waypoint, error) {
 	if maxWaypoints <= 0 {
 		maxWaypoints = DefaultMaxWaypoints
 	}
+	groups, err := parseGPX(data, 3*maxWaypoints, maxWaypoints)
+	if err != nil {
+		return nil, err
+	}
+	for _, g := range groups {
+		var wps []Waypoint
+		for _, t := range g {
+			wps = append(wps, t.Waypoints...)
+		}
+		if len(wps) > 0 {
+			return ValidateWaypoints(wps, maxWaypoints)
+		}
+	}
+	return nil, trackErr("GPX has no rtept, trkpt or wpt points")
+}
+
+// ParseTracksGPX reads the tracks of a GPX file (see ParseTrackGPX for the format): each route
+// (rte) is a Track named by the route's <name>, or, when the file has no route points, each
+// track (trk, its segments joined), or, with neither, the stand-alone waypoints (wpt) as one
+// Track. Point names are kept. Every Track is validated by ValidateWaypoints; more than
+// maxTracks tracks is fault.Over("max_tracks"). maxWaypoints <= 0 means DefaultMaxWaypoints,
+// maxTracks <= 0 DefaultMaxTracks.
+func ParseTracksGPX(data []byte, maxTracks, maxWaypoints int) ([]Track, error) {
+	maxTracks, maxWaypoints = trackLimits(maxTracks, maxWaypoints)
+	groups, err := parseGPX(data, maxTracks*maxWaypoints, maxWaypoints)
+	if err != nil {
+		return nil, err
+	}
+	for _, g := range groups {
+		n := 0
+		for _, t := range g {
+			n += len(t.Waypoints)
+		}
+		if n > 0 {
+			return validTracks(g, maxTracks, maxWaypoints, "GPX")
+		}
+	}
+	return nil, trackErr("GPX has no rtept, trkpt or wpt points")
+}
+
+// parseGPX reads the points of a GPX file into three groups: routes, tracks (segments joined)
+// and the stand-alone waypoints (one Track), each Track named by its <name>. More than
+// maxPoints points in all is an error.
+func parseGPX(data []byte, maxPoints, maxWaypoints int) ([3][]Track, error) {
+	var groups [3][]Track // rte, trk, wpt
 	d := xml.NewDecoder(bytes.NewReader(data))
 	d.Strict = true
-	var lists [3][]Waypoint // rtept, trkpt, wpt
 	total := 0
 	sawRoot := false
+	var stack []string // open elements that were not decoded whole
 	for {
 		tok, err := d.Token()
 		if err == io.EOF {
@@ -36,7 +81,11 @@ func ParseTrackGPX(data []byte, maxWaypoints int) ([]Waypoint, error) {
 			if errors.As(err, &se) {
 				line = se.Line
 			}
-			return nil, trackErr("GPX line %d: %v", line, err)
+			return groups, trackErr("GPX line %d: %v", line, err)
+		}
+		if _, ok := tok.(xml.EndElement); ok && len(stack) > 0 {
+			stack = stack[:len(stack)-1]
+			continue
 		}
 		se, ok := tok.(xml.StartElement)
 		if !ok {
@@ -44,13 +93,39 @@ func ParseTrackGPX(data []byte, maxWaypoints int) ([]Waypoint, error) {
 		}
 		if !sawRoot {
 			if se.Name.Local != "gpx" {
-				return nil, trackErr("not GPX: the root element is <%s>, want <gpx>", se.Name.Local)
+				return groups, trackErr("not GPX: the root element is <%s>, want <gpx>", se.Name.Local)
 			}
 			sawRoot = true
+			stack = append(stack, se.Name.Local)
 			continue
 		}
+		parent := stack[len(stack)-1]
 		var which int
 		switch se.Name.Local {
+		case "rte", "trk":
+			which = 0
+			if se.Name.Local == "trk" {
+				which = 1
+			}
+			groups[which] = append(groups[which], Track{})
+			stack = append(stack, se.Name.Local)
+			continue
+		case "name":
+			if parent == "rte" || parent == "trk" {
+				var name string
+				if err := d.DecodeElement(&name, &se); err != nil {
+					line, _ := d.InputPos()
+					return groups, trackErr("GPX line %d: <name>: %v", line, err)
+				}
+				g := 0
+				if parent == "trk" {
+					g = 1
+				}
+				groups[g][len(groups[g])-1].Name = strings.TrimSpace(name)
+				continue
+			}
+			stack = append(stack, se.Name.Local)
+			continue
 		case "rtept":
 			which = 0
 		case "trkpt":
@@ -58,6 +133,7 @@ func ParseTrackGPX(data []byte, maxWaypoints int) ([]Waypoint, error) {
 		case "wpt":
 			which = 2
 		default:
+			stack = append(stack, se.Name.Local)
 			continue
 		}
 		line, _ := d.InputPos()
@@ -67,32 +143,31 @@ func ParseTrackGPX(data []byte, maxWaypoints int) ([]Waypoint, error) {
 			Name string  `xml:"name"`
 		}
 		if err := d.DecodeElement(&pt, &se); err != nil {
-			return nil, trackErr("GPX line %d: <%s>: %v", line, se.Name.Local, err)
+			return groups, trackErr("GPX line %d: <%s>: %v", line, se.Name.Local, err)
 		}
 		if pt.Lat == nil || pt.Lon == nil {
-			return nil, trackErr("GPX line %d: <%s> needs lat and lon attributes", line, se.Name.Local)
+			return groups, trackErr("GPX line %d: <%s> needs lat and lon attributes", line, se.Name.Local)
 		}
 		lat, err1 := strconv.ParseFloat(strings.TrimSpace(*pt.Lat), 64)
 		lon, err2 := strconv.ParseFloat(strings.TrimSpace(*pt.Lon), 64)
 		if err1 != nil || err2 != nil {
-			return nil, trackErr("GPX line %d: <%s lat=%q lon=%q>: coordinates must be decimal degrees", line, se.Name.Local, *pt.Lat, *pt.Lon)
+			return groups, trackErr("GPX line %d: <%s lat=%q lon=%q>: coordinates must be decimal degrees", line, se.Name.Local, *pt.Lat, *pt.Lon)
 		}
 		if err := checkLonLat(lon, lat); err != nil {
-			return nil, trackErr("GPX line %d: <%s>: %v", line, se.Name.Local, err)
+			return groups, trackErr("GPX line %d: <%s>: %v", line, se.Name.Local, err)
 		}
 		total++
-		if total > 3*maxWaypoints {
-			return nil, trackOver(maxWaypoints, 0, "GPX line %d: more than %d points, more than the limit of %d waypoints can use", line, 3*maxWaypoints, maxWaypoints)
+		if total > maxPoints {
+			return groups, trackOver(maxWaypoints, 0, "GPX line %d: more than %d points, more than the limit of %d waypoints can use", line, maxPoints, maxWaypoints)
 		}
-		lists[which] = append(lists[which], Waypoint{Lon: lonAnswer(lon), Lat: lat, Name: strings.TrimSpace(pt.Name)})
+		if len(groups[which]) == 0 { // a point outside any rte/trk (or the first wpt)
+			groups[which] = append(groups[which], Track{})
+		}
+		t := &groups[which][len(groups[which])-1]
+		t.Waypoints = append(t.Waypoints, Waypoint{Lon: lonAnswer(lon), Lat: lat, Name: strings.TrimSpace(pt.Name)})
 	}
 	if !sawRoot {
-		return nil, trackErr("not GPX: no <gpx> element")
+		return groups, trackErr("not GPX: no <gpx> element")
 	}
-	for _, l := range lists {
-		if len(l) > 0 {
-			return ValidateWaypoints(l, maxWaypoints)
-		}
-	}
-	return nil, trackErr("GPX has no rtept, trkpt or wpt points")
+	return groups, nil
 }

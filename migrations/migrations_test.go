@@ -57,7 +57,7 @@ func upDownUp(t *testing.T, d migrations.Dialect, db *sql.DB, tables func() []st
 		t.Fatalf("up: %v, %v", res, err)
 	}
 	got := tables()
-	for _, want := range []string{"regions", "grids", "datasets", "tracks", "custom_models", "api_tokens", "store_meta"} {
+	for _, want := range []string{"regions", "grids", "datasets", "tracks", "plans", "custom_models", "api_tokens", "store_meta"} {
 		if !slices.Contains(got, want) {
 			t.Fatalf("after up, table %s missing from %v", want, got)
 		}

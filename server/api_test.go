@@ -424,6 +424,17 @@ func TestAPI(t *testing.T) {
 			wantProblem(t, e.get("/api/models/gdh1/curve?ages=0:500:1"), 422, CodeAgeOutOfRange)
 			wantProblem(t, e.get("/api/models/gdh1/curve?ages=a:b"), 400, CodeInvalidParameter)
 			wantProblem(t, e.get("/api/models/gdh1/curve?ages=0:100000:0.001"), 422, CodeLimitExceeded)
+			// Spans and steps whose count overflows an integer are over the limit, not a panic.
+			for _, q := range []string{"ages=0:1e308:1e-308", "ages=0:1:5e-324", "depths=0:1e308:1e-308"} {
+				path := "/api/models/gdh1/curve?" + q
+				if strings.HasPrefix(q, "depths") {
+					path = "/api/models/gdh1/geotherm?ages=50&" + q
+				}
+				res := e.get(path)
+				if res.StatusCode != 422 && res.StatusCode != 400 {
+					t.Errorf("%s: status %d, want a 4xx refusal", q, res.StatusCode)
+				}
+			}
 			wantProblem(t, e.get("/api/models/gdh1/geotherm"), 400, CodeInvalidParameter)
 			wantProblem(t, e.get("/api/models/gdh1/curve?f=xml"), 400, CodeUnsupportedFormat)
 

@@ -57,6 +57,7 @@ func (s *server) collectionJSON(r *http.Request, d *evaluate.Dataset) map[string
 			"position":   dq("position", "position?coords={coords}", pointFormats),
 			"area":       dq("area", "area?coords={coords}", areaFormats),
 			"trajectory": dq("trajectory", "trajectory?coords={coords}", pointFormats),
+			"corridor":   corridorQuery(dq("corridor", "corridor?coords={coords}&corridor-width={width}&width-units={units}", pointFormats)),
 			"locations":  dq("locations", "locations", []string{"CoverageJSON", "CSV", "COG", "NetCDF", "PNG"}),
 		},
 		"crs":             []string{"http://www.opengis.net/def/crs/OGC/1.3/CRS84"},

@@ -2,7 +2,6 @@ package server
 
 import (
 	"encoding/csv"
-	"errors"
 	"fmt"
 	"math"
 	"net/http"
@@ -13,15 +12,12 @@ import (
 
 	"ridgeflank/evaluate"
 	"ridgeflank/fault"
+	"ridgeflank/numjson"
 	"ridgeflank/thermal"
 )
 
 // DefaultModel is the model used when a query gives no model=.
 const DefaultModel = evaluate.DefaultModel
-
-// maxAgeMa is the oldest age accepted by the age-only endpoints (the span of
-// the model lookup tables; today's oceans are younger than about 200 Ma).
-const maxAgeMa = thermal.TableMaxAgeMa
 
 func isBuiltin(id string) bool { return evaluate.IsBuiltin(id) }
 
@@ -95,13 +91,8 @@ func (s *server) createModel(w http.ResponseWriter, r *http.Request) error {
 	if isBuiltin(p.ID) {
 		return problem(CodeConflict, "%q is a built-in model id", p.ID)
 	}
-	if err := p.Validate(); err != nil {
-		var pe *thermal.ParamError
-		q := problem(CodeInvalidModelParams, "%v", err).withCause(err)
-		if errors.As(err, &pe) {
-			q.Parameter = pe.Field
-		}
-		return q
+	if err := evaluate.CheckModel(p); err != nil {
+		return err
 	}
 	if err := s.saveCustomModel(r.Context(), p); err != nil {
 		return err
@@ -147,25 +138,19 @@ func parseRange(name, v string, maxPoints int) ([]float64, error) {
 	if step <= 0 || stop < start {
 		return nil, problem(CodeInvalidParameter, "%s=%q: need start ≤ stop and step > 0", name, v).withParam(name)
 	}
-	n := int(math.Floor((stop-start)/step+1e-9)) + 1
-	if n > maxPoints {
+	// Count in floating point first: a tiny step over a huge span overflows int (and Inf or
+	// NaN converts to nonsense), so the limit is checked before any integer is made.
+	nf := math.Floor((stop-start)/step+1e-9) + 1
+	if !(nf <= float64(maxPoints)) {
 		return nil, limitProblem(http.StatusUnprocessableEntity, "max_curve_points", int64(maxPoints),
-			"%s=%q asks for %d values; the limit is %d", name, v, n, maxPoints).withParam(name)
+			"%s=%q asks for %.4g values; the limit is %d", name, v, nf, maxPoints).withParam(name)
 	}
+	n := int(nf)
 	out := make([]float64, n)
 	for i := range out {
 		out[i] = start + float64(i)*step
 	}
 	return out, nil
-}
-
-func checkAges(name string, ages []float64) error {
-	for _, a := range ages {
-		if a < 0 || a > maxAgeMa {
-			return problem(CodeAgeOutOfRange, "%s: age %g Ma is outside 0 to %g Ma", name, a, maxAgeMa).withParam(name)
-		}
-	}
-	return nil
 }
 
 // wantCSV reads f= for endpoints that answer JSON (default) or CSV.
@@ -194,43 +179,26 @@ func (s *server) modelCurve(w http.ResponseWriter, r *http.Request) error {
 	if err != nil {
 		return err
 	}
-	if err := checkAges("ages", ages); err != nil {
-		return err
-	}
 	asCSV, err := wantCSV(r)
 	if err != nil {
 		return err
 	}
-	n := len(ages)
-	depth, hf, thick, iso, rate := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
-	for i, a := range ages {
-		if err := r.Context().Err(); err != nil {
-			return err
-		}
-		depth[i] = m.DepthM(a)
-		hf[i] = m.HeatFlowMWm2(a)
-		thick[i] = m.ThermalThicknessKm(a)
-		iso[i] = m.IsothermDepthKm(600, a)
-		rate[i] = m.SubsidenceRateMPerMyr(a)
+	depth, hf, thick, iso, rate, err := evaluate.Curve(r.Context(), m, "ages", ages)
+	if err != nil {
+		return err
 	}
 	prov := s.provenance(m)
 	prov.Caution = Caution
 	setProvenance(w, prov)
 	if asCSV {
 		return writeCSV(w, "curve-"+m.Params().ID+".csv", prov.Caution,
-			[]string{"age_ma", "depth_m", "heat_flow_mw_m2", "thermal_thickness_km", "depth_600c_km", "subsidence_rate_m_per_myr"},
-			ages, depth, hf, thick, iso, rate)
+			evaluate.CurveColumns, ages, depth, hf, thick, iso, rate)
 	}
-	return writeJSON(w, http.StatusOK, "", map[string]any{
-		"model":                     m.Params().ID,
-		"age_ma":                    floats(ages),
-		"depth_m":                   floats(depth),
-		"heat_flow_mw_m2":           floats(hf),
-		"thermal_thickness_km":      floats(thick),
-		"depth_600c_km":             floats(iso),
-		"subsidence_rate_m_per_myr": floats(rate),
-		"provenance":                prov,
-	})
+	out := map[string]any{"model": m.Params().ID, "provenance": prov}
+	for i, col := range [][]float64{ages, depth, hf, thick, iso, rate} {
+		out[evaluate.CurveColumns[i]] = floats(col)
+	}
+	return writeJSON(w, http.StatusOK, "", out)
 }
 
 func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
@@ -247,16 +215,12 @@ func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
 	if err != nil || math.IsNaN(age) {
 		return problem(CodeInvalidParameter, "age=%q is not a number", ageStr).withParam("age")
 	}
-	if err := checkAges("age", []float64{age}); err != nil {
+	if err := evaluate.CheckAges("age", age); err != nil {
 		return err
 	}
 	spec := q.Get("depths")
 	if spec == "" {
-		maxKm := 150.0
-		if a := m.Params().PlateThicknessKm; a > 0 {
-			maxKm = math.Ceil(a * 1.2)
-		}
-		spec = fmt.Sprintf("0:%g:1", maxKm)
+		spec = fmt.Sprintf("0:%g:1", evaluate.GeothermMaxKm(m.Params()))
 	}
 	depths, err := parseRange("depths", spec, s.limits.MaxCurvePoints)
 	if err != nil {
@@ -329,9 +293,40 @@ func writeCSVText(w http.ResponseWriter, filename, caution string, header []stri
 	return cw.Error()
 }
 
-func formatCSVFloat(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return ""
+func formatCSVFloat(v float64) string { return numjson.CSV(v) }
+
+// modelRidgePush answers the ridge push per unit ridge length (N/m) at ages=start:stop:step
+// (default 0:200:10) under the model: evaluate.RidgePush.
+func (s *server) modelRidgePush(w http.ResponseWriter, r *http.Request) error {
+	m, err := s.modelFromPath(r)
+	if err != nil {
+		return err
 	}
-	return strconv.FormatFloat(roundSig(v), 'g', -1, 64)
+	spec := r.URL.Query().Get("ages")
+	if spec == "" {
+		spec = "0:200:10"
+	}
+	ages, err := parseRange("ages", spec, s.limits.MaxCurvePoints)
+	if err != nil {
+		return err
+	}
+	asCSV, err := wantCSV(r)
+	if err != nil {
+		return err
+	}
+	push, err := evaluate.RidgePush(r.Context(), m, "ages", ages)
+	if err != nil {
+		return err
+	}
+	prov := s.provenance(m)
+	setProvenance(w, prov)
+	if asCSV {
+		return writeCSV(w, "ridge-push-"+m.Params().ID+".csv", "", []string{"age_ma", evaluate.RidgePushColumn}, ages, push)
+	}
+	return writeJSON(w, http.StatusOK, "", map[string]any{
+		"model":                  m.Params().ID,
+		"age_ma":                 floats(ages),
+		evaluate.RidgePushColumn: floats(push),
+		"provenance":             prov,
+	})
 }

@@ -30,8 +30,11 @@ type Problem struct {
 	// Limit and LimitName state the documented limit a request went over.
 	Limit     *int64 `json:"limit,omitempty"`
 	LimitName string `json:"limit_name,omitempty"`
-	// Parameter names the query parameter or field at fault.
+	// Parameter names the query parameter or field at fault (the first, when there are several).
 	Parameter string `json:"parameter,omitempty"`
+	// InvalidParams names every bad field when there are several (RFC 9457 §3's example
+	// extension member "invalid-params").
+	InvalidParams []InvalidParam `json:"invalid-params,omitempty"`
 
 	cause error
 }
@@ -44,6 +47,12 @@ func (p *Problem) Error() string {
 }
 
 func (p *Problem) Unwrap() error { return p.cause }
+
+// InvalidParam is one bad field of a request and why it is refused.
+type InvalidParam struct {
+	Name   string `json:"name"`
+	Reason string `json:"reason"`
+}
 
 // problemKind is one entry of the problem catalogue.
 type problemKind struct {
@@ -224,6 +233,9 @@ func faultProblem(f *fault.Error) *Problem {
 	if f.Limit != nil {
 		v := f.Limit.Value
 		p.Limit, p.LimitName = &v, f.Limit.Name
+	}
+	for _, iv := range f.Invalid {
+		p.InvalidParams = append(p.InvalidParams, InvalidParam{Name: iv.Field, Reason: iv.Reason})
 	}
 	return p
 }

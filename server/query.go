@@ -176,11 +176,12 @@ func (s *server) position(w http.ResponseWriter, r *http.Request) error {
 	if err != nil {
 		return err
 	}
-	return s.writePoints(w, format, covType, res, nil, nil, "position")
+	return s.writePoints(w, format, covType, res, nil, nil, nil, "position")
 }
 
-// writePoints answers a position or trajectory query (tr not nil for a trajectory).
-func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType string, res *evaluate.PointsResult, distKm []float64, wps []evaluate.WaypointAt, kind string) error {
+// writePoints answers a position, trajectory or corridor query: distKm (distance along the
+// track) for a trajectory or corridor, offsetKm (across the track) for a corridor, nil otherwise.
+func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType string, res *evaluate.PointsResult, distKm, offsetKm []float64, wps []evaluate.WaypointAt, kind string) error {
 	s.metrics.cells.Add(float64(len(res.Lons)))
 	prov := s.ev.Provenance(res.Query)
 	setProvenance(w, prov)
@@ -188,7 +189,7 @@ func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType st
 	ps, lons, lats, values := res.Query.Params, res.Lons, res.Lats, res.Values
 	switch format {
 	case fmtGeoJSON:
-		fc := pointsGeoJSON(ps, lons, lats, distKm, values, prov)
+		fc := pointsGeoJSON(ps, lons, lats, distKm, offsetKm, values, prov)
 		if len(res.Flags) > 0 {
 			fc["ridgeflank:flags"] = res.Flags
 		}
@@ -203,12 +204,16 @@ func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType st
 			header = append(header, "distance_km")
 			cols = append(cols, distKm)
 		}
+		if offsetKm != nil {
+			header = append(header, "offset_km")
+			cols = append(cols, offsetKm)
+		}
 		for i, p := range ps {
 			header = append(header, p.ID+"_"+evaluate.UnitSuffix(p.Unit))
 			cols = append(cols, values[i])
 		}
 		var names []string
-		if wps != nil {
+		if wps != nil && offsetKm == nil {
 			// A trajectory names its waypoints on the samples that are waypoints (the first sample
 			// at a waypoint's distance along the track).
 			header = append(header, "waypoint")
@@ -233,15 +238,21 @@ func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType st
 	if distKm != nil {
 		c.Extra = map[string]any{"distance_km": floats(distKm)}
 	}
+	if offsetKm != nil {
+		c.Extra["offset_km"] = floats(offsetKm)
+	}
 	return writeJSON(w, http.StatusOK, covType, c)
 }
 
-func pointsGeoJSON(ps []evaluate.Parameter, lons, lats, distKm []float64, values [][]float64, prov Provenance) map[string]any {
+func pointsGeoJSON(ps []evaluate.Parameter, lons, lats, distKm, offsetKm []float64, values [][]float64, prov Provenance) map[string]any {
 	feats := make([]map[string]any, len(lons))
 	for j := range lons {
 		props := map[string]any{}
 		if distKm != nil {
 			props["distance_km"] = jsonFloat(distKm[j])
+		}
+		if offsetKm != nil {
+			props["offset_km"] = jsonFloat(offsetKm[j])
 		}
 		for i, p := range ps {
 			props[p.ID] = jsonFloat(values[i][j])
@@ -348,5 +359,5 @@ func (s *server) answerTrajectory(w http.ResponseWriter, r *http.Request, wps []
 	if err != nil {
 		return err
 	}
-	return s.writePoints(w, format, covType, &res.PointsResult, res.DistanceKm, res.Waypoints, "trajectory")
+	return s.writePoints(w, format, covType, &res.PointsResult, res.DistanceKm, nil, res.Waypoints, "trajectory")
 }

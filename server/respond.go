@@ -3,40 +3,19 @@ package server
 import (
 	"bytes"
 	"encoding/json"
-	"math"
 	"net/http"
-	"strconv"
 	"strings"
+
+	"ridgeflank/numjson"
 )
 
-// jsonFloat encodes NaN and ±Inf as null (JSON has no such numbers).
-type jsonFloat float64
+// jsonFloat encodes NaN and ±Inf as null (JSON has no such numbers), with numjson's digits.
+type jsonFloat = numjson.Float
 
-func (f jsonFloat) MarshalJSON() ([]byte, error) {
-	v := float64(f)
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return []byte("null"), nil
-	}
-	return strconv.AppendFloat(nil, roundSig(v), 'g', -1, 64), nil
-}
+// roundSig keeps numjson.Digits significant digits.
+func roundSig(v float64) float64 { return numjson.Round(v) }
 
-// roundSig keeps 7 significant digits: more than any input grid or model
-// parameter carries, and it keeps responses small.
-func roundSig(v float64) float64 {
-	if v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
-		return v
-	}
-	f, _ := strconv.ParseFloat(strconv.FormatFloat(v, 'g', 7, 64), 64)
-	return f
-}
-
-func floats(v []float64) []jsonFloat {
-	out := make([]jsonFloat, len(v))
-	for i, x := range v {
-		out[i] = jsonFloat(x)
-	}
-	return out
-}
+func floats(v []float64) []jsonFloat { return numjson.Floats(v) }
 
 // writeJSON writes v with the given media type and status.
 func writeJSON(w http.ResponseWriter, status int, mediaType string, v any) error {

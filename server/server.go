@@ -214,6 +214,7 @@ func (s *server) routes() http.Handler {
 			r.Get("/area", s.h(s.area))
 			r.Get("/trajectory", s.h(s.trajectory))
 			r.With(s.bodyLimit(s.limits.MaxBodyBytes)).Post("/trajectory", s.h(s.trajectoryPost))
+			r.Get("/corridor", s.h(s.corridor))
 			r.Get("/locations", s.h(s.locationsList))
 			r.Get("/locations/{regionId}", s.h(s.location))
 			r.Get("/locations/{regionId}/statistics", s.h(s.locationStatistics))
@@ -225,12 +226,21 @@ func (s *server) routes() http.Handler {
 		r.Get("/models/{modelId}", s.h(s.getModel))
 		r.Get("/models/{modelId}/curve", s.h(s.modelCurve))
 		r.Get("/models/{modelId}/geotherm", s.h(s.modelGeotherm))
+		r.Get("/models/{modelId}/ridge-push", s.h(s.modelRidgePush))
 
 		r.Get("/regions", s.h(s.listRegions))
 		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Post("/regions", s.h(s.createRegion))
 		r.Get("/regions/{regionId}", s.h(s.getRegion))
 		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Put("/regions/{regionId}", s.h(s.updateRegion))
 		r.With(s.require(RoleEditor)).Delete("/regions/{regionId}", s.h(s.deleteRegion))
+
+		r.Get("/plans", s.h(s.listPlans))
+		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Post("/plans", s.h(s.createPlan))
+		r.With(s.bodyLimit(s.limits.MaxBodyBytes)).Post("/plans/check", s.h(s.checkPlanPost)) // a read: no editor role
+		r.Get("/plans/{planId}", s.h(s.getPlan))
+		r.Get("/plans/{planId}/check", s.h(s.checkStoredPlan))
+		r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Put("/plans/{planId}", s.h(s.updatePlan))
+		r.With(s.require(RoleEditor)).Delete("/plans/{planId}", s.h(s.deletePlan))
 
 		r.Get("/grids", s.h(s.listGrids))
 		r.With(s.require(RoleEditor), s.timeout(s.limits.UploadTimeout, ""), s.bodyLimit(s.limits.MaxUploadBytes)).Post("/grids", s.h(s.uploadGrid))

@@ -12,6 +12,7 @@ const (
 	PrefixDataset = "ds_"
 	PrefixTrack   = "tr_"
 	PrefixModel   = "md_"
+	PrefixPlan    = "pl_"
 	PrefixToken   = "tk_"
 )
 

@@ -67,6 +67,14 @@ type Store interface {
 	UpdateTrack(ctx context.Context, t Track) (Track, error)
 	DeleteTrack(ctx context.Context, id string, expectedVersion int64) error
 
+	// Survey plans (see Plan). Get, Update and Delete answer ErrNotFound for an id that could
+	// never have been stored (not a valid id, invalid UTF-8 included).
+	CreatePlan(ctx context.Context, p Plan) (Plan, error)
+	GetPlan(ctx context.Context, id string) (Plan, error)
+	ListPlans(ctx context.Context, p Page) ([]Plan, error)
+	UpdatePlan(ctx context.Context, p Plan) (Plan, error)
+	DeletePlan(ctx context.Context, id string, expectedVersion int64) error
+
 	// Custom thermal model parameter sets.
 	CreateModel(ctx context.Context, m Model) (Model, error)
 	GetModel(ctx context.Context, id string) (Model, error)
@@ -105,6 +113,7 @@ const (
 	MaxParamsBytes    = 65536   // JSON parameters of tracks and custom models
 	MaxVertices       = 1000000 // positions per geometry
 	MaxListLimit      = 10000   // Page.Limit; 0 means this many
+	MaxPlanLines      = 10000   // lines per survey plan (positions count towards MaxVertices)
 )
 
 // Page selects a slice of a list. Limit 0 means MaxListLimit; Offset counts skipped rows.
@@ -243,7 +252,7 @@ func (d Dataset) GridIDs() []string {
 	return ids
 }
 
-// Track is a survey track or plan: ordered waypoints (lon, lat degrees) and free parameters.
+// Track is a survey track: ordered waypoints (lon, lat degrees) and free parameters.
 // Waypoints are stored as given (at least two finite positions, latitudes within [-90, 90],
 // longitudes within [-540, 540]); a leg crossing the antimeridian is the caller's to interpret.
 type Track struct {
@@ -267,6 +276,31 @@ type Model struct {
 	CreatedAt   time.Time
 	UpdatedAt   time.Time
 	Version     int64
+}
+
+// Plan is a stored survey plan: named lines of waypoints and the settings they are checked
+// under. The store does not interpret Settings, a JSON object kept byte for byte ("{}" when
+// empty), as Model.Params. Lines are stored as given: each has at least two finite positions
+// with latitudes within [-90, 90] and longitudes within [-540, 540], so a line crossing the
+// antimeridian keeps the longitudes it was given (179.5 then -179.5, or 179.5 then 180.5).
+// Version, times and ids follow the rules of the other versioned entities (see Store).
+type Plan struct {
+	ID          string // generated (PrefixPlan) when empty on create
+	Name        string
+	Description string
+	Lines       []PlanLine // 1..MaxPlanLines, in the order they are sailed
+	Settings    json.RawMessage
+	CreatedAt   time.Time
+	UpdatedAt   time.Time
+	Version     int64
+}
+
+// PlanLine is one line of a plan. WaypointNames is nil or holds one name per waypoint ("" for
+// an unnamed one); names that are all empty are stored, and returned, as nil.
+type PlanLine struct {
+	Name          string
+	Waypoints     orb.LineString // lon, lat degrees
+	WaypointNames []string
 }
 
 // Token describes an API token (never its secret).

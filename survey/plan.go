@@ -1,6 +1,10 @@
 package survey
 
-import "ridgeflank/geo"
+import (
+	"time"
+
+	"ridgeflank/geo"
+)
 
 // Plan is a named set of survey lines with the settings it is checked under. It is the body of
 // POST /api/plans and /api/plans/check, the stored form of a plan, and what `ridgeflank plan
@@ -16,6 +20,9 @@ type Plan struct {
 	Lines       []Line   `json:"lines"`
 	Settings    Settings `json:"settings"`
 	Version     int64    `json:"version,omitempty"`
+	// Set by the store on stored plans (UTC); ignored in a plan given to create or update.
+	CreatedAt *time.Time `json:"created_at,omitempty"`
+	UpdatedAt *time.Time `json:"updated_at,omitempty"`
 }
 
 // Line is one survey line: at least two waypoints (decimal degrees, optional names) joined by
@@ -25,7 +32,9 @@ type Line struct {
 	Waypoints []geo.Waypoint `json:"waypoints"`
 }
 
-// Settings are what a plan is checked under. Zero values take the defaults of Defaults(); a
+// Settings are what a plan is checked under. Zero values (nil pointers) take the defaults of
+// Defaults(), except OverlapPct, SafetyDepthM and TransducerM, where zero means zero (no overlap,
+// no safety-depth test, transducer at the surface); a
 // swath is given either by SwathAngleDeg (total opening angle) or by SwathWidthM (fixed width on
 // the seafloor), not both. Depths are metres positive down.
 type Settings struct {
@@ -43,8 +52,9 @@ type Settings struct {
 	TransducerM    float64 `json:"transducer_depth_m,omitempty"`
 
 	// Sound speed: a profile (depth-ordered) or single values for the whole water column.
-	WaterTemperatureC float64       `json:"water_temperature_c,omitempty"` // °C
-	SalinityPSU       float64       `json:"salinity_psu,omitempty"`        // practical salinity (‰)
+	// nil takes the default (0 °C is a real temperature, so these are pointers).
+	WaterTemperatureC *float64      `json:"water_temperature_c,omitempty"` // °C
+	SalinityPSU       *float64      `json:"salinity_psu,omitempty"`        // practical salinity (‰)
 	SoundProfile      []ProfileStep `json:"sound_profile,omitempty"`
 
 	// Hazard thresholds.
@@ -111,8 +121,9 @@ type Samples struct {
 	AgeMa            []float64 `json:"age_ma"`
 	SlopeDeg         []float64 `json:"slope_deg"`
 	SwathWidthM      []float64 `json:"swath_width_m"`
-	SoundSpeedMS     []float64 `json:"sound_speed_m_s"` // mean over the water column
-	TwoWayTimeS      []float64 `json:"two_way_time_s"`
+	SoundSpeedMS     []float64 `json:"sound_speed_m_s"`      // mean over the water column
+	TwoWayTimeS      []float64 `json:"two_way_time_s"`       // at nadir
+	TwoWayTimeOuterS []float64 `json:"outer_two_way_time_s"` // at the outer beam (straight rays)
 	MaxPingRateHz    []float64 `json:"max_ping_rate_hz"`
 	SoundingSpacingM []float64 `json:"sounding_spacing_m"` // along track, at the on-line speed and maximum ping rate
 }
@@ -170,6 +181,7 @@ type Gap struct {
 	DistanceKm  float64 `json:"distance_km"`  // along line A
 	SeparationM float64 `json:"separation_m"` // distance between the lines there
 	GapM        float64 `json:"gap_m"`        // uncovered width
+	LengthKm    float64 `json:"length_km"`    // along-track extent of the gap on line A
 }
 
 // Totals sum a plan.
@@ -197,4 +209,7 @@ type Check struct {
 	Hazards  []Hazard     `json:"hazards"`
 	Gaps     []Gap        `json:"coverage_gaps"`
 	Totals   Totals       `json:"totals"`
+	// Notes say what the check assumed or could not do (sound speed extrapolated outside the
+	// range of its equation, no age-uncertainty grid, …), one sentence each.
+	Notes []string `json:"notes,omitempty"`
 }

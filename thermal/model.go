@@ -22,8 +22,10 @@ type Model interface {
 	// IsothermDepthKm is the depth below the seafloor (km) where the
 	// temperature first reaches temperatureC; NaN when it is never reached.
 	IsothermDepthKm(temperatureC, ageMa float64) float64
-	// ThermalThicknessKm is the depth where the temperature reaches
-	// ThicknessFraction of the mantle temperature (0.9 by common practice).
+	// ThermalThicknessKm is the depth (km below the seafloor) where the
+	// temperature has risen by ThicknessFraction (0.9) of the excess of the
+	// mantle over the seafloor temperature: T = Ts + 0.9 (Tm − Ts). See
+	// ThicknessDefinition.
 	ThermalThicknessKm(ageMa float64) float64
 	// SubsidenceRateMPerMyr is dDepth/dAge in m/Myr.
 	SubsidenceRateMPerMyr(ageMa float64) float64

@@ -28,14 +28,26 @@ const (
 	// (T − Ts)/(Tm − Ts) that defines the thermal thickness of the
 	// lithosphere (0.9, common practice; Turcotte & Schubert §4.16).
 	ThicknessFraction = 0.9
+	// DiffusivityTolerance is how far (relative to k / (ρm · cp)) a given
+	// diffusivity may lie from the one the conductivity, density and heat
+	// capacity imply when all four are given: 5 %, enough for published sets
+	// that round κ (Parsons & Sclater's 8.0e-7 m²/s against 8.05e-7 from
+	// k, ρm and cp) and far below a mistyped value. Common practice, no source.
+	DiffusivityTolerance = 0.05
 )
+
+// ThicknessDefinition says in words what ThermalThicknessKm measures; help
+// texts and documents quote it.
+const ThicknessDefinition = "the depth below the seafloor where the temperature has risen by 90 % of the difference between mantle and seafloor temperature, T = Ts + 0.9 (Tm − Ts) (Turcotte & Schubert, Geodynamics, 2nd ed. 2002, §4.16, from memory)"
 
 // Params is a complete parameter set of a cooling model. It is the
 // JSON-serialisable form custom models are stored in.
 //
-// Either DiffusivityM2s or HeatCapacityJkgK must be set. When DiffusivityM2s
-// is positive it is used as is; otherwise the diffusivity is derived as
-// κ = k / (ρm · cp). See EffectiveDiffusivityM2s.
+// Either DiffusivityM2s or HeatCapacityJkgK must be set. When only the heat
+// capacity is given the diffusivity is derived as κ = k / (ρm · cp); when only
+// DiffusivityM2s is given it is used as is. When both are given they must agree:
+// a κ more than DiffusivityTolerance (5 %) away from k / (ρm · cp) is refused by
+// Validate, and within it the given κ is used. See EffectiveDiffusivityM2s.
 type Params struct {
 	ID   string `json:"id"`
 	Name string `json:"name"`
@@ -68,7 +80,8 @@ type Params struct {
 }
 
 // EffectiveDiffusivityM2s returns the thermal diffusivity the model uses
-// (m²/s): DiffusivityM2s when positive, else k / (ρm · cp).
+// (m²/s): DiffusivityM2s when positive (Validate has checked it agrees with
+// k / (ρm · cp) when cp is given too), else k / (ρm · cp).
 func (p Params) EffectiveDiffusivityM2s() float64 {
 	if p.DiffusivityM2s > 0 {
 		return p.DiffusivityM2s
@@ -135,9 +148,31 @@ func (r paramRange) check(v float64) error {
 // MaxParamTextLen is the longest ID, Name or Source accepted (characters).
 const MaxParamTextLen = 500
 
-// Validate checks every field and returns the first problem found as a
-// *ParamError (wrapping ErrInvalidParams) whose message names the field, its
-// value and the allowed range. Ranges:
+// ParamErrors are all the problems Validate found, in field order. errors.As
+// finds the first *ParamError in it, and errors.Is(err, ErrInvalidParams)
+// holds.
+type ParamErrors []*ParamError
+
+func (es ParamErrors) Error() string {
+	msgs := make([]string, len(es))
+	for i, e := range es {
+		msgs[i] = e.Msg
+	}
+	return strings.Join(msgs, "; ")
+}
+
+// Unwrap gives the single problems to errors.Is and errors.As.
+func (es ParamErrors) Unwrap() []error {
+	out := make([]error, len(es))
+	for i, e := range es {
+		out[i] = e
+	}
+	return out
+}
+
+// Validate checks every field and returns nil or ParamErrors naming every
+// problem found, each with its field, value and allowed range (so a request
+// with several bad values hears of all of them at once). Ranges:
 //
 //	kind                  "halfspace" or "plate"
 //	plate_thickness_km    20 to 300 for plate, 0 for halfspace
@@ -150,25 +185,33 @@ const MaxParamTextLen = 500
 //	mantle_density_kg_m3  2800 to 3600
 //	water_density_kg_m3   950 to 1100
 //	ridge_depth_m         0 to 6000
+//
+// When both diffusivity_m2_s and heat_capacity_j_kg_k are given, the
+// diffusivity must lie within DiffusivityTolerance of k / (ρm · cp).
 func (p Params) Validate() error {
+	var errs ParamErrors
+	add := func(err error) {
+		if err != nil {
+			errs = append(errs, err.(*ParamError))
+		}
+	}
 	for _, s := range []struct{ field, v string }{{"id", p.ID}, {"name", p.Name}, {"source", p.Source}} {
 		if len(s.v) > MaxParamTextLen {
-			return &ParamError{Field: s.field, Msg: fmt.Sprintf("%s is longer than %d characters", s.field, MaxParamTextLen)}
+			add(&ParamError{Field: s.field, Msg: fmt.Sprintf("%s is longer than %d characters", s.field, MaxParamTextLen)})
 		}
 	}
 	switch p.Kind {
 	case KindPlate:
-		if err := rangePlateKm.check(p.PlateThicknessKm); err != nil {
-			return err
-		}
+		add(rangePlateKm.check(p.PlateThicknessKm))
 	case KindHalfSpace:
 		if p.PlateThicknessKm != 0 {
-			return &ParamError{Field: "plate_thickness_km", Value: p.PlateThicknessKm,
-				Msg: fmt.Sprintf("plate_thickness_km = %g must be 0 for kind %q", p.PlateThicknessKm, KindHalfSpace)}
+			add(&ParamError{Field: "plate_thickness_km", Value: p.PlateThicknessKm,
+				Msg: fmt.Sprintf("plate_thickness_km = %g must be 0 for kind %q", p.PlateThicknessKm, KindHalfSpace)})
 		}
 	default:
-		return &ParamError{Field: "kind", Msg: fmt.Sprintf("kind %q is not one of %q or %q", p.Kind, KindHalfSpace, KindPlate)}
+		add(&ParamError{Field: "kind", Msg: fmt.Sprintf("kind %q is not one of %q or %q", p.Kind, KindHalfSpace, KindPlate)})
 	}
+	bad := map[string]bool{}
 	for _, c := range []struct {
 		r paramRange
 		v float64
@@ -184,16 +227,31 @@ func (p Params) Validate() error {
 		{rangeRidgeM, p.RidgeDepthM},
 	} {
 		if err := c.r.check(c.v); err != nil {
-			return err
+			bad[c.r.field] = true
+			add(err)
 		}
 	}
-	if p.DiffusivityM2s == 0 && p.HeatCapacityJkgK == 0 {
-		return &ParamError{Field: "diffusivity_m2_s", Msg: "either diffusivity_m2_s or heat_capacity_j_kg_k must be given"}
+	if len(errs) > 0 && (bad["conductivity_w_m_k"] || bad["mantle_density_kg_m3"] || bad["heat_capacity_j_kg_k"] || bad["diffusivity_m2_s"]) {
+		return errs // the diffusivity checks below need these in range
 	}
-	if k := p.EffectiveDiffusivityM2s(); rangeDiffusivity.check(k) != nil {
-		return &ParamError{Field: "heat_capacity_j_kg_k", Value: p.HeatCapacityJkgK, Msg: fmt.Sprintf(
+	derived := math.NaN()
+	if p.HeatCapacityJkgK > 0 {
+		derived = p.ConductivityWmK / (p.MantleDensityKgM3 * p.HeatCapacityJkgK)
+	}
+	switch {
+	case p.DiffusivityM2s == 0 && p.HeatCapacityJkgK == 0:
+		add(&ParamError{Field: "diffusivity_m2_s", Msg: "either diffusivity_m2_s or heat_capacity_j_kg_k must be given"})
+	case p.DiffusivityM2s == 0 && rangeDiffusivity.check(derived) != nil:
+		add(&ParamError{Field: "heat_capacity_j_kg_k", Value: p.HeatCapacityJkgK, Msg: fmt.Sprintf(
 			"the diffusivity derived from conductivity_w_m_k, mantle_density_kg_m3 and heat_capacity_j_kg_k is %.3g m²/s, outside the allowed range %g to %g m²/s",
-			k, rangeDiffusivity.min, rangeDiffusivity.max)}
+			derived, rangeDiffusivity.min, rangeDiffusivity.max)})
+	case p.DiffusivityM2s > 0 && p.HeatCapacityJkgK > 0 && math.Abs(p.DiffusivityM2s-derived) > DiffusivityTolerance*derived:
+		add(&ParamError{Field: "diffusivity_m2_s", Value: p.DiffusivityM2s, Msg: fmt.Sprintf(
+			"diffusivity_m2_s = %.4g differs by %.0f %% from conductivity_w_m_k / (mantle_density_kg_m3 · heat_capacity_j_kg_k) = %.4g m²/s; give one of the two, or values within %g %% of each other",
+			p.DiffusivityM2s, 100*math.Abs(p.DiffusivityM2s-derived)/derived, derived, 100*DiffusivityTolerance)})
+	}
+	if len(errs) > 0 {
+		return errs
 	}
 	return nil
 }

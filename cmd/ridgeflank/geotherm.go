@@ -6,8 +6,10 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"strconv"
 	"text/tabwriter"
 
+	"ridgeflank/evaluate"
 	"ridgeflank/thermal"
 )
 
@@ -18,12 +20,12 @@ var geothermCmd = &command{
 
 Prints the temperature (°C) at depths (km below the seafloor) 0, step, 2·step,
 … up to the maximum depth, for seafloor of the given age under the chosen
-cooling model, with the depths of the 600, 1100 and 1200 °C isotherms and of
-the thermal base (90 % of the mantle temperature).
+cooling model, with the depths of the 600, 1100 and 1200 °C isotherms and the
+thermal thickness: ` + thermal.ThicknessDefinition + `.
 
 The maximum depth defaults to the plate thickness for plate models and to
-150 km for half-space cooling. Limits: one age from 0 to 1000 Ma; at most
-10001 depth samples.
+` + strconv.FormatFloat(evaluate.HalfSpaceGeothermMaxKm, 'g', -1, 64) + ` km for half-space cooling, as in GET /api/models/{id}/geotherm.
+Limits: one age from 0 to ` + strconv.FormatFloat(evaluate.MaxAgeMa, 'g', -1, 64) + ` Ma; at most 10001 depth samples.
 
 Example: ridgeflank geotherm --model psm --age 50
 
@@ -35,9 +37,6 @@ func init() {
 	geothermCmd.Run = runGeotherm
 	register(geothermCmd)
 }
-
-// halfSpaceMaxKm is the default --max-km for half-space cooling.
-const halfSpaceMaxKm = 150.0
 
 func runGeotherm(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	fs := newFlags(geothermCmd)
@@ -66,10 +65,7 @@ func runGeotherm(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	}
 	p := m.Params()
 	if *maxKm == 0 {
-		*maxKm = halfSpaceMaxKm
-		if p.Kind == thermal.KindPlate {
-			*maxKm = p.PlateThicknessKm
-		}
+		*maxKm = evaluate.GeothermMaxKm(p)
 	}
 	samples, err := thermal.Geotherm(m, age, *step, *maxKm)
 	if err != nil {
@@ -111,12 +107,12 @@ type isotherms struct {
 	Depth600CKm  jsonNumber `json:"depth_600c_km"`
 	Depth1100CKm jsonNumber `json:"depth_1100c_km"`
 	Depth1200CKm jsonNumber `json:"depth_1200c_km"`
-	ThicknessKm  jsonNumber `json:"thickness_km"`
+	ThicknessKm  jsonNumber `json:"thermal_thickness_km"`
 }
 
 func writeGeothermTable(w io.Writer, m thermal.Model, age float64, iso isotherms, samples []thermal.GeothermSample) error {
 	fmt.Fprintln(w, modelLine(m))
-	fmt.Fprintf(w, "Age: %s Ma. Isotherm depths below the seafloor: 600 °C %s km, 1100 °C %s km, 1200 °C %s km; thermal base (0.9 of mantle temperature) %s km.\n",
+	fmt.Fprintf(w, "Age: %s Ma. Isotherm depths below the seafloor: 600 °C %s km, 1100 °C %s km, 1200 °C %s km; thermal thickness (Ts + 0.9 (Tm − Ts)) %s km.\n",
 		fmtNum(age, -1), fmtNum(float64(iso.Depth600CKm), 1), fmtNum(float64(iso.Depth1100CKm), 1),
 		fmtNum(float64(iso.Depth1200CKm), 1), fmtNum(float64(iso.ThicknessKm), 1))
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)

@@ -24,7 +24,7 @@ func TestGeothermJSON(t *testing.T) {
 			D600  float64 `json:"depth_600c_km"`
 			D1100 float64 `json:"depth_1100c_km"`
 			D1200 float64 `json:"depth_1200c_km"`
-			Thick float64 `json:"thickness_km"`
+			Thick float64 `json:"thermal_thickness_km"`
 		} `json:"isotherms"`
 		Geotherm []thermal.GeothermSample `json:"geotherm"`
 	}

@@ -12,6 +12,7 @@ import (
 	"strconv"
 	"strings"
 
+	"ridgeflank/evaluate"
 	"ridgeflank/thermal"
 )
 
@@ -20,9 +21,8 @@ const caution = "Caution: predicted depths and temperatures are model estimates,
 
 // CLI limits (documented in the commands' help).
 const (
-	maxAges     = 10000  // ages per predict call
-	maxAgeMa    = 1000.0 // older than any oceanic lithosphere by far
-	maxParamsKB = 64     // size of a --params file
+	maxAges     = 10000 // ages per predict call
+	maxParamsKB = 64    // size of a --params file
 )
 
 // modelFlags are the flags that choose a cooling model.
@@ -69,18 +69,16 @@ func (m *modelFlags) model() (thermal.Model, error) {
 	return mod, nil
 }
 
-// parseAge parses one age in Ma: a finite number from 0 to maxAgeMa.
+// parseAge parses one age in Ma: a finite number from 0 to evaluate.MaxAgeMa (checked by
+// evaluate.CheckAges, the rule the API applies too).
 func parseAge(s string) (float64, error) {
 	s = strings.TrimSpace(s)
 	v, err := strconv.ParseFloat(s, 64)
 	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
 		return 0, usagef("age %q is not a number of Ma", s)
 	}
-	if v < 0 {
-		return 0, usagef("age %s Ma is negative; ages count from the ridge at 0 Ma", s)
-	}
-	if v > maxAgeMa {
-		return 0, usagef("age %s Ma is above the limit of %g Ma", s, maxAgeMa)
+	if err := evaluate.CheckAges("age", v); err != nil {
+		return 0, err
 	}
 	return v, nil
 }

@@ -6,8 +6,11 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"strconv"
+	"strings"
 	"text/tabwriter"
 
+	"ridgeflank/evaluate"
 	"ridgeflank/thermal"
 )
 
@@ -17,13 +20,16 @@ var predictCmd = &command{
 	Usage: `Usage: ridgeflank predict --age LIST [--model ID | --params FILE] [--format table|csv|json]
 
 Predicts, for each seafloor age (Ma), the water depth (m), surface heat flow
-(mW/m²), thermal thickness of the lithosphere (km, where the temperature
-reaches 90 % of the mantle temperature), the depth of the 600 °C isotherm
-below the seafloor (km) and the subsidence rate (m/Myr), from the series
-solution of the chosen cooling model. At age 0 the heat flow and subsidence
-rate are infinite (printed as inf, or null in JSON).
+(mW/m²), thermal thickness of the lithosphere (km), the depth of the 600 °C
+isotherm below the seafloor (km) and the subsidence rate (m/Myr), from the
+series solution of the chosen cooling model. At age 0 the heat flow and
+subsidence rate are infinite (inf in the table, null in JSON, empty in CSV).
+CSV and JSON columns: ` + strings.Join(evaluate.CurveColumns, ", ") + ` (the
+names of GET /api/models/{id}/curve).
 
-Limits: ages from 0 to 1000 Ma, at most 10000 per call; a --params file of at
+Thermal thickness: ` + thermal.ThicknessDefinition + `.
+
+Limits: ages from 0 to ` + strconv.FormatFloat(evaluate.MaxAgeMa, 'g', -1, 64) + ` Ma, at most 10000 per call; a --params file of at
 most 64 KB holding the JSON parameter object (id, name, kind,
 plate_thickness_km, mantle_temperature_c, ...).
 
@@ -43,20 +49,9 @@ type prediction struct {
 	AgeMa                 jsonNumber `json:"age_ma"`
 	DepthM                jsonNumber `json:"depth_m"`
 	HeatFlowMWm2          jsonNumber `json:"heat_flow_mw_m2"`
-	ThicknessKm           jsonNumber `json:"thickness_km"`
+	ThicknessKm           jsonNumber `json:"thermal_thickness_km"`
 	Depth600CKm           jsonNumber `json:"depth_600c_km"`
 	SubsidenceRateMPerMyr jsonNumber `json:"subsidence_rate_m_per_myr"`
-}
-
-func predictRow(m thermal.Model, age float64) prediction {
-	return prediction{
-		AgeMa:                 jsonNumber(age),
-		DepthM:                jsonNumber(m.DepthM(age)),
-		HeatFlowMWm2:          jsonNumber(m.HeatFlowMWm2(age)),
-		ThicknessKm:           jsonNumber(m.ThermalThicknessKm(age)),
-		Depth600CKm:           jsonNumber(m.IsothermDepthKm(600, age)),
-		SubsidenceRateMPerMyr: jsonNumber(m.SubsidenceRateMPerMyr(age)),
-	}
 }
 
 func runPredict(ctx context.Context, args []string, stdout, stderr io.Writer) error {
@@ -79,12 +74,14 @@ func runPredict(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	if err != nil {
 		return err
 	}
+	depth, hf, thick, iso, rate, err := evaluate.Curve(ctx, m, "age", ages)
+	if err != nil {
+		return err
+	}
 	rows := make([]prediction, len(ages))
 	for i, a := range ages {
-		if err := ctx.Err(); err != nil {
-			return err
-		}
-		rows[i] = predictRow(m, a)
+		rows[i] = prediction{jsonNumber(a), jsonNumber(depth[i]), jsonNumber(hf[i]), jsonNumber(thick[i]),
+			jsonNumber(iso[i]), jsonNumber(rate[i])}
 	}
 	switch *format {
 	case "json":
@@ -109,11 +106,14 @@ func writePredictJSON(w io.Writer, m thermal.Model, rows []prediction) error {
 	}{m.Params(), caution, rows})
 }
 
-var predictHeader = []string{"age_ma", "depth_m", "heat_flow_mw_m2", "thickness_km", "depth_600c_km", "subsidence_rate_m_per_myr"}
-
-func (p prediction) fields(decimals []int) []string {
-	vals := []float64{float64(p.AgeMa), float64(p.DepthM), float64(p.HeatFlowMWm2),
+func (p prediction) values() []float64 {
+	return []float64{float64(p.AgeMa), float64(p.DepthM), float64(p.HeatFlowMWm2),
 		float64(p.ThicknessKm), float64(p.Depth600CKm), float64(p.SubsidenceRateMPerMyr)}
+}
+
+// fields formats a table row: the age as given ('g', shortest), the rest with decimals.
+func (p prediction) fields(decimals []int) []string {
+	vals := p.values()
 	out := make([]string, len(vals))
 	for i, v := range vals {
 		if i == 0 {
@@ -125,13 +125,19 @@ func (p prediction) fields(decimals []int) []string {
 	return out
 }
 
+// writePredictCSV writes the columns evaluate.CurveColumns, every number as the API's CSV
+// writes it (evaluate.FormatNumber: 7 significant digits, shortest form, empty when infinite).
 func writePredictCSV(w io.Writer, rows []prediction) error {
 	cw := csv.NewWriter(w)
-	if err := cw.Write(predictHeader); err != nil {
+	if err := cw.Write(evaluate.CurveColumns); err != nil {
 		return err
 	}
+	row := make([]string, len(evaluate.CurveColumns))
 	for _, r := range rows {
-		if err := cw.Write(r.fields([]int{0, 2, 3, 3, 3, 4})); err != nil {
+		for i, v := range r.values() {
+			row[i] = evaluate.FormatNumber(v)
+		}
+		if err := cw.Write(row); err != nil {
 			return err
 		}
 	}

@@ -21,7 +21,7 @@ type predictJSON struct {
 		AgeMa        float64  `json:"age_ma"`
 		DepthM       float64  `json:"depth_m"`
 		HeatFlowMWm2 *float64 `json:"heat_flow_mw_m2"`
-		ThicknessKm  float64  `json:"thickness_km"`
+		ThicknessKm  float64  `json:"thermal_thickness_km"`
 		Depth600CKm  float64  `json:"depth_600c_km"`
 		RateMPerMyr  *float64 `json:"subsidence_rate_m_per_myr"`
 	} `json:"predictions"`
@@ -53,7 +53,7 @@ func TestPredictJSON(t *testing.T) {
 	for _, p := range got.Predictions {
 		t.Run(fmt.Sprintf("%gMa", p.AgeMa), func(t *testing.T) {
 			within(t, "depth_m", p.DepthM, m.DepthM(p.AgeMa), 1e-9)
-			within(t, "thickness_km", p.ThicknessKm, m.ThermalThicknessKm(p.AgeMa), 1e-9)
+			within(t, "thermal_thickness_km", p.ThicknessKm, m.ThermalThicknessKm(p.AgeMa), 1e-9)
 			within(t, "depth_600c_km", p.Depth600CKm, m.IsothermDepthKm(600, p.AgeMa), 1e-9)
 			if p.AgeMa == 0 {
 				if p.HeatFlowMWm2 != nil || p.RateMPerMyr != nil {
@@ -82,7 +82,7 @@ func TestPredictCSV(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := []string{"age_ma", "depth_m", "heat_flow_mw_m2", "thickness_km", "depth_600c_km", "subsidence_rate_m_per_myr"}
+	want := []string{"age_ma", "depth_m", "heat_flow_mw_m2", "thermal_thickness_km", "depth_600c_km", "subsidence_rate_m_per_myr"}
 	if strings.Join(recs[0], ",") != strings.Join(want, ",") || len(recs) != 4 {
 		t.Fatalf("header %v, %d rows", recs[0], len(recs))
 	}
@@ -126,7 +126,8 @@ func TestPredictBadInput(t *testing.T) {
 		{"NaN age", []string{"--age", "NaN"}, "not a number"},
 		{"empty item", []string{"--age", "10,,20"}, "not a number"},
 		{"missing age", nil, "--age is required"},
-		{"too old", []string{"--age", "5000"}, "limit"},
+		{"too old", []string{"--age", "5000"}, "outside 0 to 400 Ma"},
+		{"older than the API allows", []string{"--age", "400.5"}, "outside 0 to 400 Ma"},
 		{"bad format", []string{"--age", "10", "--format", "xml"}, "format"},
 		{"too many ages", []string{"--age", strings.Repeat("1,", maxAges) + "1"}, "at most"},
 	} {

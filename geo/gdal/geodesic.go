@@ -42,6 +42,23 @@ func (Geodesic) Direct(lat1, lon1, azi1Deg, distM float64) (lat2, lon2 float64) 
 	return float64(r.v[0]), float64(r.v[1])
 }
 
+// DirectSteps writes the points at distances k0·stepM, (k0+1)·stepM, …, (k0+n−1)·stepM along
+// the geodesic leaving (lat1, lon1) at azimuth azi1Deg to dst as lat, lon pairs (degrees,
+// longitude in [−180, 180]; len(dst) ≥ 2n): Direct's answers, with the geodesic line set up
+// once (geod_lineinit, geod_position; Karney 2013) instead of once per point. It implements
+// geo.StepSolver, which geo.Densify uses.
+func (Geodesic) DirectSteps(lat1, lon1, azi1Deg, stepM float64, k0, n int, dst []float64) {
+	if n <= 0 {
+		return
+	}
+	if len(dst) < 2*n {
+		panic("gdal: DirectSteps: dst too short")
+	}
+	ensureInit()
+	C.rf_geod_steps(C.double(lat1), C.double(lon1), C.double(azi1Deg), C.double(stepM), C.int(k0), C.int(n),
+		(*C.double)(unsafe.Pointer(&dst[0])))
+}
+
 // MaxWaypoints bounds the points Waypoints returns for one leg (10⁷, i.e. 1000 km at 0.1 m).
 const MaxWaypoints = 10_000_000
 

@@ -241,6 +241,18 @@ rf_triple rf_geod_direct(double lat1, double lon1, double azi1, double s12) {
 	return r;
 }
 
+/* Points k0·step, (k0+1)·step, …, (k0+n−1)·step along the geodesic leaving (lat1, lon1) at
+   azimuth azi1, as lat,lon pairs in out (2n doubles): the line is set up once
+   (geod_lineinit) and each point placed with geod_position, the same arithmetic as
+   geod_direct without redoing the set-up per point. */
+void rf_geod_steps(double lat1, double lon1, double azi1, double step, int k0, int n, double *out) {
+	struct geod_geodesicline l;
+	geod_lineinit(&l, &rf_wgs84, lat1, lon1, azi1, GEOD_LATITUDE | GEOD_LONGITUDE | GEOD_DISTANCE_IN);
+	for (int i = 0; i < n; i++) {
+		geod_position(&l, (double)(k0 + i) * step, &out[2 * i], &out[2 * i + 1], NULL);
+	}
+}
+
 /* Points along the geodesic from (lat1, lon1) to (lat2, lon2) at distances 0, spacing,
    2·spacing, ... and the end point, as lat,lon pairs in out (capacity max_pts points).
    Returns the number of points, or −(needed) when out is too small. */

@@ -63,5 +63,6 @@ typedef struct {
 rf_triple rf_geod_inverse(double lat1, double lon1, double lat2, double lon2);
 rf_triple rf_geod_direct(double lat1, double lon1, double azi1, double s12);
 int rf_geod_line(double lat1, double lon1, double lat2, double lon2, double spacing, double *out, int max_pts, double *total);
+void rf_geod_steps(double lat1, double lon1, double azi1, double step, int k0, int n, double *out);
 
 #endif

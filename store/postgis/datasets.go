@@ -67,6 +67,9 @@ func (s *Store) CreateDataset(ctx context.Context, d store.Dataset) (store.Datas
 
 // GetDataset implements store.Store.
 func (s *Store) GetDataset(ctx context.Context, id string) (store.Dataset, error) {
+	if err := store.LookupID("dataset", id); err != nil {
+		return store.Dataset{}, err
+	}
 	return getByID(ctx, s, scanDataset, "dataset", id, `SELECT `+datasetCols+` FROM datasets WHERE id = $1`)
 }
 
@@ -77,6 +80,9 @@ func (s *Store) ListDatasets(ctx context.Context, p store.Page) ([]store.Dataset
 
 // UpdateDataset implements store.Store.
 func (s *Store) UpdateDataset(ctx context.Context, d store.Dataset) (store.Dataset, error) {
+	if err := store.LookupID("dataset", d.ID); err != nil {
+		return store.Dataset{}, err
+	}
 	if err := d.PrepareUpdate(); err != nil {
 		return store.Dataset{}, err
 	}
@@ -104,5 +110,8 @@ func (s *Store) UpdateDataset(ctx context.Context, d store.Dataset) (store.Datas
 
 // DeleteDataset implements store.Store.
 func (s *Store) DeleteDataset(ctx context.Context, id string, expectedVersion int64) error {
+	if err := store.LookupID("dataset", id); err != nil {
+		return err
+	}
 	return s.deleteVersioned(ctx, "datasets", "dataset", id, expectedVersion)
 }

@@ -51,6 +51,9 @@ func (s *Store) insertGrid(ctx context.Context, g store.Grid) (store.Grid, error
 
 // GetGrid implements store.Store.
 func (s *Store) GetGrid(ctx context.Context, id string) (store.Grid, error) {
+	if err := store.LookupID("grid", id); err != nil {
+		return store.Grid{}, err
+	}
 	return getByID(ctx, s, scanGrid, "grid", id, `SELECT `+gridCols+` FROM grids WHERE id = $1`)
 }
 
@@ -88,6 +91,9 @@ func (s *Store) ListGrids(ctx context.Context, f store.GridFilter) ([]store.Grid
 
 // DeleteGrid implements store.Store.
 func (s *Store) DeleteGrid(ctx context.Context, id string) error {
+	if err := store.LookupID("grid", id); err != nil {
+		return err
+	}
 	var path string
 	err := s.pool.QueryRow(ctx, `DELETE FROM grids WHERE id = $1 RETURNING path`, id).Scan(&path)
 	if errors.Is(err, pgx.ErrNoRows) {

@@ -40,6 +40,9 @@ func (s *Store) CreateModel(ctx context.Context, m store.Model) (store.Model, er
 
 // GetModel implements store.Store.
 func (s *Store) GetModel(ctx context.Context, id string) (store.Model, error) {
+	if err := store.LookupID("model", id); err != nil {
+		return store.Model{}, err
+	}
 	return getByID(ctx, s, scanModel, "model", id, `SELECT `+modelCols+` FROM custom_models WHERE id = $1`)
 }
 
@@ -50,6 +53,9 @@ func (s *Store) ListModels(ctx context.Context, p store.Page) ([]store.Model, er
 
 // UpdateModel implements store.Store.
 func (s *Store) UpdateModel(ctx context.Context, m store.Model) (store.Model, error) {
+	if err := store.LookupID("model", m.ID); err != nil {
+		return store.Model{}, err
+	}
 	if err := m.PrepareUpdate(); err != nil {
 		return store.Model{}, err
 	}
@@ -69,5 +75,8 @@ func (s *Store) UpdateModel(ctx context.Context, m store.Model) (store.Model, er
 
 // DeleteModel implements store.Store.
 func (s *Store) DeleteModel(ctx context.Context, id string, expectedVersion int64) error {
+	if err := store.LookupID("model", id); err != nil {
+		return err
+	}
 	return s.deleteVersioned(ctx, "custom_models", "model", id, expectedVersion)
 }

@@ -50,12 +50,18 @@ func (s *Store) CreateRegion(ctx context.Context, r store.Region) (store.Region,
 
 // GetRegion implements store.Store.
 func (s *Store) GetRegion(ctx context.Context, id string) (store.Region, error) {
+	if err := store.LookupID("region", id); err != nil {
+		return store.Region{}, err
+	}
 	return getByID(ctx, s, scanRegion, "region", id, `SELECT `+regionCols+` FROM regions WHERE id = $1`)
 }
 
 // UpdateRegion implements store.Store. The conditional UPDATE is atomic: of several writers
 // holding the same version, the first to commit wins and the others match no row.
 func (s *Store) UpdateRegion(ctx context.Context, r store.Region) (store.Region, error) {
+	if err := store.LookupID("region", r.ID); err != nil {
+		return store.Region{}, err
+	}
 	if err := r.PrepareUpdate(); err != nil {
 		return store.Region{}, err
 	}
@@ -80,6 +86,9 @@ func (s *Store) UpdateRegion(ctx context.Context, r store.Region) (store.Region,
 
 // DeleteRegion implements store.Store.
 func (s *Store) DeleteRegion(ctx context.Context, id string, expectedVersion int64) error {
+	if err := store.LookupID("region", id); err != nil {
+		return err
+	}
 	return s.deleteVersioned(ctx, "regions", "region", id, expectedVersion)
 }
 

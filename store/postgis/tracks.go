@@ -50,6 +50,9 @@ func (s *Store) CreateTrack(ctx context.Context, t store.Track) (store.Track, er
 
 // GetTrack implements store.Store.
 func (s *Store) GetTrack(ctx context.Context, id string) (store.Track, error) {
+	if err := store.LookupID("track", id); err != nil {
+		return store.Track{}, err
+	}
 	return getByID(ctx, s, scanTrack, "track", id, `SELECT `+trackCols+` FROM tracks WHERE id = $1`)
 }
 
@@ -60,6 +63,9 @@ func (s *Store) ListTracks(ctx context.Context, p store.Page) ([]store.Track, er
 
 // UpdateTrack implements store.Store.
 func (s *Store) UpdateTrack(ctx context.Context, t store.Track) (store.Track, error) {
+	if err := store.LookupID("track", t.ID); err != nil {
+		return store.Track{}, err
+	}
 	if err := t.PrepareUpdate(); err != nil {
 		return store.Track{}, err
 	}
@@ -84,5 +90,8 @@ func (s *Store) UpdateTrack(ctx context.Context, t store.Track) (store.Track, er
 
 // DeleteTrack implements store.Store.
 func (s *Store) DeleteTrack(ctx context.Context, id string, expectedVersion int64) error {
+	if err := store.LookupID("track", id); err != nil {
+		return err
+	}
 	return s.deleteVersioned(ctx, "tracks", "track", id, expectedVersion)
 }
