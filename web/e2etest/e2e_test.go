@@ -84,12 +84,6 @@ type testServer struct {
 // temporary directory, with the synthetic demo basin when demo is true.
 func startServer(t *testing.T, demo bool) *testServer {
 	t.Helper()
-	return startServerWith(t, demo, nil)
-}
-
-// startServerWith is startServer with the handler wrapped by wrap (nil: as it is).
-func startServerWith(t *testing.T, demo bool, wrap func(http.Handler) http.Handler) *testServer {
-	t.Helper()
 	ctx := context.Background()
 	dataDir := t.TempDir()
 	st, err := store.Open(ctx, store.Config{DataDir: dataDir})
@@ -138,11 +132,7 @@ func startServerWith(t *testing.T, demo bool, wrap func(http.Handler) http.Handl
 		Version: "e2e",
 		Config:  server.Config{RateLimitPerMinute: -1, UploadDir: filepath.Join(dataDir, "uploads")},
 	})
-	var handler http.Handler = h
-	if wrap != nil {
-		handler = wrap(h)
-	}
-	hs := httptest.NewServer(handler)
+	hs := httptest.NewServer(h)
 	t.Cleanup(hs.Close)
 	ts.URL = hs.URL
 	return ts
