@@ -141,6 +141,15 @@ func TestPagePlanSaveAndCheck(t *testing.T) {
 	if d := eval[string](b, `document.body.dataset.planDownload`); res.StatusCode != http.StatusOK || len(csvBody) == 0 || d != fmt.Sprintf("csv:%d", len(csvBody)) {
 		t.Errorf("download %s, the service's CSV of the same body is %d bytes (HTTP %d)", d, len(csvBody), res.StatusCode)
 	}
+	// The GeoJSON and the PDF report come from the same POST with f=geojson and f=pdf.
+	for _, f := range []string{"geojson", "pdf"} {
+		b.do(5*time.Second, chromedp.Click(chromedp.CSS("#plan-dl-"+f)))
+		b.waitFor("the "+f+" download", fmt.Sprintf(`(document.body.dataset.planDownload || "").startsWith(%q)`, f+":"), 60*time.Second)
+		var size int
+		if _, err := fmt.Sscanf(eval[string](b, `document.body.dataset.planDownload`), f+":%d", &size); err != nil || size < 100 {
+			t.Errorf("%s download of %d bytes (%v)", f, size, err)
+		}
+	}
 	// An edit after the check marks the panel stale.
 	b.do(5*time.Second, chromedp.Evaluate[chromedp.Void](`window.ridgeflank.plans.planMap.insertVertex(0, 1, {lat: -22.5, lon: -128})`))
 	if st := eval[string](b, `document.getElementById("plan-check-panel").dataset.stale`); st != "true" {
