@@ -45,11 +45,13 @@ const notices = [
   ["uplot", "charts"],
   ["topojson-client", "TopoJSON decoding"],
   ["world-atlas", "Natural Earth land outline (the data itself is public domain)"],
+  ["geographiclib-geodesic", "WGS84 geodesics for drawing survey lines"],
 ];
 let text = "Third-party software and data bundled in this page\n\n";
 for (const [pkg, use] of notices) {
   const meta = JSON.parse(await readFile(join(root, "node_modules", pkg, "package.json"), "utf8"));
-  const licence = await readFile(join(root, "node_modules", pkg, "LICENSE"), "utf8");
+  const dir = join(root, "node_modules", pkg);
+  const licence = await readFile(join(dir, "LICENSE"), "utf8").catch(() => readFile(join(dir, "LICENSE.txt"), "utf8"));
   text += `== ${pkg} ${meta.version} (${meta.license}); used for: ${use}\n\n${licence.trim()}\n\n`;
 }
 await writeFile(join(dist, "THIRD-PARTY-NOTICES.txt"), text);

@@ -8,6 +8,7 @@
 //   that vertex (a polygon keeps at least three, a line at least two).
 
 import L from "leaflet";
+import { mapParts } from "./geodesic.js";
 
 const HANDLE = () => L.divIcon({ className: "vertex-handle", iconSize: [12, 12] });
 
@@ -38,8 +39,8 @@ export class Drawer {
     const shape =
       kind === "polygon"
         ? L.polygon([], { pane: "drawing", color: colour, weight: 2, dashArray: "5 4", fillOpacity: 0.12, interactive: false })
-        : L.polyline([], { pane: "drawing", color: colour, weight: 2.5, dashArray: "5 4", interactive: false });
-    const rubber = L.polyline([], { pane: "drawing", color: colour, weight: 1.5, opacity: 0.7, interactive: false });
+        : L.polyline([], { pane: "drawing", color: colour, weight: 2.5, dashArray: "5 4", interactive: false, smoothFactor: 0 });
+    const rubber = L.polyline([], { pane: "drawing", color: colour, weight: 1.5, opacity: 0.7, interactive: false, smoothFactor: 0 });
     const dots = L.layerGroup();
     shape.addTo(map);
     rubber.addTo(map);
@@ -52,8 +53,11 @@ export class Drawer {
     let resolveFn;
     const promise = new Promise((r) => (resolveFn = r));
 
+    // A line is drawn as the WGS84 geodesics the service samples, not as
+    // straight Mercator segments.
+    const geodesic = (latlngs) => (kind === "polygon" ? latlngs : mapParts(latlngs, { zoom: map.getMaxZoom() }));
     const refresh = () => {
-      shape.setLatLngs(pts);
+      shape.setLatLngs(geodesic(pts));
       dots.clearLayers();
       for (const p of pts) dots.addLayer(L.circleMarker(p, { pane: "drawing", radius: 4, color: colour, weight: 2, fillColor: "#fff", fillOpacity: 1, interactive: false }));
       document.body.dataset.drawVertices = String(pts.length);
@@ -63,7 +67,7 @@ export class Drawer {
       refresh();
     };
     const onMove = (e) => {
-      if (pts.length) rubber.setLatLngs(kind === "polygon" && pts.length > 1 ? [pts[pts.length - 1], e.latlng, pts[0]] : [pts[pts.length - 1], e.latlng]);
+      if (pts.length) rubber.setLatLngs(kind === "polygon" && pts.length > 1 ? [pts[pts.length - 1], e.latlng, pts[0]] : geodesic([pts[pts.length - 1], e.latlng]));
     };
     const finish = () => {
       // A double-click also delivered two clicks at (nearly) one place.

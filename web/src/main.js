@@ -14,6 +14,7 @@ import { Readout } from "./readout.js";
 import { Drawer } from "./draw.js";
 import { RegionsPanel } from "./regions.js";
 import { TracksPanel } from "./tracks.js";
+import { PlansPanel } from "./plans.js";
 import { JobsPanel } from "./jobs.js";
 import { mapToCanvas, downloadCanvas } from "./snapshot.js";
 import { askForToken, getToken, setToken } from "./token.js";
@@ -33,6 +34,7 @@ const drawer = new Drawer(map);
 const readout = new Readout(map, $("readout"), { isBusy: () => drawer.drawing || Boolean(regions?.editor) });
 const regions = new RegionsPanel(map, drawer);
 const tracks = new TracksPanel(map, drawer);
+const plans = new PlansPanel(map, drawer);
 new JobsPanel({ onDatasetCreated: (id) => messages.guard(() => loadCollections(id)) });
 let scales = new Map();
 
@@ -204,9 +206,9 @@ $("snapshot").addEventListener("click", () =>
 );
 
 // A small scripting surface for tests and power users: the Leaflet map, the
-// track panel (its layer holds the drawn track) and
+// track panel (its layer holds the drawn track), the plan panel and
 // the map snapshot as a PNG data URL.
-window.ridgeflank = { map, state, tracks, snapshotDataURL: () => snapshotCanvas().toDataURL("image/png") };
+window.ridgeflank = { map, state, tracks, plans, snapshotDataURL: () => snapshotCanvas().toDataURL("image/png") };
 
 // ---- start ---------------------------------------------------------------
 
@@ -220,6 +222,7 @@ async function start() {
   regions.fillParameters();
   redraw();
   await messages.guard(() => regions.load());
+  await plans.list().catch((err) => ($("plan-status").textContent = err.message));
   await land0;
 }
 

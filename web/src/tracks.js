@@ -143,7 +143,7 @@ export class TracksPanel {
   /** showOnMap draws the sampled track and its named waypoints. */
   showOnMap(p) {
     this.layer.clearLayers();
-    for (const part of splitAtAntimeridian(p.positions)) L.polyline(part, { color: "#006d77", weight: 3, className: "track-line" }).addTo(this.layer);
+    for (const part of splitAtAntimeridian(p.positions)) L.polyline(part, { color: "#006d77", weight: 3, className: "track-line", smoothFactor: 0 }).addTo(this.layer);
     for (const w of p.waypoints) {
       const m = L.circleMarker([w.lat, w.lon], { radius: 5, color: "#003c43", weight: 2, fillColor: "#ffffff", fillOpacity: 1, className: "track-waypoint" });
       m.bindTooltip(w.name, { permanent: true, direction: "right", offset: [6, 0], className: "waypoint-tooltip" });
