@@ -70,6 +70,15 @@ const (
 	FractureZoneWidthKm = 12.0
 )
 
+// Age uncertainty (1σ, Ma), invented for the demo: AgeSigmaBaseMa + AgeSigmaFraction·age, plus
+// AgeSigmaFractureZoneMa·exp(−(d/W)²) across each fracture zone (W = FractureZoneWidthKm), where
+// the picks of an age model are least certain.
+const (
+	AgeSigmaBaseMa         = 0.3
+	AgeSigmaFraction       = 0.04
+	AgeSigmaFractureZoneMa = 4.0
+)
+
 // Sediment thickness: pelagic sediment accumulating at PelagicRateMPerMyr with age, plus a wedge
 // thinning westwards from the invented Quillon margin along the east edge (lon −120):
 // MarginSedimentM·exp(−d/MarginDecayKm), d the distance from the margin.
@@ -149,6 +158,8 @@ type Basin struct {
 	Elevation *geo.Grid
 	// Sediment is sediment thickness, m.
 	Sediment *geo.Grid
+	// AgeSigma is the 1σ uncertainty of Age, Ma (see AgeSigmaBaseMa).
+	AgeSigma *geo.Grid
 }
 
 // ElevationSense is the vertical sense of Basin.Elevation.
@@ -216,7 +227,7 @@ func Generate(opt Options) (*Basin, error) {
 		return nil, err
 	}
 	mk := func() *geo.Grid { return geo.NewGrid(nx, ny, WestLon+d/2, NorthLat-d/2, d, d, geo.CellCentre) }
-	b := &Basin{Seed: opt.Seed, CellDeg: d, NoiseStdM: opt.NoiseStdM, Age: mk(), Elevation: mk(), Sediment: mk()}
+	b := &Basin{Seed: opt.Seed, CellDeg: d, NoiseStdM: opt.NoiseStdM, Age: mk(), Elevation: mk(), Sediment: mk(), AgeSigma: mk()}
 
 	transforms := TransformLats()
 	var next int
@@ -245,10 +256,12 @@ func Generate(opt Options) (*Basin, error) {
 					ages[c] = float32(ageAt(b.Age.Lon(c), lat, seg))
 				}
 				tbl.DepthsM(ages, depth)
-				var fz float64
+				var fz, fzSigma float64
 				for _, tl := range transforms {
 					dk := (lat - tl) * math.Pi / 180 * EarthRadiusKm
-					fz += FractureZoneTroughM * math.Exp(-(dk*dk)/(FractureZoneWidthKm*FractureZoneWidthKm))
+					w := math.Exp(-(dk * dk) / (FractureZoneWidthKm * FractureZoneWidthKm))
+					fz += FractureZoneTroughM * w
+					fzSigma += AgeSigmaFractureZoneMa * w
 				}
 				for c := 0; c < nx; c++ {
 					lon := b.Age.Lon(c)
@@ -258,6 +271,11 @@ func Generate(opt Options) (*Basin, error) {
 					unloaded := float64(depth[c]) - Relief(lon, lat) + fz + opt.NoiseStdM*rng.NormFloat64()
 					observed := unloaded - sc.CorrectionM(sed)
 					b.Sediment.Data[i] = float32(sed)
+					if math.IsNaN(age) {
+						b.AgeSigma.Data[i] = float32(math.NaN())
+					} else {
+						b.AgeSigma.Data[i] = float32(AgeSigmaBaseMa + AgeSigmaFraction*age + fzSigma)
+					}
 					b.Elevation.Data[i] = float32(-observed)
 				}
 			}
@@ -328,12 +346,12 @@ func ageAt(lon, lat float64, s RidgeSegment) float64 {
 	return distToMeridianKm(lon, lat, s.Lon) / rate // km / (km/Myr) = Myr
 }
 
-// Hash returns the SHA-256 (hex) of the three grids' lattices and values: equal for equal
+// Hash returns the SHA-256 (hex) of the four grids' lattices and values: equal for equal
 // seeds and options.
 func (b *Basin) Hash() string {
 	h := sha256.New()
 	var buf [8]byte
-	for _, g := range []*geo.Grid{b.Age, b.Elevation, b.Sediment} {
+	for _, g := range []*geo.Grid{b.Age, b.Elevation, b.Sediment, b.AgeSigma} {
 		for _, v := range []float64{float64(g.NX), float64(g.NY), g.West, g.North, g.DX, g.DY, float64(g.Registration)} {
 			binary.LittleEndian.PutUint64(buf[:], math.Float64bits(v))
 			h.Write(buf[:])

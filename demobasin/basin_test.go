@@ -313,3 +313,43 @@ func ExampleGenerate() {
 	fmt.Printf("%s: %d × %d cells of %g°, elevation stored as %s\n", Title, b.Age.NX, b.Age.NY, b.CellDeg, ElevationSense)
 	// Output: Quillon Basin (SYNTHETIC): 600 × 500 cells of 0.05°, elevation stored as elevation
 }
+
+// TestAgeSigma: the invented age uncertainty follows its documented rule (AgeSigmaBaseMa +
+// AgeSigmaFraction·age away from fracture zones) and is largest across a fracture zone, so the
+// demo shows uncertainty bands that widen where the age picks are least certain.
+func TestAgeSigma(t *testing.T) {
+	b := basin(t)
+	g, a := b.AgeSigma, b.Age
+	tl := TransformLats()
+	var onFZ, offFZ float64
+	for r := 0; r < g.NY; r++ {
+		lat := g.Lat(r)
+		near := math.Inf(1)
+		for _, l := range tl {
+			near = math.Min(near, math.Abs(lat-l)*math.Pi/180*EarthRadiusKm)
+		}
+		for c := 0; c < g.NX; c += 7 {
+			i := r*g.NX + c
+			age, sig := float64(a.Data[i]), float64(g.Data[i])
+			if math.IsNaN(age) != math.IsNaN(sig) {
+				t.Fatalf("cell %d: age %g but sigma %g: both or neither must be missing", i, age, sig)
+			}
+			if math.IsNaN(age) {
+				continue
+			}
+			if near > 6*FractureZoneWidthKm {
+				want := AgeSigmaBaseMa + AgeSigmaFraction*age
+				if math.Abs(sig-want) > 1e-3 { // float32 storage; the fracture-zone term is < 1e-15 Ma here
+					t.Fatalf("lat %g age %g: sigma %g, want %g", lat, age, sig, want)
+				}
+				offFZ = math.Max(offFZ, sig-AgeSigmaFraction*age)
+			}
+			if near < FractureZoneWidthKm/4 {
+				onFZ = math.Max(onFZ, sig-AgeSigmaFraction*age)
+			}
+		}
+	}
+	if !(onFZ > offFZ+0.8*AgeSigmaFractureZoneMa) {
+		t.Errorf("sigma beyond the age term: %g on a fracture zone, %g away; want the zone %g Ma higher", onFZ, offFZ, AgeSigmaFractureZoneMa)
+	}
+}

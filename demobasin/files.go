@@ -51,6 +51,10 @@ func (b *Basin) Layers() []Layer {
 			Name: "synthetic_sediment_thickness", LongName: "sediment thickness (SYNTHETIC)", Units: "m",
 			Title: Title + " sediment thickness", Source: src, Metadata: md("sediment thickness, m"),
 		}},
+		{Key: "age_uncertainty", Grid: b.AgeSigma, Meta: gdal.Meta{
+			Name: "synthetic_age_uncertainty", LongName: "seafloor age uncertainty, 1 sigma (SYNTHETIC)", Units: "Ma",
+			Title: Title + " seafloor age uncertainty", Source: src, Metadata: md("seafloor age uncertainty (1 sigma), Ma"),
+		}},
 	}
 }
 
@@ -101,6 +105,7 @@ func (b *Basin) Readme() string {
 	line("Depth: GDH1 plate model (Stein & Stein 1992) from age, minus a %g m swell (radius %g km) at %g, %g,", SwellAmplitudeM, SwellRadiusKm, SwellCentreLon, SwellCentreLat)
 	line("minus %d seamounts, plus %g m fracture-zone troughs and %g m noise, then loaded by sediment (Sclater & Christie 1980 shale).", len(seamounts), FractureZoneTroughM, b.NoiseStdM)
 	line("Sediment: %g m/Myr with age plus a wedge of %g m thinning west from an invented margin at %g E.", PelagicRateMPerMyr, MarginSedimentM, MarginLon)
+	line("Age uncertainty (1 sigma): %g Ma + %g × age, plus up to %g Ma across each fracture zone.", AgeSigmaBaseMa, AgeSigmaFraction, AgeSigmaFractureZoneMa)
 	line("Elevation is stored positive UP (negative below sea level); age in Ma; sediment thickness in m.")
 	return s.String()
 }

@@ -38,7 +38,7 @@ const RegionRadiusKm = 1.8 * SwellRadiusKm
 // with the same content, and an existing dataset, region, track and plan are kept (the dataset is
 // pointed at this basin's grids if it named others). It returns the dataset id.
 func Install(ctx context.Context, st store.Store, b *Basin) (string, error) {
-	kinds := map[string]store.GridKind{"age": store.KindAge, "elevation": store.KindElevation, "sediment_thickness": store.KindSedimentThickness}
+	kinds := map[string]store.GridKind{"age": store.KindAge, "elevation": store.KindElevation, "sediment_thickness": store.KindSedimentThickness, "age_uncertainty": store.KindAgeUncertainty}
 	tmp, err := os.MkdirTemp("", "ridgeflank-demo-*")
 	if err != nil {
 		return "", fmt.Errorf("install: %w", err)
@@ -63,10 +63,11 @@ func Install(ctx context.Context, st store.Store, b *Basin) (string, error) {
 
 	ds := store.Dataset{
 		ID: DatasetID, Name: Title,
-		Description:    Caution + " Residual-depth demo: age, elevation (positive up) and sediment thickness.",
-		AgeGridID:      ids["age"],
-		DepthGridID:    ids["elevation"],
-		SedimentGridID: ids["sediment_thickness"],
+		Description:          Caution + " Residual-depth demo: age (with its uncertainty), elevation (positive up) and sediment thickness.",
+		AgeGridID:            ids["age"],
+		DepthGridID:          ids["elevation"],
+		SedimentGridID:       ids["sediment_thickness"],
+		AgeUncertaintyGridID: ids["age_uncertainty"],
 	}
 	old, err := st.GetDataset(ctx, DatasetID)
 	switch {
@@ -76,9 +77,10 @@ func Install(ctx context.Context, st store.Store, b *Basin) (string, error) {
 		}
 	case err != nil:
 		return "", fmt.Errorf("read dataset: %w", err)
-	case old.AgeGridID != ds.AgeGridID || old.DepthGridID != ds.DepthGridID || old.SedimentGridID != ds.SedimentGridID:
+	case old.AgeGridID != ds.AgeGridID || old.DepthGridID != ds.DepthGridID || old.SedimentGridID != ds.SedimentGridID ||
+		old.AgeUncertaintyGridID != ds.AgeUncertaintyGridID:
 		ds.Version = old.Version
-		ds.CrustGridID, ds.AgeUncertaintyGridID = old.CrustGridID, old.AgeUncertaintyGridID
+		ds.CrustGridID = old.CrustGridID
 		if _, err := st.UpdateDataset(ctx, ds); err != nil {
 			return "", fmt.Errorf("update dataset: %w", err)
 		}

@@ -31,7 +31,7 @@ func TestWriteFilesRoundTrip(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(paths) != 5 {
+	if len(paths) != 6 {
 		t.Fatalf("wrote %v, want 3 COGs, a netCDF and a README", paths)
 	}
 	for _, p := range paths {
@@ -249,8 +249,8 @@ func TestInstall(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if len(grids) != 3 {
-			t.Fatalf("%d grids after two installs, want 3", len(grids))
+		if len(grids) != 4 {
+			t.Fatalf("%d grids after two installs, want 4", len(grids))
 		}
 	})
 	t.Run("another seed repoints the dataset", func(t *testing.T) {
