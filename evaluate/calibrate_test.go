@@ -100,7 +100,7 @@ func TestCalibrateDataset(t *testing.T) {
 	var fr []float64
 	// The base is gdh1 (its α and other fixed values), the free ones started far off.
 	c, err := s.Calibrate(ctx, CalibrateRequest{DatasetID: "synthetic", Geometry: []byte(calibrationPolygon),
-		Free: []string{CalPlateThickness, CalMantleTemperature, CalRidgeDepth},
+		Free:  []string{CalPlateThickness, CalMantleTemperature, CalRidgeDepth},
 		Start: map[string]float64{CalPlateThickness: 125, CalMantleTemperature: 1350, CalRidgeDepth: 2500}, Bootstrap: &boot, SaveAs: "fitted-gdh1"},
 		func(f float64) { fr = append(fr, f) })
 	if err != nil {
