@@ -332,16 +332,14 @@ func (b *bins) sse(m depthFunc) float64 {
 
 // fitter holds one calibration's samples and scratch.
 type fitter struct {
-	fam      *family
-	s        *CalSamples
-	sqrtMax  float64
-	binOf    []int32
-	resid    []float64
-	order    []int
-	nodes    []float64
-	nodeD    []float64
-	b        *bins
-	progress func(float64)
+	fam     *family
+	s       *CalSamples
+	sqrtMax float64
+	binOf   []int32
+	resid   []float64
+	nodes   []float64
+	nodeD   []float64
+	b       *bins
 }
 
 func newFitter(fam *family, s *CalSamples) *fitter {

@@ -89,42 +89,11 @@ func (s *Service) Calibrate(ctx context.Context, req CalibrateRequest, progress 
 	if progress == nil {
 		progress = func(float64) {}
 	}
-	if req.Family == "" {
-		req.Family = FamilyPlate
-	}
-	spec, base, err := s.calibrationSpec(ctx, req)
+	cp, err := s.prepareCalibration(ctx, req)
 	if err != nil {
 		return nil, err
 	}
-	if req.SaveAs != "" {
-		if req.Family != FamilyPlate {
-			return nil, fault.New(fault.InvalidParameter, "save_as", "only a plate fit can be saved as a model: the %s curve gives depth alone, no temperature or heat flow", req.Family)
-		}
-		if err := s.checkNewModelID(ctx, req.SaveAs); err != nil {
-			return nil, err
-		}
-	}
-	if req.MinAgeMa < 0 || req.MaxAgeMa < 0 || math.IsNaN(req.MinAgeMa) || math.IsNaN(req.MaxAgeMa) || (req.MaxAgeMa > 0 && req.MaxAgeMa <= req.MinAgeMa) {
-		return nil, fault.New(fault.InvalidParameter, "max_age_ma", "min_age_ma=%g and max_age_ma=%g must satisfy 0 ≤ min < max (max 0: no limit)", req.MinAgeMa, req.MaxAgeMa)
-	}
-	var r geo.PreparedRegion
-	switch {
-	case (req.RegionID == "") == (len(req.Geometry) == 0):
-		return nil, fault.New(fault.InvalidParameter, "region_id", "give either region_id (a stored region) or geometry (a GeoJSON polygon), not both or neither")
-	case req.RegionID != "":
-		if _, r, err = s.storedRegion(ctx, req.RegionID); err != nil {
-			return nil, err
-		}
-	default:
-		if r, err = s.PrepareRegionGeoJSON(req.Geometry, "geometry"); err != nil {
-			return nil, err
-		}
-	}
-	o := Options{Model: base, Sediment: req.Sediment, Parameters: []string{PSeafloorAge, PCorrectedDepth}}
-	q, err := s.load(ctx, req.DatasetID, o)
-	if err != nil {
-		return nil, err
-	}
+	req, spec, base, q, r := cp.req, cp.spec, cp.base, cp.q, cp.r
 	samples, err := s.calibrationSamples(ctx, q, r, req, func(f float64) { progress(0.5 * f) })
 	if err != nil {
 		return nil, err
@@ -163,6 +132,68 @@ func (s *Service) Calibrate(ctx context.Context, req CalibrateRequest, progress 
 	}
 	progress(1)
 	return c, nil
+}
+
+// calibrationPlan is a calibration request checked and resolved (no grid read yet).
+type calibrationPlan struct {
+	req  CalibrateRequest
+	spec FitSpec
+	base string
+	q    *Query
+	r    geo.PreparedRegion
+}
+
+// CheckCalibration checks req as Calibrate does before it reads any grid (for answering a
+// bad request at once rather than from a job).
+func (s *Service) CheckCalibration(ctx context.Context, req CalibrateRequest) error {
+	_, err := s.prepareCalibration(ctx, req)
+	return err
+}
+
+func (s *Service) prepareCalibration(ctx context.Context, req CalibrateRequest) (*calibrationPlan, error) {
+	if req.Family == "" {
+		req.Family = FamilyPlate
+	}
+	spec, base, err := s.calibrationSpec(ctx, req)
+	if err != nil {
+		return nil, err
+	}
+	if req.SaveAs != "" {
+		if req.Family != FamilyPlate {
+			return nil, fault.New(fault.InvalidParameter, "save_as", "only a plate fit can be saved as a model: the %s curve gives depth alone, no temperature or heat flow", req.Family)
+		}
+		if err := s.checkNewModelID(ctx, req.SaveAs); err != nil {
+			return nil, err
+		}
+	}
+	if req.MinAgeMa < 0 || req.MaxAgeMa < 0 || math.IsNaN(req.MinAgeMa) || math.IsNaN(req.MaxAgeMa) || (req.MaxAgeMa > 0 && req.MaxAgeMa <= req.MinAgeMa) {
+		return nil, fault.New(fault.InvalidParameter, "max_age_ma", "min_age_ma=%g and max_age_ma=%g must satisfy 0 ≤ min < max (max 0: no limit)", req.MinAgeMa, req.MaxAgeMa)
+	}
+	if res := req.ResolutionDeg; math.IsNaN(res) || res < 0 || res > 10 {
+		return nil, fault.New(fault.InvalidParameter, "resolution_deg", "resolution_deg=%g must lie between 0 (the grid's own) and 10 degrees", res)
+	}
+	var r geo.PreparedRegion
+	switch {
+	case (req.RegionID == "") == (len(req.Geometry) == 0):
+		return nil, fault.New(fault.InvalidParameter, "region_id", "give either region_id (a stored region) or geometry (a GeoJSON polygon), not both or neither")
+	case req.RegionID != "":
+		if _, r, err = s.storedRegion(ctx, req.RegionID); err != nil {
+			return nil, err
+		}
+	default:
+		if r, err = s.PrepareRegionGeoJSON(req.Geometry, "geometry"); err != nil {
+			return nil, err
+		}
+	}
+	o := Options{Model: base, Sediment: req.Sediment, Parameters: []string{PSeafloorAge, PCorrectedDepth}}
+	q, err := s.load(ctx, req.DatasetID, o)
+	if err != nil {
+		return nil, err
+	}
+	if !q.Dataset.HasDepth {
+		return nil, fault.New(fault.NoData, "", "dataset %q has no depth grid: a calibration needs observed depths", q.Dataset.Row.ID)
+	}
+	return &calibrationPlan{req: req, spec: spec, base: base, q: q, r: r}, nil
 }
 
 // provenanceText says where a calibrated model comes from, in one line (the model's source).
@@ -263,13 +294,7 @@ func (s *Service) SaveModel(ctx context.Context, p thermal.Params) error {
 // with an age in the asked range and a corrected depth, weighted by cell area.
 func (s *Service) calibrationSamples(ctx context.Context, q *Query, r geo.PreparedRegion, req CalibrateRequest, progress func(float64)) (*CalSamples, error) {
 	d := q.Dataset
-	if !d.HasDepth {
-		return nil, fault.New(fault.NoData, "", "dataset %q has no depth grid: a calibration needs observed depths", d.Row.ID)
-	}
 	res := req.ResolutionDeg
-	if math.IsNaN(res) || res < 0 || res > 10 {
-		return nil, fault.New(fault.InvalidParameter, "resolution_deg", "resolution_deg=%g must lie between 0 (the grid's own) and 10 degrees", res)
-	}
 	plan, err := planArea(d, r.Bound, res, res)
 	if err != nil {
 		return nil, err
