@@ -1,11 +1,11 @@
 package evaluate
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"math/rand/v2"
 	"slices"
-	"sort"
 
 	"gonum.org/v1/gonum/optimize"
 
@@ -439,22 +439,30 @@ func (ft *fitter) residuals(m depthFunc) {
 	}
 }
 
-// weightedQuantile is the area-weighted q-quantile of v over the samples with idx order
-// (sorted by v here), the lower weighted median convention.
-func weightedQuantile(v, w []float64, order []int, q float64) float64 {
-	sort.Slice(order, func(a, b int) bool { return v[order[a]] < v[order[b]] })
+// valueWeight is one value with its area weight, for weighted quantiles.
+type valueWeight struct{ v, w float64 }
+
+// weightedQuantiles sorts vw by value and answers its area-weighted qs-quantiles: the first
+// value at which the cumulative weight reaches q of the total (the lower weighted quantile).
+func weightedQuantiles(vw []valueWeight, qs ...float64) []float64 {
+	slices.SortFunc(vw, func(a, b valueWeight) int { return cmp.Compare(a.v, b.v) })
 	var tot float64
-	for _, i := range order {
-		tot += w[i]
+	for _, x := range vw {
+		tot += x.w
 	}
-	var acc float64
-	for _, i := range order {
-		acc += w[i]
-		if acc >= q*tot {
-			return v[i]
+	out := make([]float64, len(qs))
+	for j, q := range qs {
+		out[j] = vw[len(vw)-1].v
+		var acc float64
+		for _, x := range vw {
+			acc += x.w
+			if acc >= q*tot {
+				out[j] = x.v
+				break
+			}
 		}
 	}
-	return v[order[len(order)-1]]
+	return out
 }
 
 // Fit fits spec's family to the samples by area-weighted least squares with iterative k·MAD
@@ -484,7 +492,7 @@ func Fit(s *CalSamples, spec FitSpec, progress func(float64)) (*FitResult, error
 	}
 	ft := newFitter(fam, s)
 	excl := make([]bool, n)
-	order := make([]int, n)
+	vw := make([]valueWeight, n)
 	x := fam.start
 	res := &FitResult{Family: spec.Family, ClipMAD: k, Rule: OutlierRule, Cells: n}
 	var med, sigma float64
@@ -497,21 +505,17 @@ func Fit(s *CalSamples, spec FitSpec, progress func(float64)) (*FitResult, error
 		x = xb
 		m, _ := fam.curve(x)
 		ft.residuals(m)
-		for i := range order {
-			order[i] = i
-		}
-		med = weightedQuantile(ft.resid, s.Weight, order, 0.5)
-		dev := make([]float64, n)
 		for i, r := range ft.resid {
-			dev[i] = math.Abs(r - med)
+			vw[i] = valueWeight{r, s.Weight[i]}
 		}
-		for i := range order {
-			order[i] = i
+		med = weightedQuantiles(vw, 0.5)[0]
+		for i, r := range ft.resid {
+			vw[i] = valueWeight{math.Abs(r - med), s.Weight[i]}
 		}
-		sigma = 1.4826 * weightedQuantile(dev, s.Weight, order, 0.5)
+		sigma = 1.4826 * weightedQuantiles(vw, 0.5)[0]
 		changed, kept := 0, 0
-		for i, d := range dev {
-			out := d > k*sigma
+		for i, r := range ft.resid {
+			out := math.Abs(r-med) > k*sigma
 			if out != excl[i] {
 				changed++
 				excl[i] = out
@@ -621,16 +625,26 @@ func quantileSorted(v []float64, q float64) float64 {
 	return v[i] + (h-float64(i))*(v[i+1]-v[i])
 }
 
-// poisson1 draws a Poisson(1) count by inversion of its cumulative distribution.
+// poisson1CDF is the cumulative distribution of Poisson(1) at 0, 1, …, 19.
+var poisson1CDF = func() [20]float64 {
+	var c [20]float64
+	p := math.Exp(-1)
+	c[0] = p
+	for k := 1; k < len(c); k++ {
+		p /= float64(k)
+		c[k] = c[k-1] + p
+	}
+	return c
+}()
+
+// poisson1 draws a Poisson(1) count by inversion of its cumulative distribution (capped at
+// 20, whose probability is below 1e-19).
 func poisson1(r *rand.Rand) float64 {
 	u := r.Float64()
-	p := math.Exp(-1)
-	c := p
-	k := 0.0
-	for u > c && k < 20 {
-		k++
-		p /= k
-		c += p
+	for k, c := range poisson1CDF {
+		if u <= c {
+			return float64(k)
+		}
 	}
-	return k
+	return float64(len(poisson1CDF))
 }

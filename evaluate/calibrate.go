@@ -382,11 +382,12 @@ func depthAgeBins(s *CalSamples, excl []bool) []DepthAgeBin {
 		if len(ix) == 0 {
 			continue
 		}
-		q := func(p float64) float64 {
-			o := slices.Clone(ix)
-			return weightedQuantile(s.DepthM, s.Weight, o, p)
+		vw := make([]valueWeight, len(ix))
+		for j, i := range ix {
+			vw[j] = valueWeight{s.DepthM[i], s.Weight[i]}
 		}
-		out = append(out, DepthAgeBin{AgeMa: (float64(k) + 0.5) * width, MedianDepthM: q(0.5), P16DepthM: q(0.16), P84DepthM: q(0.84), Cells: len(ix)})
+		q := weightedQuantiles(vw, 0.5, 0.16, 0.84)
+		out = append(out, DepthAgeBin{AgeMa: (float64(k) + 0.5) * width, MedianDepthM: q[0], P16DepthM: q[1], P84DepthM: q[2], Cells: len(ix)})
 	}
 	return out
 }
