@@ -12,6 +12,8 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/paulmach/orb"
+
 	"ridgeflank/fault"
 	"ridgeflank/ingest"
 	"ridgeflank/store"
@@ -53,6 +55,12 @@ func asciiGrid(t testing.TB, dir, name string, nx, ny int, f func(lon, lat float
 // longitude from a ridge at 0° (capped at 180 Ma), depths from GDH1 (thermal's gdh1 preset)
 // plus 100 m Gaussian noise (fixed seed) and seamounts (10 % of the cells raised by 1–3 km).
 func calibrationService(t testing.TB) *Service {
+	s, _ := calibrationStore(t)
+	return s
+}
+
+// calibrationStore is calibrationService with its store.
+func calibrationStore(t testing.TB) (*Service, store.Store) {
 	t.Helper()
 	dir := t.TempDir()
 	const nx, ny = 720, 360
@@ -83,7 +91,7 @@ func calibrationService(t testing.TB) *Service {
 	if _, err := st.CreateDataset(ctx, store.Dataset{ID: "synthetic", Name: "GDH1 with noise and seamounts (SYNTHETIC)", AgeGridID: ids[0], DepthGridID: ids[1]}); err != nil {
 		t.Fatal(err)
 	}
-	return New(Config{Store: st})
+	return New(Config{Store: st}), st
 }
 
 const calibrationPolygon = `{"type":"Polygon","coordinates":[[[0,-40],[150,-40],[150,40],[0,40],[0,-40]]]}`
@@ -154,6 +162,44 @@ func TestCalibrateDataset(t *testing.T) {
 			}
 			if f == PlotPNG && !bytes.HasPrefix(b, []byte("\x89PNG")) || f == PlotSVG && !bytes.Contains(b[:min(len(b), 400)], []byte("<svg")) {
 				t.Errorf("%s plot starts %q", f, b[:min(len(b), 20)])
+			}
+		})
+	}
+}
+
+// A stored region gives the same cells as the same polygon given inline, so the same fit; the
+// empirical family over it recovers GDH1's coefficients within the tolerances of
+// TestFitEmpiricalRecoversGDH1Coefficients (30 m, 10 m/Myr^½, 30 m).
+func TestCalibrateStoredRegion(t *testing.T) {
+	s, st := calibrationStore(t)
+	ctx := context.Background()
+	ring := orb.Ring{{0, -40}, {150, -40}, {150, 40}, {0, 40}, {0, -40}}
+	if _, err := st.CreateRegion(ctx, store.Region{ID: "east-flank", Name: "east flank (SYNTHETIC)", Geometry: orb.MultiPolygon{{ring}}}); err != nil {
+		t.Fatal(err)
+	}
+	boot := 0
+	req := CalibrateRequest{DatasetID: "synthetic", Family: FamilySqrtExp, Free: []string{CalRidgeDepth, CalSqrtSlope, CalAsymptote}, Bootstrap: &boot}
+	byID, inline := req, req
+	byID.RegionID = "east-flank"
+	inline.Geometry = []byte(calibrationPolygon)
+	a, err := s.Calibrate(ctx, byID, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := s.Calibrate(ctx, inline, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if a.Cells != b.Cells || a.Region != "east-flank" {
+		t.Errorf("stored region: %d cells, region %q; inline polygon: %d cells", a.Cells, a.Region, b.Cells)
+	}
+	for i, c := range []struct {
+		id        string
+		want, tol float64
+	}{{CalRidgeDepth, 2600, 30}, {CalSqrtSlope, 365, 10}, {CalAsymptote, 5651, 30}} {
+		t.Run(c.id, func(t *testing.T) {
+			if p := a.Parameters[i]; p.ID != c.id || math.Abs(p.Value-c.want) > c.tol || p.Value != b.Parameters[i].Value {
+				t.Errorf("%s = %.2f (inline %.2f), GDH1 %g ± %g", p.ID, p.Value, b.Parameters[i].Value, c.want, c.tol)
 			}
 		})
 	}

@@ -2,6 +2,7 @@ package server
 
 import (
 	"bytes"
+	"encoding/json"
 	"fmt"
 	"strings"
 	"testing"
@@ -68,6 +69,11 @@ func TestCalibrationJob(t *testing.T) {
 		m := e.get("/api/models/basin-fit")
 		e.want(m, 200)
 		e.want(e.get("/api/models/basin-fit/curve?ages=0:100:10"), 200)
+		// The fitted parameter set passes POST /api/models's own validation as it stands.
+		mp := c["model_params"].(map[string]any)
+		mp["id"] = "basin-fit-copy"
+		raw, _ := json.Marshal(mp)
+		e.want(e.do("POST", "/api/models", bytes.NewReader(raw), auth...), 201)
 	})
 	t.Run("other dataset", func(t *testing.T) {
 		wantProblem(t, e.get(strings.Replace(self, e.dataset, "nosuch", 1)), 404, CodeNotFound)
