@@ -47,8 +47,8 @@ A progress bar is shown on stderr when it is a terminal.
 Predicted depths are model estimates, not for navigation.
 
 Examples:
-  ridgeflank calibrate --dataset demo --region north-flank --free plate_thickness_km,mantle_temperature_c --save-as north-plate
-  ridgeflank calibrate --dataset demo --geometry box.geojson --family sqrt-exp --free ridge_depth_m,sqrt_age_slope_m_per_myr_half,asymptotic_depth_m --plot fit.svg`,
+  ridgeflank calibrate --dataset quillon-basin-synthetic --region my-flank --free plate_thickness_km,mantle_temperature_c --save-as flank-plate
+  ridgeflank calibrate --dataset quillon-basin-synthetic --geometry box.geojson --family sqrt-exp --free ridge_depth_m,sqrt_age_slope_m_per_myr_half,asymptotic_depth_m --plot fit.svg`,
 }
 
 func init() {
