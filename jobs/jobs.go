@@ -13,6 +13,8 @@ import (
 const (
 	KindGridImport = "grid_import"
 	KindExport     = "export"
+	// KindCalibration fits a cooling model to a region (evaluate.Service.Calibrate).
+	KindCalibration = "calibration"
 )
 
 // Documented limits and timings of the queue.
@@ -78,6 +80,15 @@ type ExportArgs struct {
 // Kind implements river.JobArgs.
 func (ExportArgs) Kind() string { return KindExport }
 
+// CalibrationArgs describe one calibration: the evaluate request, serialised (the HTTP layer
+// checked it before queueing).
+type CalibrationArgs struct {
+	Request json.RawMessage `json:"request"`
+}
+
+// Kind implements river.JobArgs.
+func (CalibrationArgs) Kind() string { return KindCalibration }
+
 // Progress reports a job's progress: fraction in [0, 1] and a short message.
 // It is safe to call from several goroutines.
 type Progress func(fraction float64, message string)
@@ -88,6 +99,8 @@ type Progress func(fraction float64, message string)
 type Handlers struct {
 	Import func(ctx context.Context, args ImportArgs, progress Progress) (any, error)
 	Export func(ctx context.Context, args ExportArgs, progress Progress) (any, error)
+	// Calibrate answers the evaluate.Calibration as its result.
+	Calibrate func(ctx context.Context, args CalibrationArgs, progress Progress) (any, error)
 }
 
 // PermanentError marks an error that no retry will fix: the queue records it and runs the job

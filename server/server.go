@@ -219,6 +219,10 @@ func (s *server) routes() http.Handler {
 			r.Get("/locations/{regionId}", s.h(s.location))
 			r.Get("/locations/{regionId}/statistics", s.h(s.locationStatistics))
 			r.Get("/statistics", s.h(s.areaStatistics))
+			r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Post("/calibrations", s.h(s.createCalibration))
+			r.Get("/calibrations/{jobId}", s.h(s.getCalibration))
+			r.Get("/calibrations/{jobId}/plot.png", s.h(s.calibrationPlot(evaluate.PlotPNG)))
+			r.Get("/calibrations/{jobId}/plot.svg", s.h(s.calibrationPlot(evaluate.PlotSVG)))
 		})
 
 		r.Get("/models", s.h(s.listModels))
@@ -272,6 +276,7 @@ func (s *server) routes() http.Handler {
 type JobQueue interface {
 	EnqueueImport(ctx context.Context, a jobs.ImportArgs) (int64, error)
 	EnqueueExport(ctx context.Context, a jobs.ExportArgs) (int64, error)
+	EnqueueCalibration(ctx context.Context, a jobs.CalibrationArgs) (int64, error)
 	Get(ctx context.Context, id int64) (jobs.Status, error)
 	Ready(ctx context.Context) error
 }
