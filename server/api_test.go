@@ -14,6 +14,7 @@ import (
 	"path/filepath"
 	"sort"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 
@@ -480,6 +481,28 @@ func TestAPI(t *testing.T) {
 				t.Errorf("ETag after update %q", u.Header.Get("ETag"))
 			}
 			wantProblem(t, e.do("PUT", "/api/regions/"+id, strings.NewReader(upd), append(auth, "If-Match", `"1"`)...), 412, CodePreconditionFailed)
+			// RFC 9110 §13.1.1: a list of entity tags matches when it holds the current one;
+			// "*" matches any current version, so concurrent writers under "*" all succeed.
+			e.want(e.do("PUT", "/api/regions/"+id, strings.NewReader(upd), append(auth, "If-Match", `"1", W/"2"`)...), 200)
+			wantProblem(t, e.do("PUT", "/api/regions/"+id, strings.NewReader(upd), append(auth, "If-Match", `"1", "2"`)...), 412, CodePreconditionFailed)
+			var wg sync.WaitGroup
+			codes := make([]int, 8)
+			for k := range codes {
+				wg.Add(1)
+				go func() {
+					defer wg.Done()
+					codes[k] = e.do("PUT", "/api/regions/"+id, strings.NewReader(upd), append(auth, "If-Match", "*")...).StatusCode
+				}()
+			}
+			wg.Wait()
+			for k, c := range codes {
+				if c != 200 {
+					t.Errorf("concurrent update %d under If-Match *: status %d, want 200", k, c)
+				}
+			}
+			if v := e.get("/api/regions/" + id).Header.Get("ETag"); v != `"11"` {
+				t.Errorf("ETag after 3 + 8 updates: %s, want \"11\"", v)
+			}
 			wantProblem(t, e.do("POST", "/api/regions", strings.NewReader(`{"type":"Feature","geometry":{"type":"Polygon","coordinates":[[[0,0],[1,0]]]},"properties":{"name":"x"}}`), auth...), 400, CodeInvalidRegion)
 			e.want(e.do("DELETE", "/api/regions/"+id, nil, auth...), 204)
 			wantProblem(t, e.get("/api/regions/"+id), 404, CodeNotFound)

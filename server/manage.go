@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"io"
 	"net/http"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -80,22 +81,73 @@ func (s *server) regionFeature(r *http.Request, rg store.Region) map[string]any 
 
 func etag(version int64) string { return `"` + strconv.FormatInt(version, 10) + `"` }
 
-// parseIfMatch reads a version from If-Match ("3", "\"3\"" or W/"3").
-func parseIfMatch(r *http.Request) (int64, bool, error) {
-	v := strings.TrimSpace(r.Header.Get("If-Match"))
-	if v == "" {
-		return 0, false, nil
+// ifMatch is a request's If-Match precondition (RFC 9110 §13.1.1): absent, "*" (any current
+// version), or a list of entity tags, each a version this API issued ("3", W/"3" compares weakly
+// only for reads, so a weak tag here is taken as the version it names).
+type ifMatch struct {
+	present  bool
+	any      bool
+	versions []int64
+}
+
+// parseIfMatch reads If-Match: "*", or one or more comma-separated tags ("3", "\"3\"", W/"3").
+// A tag that is not a version this API issued is a 412 (it can match nothing).
+func parseIfMatch(r *http.Request) (ifMatch, error) {
+	raw := strings.TrimSpace(strings.Join(r.Header.Values("If-Match"), ","))
+	if raw == "" {
+		return ifMatch{}, nil
 	}
-	if v == "*" {
-		return 0, true, nil
+	if raw == "*" {
+		return ifMatch{present: true, any: true}, nil
 	}
-	v = strings.TrimPrefix(v, "W/")
-	v = strings.Trim(v, `"`)
-	n, err := strconv.ParseInt(v, 10, 64)
-	if err != nil || n < 1 {
-		return 0, true, problem(CodePreconditionFailed, "If-Match %q is not a version this API issued (an ETag like \"3\")", r.Header.Get("If-Match"))
+	m := ifMatch{present: true}
+	for _, part := range strings.Split(raw, ",") {
+		v := strings.Trim(strings.TrimPrefix(strings.TrimSpace(part), "W/"), `"`)
+		if v == "" {
+			continue
+		}
+		n, err := strconv.ParseInt(v, 10, 64)
+		if err != nil || n < 1 {
+			return ifMatch{}, problem(CodePreconditionFailed, "If-Match %q: %q is not a version this API issued (an ETag like \"3\")", raw, strings.TrimSpace(part))
+		}
+		m.versions = append(m.versions, n)
 	}
-	return n, true, nil
+	if len(m.versions) == 0 {
+		return ifMatch{}, problem(CodePreconditionFailed, "If-Match %q names no version", raw)
+	}
+	return m, nil
+}
+
+// maxStarRetries bounds how often a write under If-Match: * is retried when another writer
+// changed the resource between the read and the write.
+const maxStarRetries = 8
+
+// write runs fn under the precondition: with one listed version, fn(that version) and the store
+// refuses it if stale; with a list, the version current() reads must be listed (else 412) and
+// fn runs against it; with "*" (any current version), fn runs against the current version and
+// is retried when another writer got in between, since any version satisfies "*". Without
+// If-Match fn(0) runs (the store's "any version" where a route allows that).
+func (m ifMatch) write(current func() (int64, error), fn func(version int64) error) error {
+	switch {
+	case !m.present:
+		return fn(0)
+	case len(m.versions) == 1:
+		return fn(m.versions[0])
+	}
+	for try := 0; ; try++ {
+		cur, err := current()
+		if err != nil {
+			return err
+		}
+		if !m.any && !slices.Contains(m.versions, cur) {
+			return problem(CodePreconditionFailed, "the current version %d is none of the If-Match versions %v", cur, m.versions)
+		}
+		err = fn(cur)
+		if m.any && errors.Is(err, store.ErrVersionMismatch) && try < maxStarRetries {
+			continue
+		}
+		return err
+	}
 }
 
 // regionInput is the body of POST/PUT /api/regions: a GeoJSON Feature with
@@ -237,11 +289,11 @@ func withRepairs(f map[string]any, repairs []string) map[string]any {
 // required (428 without it, 412 when someone else wrote first).
 func (s *server) updateRegion(w http.ResponseWriter, r *http.Request) error {
 	id := chi.URLParam(r, "regionId")
-	ver, present, err := parseIfMatch(r)
+	cond, err := parseIfMatch(r)
 	if err != nil {
 		return err
 	}
-	if !present {
+	if !cond.present {
 		return problem(CodePreconditionNeeded, "send If-Match with the region's ETag (its version) to update it")
 	}
 	in, err := s.readRegion(r)
@@ -255,10 +307,15 @@ func (s *server) updateRegion(w http.ResponseWriter, r *http.Request) error {
 	if err != nil {
 		return err
 	}
-	if ver == 0 {
-		ver = cur.Version
-	}
-	rg, err := s.deps.Store.UpdateRegion(r.Context(), store.Region{ID: id, Name: in.Name, Description: in.Description, Tags: in.Tags, Geometry: in.Geometry, Owner: cur.Owner, Version: ver})
+	var rg store.Region
+	err = cond.write(func() (int64, error) {
+		c, err := s.deps.Store.GetRegion(r.Context(), id)
+		return c.Version, err
+	}, func(ver int64) error {
+		var err error
+		rg, err = s.deps.Store.UpdateRegion(r.Context(), store.Region{ID: id, Name: in.Name, Description: in.Description, Tags: in.Tags, Geometry: in.Geometry, Owner: cur.Owner, Version: ver})
+		return err
+	})
 	if err != nil {
 		return err
 	}
@@ -267,11 +324,16 @@ func (s *server) updateRegion(w http.ResponseWriter, r *http.Request) error {
 }
 
 func (s *server) deleteRegion(w http.ResponseWriter, r *http.Request) error {
-	ver, _, err := parseIfMatch(r)
+	id := chi.URLParam(r, "regionId")
+	cond, err := parseIfMatch(r)
 	if err != nil {
 		return err
 	}
-	if err := s.deps.Store.DeleteRegion(r.Context(), chi.URLParam(r, "regionId"), ver); err != nil {
+	err = cond.write(func() (int64, error) {
+		c, err := s.deps.Store.GetRegion(r.Context(), id)
+		return c.Version, err
+	}, func(ver int64) error { return s.deps.Store.DeleteRegion(r.Context(), id, ver) })
+	if err != nil {
 		return err
 	}
 	w.WriteHeader(http.StatusNoContent)
@@ -402,11 +464,16 @@ func (s *server) getDataset(w http.ResponseWriter, r *http.Request) error {
 
 func (s *server) deleteDataset(w http.ResponseWriter, r *http.Request) error {
 	defer s.ev.Forget()
-	ver, _, err := parseIfMatch(r)
+	id := chi.URLParam(r, "datasetId")
+	cond, err := parseIfMatch(r)
 	if err != nil {
 		return err
 	}
-	if err := s.deps.Store.DeleteDataset(r.Context(), chi.URLParam(r, "datasetId"), ver); err != nil {
+	err = cond.write(func() (int64, error) {
+		c, err := s.deps.Store.GetDataset(r.Context(), id)
+		return c.Version, err
+	}, func(ver int64) error { return s.deps.Store.DeleteDataset(r.Context(), id, ver) })
+	if err != nil {
 		return err
 	}
 	w.WriteHeader(http.StatusNoContent)

@@ -78,11 +78,11 @@ func (s *server) getPlan(w http.ResponseWriter, r *http.Request) error {
 // it, 412 when someone else wrote first; "*" means whatever the version is).
 func (s *server) updatePlan(w http.ResponseWriter, r *http.Request) error {
 	id := chi.URLParam(r, "planId")
-	ver, present, err := parseIfMatch(r)
+	cond, err := parseIfMatch(r)
 	if err != nil {
 		return err
 	}
-	if !present {
+	if !cond.present {
 		return problem(CodePreconditionNeeded, "send If-Match with the plan's ETag (its version) to update it")
 	}
 	p, err := readPlan(r)
@@ -92,15 +92,17 @@ func (s *server) updatePlan(w http.ResponseWriter, r *http.Request) error {
 	if p.ID != "" && p.ID != id {
 		return problem(CodeConflict, "the body's id %q differs from the path's %q", p.ID, id)
 	}
-	if ver == 0 {
+	var out survey.Plan
+	err = cond.write(func() (int64, error) {
 		cur, err := s.ev.GetPlan(r.Context(), id)
-		if err != nil {
-			return err
-		}
-		ver = cur.Version
-	}
-	p.ID, p.Version = id, ver
-	out, err := s.ev.UpdatePlan(r.Context(), p)
+		return cur.Version, err
+	}, func(ver int64) error {
+		q := p
+		q.ID, q.Version = id, ver
+		var err error
+		out, err = s.ev.UpdatePlan(r.Context(), q)
+		return err
+	})
 	if err != nil {
 		return err
 	}
@@ -110,14 +112,19 @@ func (s *server) updatePlan(w http.ResponseWriter, r *http.Request) error {
 
 // deletePlan removes a plan; If-Match is required ("*": whatever the version).
 func (s *server) deletePlan(w http.ResponseWriter, r *http.Request) error {
-	ver, present, err := parseIfMatch(r)
+	id := chi.URLParam(r, "planId")
+	cond, err := parseIfMatch(r)
 	if err != nil {
 		return err
 	}
-	if !present {
+	if !cond.present {
 		return problem(CodePreconditionNeeded, "send If-Match with the plan's ETag (its version), or *, to delete it")
 	}
-	if err := s.ev.DeletePlan(r.Context(), chi.URLParam(r, "planId"), ver); err != nil {
+	err = cond.write(func() (int64, error) {
+		cur, err := s.ev.GetPlan(r.Context(), id)
+		return cur.Version, err
+	}, func(ver int64) error { return s.ev.DeletePlan(r.Context(), id, ver) })
+	if err != nil {
 		return err
 	}
 	w.WriteHeader(http.StatusNoContent)
