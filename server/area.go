@@ -144,12 +144,21 @@ func parseAreaQuery(r *http.Request) (areaQuery, error) {
 	return q, nil
 }
 
-// areaParam reads and prepares the polygon of coords= (WKT, longitude first), the one rule of
-// the area and statistics queries.
+// areaParam reads and prepares the polygon of coords= (WKT, longitude first) or bbox=
+// (west,south,east,north), the one rule of the area and statistics queries.
 func (s *server) areaParam(r *http.Request) (string, geo.PreparedRegion, error) {
 	coords := strings.TrimSpace(r.URL.Query().Get("coords"))
+	if bb := r.URL.Query().Get("bbox"); bb != "" {
+		if coords != "" {
+			return "", geo.PreparedRegion{}, problem(CodeInvalidParameter, "give coords or bbox, not both").withParam("bbox")
+		}
+		var err error
+		if coords, err = bboxArea(bb); err != nil {
+			return "", geo.PreparedRegion{}, err
+		}
+	}
 	if coords == "" {
-		return "", geo.PreparedRegion{}, problem(CodeInvalidCoords, "coords= is required (WKT, longitude first)").withParam("coords")
+		return "", geo.PreparedRegion{}, problem(CodeInvalidCoords, "coords= (WKT, longitude first) or bbox=west,south,east,north is required").withParam("coords")
 	}
 	mp, err := evaluate.ParseArea(coords)
 	if err != nil {

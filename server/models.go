@@ -267,7 +267,6 @@ func numCol(name string, v []float64) evaluate.CSVColumn {
 	return evaluate.CSVColumn{Name: name, Values: v}
 }
 
-
 // modelRidgePush answers the ridge push per unit ridge length (N/m) at ages=start:stop:step
 // (default 0:200:10) under the model: evaluate.RidgePush.
 func (s *server) modelRidgePush(w http.ResponseWriter, r *http.Request) error {
