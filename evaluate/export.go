@@ -195,7 +195,7 @@ func (s *Service) Export(ctx context.Context, req ExportRequest, path string, pr
 	}
 	name := req.Filename
 	if name == "" {
-		name = fmt.Sprintf("%s-area-%s%s", req.Dataset, q.Params[0].ID, filepath.Ext(path))
+		name = FileName(q, "area", strings.TrimPrefix(filepath.Ext(path), "."))
 	}
 	progress(1, "written")
 	return ExportResult{Filename: name, MediaType: media, Bytes: size, SHA256: sum}, nil

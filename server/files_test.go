@@ -167,6 +167,11 @@ func TestFilesOpenElsewhere(t *testing.T) {
 		params := "&parameter-name=observed_depth,heat_flow,seafloor_age"
 		_, col := csvRecords(t, e.get(ds+"/position?coords="+pt+params+"&f=csv"))
 		gj := e.get(ds + "/position?coords=" + pt + params + "&f=geojson").json(t)
+		cov := e.get(ds + "/position?coords=" + pt + params).json(t)["parameters"].(map[string]any)
+		fields := map[string]bool{}
+		for _, p := range cov {
+			fields[fmt.Sprint(p.(map[string]any)["ridgeflank:field"])] = true
+		}
 		props := gj["features"].([]any)[0].(map[string]any)["properties"].(map[string]any)
 		units := gj["units"].(map[string]any)
 		for _, name := range []string{"observed_depth_m", "heat_flow_mw_m2", "seafloor_age_ma"} {
@@ -178,6 +183,9 @@ func TestFilesOpenElsewhere(t *testing.T) {
 			}
 			if _, ok := units[name]; !ok {
 				t.Errorf("GeoJSON units lack %s", name)
+			}
+			if !fields[name] {
+				t.Errorf("no CoverageJSON parameter gives ridgeflank:field %s", name)
 			}
 		}
 	})
