@@ -108,8 +108,12 @@ func (s *Service) FileMeta(res *AreaResult) gdal.Meta { return s.fileMeta(res.Qu
 func (s *Service) fileMeta(q *Query) gdal.Meta {
 	p := q.Params[0]
 	prov := s.Provenance(q)
-	return gdal.Meta{Name: p.ID, LongName: p.Label, Units: p.Unit, Title: q.Dataset.Row.Name + ": " + p.Label,
-		Source: "ridgeflank " + s.version, Metadata: prov.Metadata()}
+	title := q.Dataset.Row.Name + ": " + p.Label
+	if prov.Label != "" && !strings.Contains(title, prov.Label) {
+		title += " (" + prov.Label + " data)"
+	}
+	return gdal.Meta{Name: p.ID, LongName: p.Label, Units: p.Unit, Title: title,
+		Source: "ridgeflank " + s.version, Metadata: prov.Metadata(), BandMetadata: p.CFAttributes()}
 }
 
 // EncodeRaster answers an export request as the bytes of the file.
@@ -191,7 +195,7 @@ func (s *Service) Export(ctx context.Context, req ExportRequest, path string, pr
 	}
 	name := req.Filename
 	if name == "" {
-		name = fmt.Sprintf("%s-area-%s%s", req.Dataset, q.Params[0].ID, filepath.Ext(path))
+		name = FileName(q, "area", strings.TrimPrefix(filepath.Ext(path), "."))
 	}
 	progress(1, "written")
 	return ExportResult{Filename: name, MediaType: media, Bytes: size, SHA256: sum}, nil

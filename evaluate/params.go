@@ -95,3 +95,39 @@ func UnitSuffix(ucum string) string {
 	}
 	return string(out)
 }
+
+// CF standard names (CF Standard Name Table, cfconventions.org: sea_floor_depth_below_sea_surface,
+// canonical unit m; upward_geothermal_heat_flux_at_sea_floor, canonical unit W m-2, to which
+// mW m-2 converts). Parameters with no entry in the table get none.
+const (
+	cfSeaFloorDepth = "sea_floor_depth_below_sea_surface"
+	cfSeaFloorHeat  = "upward_geothermal_heat_flux_at_sea_floor"
+)
+
+// CFAttributes are the netCDF variable attributes of p beyond units and long_name:
+// standard_name where CF has one, positive ("down" for depths, as CF writes it for vertical
+// quantities), and sign_convention in words for every signed quantity.
+func (p Parameter) CFAttributes() map[string]string {
+	m := map[string]string{}
+	switch p.ID {
+	case PObservedDepth, PPredictedDepth:
+		m["standard_name"] = cfSeaFloorDepth
+		m["positive"] = "down"
+		m["sign_convention"] = "metres below the sea surface, positive down"
+	case PCorrectedDepth:
+		// Basement depth after sediment (and crust) correction: not the sea floor, no CF name.
+		m["positive"] = "down"
+		m["sign_convention"] = "metres below the sea surface, positive down"
+	case PResidualDepth:
+		m["sign_convention"] = "predicted minus corrected depth: positive where the sea floor is shallower than the model"
+	case PThermalThickness, PDepth600C:
+		m["positive"] = "down"
+		m["sign_convention"] = "kilometres below the sea floor, positive down"
+	case PSedimentThickness:
+		m["sign_convention"] = "thickness, never negative"
+	case PHeatFlow:
+		m["standard_name"] = cfSeaFloorHeat
+		m["sign_convention"] = "upward flux out of the sea floor is positive"
+	}
+	return m
+}

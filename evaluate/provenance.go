@@ -4,6 +4,7 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
+	"strings"
 
 	"ridgeflank/thermal"
 )
@@ -19,8 +20,10 @@ type Provenance struct {
 	Sediment string    `json:"sediment,omitempty"`
 	Dataset  string    `json:"dataset,omitempty"`
 	Grids    []GridRef `json:"grids,omitempty"`
-	Caution  string    `json:"caution,omitempty"`
-	Note     string    `json:"note,omitempty"`
+	// Label is SyntheticLabel when at least one of Grids is invented data.
+	Label   string `json:"label,omitempty"`
+	Caution string `json:"caution,omitempty"`
+	Note    string `json:"note,omitempty"`
 }
 
 // ModelRef names a model and repeats its full parameter set and a hash of it.
@@ -30,11 +33,29 @@ type ModelRef struct {
 	Params       thermal.Params `json:"params"`
 }
 
-// GridRef names one input grid by id, role and content hash.
+// GridRef names one input grid by id, role and content hash; Label is SyntheticLabel for a
+// grid of invented data.
 type GridRef struct {
 	ID     string `json:"id"`
 	Role   string `json:"role"`
 	SHA256 string `json:"sha256"`
+	Label  string `json:"label,omitempty"`
+}
+
+// SyntheticLabel marks invented data. A grid whose name, provenance or licence says it is
+// SYNTHETIC (the demo basin's grids, and its files uploaded again under any name, whose
+// provenance keeps the file's source) labels every answer built from it, whatever else the
+// dataset holds.
+const SyntheticLabel = "SYNTHETIC"
+
+// gridLabel is SyntheticLabel for a grid row describing invented data, else "".
+func gridLabel(name, provenance, licence string) string {
+	for _, s := range []string{name, provenance, licence} {
+		if strings.Contains(s, SyntheticLabel) {
+			return SyntheticLabel
+		}
+	}
+	return ""
 }
 
 // ProvenanceOf is the provenance of an answer from model m (nil: none).
@@ -46,17 +67,27 @@ func (s *Service) ProvenanceOf(m thermal.Model) Provenance {
 	return p
 }
 
-// ModelRef describes m (cached per parameter set).
+// ModelRef describes m (cached per parameter set). Its Params hold the thermal diffusivity the
+// model uses, derived as k / (ρm · cp) where the parameter set leaves it 0, and ParamsSHA256 is
+// the SHA-256 of Params as shown (JSON).
 func (s *Service) ModelRef(m thermal.Model) *ModelRef {
 	params := m.Params()
 	if v, ok := s.modelRefs.Load(params); ok {
 		return v.(*ModelRef)
 	}
-	raw, _ := json.Marshal(params)
-	sum := sha256.Sum256(raw)
-	ref := &ModelRef{ID: params.ID, ParamsSHA256: hex.EncodeToString(sum[:]), Params: params}
+	ref := NewModelRef(params)
 	s.modelRefs.Store(params, ref)
 	return ref
+}
+
+// NewModelRef describes the parameter set params (see Service.ModelRef).
+func NewModelRef(params thermal.Params) *ModelRef {
+	// The diffusivity the model uses, also where it is derived from k / (ρm · cp) (stored as 0).
+	shown := params
+	shown.DiffusivityM2s = params.EffectiveDiffusivityM2s()
+	raw, _ := json.Marshal(shown)
+	sum := sha256.Sum256(raw)
+	return &ModelRef{ID: params.ID, ParamsSHA256: hex.EncodeToString(sum[:]), Params: shown}
 }
 
 // Provenance is the provenance of an answer to q.
@@ -69,6 +100,11 @@ func (s *Service) Provenance(q *Query) Provenance {
 	}
 	p.Dataset = q.Dataset.Row.ID
 	p.Grids = q.Dataset.Refs
+	for _, g := range p.Grids {
+		if g.Label != "" {
+			p.Label = g.Label
+		}
+	}
 	for _, x := range q.Params {
 		if x.NeedsDepth && x.Predicted {
 			p.Sediment = q.Sediment.Name
@@ -98,9 +134,18 @@ func (p Provenance) Metadata() map[string]string {
 	}
 	for _, g := range p.Grids {
 		m["ridgeflank_grid_"+g.Role] = g.ID + " sha256:" + g.SHA256
+		if g.Label != "" {
+			m["ridgeflank_grid_"+g.Role] += " (" + g.Label + ")"
+		}
+	}
+	if p.Label != "" {
+		m["ridgeflank_data_label"] = p.Label
 	}
 	if p.Caution != "" {
 		m["ridgeflank_caution"] = p.Caution
+	}
+	if raw, err := json.Marshal(p); err == nil {
+		m["ridgeflank_provenance"] = string(raw)
 	}
 	return m
 }

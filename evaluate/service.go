@@ -357,7 +357,7 @@ func (s *Service) datasetMeta(ctx context.Context, id string) (*Dataset, []store
 			return nil, nil, fmt.Errorf("dataset %s: grid %s: %w", id, sl.id, err)
 		}
 		rows = append(rows, gr)
-		d.Refs = append(d.Refs, GridRef{ID: gr.ID, Role: sl.role, SHA256: gr.ContentHash})
+		d.Refs = append(d.Refs, GridRef{ID: gr.ID, Role: sl.role, SHA256: gr.ContentHash, Label: gridLabel(gr.Name, gr.Provenance, gr.Licence)})
 		switch sl.role {
 		case PSeafloorAge:
 			d.Bounds = gr.Footprint.Bound()

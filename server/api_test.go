@@ -273,8 +273,8 @@ func TestAPI(t *testing.T) {
 			}
 			csv := e.get(ds + "/area?coords=" + poly + "&parameter-name=residual_depth&f=csv&resolution-x=0.5&resolution-y=0.5")
 			e.want(csv, 200)
-			if !strings.HasPrefix(string(csv.Body), "# Caution:") || !strings.Contains(string(csv.Body), "not for navigation") {
-				t.Errorf("residual-depth CSV lacks the navigation caution line")
+			if !strings.HasPrefix(string(csv.Body), "longitude,latitude,residual_depth_m,") || !strings.Contains(string(csv.Body), "not for navigation") {
+				t.Errorf("residual-depth CSV lacks the header row first or the navigation caution")
 			}
 			wantProblem(t, e.get(ds+"/area?coords="+poly+"&parameter-name=residual_depth,heat_flow&f=COG"), 400, CodeInvalidParameter)
 			wantProblem(t, e.get(ds+"/area?coords="+esc("POLYGON((0 0,1 0,1 1,0 0))")), 404, CodeNoData)
@@ -410,9 +410,9 @@ func TestAPI(t *testing.T) {
 			}
 			csv := e.get("/api/models/gdh1/curve?ages=0:10:1&f=csv")
 			e.want(csv, 200)
-			// 11 ages, a header row and the caution line.
-			if n := strings.Count(string(csv.Body), "\n"); n != 13 || !strings.HasPrefix(string(csv.Body), "# Caution:") {
-				t.Errorf("curve CSV has %d lines, want 13 starting with the caution", n)
+			// A header row and 11 ages, the caution in a column of the first.
+			if n := strings.Count(string(csv.Body), "\n"); n != 12 || !strings.HasPrefix(string(csv.Body), "age_ma,") || !strings.Contains(string(csv.Body), "not for navigation") {
+				t.Errorf("curve CSV has %d lines, want 12 starting with the header row and carrying the caution", n)
 			}
 			g := e.get("/api/models/halfspace/geotherm?age=50").json(t)
 			temps := g["temperature_c"].([]any)

@@ -144,12 +144,21 @@ func parseAreaQuery(r *http.Request) (areaQuery, error) {
 	return q, nil
 }
 
-// areaParam reads and prepares the polygon of coords= (WKT, longitude first), the one rule of
-// the area and statistics queries.
+// areaParam reads and prepares the polygon of coords= (WKT, longitude first) or bbox=
+// (west,south,east,north), the one rule of the area and statistics queries.
 func (s *server) areaParam(r *http.Request) (string, geo.PreparedRegion, error) {
 	coords := strings.TrimSpace(r.URL.Query().Get("coords"))
+	if bb := r.URL.Query().Get("bbox"); bb != "" {
+		if coords != "" {
+			return "", geo.PreparedRegion{}, problem(CodeInvalidParameter, "give coords or bbox, not both").withParam("bbox")
+		}
+		var err error
+		if coords, err = bboxArea(bb); err != nil {
+			return "", geo.PreparedRegion{}, err
+		}
+	}
 	if coords == "" {
-		return "", geo.PreparedRegion{}, problem(CodeInvalidCoords, "coords= is required (WKT, longitude first)").withParam("coords")
+		return "", geo.PreparedRegion{}, problem(CodeInvalidCoords, "coords= (WKT, longitude first) or bbox=west,south,east,north is required").withParam("coords")
 	}
 	mp, err := evaluate.ParseArea(coords)
 	if err != nil {
@@ -175,9 +184,9 @@ func (s *server) area(w http.ResponseWriter, r *http.Request) error {
 	resX, resY, format, covType, o := q.resX, q.resY, q.format, q.covType, q.options
 	if format == fmtCOG || format == fmtNetCDF {
 		req := evaluate.ExportRequest{Dataset: id, Options: o, Coords: coords, ResX: resX, ResY: resY, Format: evaluate.FormatCOG,
-			Filename: id + "-area-" + o.Parameters[0] + ".tif"}
+			Filename: evaluate.ExportFileName(id, "area", o, "tif")}
 		if format == fmtNetCDF {
-			req.Format, req.Filename = evaluate.FormatNetCDF, id+"-area-"+o.Parameters[0]+".nc"
+			req.Format, req.Filename = evaluate.FormatNetCDF, evaluate.ExportFileName(id, "area", o, "nc")
 		}
 		if s.deps.Jobs != nil {
 			cells, err := s.ev.AreaCells(r.Context(), id, region, resX, resY)
@@ -208,7 +217,7 @@ func (s *server) area(w http.ResponseWriter, r *http.Request) error {
 	if err != nil {
 		return err
 	}
-	return s.writeArea(w, format, covType, res, id+"-area", nil)
+	return s.writeArea(w, format, covType, res, "area", nil)
 }
 
 // writeArea writes an area answer (with statistics when stats is not nil) in format.
@@ -220,7 +229,7 @@ func (s *server) writeArea(w http.ResponseWriter, format outFormat, covType stri
 	ps := res.Query.Params
 	switch format {
 	case fmtCSV:
-		return writeGridCSV(w, name+".csv", prov.Caution, res.Lattice, ps, res.Grids)
+		return writeGridCSV(w, evaluate.FileName(res.Query, name, "csv"), evaluate.FactsOf(prov), res.Lattice, ps, res.Grids)
 	case fmtPNG:
 		b, ok := colour.BindingFor(ps[0].ID)
 		if !ok {
@@ -261,7 +270,7 @@ func setAnswerHeaders(w http.ResponseWriter, flags []evaluate.Flag, repairs []st
 	}
 }
 
-func writeGridCSV(w http.ResponseWriter, filename, caution string, lattice *geo.Grid, ps []evaluate.Parameter, grids []*geo.Grid) error {
+func writeGridCSV(w http.ResponseWriter, filename string, facts evaluate.CSVFacts, lattice *geo.Grid, ps []evaluate.Parameter, grids []*geo.Grid) error {
 	n := lattice.NX * lattice.NY
 	lons, lats := make([]float64, 0, n), make([]float64, 0, n)
 	cols := make([][]float64, len(ps))
@@ -287,11 +296,11 @@ func writeGridCSV(w http.ResponseWriter, filename, caution string, lattice *geo.
 			}
 		}
 	}
-	header := []string{"longitude", "latitude"}
-	for _, p := range ps {
-		header = append(header, p.ID+"_"+evaluate.UnitSuffix(p.Unit))
+	out := []evaluate.CSVColumn{numCol("longitude", lons), numCol("latitude", lats)}
+	for i, p := range ps {
+		out = append(out, numCol(evaluate.FieldName(p), cols[i]))
 	}
-	return writeCSV(w, filename, caution, header, append([][]float64{lons, lats}, cols...)...)
+	return writeCSV(w, filename, facts, out...)
 }
 
 // setColourHeaders states the colour scale of a PNG.
@@ -337,20 +346,19 @@ func (s *server) location(w http.ResponseWriter, r *http.Request) error {
 		return err
 	}
 	if format == fmtCOG || format == fmtNetCDF {
-		p := res.Query.Params[0]
-		file, media, ext := evaluate.FormatCOG, MediaCOG, ".tif"
+		file, media, ext := evaluate.FormatCOG, MediaCOG, "tif"
 		if format == fmtNetCDF {
-			file, media, ext = evaluate.FormatNetCDF, MediaNetCDF, ".nc"
+			file, media, ext = evaluate.FormatNetCDF, MediaNetCDF, "nc"
 		}
 		raw, err := s.ev.EncodeFile(res, file)
 		if err != nil {
 			return err
 		}
 		w.Header().Set("Content-Type", media)
-		w.Header().Set("Content-Disposition", `attachment; filename="`+id+"-"+rg.ID+"-"+p.ID+ext+`"`)
+		w.Header().Set("Content-Disposition", `attachment; filename="`+evaluate.FileName(res.Query, rg.ID, ext)+`"`)
 		setProvenance(w, s.ev.Provenance(res.Query))
 		_, err = w.Write(raw)
 		return err
 	}
-	return s.writeArea(w, format, covType, res, id+"-"+rg.ID, res.Stats)
+	return s.writeArea(w, format, covType, res, rg.ID, res.Stats)
 }

@@ -35,6 +35,8 @@ type covParameter struct {
 	Description      covI18n             `json:"description,omitempty"`
 	ObservedProperty covObservedProperty `json:"observedProperty"`
 	Unit             covUnit             `json:"unit"`
+	// Field is the parameter's name, with its unit, in CSV columns and GeoJSON properties.
+	Field string `json:"ridgeflank:field,omitempty"`
 }
 
 type covRefSystem struct {
@@ -168,6 +170,7 @@ func covParameters(ps []evaluate.Parameter) map[string]covParameter {
 			Description:      covI18n{"en": p.Description},
 			ObservedProperty: covObservedProperty{ID: p.ID, Label: covI18n{"en": p.Label}},
 			Unit:             covUnit{Label: covI18n{"en": p.UnitLabel}, Symbol: covSymbol{Value: p.Unit, Type: "http://www.opengis.net/def/uom/UCUM/"}},
+			Field:            evaluate.FieldName(p),
 		}
 	}
 	return out

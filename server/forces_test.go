@@ -86,7 +86,7 @@ func TestModelRulesAndRidgePush(t *testing.T) {
 		}
 		csv := e.get("/api/models/gdh1/ridge-push?ages=100&f=csv")
 		e.want(csv, 200)
-		if !strings.HasPrefix(string(csv.Body), "age_ma,ridge_push_n_m\n100,") {
+		if !strings.HasPrefix(string(csv.Body), "age_ma,ridge_push_n_m,model,") || !strings.Contains(string(csv.Body), "\n100,") {
 			t.Errorf("CSV %q", csv.Body)
 		}
 		wantProblem(t, e.get("/api/models/gdh1/ridge-push?ages=0:500:100"), 422, CodeAgeOutOfRange)

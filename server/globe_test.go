@@ -109,7 +109,7 @@ func TestAntimeridianAndPoles(t *testing.T) {
 				if lon := num(t, c[0]); math.Abs(lon) < 178.9 {
 					t.Errorf("sample %d at longitude %g: the geodesic should stay near ±180", i, lon)
 				}
-				if age := num(t, p[PSeafloorAge]); math.Abs(age-0.5) > 0.01 {
+				if age := num(t, p["seafloor_age_ma"]); math.Abs(age-0.5) > 0.01 {
 					t.Errorf("sample %d age %g, want 0.5", i, age)
 				}
 			}

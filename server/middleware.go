@@ -5,7 +5,6 @@ import (
 	"crypto/rand"
 	"encoding/hex"
 	"fmt"
-	"io/fs"
 	"net"
 	"net/http"
 	"runtime/debug"
@@ -169,22 +168,6 @@ func (s *server) corsMiddleware() func(http.Handler) http.Handler {
 		ExposedHeaders:   []string{"ETag", "Location", "X-Request-ID", "Ridgeflank-Provenance", "Ridgeflank-Caution", "Ridgeflank-Colour-Scale", "Ridgeflank-Flag", "Ridgeflank-Repair"},
 		AllowCredentials: false,
 		MaxAge:           600,
-	})
-}
-
-// assets serves the page. Unknown paths fall through to the router's 404.
-func (s *server) assets() http.Handler {
-	fsrv := http.FileServerFS(s.deps.Assets)
-	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
-		p := strings.TrimPrefix(r.URL.Path, "/")
-		if p == "" {
-			p = "."
-		}
-		if _, err := fs.Stat(s.deps.Assets, p); err != nil {
-			writeProblem(w, r, problem(CodeNotFound, "no resource at %s", r.URL.Path))
-			return
-		}
-		fsrv.ServeHTTP(w, r)
 	})
 }
 

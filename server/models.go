@@ -1,7 +1,6 @@
 package server
 
 import (
-	"encoding/csv"
 	"fmt"
 	"math"
 	"net/http"
@@ -12,7 +11,6 @@ import (
 
 	"ridgeflank/evaluate"
 	"ridgeflank/fault"
-	"ridgeflank/numjson"
 	"ridgeflank/thermal"
 )
 
@@ -191,8 +189,11 @@ func (s *server) modelCurve(w http.ResponseWriter, r *http.Request) error {
 	prov.Caution = Caution
 	setProvenance(w, prov)
 	if asCSV {
-		return writeCSV(w, "curve-"+m.Params().ID+".csv", prov.Caution,
-			evaluate.CurveColumns, ages, depth, hf, thick, iso, rate)
+		cols := make([]evaluate.CSVColumn, len(evaluate.CurveColumns))
+		for i, v := range [][]float64{ages, depth, hf, thick, iso, rate} {
+			cols[i] = numCol(evaluate.CurveColumns[i], v)
+		}
+		return writeCSV(w, "curve-"+m.Params().ID+".csv", evaluate.FactsOf(prov), cols...)
 	}
 	out := map[string]any{"model": m.Params().ID, "provenance": prov}
 	for i, col := range [][]float64{ages, depth, hf, thick, iso, rate} {
@@ -240,7 +241,7 @@ func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
 	prov := s.provenance(m)
 	setProvenance(w, prov)
 	if asCSV {
-		return writeCSV(w, "geotherm-"+m.Params().ID+".csv", "", []string{"depth_km", "temperature_c"}, depths, temps)
+		return writeCSV(w, "geotherm-"+m.Params().ID+".csv", evaluate.FactsOf(prov), numCol("depth_km", depths), numCol("temperature_c", temps))
 	}
 	return writeJSON(w, http.StatusOK, "", map[string]any{
 		"model":                m.Params().ID,
@@ -253,47 +254,18 @@ func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
 	})
 }
 
-// writeCSV writes equal-length columns with a header row. A non-empty
-// caution is written first as one comment line starting with "# ", so a
-// saved file keeps the navigation caution. Non-finite values
-// are written as empty fields.
-func writeCSV(w http.ResponseWriter, filename, caution string, header []string, cols ...[]float64) error {
-	return writeCSVText(w, filename, caution, header, nil, cols...)
-}
-
-// writeCSVText is writeCSV with a last column of text (when text is not nil; header names it).
-func writeCSVText(w http.ResponseWriter, filename, caution string, header []string, text []string, cols ...[]float64) error {
+// writeCSV answers cols as the CSV file filename, written by evaluate.WriteCSV (the header row
+// first; dataset, model, caution and provenance in columns of their own).
+func writeCSV(w http.ResponseWriter, filename string, facts evaluate.CSVFacts, cols ...evaluate.CSVColumn) error {
 	w.Header().Set("Content-Type", "text/csv; charset=utf-8; header=present")
-	w.Header().Set("Content-Disposition", `attachment; filename="`+filename+`"`)
-	if caution != "" {
-		if _, err := fmt.Fprintf(w, "# Caution: %s\n", caution); err != nil {
-			return err
-		}
-	}
-	cw := csv.NewWriter(w)
-	if err := cw.Write(header); err != nil {
-		return err
-	}
-	row := make([]string, len(cols), len(cols)+1)
-	if text != nil {
-		row = append(row, "")
-	}
-	for i := range cols[0] {
-		for j, c := range cols {
-			row[j] = formatCSVFloat(c[i])
-		}
-		if text != nil {
-			row[len(cols)] = text[i]
-		}
-		if err := cw.Write(row); err != nil {
-			return err
-		}
-	}
-	cw.Flush()
-	return cw.Error()
+	w.Header().Set("Content-Disposition", `attachment; filename="`+evaluate.SafeFileName(filename)+`"`)
+	return evaluate.WriteCSV(w, cols, facts)
 }
 
-func formatCSVFloat(v float64) string { return numjson.CSV(v) }
+// numCol is a CSV column of numbers written by the one CSV number rule (numjson.CSV).
+func numCol(name string, v []float64) evaluate.CSVColumn {
+	return evaluate.CSVColumn{Name: name, Values: v}
+}
 
 // modelRidgePush answers the ridge push per unit ridge length (N/m) at ages=start:stop:step
 // (default 0:200:10) under the model: evaluate.RidgePush.
@@ -321,7 +293,7 @@ func (s *server) modelRidgePush(w http.ResponseWriter, r *http.Request) error {
 	prov := s.provenance(m)
 	setProvenance(w, prov)
 	if asCSV {
-		return writeCSV(w, "ridge-push-"+m.Params().ID+".csv", "", []string{"age_ma", evaluate.RidgePushColumn}, ages, push)
+		return writeCSV(w, "ridge-push-"+m.Params().ID+".csv", evaluate.FactsOf(prov), numCol("age_ma", ages), numCol(evaluate.RidgePushColumn, push))
 	}
 	return writeJSON(w, http.StatusOK, "", map[string]any{
 		"model":                  m.Params().ID,

@@ -41,6 +41,9 @@ func setProvenance(w http.ResponseWriter, p Provenance) {
 	for _, g := range p.Grids {
 		parts = append(parts, fmt.Sprintf("grid=%q", g.Role+":"+g.ID+"@sha256:"+g.SHA256))
 	}
+	if p.Label != "" {
+		parts = append(parts, fmt.Sprintf("label=%q", p.Label))
+	}
 	w.Header().Set("Ridgeflank-Provenance", strings.Join(parts, ", "))
 	if p.Caution != "" {
 		w.Header().Set("Ridgeflank-Caution", p.Caution)

@@ -198,26 +198,20 @@ func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType st
 		}
 		return writeJSON(w, http.StatusOK, MediaGeoJSON, fc)
 	case fmtCSV:
-		header := []string{"longitude", "latitude"}
-		cols := [][]float64{lons, lats}
+		cols := []evaluate.CSVColumn{numCol("longitude", lons), numCol("latitude", lats)}
 		if distKm != nil {
-			header = append(header, "distance_km")
-			cols = append(cols, distKm)
+			cols = append(cols, numCol("distance_km", distKm))
 		}
 		if offsetKm != nil {
-			header = append(header, "offset_km")
-			cols = append(cols, offsetKm)
+			cols = append(cols, numCol("offset_km", offsetKm))
 		}
 		for i, p := range ps {
-			header = append(header, p.ID+"_"+evaluate.UnitSuffix(p.Unit))
-			cols = append(cols, values[i])
+			cols = append(cols, numCol(evaluate.FieldName(p), values[i]))
 		}
-		var names []string
 		if wps != nil && offsetKm == nil {
 			// A trajectory names its waypoints on the samples that are waypoints (the first sample
 			// at a waypoint's distance along the track).
-			header = append(header, "waypoint")
-			names = make([]string, len(lons))
+			names := make([]string, len(lons))
 			k := 0
 			for _, wp := range wps {
 				for k < len(distKm) && distKm[k] < wp.DistanceKm {
@@ -227,8 +221,9 @@ func (s *server) writePoints(w http.ResponseWriter, format outFormat, covType st
 					names[k] = wp.Name
 				}
 			}
+			cols = append(cols, evaluate.CSVColumn{Name: "waypoint", Text: names})
 		}
-		return writeCSVText(w, res.Query.Dataset.Row.ID+"-"+kind+".csv", prov.Caution, header, names, cols...)
+		return writeCSV(w, evaluate.FileName(res.Query, kind, "csv"), evaluate.FactsOf(prov), cols...)
 	}
 	c := pointCoverage(lons, lats, ps, values)
 	c.Provenance = &prov
@@ -255,7 +250,7 @@ func pointsGeoJSON(ps []evaluate.Parameter, lons, lats, distKm, offsetKm []float
 			props["offset_km"] = jsonFloat(offsetKm[j])
 		}
 		for i, p := range ps {
-			props[p.ID] = jsonFloat(values[i][j])
+			props[evaluate.FieldName(p)] = jsonFloat(values[i][j])
 		}
 		feats[j] = map[string]any{
 			"type":       "Feature",
@@ -265,7 +260,7 @@ func pointsGeoJSON(ps []evaluate.Parameter, lons, lats, distKm, offsetKm []float
 	}
 	units := map[string]string{}
 	for _, p := range ps {
-		units[p.ID] = p.Unit
+		units[evaluate.FieldName(p)] = p.Unit
 	}
 	out := map[string]any{"type": "FeatureCollection", "features": feats, "units": units, "provenance": prov}
 	if prov.Caution != "" {

@@ -209,6 +209,7 @@ func (s *server) routes() http.Handler {
 
 		r.Get("/collections", s.h(s.collections))
 		r.Route("/collections/{datasetId}", func(r chi.Router) {
+			r.Use(s.checkCRS)
 			r.Get("/", s.h(s.collection))
 			r.Get("/position", s.h(s.position))
 			r.Get("/area", s.h(s.area))

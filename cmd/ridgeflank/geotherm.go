@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"encoding/csv"
 	"encoding/json"
 	"fmt"
 	"io"
@@ -90,13 +89,12 @@ func runGeotherm(ctx context.Context, args []string, stdout, stderr io.Writer) e
 			Geotherm  []thermal.GeothermSample `json:"geotherm"`
 		}{p, age, caution, iso, samples}))
 	case "csv":
-		cw := csv.NewWriter(stdout)
-		cw.Write([]string{"depth_km", "temperature_c"})
+		cols := []evaluate.CSVColumn{{Name: "depth_km"}, {Name: "temperature_c"}}
 		for _, s := range samples {
-			cw.Write([]string{fmtNum(s.DepthKm, -1), fmtNum(s.TemperatureC, 3)})
+			cols[0].Values = append(cols[0].Values, s.DepthKm)
+			cols[1].Values = append(cols[1].Values, s.TemperatureC)
 		}
-		cw.Flush()
-		return writeErr(cw.Error())
+		return writeErr(evaluate.WriteCSV(stdout, cols, cliFacts(m)))
 	default:
 		return writeErr(writeGeothermTable(stdout, m, age, iso, samples))
 	}

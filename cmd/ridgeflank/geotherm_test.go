@@ -54,7 +54,7 @@ func TestGeothermTableAndCSV(t *testing.T) {
 		t.Fatalf("exit %d, table:\n%s", code, out)
 	}
 	code, out, _ = runCLI(t, nil, "geotherm", "--age", "20", "--max-km", "12", "--step-km", "5", "--format", "csv")
-	if code != 0 || !strings.HasPrefix(out, "depth_km,temperature_c\n0,") || !strings.Contains(out, "\n12,") {
+	if code != 0 || !strings.HasPrefix(out, "depth_km,temperature_c,model,caution,provenance\n0,") || !strings.Contains(out, "\n12,") {
 		t.Errorf("exit %d, csv:\n%s", code, out)
 	}
 }

@@ -157,3 +157,11 @@ func writeErr(err error) error {
 	}
 	return errors.New("cannot write the output: " + err.Error())
 }
+
+// cliFacts are the facts a CSV file of model m written by the command line carries: the model,
+// the navigation caution and the provenance (software and the model's parameters).
+func cliFacts(m thermal.Model) evaluate.CSVFacts {
+	ref := evaluate.NewModelRef(m.Params())
+	return evaluate.CSVFacts{Model: ref.ID, Caution: caution,
+		Provenance: evaluate.Provenance{Software: "ridgeflank " + version, Model: ref}}
+}

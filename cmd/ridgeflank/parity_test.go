@@ -651,11 +651,11 @@ func TestKmSedimentAnsweredInMetres(t *testing.T) {
 	mean := phi0 * (1 - math.Exp(-c*sKm)) / (c * sKm)
 	rhoS := mean*rhoW + (1-mean)*rhoG
 	want := 1000 * sKm * (rhoM - rhoS) / (rhoM - rhoW)
-	if got := p["sediment_thickness"]; math.Abs(got-2500) > 0.01 {
+	if got := p["sediment_thickness_m"]; math.Abs(got-2500) > 0.01 {
 		t.Errorf("sediment_thickness = %g m, want 2500 m", got)
 	}
 	// Tolerance 0.5 m: float32 storage and the service's tabulated correction.
-	if got := p["corrected_depth"] - p["observed_depth"]; math.Abs(got-want) > 0.5 {
+	if got := p["corrected_depth_m"] - p["observed_depth_m"]; math.Abs(got-want) > 0.5 {
 		t.Errorf("corrected − observed depth = %g m, want %g m (Sclater & Christie closed form)", got, want)
 	}
 }

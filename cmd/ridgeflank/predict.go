@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"encoding/csv"
 	"encoding/json"
 	"fmt"
 	"io"
@@ -89,7 +88,7 @@ func runPredict(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	case "csv":
 		// The caution goes to stderr so the CSV on stdout stays machine-readable.
 		fmt.Fprintln(stderr, caution)
-		return writeErr(writePredictCSV(stdout, rows))
+		return writeErr(writePredictCSV(stdout, m, rows))
 	default:
 		return writeErr(writePredictTable(stdout, m, rows))
 	}
@@ -125,24 +124,20 @@ func (p prediction) fields(decimals []int) []string {
 	return out
 }
 
-// writePredictCSV writes the columns evaluate.CurveColumns, every number as the API's CSV
-// writes it (evaluate.FormatNumber: 7 significant digits, shortest form, empty when infinite).
-func writePredictCSV(w io.Writer, rows []prediction) error {
-	cw := csv.NewWriter(w)
-	if err := cw.Write(evaluate.CurveColumns); err != nil {
-		return err
+// writePredictCSV writes the columns evaluate.CurveColumns with evaluate.WriteCSV, the one CSV
+// writer: every number as the API's CSV writes it (evaluate.FormatNumber: 7 significant digits,
+// shortest form, empty when infinite), then model, caution and provenance in columns of their own.
+func writePredictCSV(w io.Writer, m thermal.Model, rows []prediction) error {
+	cols := make([]evaluate.CSVColumn, len(evaluate.CurveColumns))
+	for i, name := range evaluate.CurveColumns {
+		cols[i] = evaluate.CSVColumn{Name: name, Format: evaluate.FormatNumber}
 	}
-	row := make([]string, len(evaluate.CurveColumns))
 	for _, r := range rows {
 		for i, v := range r.values() {
-			row[i] = evaluate.FormatNumber(v)
-		}
-		if err := cw.Write(row); err != nil {
-			return err
+			cols[i].Values = append(cols[i].Values, v)
 		}
 	}
-	cw.Flush()
-	return cw.Error()
+	return evaluate.WriteCSV(w, cols, cliFacts(m))
 }
 
 func writePredictTable(w io.Writer, m thermal.Model, rows []prediction) error {

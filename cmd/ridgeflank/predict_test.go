@@ -82,7 +82,9 @@ func TestPredictCSV(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := []string{"age_ma", "depth_m", "heat_flow_mw_m2", "thermal_thickness_km", "depth_600c_km", "subsidence_rate_m_per_myr"}
+	// The header row first, named as the service's curve answer names its columns; the model,
+	// caution and provenance in columns after the values.
+	want := []string{"age_ma", "depth_m", "heat_flow_mw_m2", "thermal_thickness_km", "depth_600c_km", "subsidence_rate_m_per_myr", "model", "caution", "provenance"}
 	if strings.Join(recs[0], ",") != strings.Join(want, ",") || len(recs) != 4 {
 		t.Fatalf("header %v, %d rows", recs[0], len(recs))
 	}
@@ -92,6 +94,12 @@ func TestPredictCSV(t *testing.T) {
 		age, _ := strconv.ParseFloat(r[0], 64)
 		d, _ := strconv.ParseFloat(r[1], 64)
 		within(t, fmt.Sprintf("PSM depth at %g Ma", age), d, 2500+350*math.Sqrt(age), 100)
+		if r[6] != "psm" {
+			t.Errorf("model column %q", r[6])
+		}
+	}
+	if !strings.Contains(recs[1][7], "not for navigation") || recs[2][7] != "" {
+		t.Errorf("caution column %q, %q: on the first row only", recs[1][7], recs[2][7])
 	}
 }
 

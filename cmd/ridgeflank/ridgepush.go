@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"encoding/csv"
 	"encoding/json"
 	"fmt"
 	"io"
@@ -81,13 +80,7 @@ func runRidgePush(ctx context.Context, args []string, stdout, stderr io.Writer) 
 			RidgePush []ridgePushRow `json:"ridge_push"`
 		}{m.Params(), rows}))
 	case "csv":
-		cw := csv.NewWriter(stdout)
-		cw.Write([]string{"age_ma", evaluate.RidgePushColumn})
-		for _, r := range rows {
-			cw.Write([]string{evaluate.FormatNumber(float64(r.AgeMa)), evaluate.FormatNumber(float64(r.RidgePushNPM))})
-		}
-		cw.Flush()
-		return writeErr(cw.Error())
+		return writeErr(evaluate.WriteCSV(stdout, []evaluate.CSVColumn{{Name: "age_ma", Values: ages}, {Name: evaluate.RidgePushColumn, Values: push}}, cliFacts(m)))
 	default:
 		fmt.Fprintln(stdout, modelLine(m))
 		tw := tabwriter.NewWriter(stdout, 0, 0, 2, ' ', tabwriter.AlignRight)

@@ -59,7 +59,8 @@ import (
 // goroutine; Close it.
 type NetCDFStream struct {
 	h      C.GDALDatasetH
-	name   string // the variable's name
+	name   string            // the variable's name
+	ncText map[string]string // global attributes the netCDF library writes (layout.ncText)
 	header geo.Grid
 	path   string
 	tmp    string
@@ -84,7 +85,7 @@ func NewNetCDFStream(path string, header geo.Grid, m Meta) (*NetCDFStream, error
 	if dir == "" {
 		dir = "."
 	}
-	s := &NetCDFStream{header: header, path: path, name: l.name, fill: float32(l.nodata),
+	s := &NetCDFStream{header: header, path: path, name: l.name, fill: float32(l.nodata), ncText: l.ncText,
 		tmp: filepath.Join(dir, fmt.Sprintf(".%s.tmp-%d-%d.nc", base, os.Getpid(), vsiSeq.Add(1)))}
 	gt := geoTransform(&header)
 	cDriver, cPath := C.CString("netCDF"), C.CString(s.tmp)
@@ -182,28 +183,44 @@ func (s *NetCDFStream) Finish(extra map[string]string) error {
 			return fmt.Errorf("write grid %s: naming the variable %s: %s", s.path, s.name, C.GoString(C.rf_nc_strerror(st)))
 		}
 	}
-	for _, k := range sortedKeys(extra) {
-		if !ncNameRE.MatchString(k) {
-			os.Remove(s.tmp)
-			return fmt.Errorf("write grid %s: attribute name %q must be letters, digits and _", s.path, k)
-		}
-		cTmp, cKey, cVal := C.CString(s.tmp), C.CString(k), C.CString(extra[k])
-		hdfMu.Lock()
-		st := C.rf_nc_put_global(cTmp, cKey, cVal)
-		hdfMu.Unlock()
-		C.free(unsafe.Pointer(cTmp))
-		C.free(unsafe.Pointer(cKey))
-		C.free(unsafe.Pointer(cVal))
-		if st != 0 {
-			os.Remove(s.tmp)
-			return fmt.Errorf("write grid %s: attribute %s: %s", s.path, k, C.GoString(C.rf_nc_strerror(st)))
-		}
+	all := map[string]string{}
+	for k, v := range s.ncText {
+		all[k] = v
+	}
+	for k, v := range extra {
+		all[k] = v
+	}
+	hdfMu.Lock()
+	err := ncPutGlobals(s.tmp, all)
+	hdfMu.Unlock()
+	if err != nil {
+		os.Remove(s.tmp)
+		return fmt.Errorf("write grid %s: %w", s.path, err)
 	}
 	if err := os.Rename(s.tmp, s.path); err != nil {
 		os.Remove(s.tmp)
 		return fmt.Errorf("write grid %s: %w", s.path, err)
 	}
 	s.tmp = ""
+	return nil
+}
+
+// ncPutGlobals sets the text global attributes attrs of the netCDF file path with the netCDF
+// library (keys must be netCDF names). The caller holds hdfMu.
+func ncPutGlobals(path string, attrs map[string]string) error {
+	for _, k := range sortedKeys(attrs) {
+		if !ncNameRE.MatchString(k) {
+			return fmt.Errorf("attribute name %q must be letters, digits and _", k)
+		}
+		cPath, cKey, cVal := C.CString(path), C.CString(k), C.CString(attrs[k])
+		st := C.rf_nc_put_global(cPath, cKey, cVal)
+		C.free(unsafe.Pointer(cPath))
+		C.free(unsafe.Pointer(cKey))
+		C.free(unsafe.Pointer(cVal))
+		if st != 0 {
+			return fmt.Errorf("attribute %s: %s", k, C.GoString(C.rf_nc_strerror(st)))
+		}
+	}
 	return nil
 }
 

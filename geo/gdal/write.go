@@ -151,6 +151,9 @@ func writeRaster(driver, path string, g *geo.Grid, m Meta) error {
 		}
 		return fmt.Errorf("write grid %s: GDAL failed", path)
 	}
+	if netcdf {
+		return ncPutGlobals(path, l.ncText)
+	}
 	return nil
 }
 
@@ -171,6 +174,10 @@ type layout struct {
 	nodata       float64
 	dsMD, bandMD []string
 	copts        []string
+	// ncText are netCDF global attributes written with the netCDF library once GDAL has
+	// written the file: text GDAL's driver would not keep as given (a value in braces, such as
+	// JSON, is read by it as a list of numbers and loses its quotes).
+	ncText map[string]string
 }
 
 // cLayout is a layout with the band's units as C strings, for one call of a C helper.
@@ -229,6 +236,7 @@ func layoutOf(g *geo.Grid, m Meta, netcdf bool) (layout, error) {
 		global["vertical_sense"] = m.Sense.String()
 	}
 	var dsMD, bandMD []string
+	var ncText map[string]string
 	add := func(list *[]string, k, v string) {
 		if v != "" {
 			*list = append(*list, k+"="+v)
@@ -246,6 +254,16 @@ func layoutOf(g *geo.Grid, m Meta, netcdf bool) (layout, error) {
 			}
 		}
 		for _, k := range sortedKeys(global) {
+			if strings.HasPrefix(strings.TrimSpace(global[k]), "{") {
+				if !ncNameRE.MatchString(k) {
+					return layout{}, fmt.Errorf("attribute name %q must be letters, digits and _", k)
+				}
+				if ncText == nil {
+					ncText = map[string]string{}
+				}
+				ncText[k] = global[k]
+				continue
+			}
 			add(&dsMD, "NC_GLOBAL#"+k, global[k])
 		}
 		add(&bandMD, "NETCDF_VARNAME", name)
@@ -288,7 +306,7 @@ func layoutOf(g *geo.Grid, m Meta, netcdf bool) (layout, error) {
 		copts = []string{"FORMAT=NC4C", "COMPRESS=DEFLATE", "ZLEVEL=4", "WRITE_BOTTOMUP=YES",
 			"WRITE_GDAL_HISTORY=NO", "WRITE_GDAL_VERSION=NO"}
 	}
-	return layout{name: name, nodata: nd, dsMD: dsMD, bandMD: bandMD, copts: copts}, nil
+	return layout{name: name, nodata: nd, dsMD: dsMD, bandMD: bandMD, copts: copts, ncText: ncText}, nil
 }
 
 func sortedKeys(m map[string]string) []string {
