@@ -98,7 +98,7 @@ type Inputs struct {
 	// like Depth); it is needed, or AgeSigmaMa, by the uncertainty outputs.
 	AgeSigma *Grid
 	// AgeSigmaMa is one age uncertainty (Ma, one standard deviation) for every cell, used when
-	// AgeSigma is nil; it must be finite and ≥ 0.
+	// AgeSigma is nil; it must be > 0 and finite, or NaN for no data (every uncertainty NaN).
 	AgeSigmaMa float64
 	// Workers is the number of goroutines; 0 means GOMAXPROCS.
 	Workers int

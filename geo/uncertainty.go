@@ -283,7 +283,11 @@ func (p *residualPlan) prepareUnc(in Inputs) error {
 		p.sigma = s
 		return nil
 	}
-	if math.IsNaN(in.AgeSigmaMa) || math.IsInf(in.AgeSigmaMa, 0) || in.AgeSigmaMa < 0 {
+	if math.IsNaN(in.AgeSigmaMa) {
+		p.sigmaMa = in.AgeSigmaMa // no data: every uncertainty is NaN
+		return nil
+	}
+	if math.IsInf(in.AgeSigmaMa, 0) || in.AgeSigmaMa < 0 {
 		return fault.New(fault.InvalidParameter, AgeSigmaField, "age uncertainty %g Ma: give a finite value ≥ 0", in.AgeSigmaMa)
 	}
 	if in.AgeSigmaMa == 0 {

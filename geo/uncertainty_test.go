@@ -217,14 +217,18 @@ func TestAgeSpreadGridEqualsSingleValue(t *testing.T) {
 	}
 }
 
-// No uncertainty source, or a bad single value, is refused.
+// No uncertainty source, or a bad single value, is refused; NaN is no data.
 func TestAgeSpreadRefused(t *testing.T) {
 	m := resModel(t, "gdh1")
 	age := resFill(4, 4, 0, 4, 1, CellCentre, resAge)
-	for _, s := range []float64{0, -1, math.NaN(), math.Inf(1)} {
+	for _, s := range []float64{0, -1, math.Inf(1)} {
 		if _, err := Evaluate(context.Background(), Inputs{Age: age, Model: m, AgeSigmaMa: s}, OutPredictedDepthSigma); err == nil {
 			t.Errorf("σ %v accepted", s)
 		}
+	}
+	r, err := Evaluate(context.Background(), Inputs{Age: age, Model: m, AgeSigmaMa: math.NaN()}, OutPredictedDepthSigma)
+	if err != nil || !math.IsNaN(float64(r.PredictedDepthSigmaM.Data[0])) {
+		t.Errorf("σ NaN: %v, %v", err, r)
 	}
 }
 
