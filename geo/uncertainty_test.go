@@ -275,3 +275,52 @@ func TestRidgePushTable(t *testing.T) {
 		}
 	}
 }
+
+// Stats.QuadratureMean, the uncertainty of a weighted mean of independent cells, √(Σw²σ²)/Σw:
+// worked by hand for two cells at latitudes 0° and 60° (weights 1 and 0.5) holding σ = 1 each:
+// √(1 + 0.25)/1.5 = 0.745356; and four equal cells on the equator holding σ = 10: 10/√4 = 5
+// (the σ/√n rule). AreaWeightedStats and StatsStream agree.
+func TestQuadratureMean(t *testing.T) {
+	two := NewGrid(1, 2, 0, 60, 1, 60, Node) // rows at 60° and 0°
+	two.Data = []float32{1, 1}
+	four := NewGrid(4, 1, 0, 0, 1, 1, Node)
+	four.Data = []float32{10, 10, 10, 10}
+	for _, c := range []struct {
+		name string
+		g    *Grid
+		want float64
+	}{
+		{"latitudes 60 and 0", two, math.Sqrt(1.25) / 1.5},
+		{"four equal cells", four, 5},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			st, err := AreaWeightedStats(c.g, Mask{}, StatsOptions{HistogramBins: 2})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if math.Abs(st.QuadratureMean-c.want) > 1e-9 {
+				t.Errorf("AreaWeightedStats %v, worked %v", st.QuadratureMean, c.want)
+			}
+			ss, err := NewStatsStream(StatsOptions{HistogramBins: 2}, 0)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if err := ss.AddMoments(c.g, Mask{}); err != nil {
+				t.Fatal(err)
+			}
+			if err := ss.BeginHistogram(); err != nil {
+				t.Fatal(err)
+			}
+			if err := ss.AddHistogram(c.g, Mask{}); err != nil {
+				t.Fatal(err)
+			}
+			sr, err := ss.Result()
+			if err != nil {
+				t.Fatal(err)
+			}
+			if math.Abs(sr.QuadratureMean-c.want) > 1e-9 {
+				t.Errorf("StatsStream %v, worked %v", sr.QuadratureMean, c.want)
+			}
+		})
+	}
+}
