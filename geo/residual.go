@@ -738,7 +738,7 @@ func (p *residualPlan) block(w *residualWorker, r0, r1 int, dst *residualDst) {
 			p.row(w, r, cut(dst.pred), cut(dst.hf), cut(dst.thick), cut(dst.d600), cut(dst.corr), cut(dst.res))
 		}
 		if p.want&(outSigma|OutRidgePush) != 0 {
-			p.uncRow(w, r, cut(dst.predSig), cut(dst.hfSig), cut(dst.thickSig), cut(dst.resSig), cut(dst.push))
+			p.uncRow(w, r, cut(dst.predSig), cut(dst.hfSig), cut(dst.thickSig), cut(dst.resSig), cut(dst.push), cut(dst.res))
 		}
 	}
 }

@@ -18,10 +18,12 @@ import (
 // standard deviation of f over that distribution, found in one of two ways:
 //
 //   - first order, where σ ≤ SamplingRatio·age: σ_f = |df/dage|·σ (the linear term of the Taylor
-//     series; see e.g. Taylor, An Introduction to Error Analysis, 2nd ed. 1997, §3.11). The
-//     derivative is a central difference in s = √age with step s/32, df/dage = (f((s+h)²) −
-//     f((s−h)²)) / (2h) / (2s): every prediction of the cooling models is smooth in √age (the
-//     half-space depth and thickness are linear in it, so the difference is exact for them);
+//     series; see e.g. Taylor, An Introduction to Error Analysis, 2nd ed. 1997, §3.11). For depth
+//     the derivative is the model's own subsidence rate dd/dt (thermal.Table's
+//     SubsidenceRateMPerMyr); for heat flow and thickness, which thermal gives no derivative of,
+//     it is a central difference in s = √age with step s/32, df/dage = (f((s+h)²) − f((s−h)²)) /
+//     (2h) / (2s): every prediction of the cooling models is smooth in √age (the half-space
+//     thickness is linear in it, so the difference is exact for it);
 //   - by sampling, where σ > SamplingRatio·age (young seafloor, where √age is steep and the
 //     linear term misjudges the spread, and near the ridge where the truncation matters): the
 //     mean and variance of f are integrated over the truncated normal by Gauss–Legendre
@@ -58,7 +60,9 @@ var legendre01 = sync.OnceValues(func() ([]float64, []float64) {
 // ageSpread is the standard deviation of f(t) for t normal about ageMa with standard deviation
 // sigmaMa, truncated at 0 (see the comment at the top of this file). NaN for NaN or negative age
 // or σ; 0 for σ = 0.
-func ageSpread(f func(float64) float64, ageMa, sigmaMa float64) float64 {
+//
+// df, if not nil, is f's derivative (per Ma); otherwise the central difference is used.
+func ageSpread(f, df func(float64) float64, ageMa, sigmaMa float64) float64 {
 	if !(ageMa >= 0) || !(sigmaMa >= 0) || math.IsInf(ageMa, 0) || math.IsInf(sigmaMa, 0) {
 		return math.NaN()
 	}
@@ -66,6 +70,9 @@ func ageSpread(f func(float64) float64, ageMa, sigmaMa float64) float64 {
 		return 0
 	}
 	if sigmaMa <= SamplingRatio*ageMa {
+		if df != nil {
+			return math.Abs(df(ageMa)) * sigmaMa
+		}
 		return math.Abs(ageDerivative(f, ageMa)) * sigmaMa
 	}
 	return sampledSpread(f, ageMa, sigmaMa)
@@ -169,8 +176,10 @@ func (t *ridgePushTable) at(ageMa float64) float64 {
 
 // uncRow computes the age-uncertainty and ridge-push outputs of output row r (nil destinations
 // are not computed): the uncertainties of predicted depth, heat flow, thermal thickness and
-// residual depth (ageSpread over the model's table) and the ridge push (ridgePushTable).
-func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig, resSig, push []float32) {
+// residual depth (ageSpread over the model's table) and the ridge push (ridgePushTable). res, if
+// not nil, is the row's residual depth already computed: where it is NaN so is its uncertainty
+// (otherwise the corrected depth is computed to find where the residual has a value).
+func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig, resSig, push, res []float32) {
 	nx := p.lat.NX
 	age := p.lat.Data[r*nx : (r+1)*nx]
 	nan := float32(math.NaN())
@@ -181,7 +190,7 @@ func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig
 		}
 	}
 	var obs, sed, crust []float32
-	if resSig != nil {
+	if resSig != nil && res == nil {
 		obs = p.depth.row(p, r, w.depth)
 		if p.sedTab != nil {
 			sed = p.sed.row(p, r, w.sed)
@@ -207,18 +216,23 @@ func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig
 		}
 		var pd float64
 		if predSig != nil || resSig != nil {
-			pd = ageSpread(p.tbl.DepthM, a, s)
+			pd = ageSpread(p.tbl.DepthM, p.tbl.SubsidenceRateMPerMyr, a, s)
 		}
 		if predSig != nil {
 			predSig[i] = float32(pd)
 		}
 		if hfSig != nil {
-			hfSig[i] = float32(ageSpread(p.tbl.HeatFlowMWm2, a, s))
+			hfSig[i] = float32(ageSpread(p.tbl.HeatFlowMWm2, nil, a, s))
 		}
 		if thickSig != nil {
-			thickSig[i] = float32(ageSpread(p.tbl.ThermalThicknessKm, a, s))
+			thickSig[i] = float32(ageSpread(p.tbl.ThermalThicknessKm, nil, a, s))
 		}
-		if resSig != nil {
+		if resSig != nil && res != nil {
+			resSig[i] = float32(pd)
+			if res[i] != res[i] {
+				resSig[i] = nan
+			}
+		} else if resSig != nil {
 			var sd, cr float32
 			if sed != nil {
 				sd = sed[i]
@@ -251,15 +265,15 @@ func (p *residualPlan) pointUnc(v *SampleValues, sigma *Grid, lon, lat, corrM fl
 	}
 	v.AgeSigmaMa = s
 	a := float64(float32(v.AgeMa))
-	pd := ageSpread(p.tbl.DepthM, a, s)
+	pd := ageSpread(p.tbl.DepthM, p.tbl.SubsidenceRateMPerMyr, a, s)
 	if p.want&OutPredictedDepthSigma != 0 {
 		v.PredictedDepthSigmaM = pd
 	}
 	if p.want&OutHeatFlowSigma != 0 {
-		v.HeatFlowSigmaMWm2 = ageSpread(p.tbl.HeatFlowMWm2, a, s)
+		v.HeatFlowSigmaMWm2 = ageSpread(p.tbl.HeatFlowMWm2, nil, a, s)
 	}
 	if p.want&OutThermalThicknessSigma != 0 {
-		v.ThermalThicknessSigmaKm = ageSpread(p.tbl.ThermalThicknessKm, a, s)
+		v.ThermalThicknessSigmaKm = ageSpread(p.tbl.ThermalThicknessKm, nil, a, s)
 	}
 	if p.want&OutResidualDepthSigma != 0 && !math.IsNaN(corrM) {
 		v.ResidualDepthSigmaM = pd

@@ -6,6 +6,9 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+	"time"
+
+	"github.com/paulmach/orb"
 
 	"ridgeflank/thermal"
 )
@@ -110,7 +113,7 @@ func TestAgeSpreadSamplingMonteCarlo(t *testing.T) {
 			if c.sigma <= SamplingRatio*c.age {
 				t.Fatal("case does not exercise the sampling branch")
 			}
-			got := ageSpread(c.f, c.age, c.sigma)
+			got := ageSpread(c.f, nil, c.age, c.sigma)
 			want := monteCarloSpread(c.f, c.age, c.sigma, 400000, 42)
 			if math.Abs(got-want) > c.tol*want {
 				t.Errorf("quadrature %v, Monte Carlo %v", got, want)
@@ -141,18 +144,18 @@ func TestAgeSpreadBranchesMeet(t *testing.T) {
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			s := SamplingRatio * c.age
-			fo := ageSpread(c.f, c.age, s)
+			fo := ageSpread(c.f, nil, c.age, s)
 			sm := sampledSpread(c.f, c.age, s)
 			if math.Abs(fo-sm) > c.tol*sm {
 				t.Errorf("first order %v, sampled %v", fo, sm)
 			}
 		})
 	}
-	if v := ageSpread(tbl.DepthM, 10, 0); v != 0 {
+	if v := ageSpread(tbl.DepthM, nil, 10, 0); v != 0 {
 		t.Errorf("σ 0: %v", v)
 	}
 	for _, bad := range [][2]float64{{-1, 1}, {10, -1}, {math.NaN(), 1}, {10, math.NaN()}} {
-		if v := ageSpread(tbl.DepthM, bad[0], bad[1]); !math.IsNaN(v) {
+		if v := ageSpread(tbl.DepthM, nil, bad[0], bad[1]); !math.IsNaN(v) {
 			t.Errorf("age %g σ %g: %v, want NaN", bad[0], bad[1], v)
 		}
 	}
@@ -249,7 +252,7 @@ func TestAgeSpreadAntimeridian(t *testing.T) {
 	for r := range age.NY {
 		for c := range age.NX {
 			k := r*age.NX + c
-			want := ageSpread(tbl.DepthM, float64(age.Data[k]), sigf(age.Lon(c), age.Lat(r)))
+			want := ageSpread(tbl.DepthM, tbl.SubsidenceRateMPerMyr, float64(age.Data[k]), sigf(age.Lon(c), age.Lat(r)))
 			if got := float64(res.PredictedDepthSigmaM.Data[k]); math.Abs(got-want) > 1e-4*want {
 				t.Fatalf("lon %g: %v, want %v", age.Lon(c), got, want)
 			}
@@ -321,6 +324,55 @@ func TestQuadratureMean(t *testing.T) {
 			if math.Abs(sr.QuadratureMean-c.want) > 1e-9 {
 				t.Errorf("StatsStream %v, worked %v", sr.QuadratureMean, c.want)
 			}
+		})
+	}
+}
+
+// BenchmarkAgeUncertainty reports the cost of the residual depth with its age uncertainty
+// relative to the plain residual kernel (ratio x-residual; the goal is ≤ 1.5) over a
+// 30°×30° window of the SYNTHETIC benchmark grids, for σ = 2 Ma (about one cell in eleven young
+// enough, age < 20 Ma, to be sampled) and σ = 0.5 Ma.
+func BenchmarkAgeUncertainty(b *testing.B) {
+	m, err := thermal.Builtin("gdh1")
+	if err != nil {
+		b.Fatal(err)
+	}
+	sh, err := thermal.CompactionByName("shale")
+	if err != nil {
+		b.Fatal(err)
+	}
+	age, depth, sed, _, _ := residualBenchGrids()
+	win := orb.Bound{Min: orb.Point{0, 0}, Max: orb.Point{30, 30}}
+	for _, sigma := range []float64{0.5, 2} {
+		b.Run(fmt.Sprintf("sigma=%gMa", sigma), func(b *testing.B) {
+			in := Inputs{Age: age, Depth: depth, DepthSense: ElevationPositiveUp, Sediment: sed, Compaction: sh, Model: m,
+				Window: &win, AgeSigmaMa: sigma}
+			plain, err := Evaluate(context.Background(), in, OutResidualDepth)
+			if err != nil {
+				b.Fatal(err)
+			}
+			cells := float64(plain.ResidualDepthM.NX * plain.ResidualDepthM.NY)
+			var tPlain, tUnc time.Duration
+			b.ReportAllocs()
+			b.ResetTimer()
+			for i := 0; i < b.N; i++ {
+				t0 := time.Now()
+				if _, err := Evaluate(context.Background(), in, OutResidualDepth); err != nil {
+					b.Fatal(err)
+				}
+				t1 := time.Now()
+				if _, err := Evaluate(context.Background(), in, OutResidualDepth|OutResidualDepthSigma); err != nil {
+					b.Fatal(err)
+				}
+				tPlain += t1.Sub(t0)
+				tUnc += time.Since(t1)
+			}
+			b.StopTimer()
+			p := float64(tPlain.Nanoseconds()) / float64(b.N) / cells
+			u := float64(tUnc.Nanoseconds()) / float64(b.N) / cells
+			b.ReportMetric(p, "residual-ns/cell")
+			b.ReportMetric(u, "ns/cell")
+			b.ReportMetric(u/p, "x-residual")
 		})
 	}
 }
