@@ -113,7 +113,7 @@ var bindings = []Binding{
 	{"heat_flow_uncertainty", "spread", 0, 50, 0, "mW/m²", "Heat flow uncertainty from age uncertainty (1σ)"},
 	{"thermal_thickness_uncertainty", "spread", 0, 20, 0, "km", "Thermal thickness uncertainty from age uncertainty (1σ)"},
 	{"residual_depth_uncertainty", "spread", 0, 300, 0, "m", "Residual depth uncertainty from age uncertainty (1σ)"},
-	{"ridge_push_n_m", "ember", 0, 5e12, 0, "N/m", "Ridge push per metre of ridge"},
+	{"ridge_push", "ember", 0, 5e12, 0, "N/m", "Ridge push per metre of ridge"},
 }
 
 func init() {

@@ -41,6 +41,9 @@ type Query struct {
 	// AgeSigmaMa is the question's single age uncertainty (Ma, one standard deviation); 0 means
 	// the dataset's age-uncertainty grid, read when a parameter needs it.
 	AgeSigmaMa float64
+	// meanUnc is set on a statistics answer's question when the age uncertainty was used for
+	// the uncertainty of its means (its provenance then names the source).
+	meanUnc bool
 }
 
 // param returns the question's parameter id.
@@ -55,6 +58,9 @@ func (q *Query) param(id string) (Parameter, bool) {
 
 // usesAgeUncertainty reports whether some parameter propagates the age uncertainty.
 func (q *Query) usesAgeUncertainty() bool {
+	if q.meanUnc {
+		return true
+	}
 	for _, p := range q.Params {
 		if p.NeedsAgeUncertainty() {
 			return true
@@ -65,7 +71,7 @@ func (q *Query) usesAgeUncertainty() bool {
 
 // usesAgeUncertaintyGrid reports whether the question reads the dataset's age-uncertainty grid.
 func (q *Query) usesAgeUncertaintyGrid() bool {
-	return q.AgeSigmaMa == 0 && q.usesAgeUncertainty()
+	return q.AgeSigmaMa == 0 && (q.meanUnc || q.usesAgeUncertainty())
 }
 
 // ageSigma sets the age-uncertainty inputs of in from the question and its window v (the grid

@@ -22,7 +22,7 @@ const (
 	PHeatFlowUncertainty         = "heat_flow_uncertainty"
 	PThermalThicknessUncertainty = "thermal_thickness_uncertainty"
 	PResidualDepthUncertainty    = "residual_depth_uncertainty"
-	PRidgePush                   = "ridge_push_n_m"
+	PRidgePush                   = "ridge_push"
 )
 
 // RoleCrust is the role of a dataset's crustal thickness grid (an input, not a parameter).

@@ -267,6 +267,9 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 		res.Stats = append(res.Stats, st)
 	}
 	if uncIdx != nil {
+		aq := *asked
+		aq.meanUnc = true
+		res.Query = &aq
 		res.MeanUncertainty = make([]*MeanUncertainty, len(asked.Params))
 		for i, j := range uncIdx {
 			if j >= 0 && res.Stats[j].Count > 0 {

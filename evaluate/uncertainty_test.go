@@ -5,12 +5,13 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"github.com/paulmach/orb"
 
-	"ridgeflank/demobasin"
 	"ridgeflank/fault"
+	"ridgeflank/store"
 	"ridgeflank/thermal"
 )
 
@@ -98,18 +99,15 @@ func TestPointsAgeUncertaintySingleValue(t *testing.T) {
 	}
 }
 
-// The uncertainty parameters need an age uncertainty: the demo basin has no grid, so asking
+// The uncertainty parameters need an age uncertainty: for a dataset without a grid, asking
 // without age-uncertainty-ma is an unknown-parameter fault naming it, and a bad value an
 // invalid-parameter fault; with a value they are answered.
 func TestAgeUncertaintyFaults(t *testing.T) {
 	s := checkService(t, Limits{})
 	ctx := context.Background()
-	d, err := s.Dataset(ctx, demobasin.DatasetID)
-	if err != nil {
-		t.Fatal(err)
-	}
+	d := &Dataset{Row: store.Dataset{ID: "no-age-uncertainty"}} // catalogue facts only: Resolve reads no grid
 	o := Options{Parameters: []string{PPredictedDepthUncertainty}}
-	_, err = s.Resolve(ctx, d, o)
+	_, err := s.Resolve(ctx, d, o)
 	var fe *fault.Error
 	if !errors.As(err, &fe) || fe.Kind != fault.UnknownParameter {
 		t.Errorf("without an age uncertainty: %v", err)
@@ -171,6 +169,21 @@ func TestRegionMeanUncertainty(t *testing.T) {
 	}
 	if res.MeanUncertainty[1] != nil {
 		t.Error("ridge push given a mean uncertainty")
+	}
+	if note := s.Provenance(res.Query).Note; !strings.Contains(note, "age uncertainty 1 Ma") {
+		t.Errorf("provenance note %q does not give the age uncertainty", note)
+	}
+	// From the grid: the provenance names it.
+	o.AgeUncertaintyMa = 0
+	if res, err = s.Statistics(ctx, planGlobeID, o, r, 0, 0, nil); err != nil {
+		t.Fatal(err)
+	}
+	named := false
+	for _, g := range s.Provenance(res.Query).Grids {
+		named = named || g.Role == RoleAgeUncertainty
+	}
+	if !named || res.MeanUncertainty[0] == nil {
+		t.Error("statistics from the age-uncertainty grid: grid not in the provenance, or no mean uncertainty")
 	}
 	// A parameter without an uncertainty companion has none.
 	o = Options{Parameters: []string{PSeafloorAge}}
