@@ -452,6 +452,7 @@ type residualPlan struct {
 	sigma     residualSource // the age-uncertainty grid, if any
 	sigmaMa   float64        // the single age uncertainty where there is no grid
 	push      *ridgePushTable
+	rate      *ageNodes // subsidence-rate nodes (thermal.Table.SubsidenceRateNodes), for depth uncertainties
 }
 
 // residualSource maps output rows to rows of one input grid.

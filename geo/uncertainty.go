@@ -216,7 +216,7 @@ func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig
 		}
 		var pd float64
 		if predSig != nil || resSig != nil {
-			pd = ageSpread(p.tbl.DepthM, p.tbl.SubsidenceRateMPerMyr, a, s)
+			pd = p.depthSpread(a32, s)
 		}
 		if predSig != nil {
 			predSig[i] = float32(pd)
@@ -249,6 +249,21 @@ func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig
 	}
 }
 
+// depthSpread is the predicted depth's uncertainty at age a (float32, as the grids hold it) for
+// σ = s: ageSpread of the table's depth with the model's subsidence rate as derivative, the
+// first-order branch reading the rate from its float32 nodes (one lookup; the nodes resample
+// SubsidenceRateMPerMyr to about 1e-6 of its value, as thermal's heat-flow nodes do).
+func (p *residualPlan) depthSpread(a float32, s float64) float64 {
+	af := float64(a)
+	if s > 0 && s <= SamplingRatio*af {
+		b := math.Float32bits(a)
+		if j := uint(b >> thermal.Float32NodeShift); j < uint(len(p.rate)) {
+			return math.Abs(float64(p.rate[j].At(b))) * s
+		}
+	}
+	return ageSpread(p.tbl.DepthM, p.tbl.SubsidenceRateMPerMyr, af, s)
+}
+
 // pointUnc fills the age-uncertainty and ridge-push values of v at (lon, lat).
 //
 // corrM is the corrected depth there (NaN where it has none, or none was computed).
@@ -265,7 +280,7 @@ func (p *residualPlan) pointUnc(v *SampleValues, sigma *Grid, lon, lat, corrM fl
 	}
 	v.AgeSigmaMa = s
 	a := float64(float32(v.AgeMa))
-	pd := ageSpread(p.tbl.DepthM, p.tbl.SubsidenceRateMPerMyr, a, s)
+	pd := p.depthSpread(float32(v.AgeMa), s)
 	if p.want&OutPredictedDepthSigma != 0 {
 		v.PredictedDepthSigmaM = pd
 	}
@@ -289,6 +304,9 @@ func (p *residualPlan) prepareUnc(in Inputs) error {
 		return nil
 	}
 	p.wantSigma = true
+	if p.want&(OutPredictedDepthSigma|OutResidualDepthSigma) != 0 {
+		p.rate = (*ageNodes)(p.tbl.SubsidenceRateNodes())
+	}
 	if in.AgeSigma != nil {
 		s, err := newResidualSource("age uncertainty", in.AgeSigma, p.lat)
 		if err != nil {
