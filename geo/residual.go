@@ -396,6 +396,9 @@ func EvaluateRows(ctx context.Context, in Inputs, want Outputs, rowsPerBlock int
 				PredictedDepthM: cut(b.PredictedDepthM), HeatFlowMWm2: cut(b.HeatFlowMWm2),
 				ThermalThicknessKm: cut(b.ThermalThicknessKm), Depth600CKm: cut(b.Depth600CKm),
 				CorrectedDepthM: cut(b.CorrectedDepthM), ResidualDepthM: cut(b.ResidualDepthM),
+				PredictedDepthSigmaM: cut(b.PredictedDepthSigmaM), HeatFlowSigmaMWm2: cut(b.HeatFlowSigmaMWm2),
+				ThermalThicknessSigmaKm: cut(b.ThermalThicknessSigmaKm), ResidualDepthSigmaM: cut(b.ResidualDepthSigmaM),
+				RidgePushNPerM: cut(b.RidgePushNPerM),
 			}
 			if cbErr = fn(out); cbErr == nil {
 				if p.progress != nil {

@@ -376,3 +376,35 @@ func BenchmarkAgeUncertainty(b *testing.B) {
 		})
 	}
 }
+
+// EvaluateRows gives the uncertainty and ridge-push outputs of Evaluate, block by block.
+func TestAgeSpreadRowsEqualEvaluate(t *testing.T) {
+	m := resModel(t, "gdh1")
+	age := resFill(12, 9, -141, -29, 0.25, CellCentre, resAge)
+	in := Inputs{Age: age, Model: m, AgeSigmaMa: 4}
+	want := OutPredictedDepthSigma | OutHeatFlowSigma | OutThermalThicknessSigma | OutRidgePush
+	all, err := Evaluate(context.Background(), in, want)
+	if err != nil {
+		t.Fatal(err)
+	}
+	err = EvaluateRows(context.Background(), in, want, 2, func(b RowBlock) error {
+		for _, c := range []struct {
+			name string
+			got  []float32
+			g    *Grid
+		}{
+			{"depth", b.PredictedDepthSigmaM, all.PredictedDepthSigmaM}, {"heat flow", b.HeatFlowSigmaMWm2, all.HeatFlowSigmaMWm2},
+			{"thickness", b.ThermalThicknessSigmaKm, all.ThermalThicknessSigmaKm}, {"ridge push", b.RidgePushNPerM, all.RidgePushNPerM},
+		} {
+			for i := range b.Rows * 12 {
+				if c.got[i] != c.g.Data[b.Row0*12+i] {
+					t.Fatalf("%s row %d: rows %v, grid %v", c.name, b.Row0+i/12, c.got[i], c.g.Data[b.Row0*12+i])
+				}
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+}
