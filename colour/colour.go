@@ -77,6 +77,16 @@ var ramps = []*Ramp{
 		},
 	},
 	{
+		// Stops placed in OKLab: lightness falling linearly from 0.96 to 0.32, chroma at most
+		// 0.1, hue turning from 305° to 280° (violet), so it reads apart from the other ramps.
+		ID: "spread", Kind: Sequential,
+		Description: "pale lilac to deep indigo; for uncertainties (darker = less certain)",
+		Stops: []Stop{
+			{0, "#f4effa"}, {0.25, "#c2b7dc"}, {0.5, "#8d83bb"},
+			{0.75, "#5a5492"}, {1, "#2b2a64"},
+		},
+	},
+	{
 		ID: "residual", Kind: Diverging,
 		Description: "blue (deeper than the model) through pale grey (zero) to orange-brown (shallower than the model)",
 		Stops: []Stop{
@@ -98,6 +108,12 @@ var bindings = []Binding{
 	{"corrected_depth", "abyss", 2000, 7000, 0, "m", "Corrected depth"},
 	{"residual_depth", "residual", -1500, 1500, 0, "m", "Residual depth (positive = shallower than the model)"},
 	{"depth_600c", "strata", 0, 100, 0, "km", "Depth of the 600 °C isotherm"},
+	// Uncertainty ranges suit age uncertainties of 1–5 Ma (common practice, no source).
+	{"predicted_depth_uncertainty", "spread", 0, 300, 0, "m", "Predicted depth uncertainty from age uncertainty (1σ)"},
+	{"heat_flow_uncertainty", "spread", 0, 50, 0, "mW/m²", "Heat flow uncertainty from age uncertainty (1σ)"},
+	{"thermal_thickness_uncertainty", "spread", 0, 20, 0, "km", "Thermal thickness uncertainty from age uncertainty (1σ)"},
+	{"residual_depth_uncertainty", "spread", 0, 300, 0, "m", "Residual depth uncertainty from age uncertainty (1σ)"},
+	{"ridge_push", "ember", 0, 5e12, 0, "N/m", "Ridge push per metre of ridge"},
 }
 
 func init() {

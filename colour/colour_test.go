@@ -122,7 +122,8 @@ func TestRampsReadableUnderCVD(t *testing.T) {
 
 func TestBindingsCoverEveryParameter(t *testing.T) {
 	want := []string{"seafloor_age", "observed_depth", "sediment_thickness", "predicted_depth", "heat_flow",
-		"thermal_thickness", "corrected_depth", "residual_depth", "depth_600c"}
+		"thermal_thickness", "corrected_depth", "residual_depth", "depth_600c",
+		"predicted_depth_uncertainty", "heat_flow_uncertainty", "thermal_thickness_uncertainty", "residual_depth_uncertainty", "ridge_push"}
 	for _, p := range want {
 		b, ok := BindingFor(p)
 		if !ok {

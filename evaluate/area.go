@@ -179,7 +179,7 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 	d := q.Dataset
 	age := d.AgeHeader()
 	want := q.outputs()
-	needCorr := fl.need&(inCorr) != 0 && d.Files.Depth != nil && want&(geo.OutCorrectedDepth|geo.OutResidualDepth) != 0
+	needCorr := fl.need&(inCorr) != 0 && d.Files.Depth != nil && want&(geo.OutCorrectedDepth|geo.OutResidualDepth|geo.OutResidualDepthSigma) != 0
 	read := roleAge
 	if needCorr || fl.need&inObs != 0 {
 		read |= roleDepth
@@ -189,6 +189,9 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 	}
 	if needCorr {
 		read |= roleCrust
+	}
+	if q.usesAgeUncertaintyGrid() {
+		read |= roleAgeUnc
 	}
 	if scan {
 		read |= roleScan
@@ -259,10 +262,14 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 	screenCorr := needCorr && want&geo.OutCorrectedDepth == 0 && corrCanExceed(obsL, sedL, crustW != nil)
 	var ev, evCorr *geo.Result
 	in := geo.Inputs{Age: ageW, Model: q.Model, Compaction: q.Sediment, Mask: mask}
+	q.ageSigma(&in, v)
+	if in.AgeSigma != nil {
+		in.AgeSigma = companion(in.AgeSigma)
+	}
 	if needCorr {
 		in.Depth, in.DepthSense, in.Sediment, in.Crust = depthW, d.DepthSense, sedW, crustW
 	} else {
-		want &^= geo.OutCorrectedDepth | geo.OutResidualDepth
+		want &^= geo.OutCorrectedDepth | geo.OutResidualDepth | geo.OutResidualDepthSigma
 	}
 	if want != 0 {
 		if ev, err = geo.Evaluate(ctx, in, want); err != nil {
@@ -353,6 +360,16 @@ func modelGrid(ev *geo.Result, id string) *geo.Grid {
 		return ev.CorrectedDepthM
 	case PResidualDepth:
 		return ev.ResidualDepthM
+	case PPredictedDepthUncertainty:
+		return ev.PredictedDepthSigmaM
+	case PHeatFlowUncertainty:
+		return ev.HeatFlowSigmaMWm2
+	case PThermalThicknessUncertainty:
+		return ev.ThermalThicknessSigmaKm
+	case PResidualDepthUncertainty:
+		return ev.ResidualDepthSigmaM
+	case PRidgePush:
+		return ev.RidgePushNPerM
 	}
 	return nil
 }

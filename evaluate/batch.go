@@ -269,7 +269,7 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 		case PSedimentThickness:
 			copy(vals, sedL)
 		default:
-			gin := geo.Inputs{Age: &blk, Model: q.Model, Compaction: q.Sediment, Workers: in.Workers}
+			gin := geo.Inputs{Age: &blk, Model: q.Model, Compaction: q.Sediment, Workers: in.Workers, AgeSigmaMa: q.AgeSigmaMa}
 			if needCorr {
 				gin.Depth, gin.DepthSense, gin.Sediment = l.comp[0], in.DepthSense, l.comp[1]
 				if l.comp[2] != nil {
@@ -298,6 +298,10 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 				dst.Depth600CKm = outGrid(vals)
 			case PResidualDepth:
 				dst.ResidualDepthM = outGrid(vals)
+			default:
+				if err := modelOutput(dst, p.ID, outGrid(vals)); err != nil {
+					runErr = err
+				}
 			}
 			if err := geo.EvaluateInto(ctx, gin, dst); err != nil {
 				runErr = err

@@ -43,7 +43,8 @@ const (
 // dependsOn is the set of inputs a parameter's value depends on.
 func dependsOn(id string) int {
 	switch id {
-	case PSeafloorAge, PPredictedDepth, PHeatFlow, PThermalThickness, PDepth600C:
+	case PSeafloorAge, PPredictedDepth, PHeatFlow, PThermalThickness, PDepth600C,
+		PPredictedDepthUncertainty, PHeatFlowUncertainty, PThermalThicknessUncertainty, PRidgePush:
 		return inAge
 	case PObservedDepth:
 		return inObs
@@ -51,7 +52,7 @@ func dependsOn(id string) int {
 		return inSed
 	case PCorrectedDepth:
 		return inObs | inSed | inCrust | inCorr
-	case PResidualDepth:
+	case PResidualDepth, PResidualDepthUncertainty:
 		return inAge | inObs | inSed | inCrust | inCorr
 	}
 	return 0

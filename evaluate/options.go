@@ -2,6 +2,7 @@ package evaluate
 
 import (
 	"context"
+	"math"
 	"strings"
 
 	"ridgeflank/fault"
@@ -18,7 +19,14 @@ type Options struct {
 	Sediment string `json:"sediment,omitempty"`
 	// Parameters lists parameter ids; empty means every parameter the dataset answers.
 	Parameters []string `json:"parameters,omitempty"`
+	// AgeUncertaintyMa is one seafloor-age uncertainty (Ma, one standard deviation) for every
+	// position of the question, in place of the dataset's age-uncertainty grid; 0 means the
+	// grid (the request's age-uncertainty-ma).
+	AgeUncertaintyMa float64 `json:"age_uncertainty_ma,omitempty"`
 }
+
+// MaxAgeUncertaintyMa is the largest single age uncertainty a question may give (Ma).
+const MaxAgeUncertaintyMa = 100
 
 // DefaultSediment is the compaction law used when a question names none.
 const DefaultSediment = "shale"
@@ -30,6 +38,56 @@ type Query struct {
 	Model    thermal.Model
 	Sediment thermal.Compaction
 	Params   []Parameter
+	// AgeSigmaMa is the question's single age uncertainty (Ma, one standard deviation); 0 means
+	// the dataset's age-uncertainty grid, read when a parameter needs it.
+	AgeSigmaMa float64
+	// meanUnc is set on a statistics answer's question when the age uncertainty was used for
+	// the uncertainty of its means (its provenance then names the source).
+	meanUnc bool
+}
+
+// param returns the question's parameter id.
+func (q *Query) param(id string) (Parameter, bool) {
+	for _, p := range q.Params {
+		if p.ID == id {
+			return p, true
+		}
+	}
+	return Parameter{}, false
+}
+
+// usesAgeUncertainty reports whether some parameter propagates the age uncertainty.
+func (q *Query) usesAgeUncertainty() bool {
+	if q.meanUnc {
+		return true
+	}
+	for _, p := range q.Params {
+		if p.NeedsAgeUncertainty() {
+			return true
+		}
+	}
+	return false
+}
+
+// usesAgeUncertaintyGrid reports whether the question reads the dataset's age-uncertainty grid.
+func (q *Query) usesAgeUncertaintyGrid() bool {
+	return q.AgeSigmaMa == 0 && (q.meanUnc || q.usesAgeUncertainty())
+}
+
+// ageSigma sets the age-uncertainty inputs of in from the question and its window v (the grid
+// window is nil where the grid does not reach: no data).
+func (q *Query) ageSigma(in *geo.Inputs, v *Dataset) {
+	if q.AgeSigmaMa > 0 {
+		in.AgeSigmaMa = q.AgeSigmaMa
+		return
+	}
+	if v != nil && v.AgeUncertainty != nil {
+		in.AgeSigma = v.AgeUncertainty
+		return
+	}
+	if q.usesAgeUncertaintyGrid() {
+		in.AgeSigmaMa = math.NaN() // the grid does not reach the window: no data
+	}
 }
 
 // Resolve checks o against dataset d: an unknown model is fault.UnknownModel, an unknown
@@ -41,6 +99,10 @@ func (s *Service) Resolve(ctx context.Context, d *Dataset, o Options) (*Query, e
 		return nil, err
 	}
 	q := &Query{Dataset: d, Model: m}
+	if u := o.AgeUncertaintyMa; !(u >= 0 && u <= MaxAgeUncertaintyMa) {
+		return nil, fault.New(fault.InvalidParameter, geo.AgeSigmaField, "%s=%g: give a number of Ma from 0 to %d", geo.AgeSigmaField, u, MaxAgeUncertaintyMa)
+	}
+	q.AgeSigmaMa = o.AgeUncertaintyMa
 	sed := strings.TrimSpace(o.Sediment)
 	if sed == "" {
 		sed = DefaultSediment
@@ -51,7 +113,11 @@ func (s *Service) Resolve(ctx context.Context, d *Dataset, o Options) (*Query, e
 	}
 	q.Sediment = c
 	if len(o.Parameters) == 0 {
-		q.Params = d.Available()
+		for _, p := range Parameters {
+			if d.answers(p) || p.NeedsAgeUncertainty() && q.AgeSigmaMa > 0 && (!p.NeedsDepth || d.HasDepth) {
+				q.Params = append(q.Params, p)
+			}
+		}
 		return q, nil
 	}
 	seen := map[string]bool{}
@@ -65,7 +131,10 @@ func (s *Service) Resolve(ctx context.Context, d *Dataset, o Options) (*Query, e
 		if !ok {
 			return nil, fault.New(fault.UnknownParameter, "parameter-name", "parameter-name %q is not known; choose from %s", n, strings.Join(ParameterIDs(), ", "))
 		}
-		if !d.answers(p) {
+		if p.NeedsAgeUncertainty() && !d.HasAgeUncertainty() && q.AgeSigmaMa == 0 && (!p.NeedsDepth || d.HasDepth) {
+			return nil, fault.New(fault.UnknownParameter, "parameter-name", "parameter %q needs an age uncertainty: dataset %q has no age-uncertainty grid; give one value with %s", n, d.Row.ID, geo.AgeSigmaField)
+		}
+		if !d.answers(p) && !(p.NeedsAgeUncertainty() && q.AgeSigmaMa > 0 && (!p.NeedsDepth || d.HasDepth)) {
 			return nil, fault.New(fault.UnknownParameter, "parameter-name", "parameter %q needs a grid dataset %q does not have", n, d.Row.ID)
 		}
 		q.Params = append(q.Params, p)

@@ -1,6 +1,10 @@
 package evaluate
 
-import "ridgeflank/geo"
+import (
+	"fmt"
+
+	"ridgeflank/geo"
+)
 
 // Parameter names of the datasets' EDR collections (API contract: never rename).
 const (
@@ -13,13 +17,19 @@ const (
 	PCorrectedDepth    = "corrected_depth"
 	PResidualDepth     = "residual_depth"
 	PDepth600C         = "depth_600c"
+
+	PPredictedDepthUncertainty   = "predicted_depth_uncertainty"
+	PHeatFlowUncertainty         = "heat_flow_uncertainty"
+	PThermalThicknessUncertainty = "thermal_thickness_uncertainty"
+	PResidualDepthUncertainty    = "residual_depth_uncertainty"
+	PRidgePush                   = "ridge_push"
 )
 
 // RoleCrust is the role of a dataset's crustal thickness grid (an input, not a parameter).
 const RoleCrust = "crustal_thickness"
 
 // RoleAgeUncertainty is the role of a dataset's age-uncertainty grid (Ma, one standard
-// deviation; an input of survey plan checks, not a parameter).
+// deviation; an input of survey plan checks and of the uncertainty parameters, not a parameter).
 const RoleAgeUncertainty = "age_uncertainty"
 
 // Parameter describes one parameter a dataset can answer: its unit, what it needs, and whether
@@ -48,6 +58,17 @@ var Parameters = []Parameter{
 	{PCorrectedDepth, "Corrected depth", "Observed depth corrected for sediment load (and crust when a crustal thickness grid is present), positive down", "m", "metre", true, false, true, geo.OutCorrectedDepth},
 	{PResidualDepth, "Residual depth", "Predicted minus corrected depth; positive means shallower than the model", "m", "metre", true, false, true, geo.OutResidualDepth},
 	{PDepth600C, "Depth of the 600 °C isotherm", "Depth below the seafloor of the 600 °C isotherm in the model", "km", "kilometre", false, false, true, geo.OutDepth600C},
+	{PPredictedDepthUncertainty, "Predicted depth uncertainty", "One standard deviation of the predicted depth propagated from the seafloor-age uncertainty (the dataset's age-uncertainty grid, or age-uncertainty-ma): first order through d depth/d age where the age uncertainty is at most a tenth of the age, by quadrature over the age distribution (normal, truncated at age 0) elsewhere. Model estimate, not for navigation", "m", "metre", false, false, true, geo.OutPredictedDepthSigma},
+	{PHeatFlowUncertainty, "Heat flow uncertainty", "One standard deviation of the predicted heat flow propagated from the seafloor-age uncertainty (as predicted_depth_uncertainty). Where the age distribution reaches age 0 the spread is unbounded (heat flow grows like 1/√age) and the value is a lower bound", "mW/m2", "milliwatt per square metre", false, false, true, geo.OutHeatFlowSigma},
+	{PThermalThicknessUncertainty, "Thermal thickness uncertainty", "One standard deviation of the thermal thickness propagated from the seafloor-age uncertainty (as predicted_depth_uncertainty)", "km", "kilometre", false, false, true, geo.OutThermalThicknessSigma},
+	{PResidualDepthUncertainty, "Residual depth uncertainty", "One standard deviation of the residual depth from the seafloor-age uncertainty alone (the predicted depth's: observed depth, sediment and crust are taken as exact)", "m", "metre", true, false, true, geo.OutResidualDepthSigma},
+	{PRidgePush, "Ridge push", "Ridge-push force per unit length of ridge on lithosphere of the cell's age, from the isostatic integral of the model's cooling column (Parsons & Richter 1980; Turcotte & Schubert, Geodynamics)", "N/m", "newton per metre", false, false, true, geo.OutRidgePush},
+}
+
+// NeedsAgeUncertainty reports whether p propagates the seafloor-age uncertainty (and so needs
+// the dataset's age-uncertainty grid or a single value with the question).
+func (p Parameter) NeedsAgeUncertainty() bool {
+	return p.Output&(geo.OutPredictedDepthSigma|geo.OutHeatFlowSigma|geo.OutThermalThicknessSigma|geo.OutResidualDepthSigma) != 0
 }
 
 // ParameterByID returns the parameter with id.
@@ -130,4 +151,24 @@ func (p Parameter) CFAttributes() map[string]string {
 		m["sign_convention"] = "upward flux out of the sea floor is positive"
 	}
 	return m
+}
+
+// modelOutput sets the field of dst that computes the age-uncertainty or ridge-push parameter
+// id into g.
+func modelOutput(dst *geo.Result, id string, g *geo.Grid) error {
+	switch id {
+	case PPredictedDepthUncertainty:
+		dst.PredictedDepthSigmaM = g
+	case PHeatFlowUncertainty:
+		dst.HeatFlowSigmaMWm2 = g
+	case PThermalThicknessUncertainty:
+		dst.ThermalThicknessSigmaKm = g
+	case PResidualDepthUncertainty:
+		dst.ResidualDepthSigmaM = g
+	case PRidgePush:
+		dst.RidgePushNPerM = g
+	default:
+		return fmt.Errorf("evaluate: parameter %q is not a model output", id)
+	}
+	return nil
 }

@@ -73,6 +73,9 @@ func (s *Service) points(ctx context.Context, q *Query, lons, lats []float64) (*
 	if needCorr {
 		read |= roleCrust
 	}
+	if q.usesAgeUncertaintyGrid() {
+		read |= roleAgeUnc
+	}
 	res := &PointsResult{Query: q, Lons: make([]float64, len(lons)), Lats: append([]float64(nil), lats...),
 		Values: make([][]float64, len(q.Params))}
 	for i := range res.Values {
@@ -94,12 +97,13 @@ func (s *Service) points(ctx context.Context, q *Query, lons, lats []float64) (*
 		var pe *geo.PointEvaluator
 		if v != nil && want != 0 {
 			in := geo.Inputs{Age: v.Age, Model: q.Model, Compaction: q.Sediment}
+			q.ageSigma(&in, v)
 			if needCorr && v.Depth != nil {
 				in.Depth, in.DepthSense, in.Sediment, in.Crust = v.Depth, d.DepthSense, v.Sediment, v.Crust
 			}
 			w := want
 			if in.Depth == nil {
-				w &^= geo.OutCorrectedDepth | geo.OutResidualDepth
+				w &^= geo.OutCorrectedDepth | geo.OutResidualDepth | geo.OutResidualDepthSigma
 			}
 			if pe, err = geo.NewPointEvaluator(in, w); err != nil {
 				return nil, err
@@ -107,8 +111,7 @@ func (s *Service) points(ctx context.Context, q *Query, lons, lats []float64) (*
 		}
 		for j := run.from; j < run.to; j++ {
 			lon, lat := res.Lons[j], lats[j]
-			sv := geo.SampleValues{AgeMa: nan, ObservedDepthM: nan, SedimentM: nan, CrustKm: nan, CorrectedDepthM: nan,
-				PredictedDepthM: nan, HeatFlowMWm2: nan, ThermalThicknessKm: nan, Depth600CKm: nan, ResidualDepthM: nan}
+			sv := geo.NaNSampleValues()
 			if v != nil {
 				if pe != nil {
 					sv = pe.At(lon, lat)
@@ -204,6 +207,16 @@ func pick(id string, v geo.SampleValues) float64 {
 		return v.CorrectedDepthM
 	case PResidualDepth:
 		return v.ResidualDepthM
+	case PPredictedDepthUncertainty:
+		return v.PredictedDepthSigmaM
+	case PHeatFlowUncertainty:
+		return v.HeatFlowSigmaMWm2
+	case PThermalThicknessUncertainty:
+		return v.ThermalThicknessSigmaKm
+	case PResidualDepthUncertainty:
+		return v.ResidualDepthSigmaM
+	case PRidgePush:
+		return v.RidgePushNPerM
 	}
 	return nan
 }

@@ -4,6 +4,7 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
+	"fmt"
 	"strings"
 
 	"ridgeflank/thermal"
@@ -100,6 +101,12 @@ func (s *Service) Provenance(q *Query) Provenance {
 	}
 	p.Dataset = q.Dataset.Row.ID
 	p.Grids = q.Dataset.Refs
+	if q.usesAgeUncertaintyGrid() {
+		p.Grids = append(append([]GridRef(nil), p.Grids...), q.Dataset.AgeUncertaintyRef)
+	}
+	if q.AgeSigmaMa > 0 && q.usesAgeUncertainty() {
+		p.Note = fmt.Sprintf("age uncertainty %g Ma (one standard deviation) at every position, given with the question", q.AgeSigmaMa)
+	}
 	for _, g := range p.Grids {
 		if g.Label != "" {
 			p.Label = g.Label

@@ -263,8 +263,11 @@ func (d *Dataset) Available() []Parameter {
 }
 
 func (d *Dataset) answers(p Parameter) bool {
-	return !(p.NeedsDepth && !d.HasDepth || p.NeedsSed && !d.HasSediment)
+	return !(p.NeedsDepth && !d.HasDepth || p.NeedsSed && !d.HasSediment || p.NeedsAgeUncertainty() && !d.HasAgeUncertainty())
 }
+
+// HasAgeUncertainty reports whether the dataset has an age-uncertainty grid.
+func (d *Dataset) HasAgeUncertainty() bool { return d.AgeUncertaintyRef.ID != "" }
 
 // DatasetTTL is how long a loaded dataset (its row and grid rows; grid values are cached by
 // content hash separately) is reused without asking the store again. Forget drops them at once;
@@ -377,7 +380,7 @@ func (s *Service) datasetMeta(ctx context.Context, id string) (*Dataset, []store
 			return nil, nil, fmt.Errorf("dataset %s: grid %s: %w", id, row.AgeUncertaintyGridID, err)
 		}
 		d.uncRow = &gr
-		d.AgeUncertaintyRef = GridRef{ID: gr.ID, Role: RoleAgeUncertainty, SHA256: gr.ContentHash}
+		d.AgeUncertaintyRef = GridRef{ID: gr.ID, Role: RoleAgeUncertainty, SHA256: gr.ContentHash, Label: gridLabel(gr.Name, gr.Provenance, gr.Licence)}
 	}
 	return d, rows, nil
 }

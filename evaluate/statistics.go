@@ -24,6 +24,63 @@ type StatsResult struct {
 	Cells   int64       // lattice cells inside the region (valid or not)
 	Stats   []geo.Stats // one per parameter, in Query.Params order
 	Flags   []Flag      // values refused as physically impossible, by cause
+	// MeanUncertainty is, per parameter (Query.Params order), the uncertainty of its mean from
+	// the seafloor-age uncertainty; nil for parameters without one (inputs, corrected depth,
+	// 600 °C isotherm, ridge push, the uncertainty parameters themselves) or when the question has
+	// no age uncertainty (no grid, no single value).
+	MeanUncertainty []*MeanUncertainty
+}
+
+// MeanUncertainty is the uncertainty of a region's area-weighted mean of one parameter, from
+// the per-cell uncertainties σ (one standard deviation) that the seafloor-age uncertainty
+// gives it (the parameter's _uncertainty companion), in the parameter's unit.
+type MeanUncertainty struct {
+	// Independent is √(Σw²σ²)/Σw: the uncertainty of the mean if the cells' errors were
+	// independent (σ/√n for equal weights and σ). OPTIMISTIC: age errors are correlated over
+	// tens to hundreds of km (they come from interpolating between magnetic isochrons), so the
+	// true value lies between this and Correlated.
+	Independent float64
+	// Correlated is Σwσ/Σw, the area-weighted mean σ: the uncertainty of the mean if every
+	// cell's error were the same (fully correlated); the conservative bound.
+	Correlated float64
+}
+
+// uncertaintyParam maps a parameter to the parameter carrying its age uncertainty.
+var uncertaintyParam = map[string]string{
+	PPredictedDepth:   PPredictedDepthUncertainty,
+	PHeatFlow:         PHeatFlowUncertainty,
+	PThermalThickness: PThermalThicknessUncertainty,
+	PResidualDepth:    PResidualDepthUncertainty,
+}
+
+// withUncertainties returns q's parameters followed by the age-uncertainty parameters its
+// parameters need for MeanUncertainty and are not already asked for, and for each of q's
+// parameters the index of its uncertainty parameter in that list (−1: none). Without an age
+// uncertainty for the question it returns q's parameters and nil.
+func withUncertainties(q *Query) ([]Parameter, []int) {
+	if q.AgeSigmaMa == 0 && !q.Dataset.HasAgeUncertainty() {
+		return q.Params, nil
+	}
+	ps := append([]Parameter(nil), q.Params...)
+	idx := make([]int, len(q.Params))
+	for i, p := range q.Params {
+		idx[i] = -1
+		u, ok := uncertaintyParam[p.ID]
+		if !ok {
+			continue
+		}
+		for j, o := range ps {
+			if o.ID == u {
+				idx[i] = j
+			}
+		}
+		if idx[i] < 0 {
+			up, _ := ParameterByID(u)
+			idx[i] = len(ps)
+			ps = append(ps, up)
+		}
+	}
+	return ps, idx
 }
 
 // statsKeepCells is the number of lattice cells (all parameters together) up to which a
@@ -109,6 +166,14 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 		}
 		return nil, err
 	}
+	// The uncertainty parameters MeanUncertainty needs are evaluated with the others.
+	asked := q
+	all, uncIdx := withUncertainties(q)
+	if len(all) > len(q.Params) {
+		qe := *q
+		qe.Params = all
+		q = &qe
+	}
 	streams := make([]*geo.StatsStream, len(q.Params))
 	for i, p := range q.Params {
 		if streams[i], err = geo.NewStatsStream(statsOptions(p), 0); err != nil {
@@ -116,7 +181,7 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 		}
 	}
 	fl := newFlagger(q.Params)
-	res := &StatsResult{Query: q, Region: r}
+	res := &StatsResult{Query: asked, Region: r}
 	keep := plan.outCells()*int64(len(q.Params)) <= statsKeepCells
 	var kept []*AreaResult
 	scan := s.scans(plan)
@@ -192,12 +257,34 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 		if err != nil {
 			return nil, err
 		}
+		if i >= len(asked.Params) {
+			res.Stats = append(res.Stats, st) // an uncertainty companion: read below
+			continue
+		}
 		if st.Count == 0 {
 			return nil, fault.New(fault.NoData, "", "no cell of the region has a %s value in dataset %q", p.ID, d.Row.ID)
 		}
 		res.Stats = append(res.Stats, st)
 	}
-	res.Flags = fl.flags()
+	if uncIdx != nil {
+		aq := *asked
+		aq.meanUnc = true
+		res.Query = &aq
+		res.MeanUncertainty = make([]*MeanUncertainty, len(asked.Params))
+		for i, j := range uncIdx {
+			if j >= 0 && res.Stats[j].Count > 0 {
+				res.MeanUncertainty[i] = &MeanUncertainty{Independent: res.Stats[j].QuadratureMean, Correlated: res.Stats[j].Mean}
+			}
+		}
+	}
+	res.Stats = res.Stats[:len(asked.Params)]
+	flags := fl.flags()
+	res.Flags = flags[:0]
+	for _, f := range flags {
+		if _, ok := asked.param(f.Parameter); ok {
+			res.Flags = append(res.Flags, f)
+		}
+	}
 	progress(1)
 	return res, nil
 }

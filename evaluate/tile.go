@@ -108,6 +108,9 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 	if fl.need&inSed != 0 {
 		read |= roleSed
 	}
+	if q.usesAgeUncertaintyGrid() {
+		read |= roleAgeUnc
+	}
 	v, err := s.window(ctx, d, bound, lvl, read)
 	if err != nil {
 		if isEmptyWindow(err) {
@@ -128,6 +131,7 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 	if !isInput {
 		want := p.Output
 		in := geo.Inputs{Age: win, Model: q.Model, Compaction: q.Sediment, Workers: 1}
+		q.ageSigma(&in, v)
 		if p.NeedsDepth {
 			in.DepthSense = d.DepthSense
 			in.Depth, in.Sediment, in.Crust = v.Depth, v.Sediment, v.Crust

@@ -35,8 +35,23 @@ const (
 	// OutResidualDepth is predicted − corrected depth, depth_m: POSITIVE MEANS SHALLOWER THAN
 	// THE MODEL. Needs Inputs.Depth.
 	OutResidualDepth
+	// OutPredictedDepthSigma is the predicted depth's uncertainty from the age uncertainty, m
+	// (one standard deviation; see uncertainty.go). Needs Inputs.AgeSigma or AgeSigmaMa.
+	OutPredictedDepthSigma
+	// OutHeatFlowSigma is the heat flow's uncertainty from the age uncertainty, mW/m².
+	OutHeatFlowSigma
+	// OutThermalThicknessSigma is the thermal thickness's uncertainty from the age
+	// uncertainty, km.
+	OutThermalThicknessSigma
+	// OutResidualDepthSigma is the residual depth's uncertainty from the age uncertainty, m
+	// (the predicted depth's, where the residual has a value). Needs Inputs.Depth.
+	OutResidualDepthSigma
+	// OutRidgePush is the ridge push per unit length of ridge, N/m (thermal.RidgePushNPerM
+	// through a lookup table by age).
+	OutRidgePush
 
-	outAll = OutPredictedDepth | OutHeatFlow | OutThermalThickness | OutDepth600C | OutCorrectedDepth | OutResidualDepth
+	outSigma = OutPredictedDepthSigma | OutHeatFlowSigma | OutThermalThicknessSigma | OutResidualDepthSigma
+	outAll   = OutPredictedDepth | OutHeatFlow | OutThermalThickness | OutDepth600C | OutCorrectedDepth | OutResidualDepth | outSigma | OutRidgePush
 )
 
 // MaxResidualWorkers bounds the number of worker goroutines of one evaluation.
@@ -79,6 +94,12 @@ type Inputs struct {
 	// Region, if not empty, restricts the evaluation to the cells of the output lattice whose
 	// sample positions GridMask puts inside it (combined with Mask when both are given).
 	Region orb.MultiPolygon
+	// AgeSigma is the age uncertainty in Ma, one standard deviation, on any lattice (sampled
+	// like Depth); it is needed, or AgeSigmaMa, by the uncertainty outputs.
+	AgeSigma *Grid
+	// AgeSigmaMa is one age uncertainty (Ma, one standard deviation) for every cell, used when
+	// AgeSigma is nil; it must be > 0 and finite, or NaN for no data (every uncertainty NaN).
+	AgeSigmaMa float64
 	// Workers is the number of goroutines; 0 means GOMAXPROCS.
 	Workers int
 	// Progress, if non-nil, is called after each row block with the number of output rows done
@@ -95,6 +116,12 @@ type Result struct {
 	Depth600CKm        *Grid // depth of the 600 °C isotherm below the seafloor, km
 	CorrectedDepthM    *Grid // observed depth corrected for sediment (and crust), depth_m positive down
 	ResidualDepthM     *Grid // predicted − corrected, m; positive = shallower than the model
+
+	PredictedDepthSigmaM    *Grid // uncertainty of predicted depth from age uncertainty, m
+	HeatFlowSigmaMWm2       *Grid // uncertainty of heat flow from age uncertainty, mW/m²
+	ThermalThicknessSigmaKm *Grid // uncertainty of thermal thickness from age uncertainty, km
+	ResidualDepthSigmaM     *Grid // uncertainty of residual depth from age uncertainty, m
+	RidgePushNPerM          *Grid // ridge push per unit length of ridge, N/m
 }
 
 // RowBlock is one block of consecutive output rows passed to an EvaluateRows callback. The
@@ -112,6 +139,12 @@ type RowBlock struct {
 	Depth600CKm        []float32
 	CorrectedDepthM    []float32
 	ResidualDepthM     []float32
+
+	PredictedDepthSigmaM    []float32
+	HeatFlowSigmaMWm2       []float32
+	ThermalThicknessSigmaKm []float32
+	ResidualDepthSigmaM     []float32
+	RidgePushNPerM          []float32
 }
 
 // ErrNoOutputs is returned when no output is asked for.
@@ -152,6 +185,11 @@ func Evaluate(ctx context.Context, in Inputs, want Outputs) (*Result, error) {
 	res.Depth600CKm = alloc(OutDepth600C)
 	res.CorrectedDepthM = alloc(OutCorrectedDepth)
 	res.ResidualDepthM = alloc(OutResidualDepth)
+	res.PredictedDepthSigmaM = alloc(OutPredictedDepthSigma)
+	res.HeatFlowSigmaMWm2 = alloc(OutHeatFlowSigma)
+	res.ThermalThicknessSigmaKm = alloc(OutThermalThicknessSigma)
+	res.ResidualDepthSigmaM = alloc(OutResidualDepthSigma)
+	res.RidgePushNPerM = alloc(OutRidgePush)
 	if err := p.evaluateInto(ctx, res); err != nil {
 		return nil, err
 	}
@@ -173,6 +211,9 @@ func EvaluateInto(ctx context.Context, in Inputs, dst *Result) error {
 		{dst.PredictedDepthM, OutPredictedDepth}, {dst.HeatFlowMWm2, OutHeatFlow},
 		{dst.ThermalThicknessKm, OutThermalThickness}, {dst.Depth600CKm, OutDepth600C},
 		{dst.CorrectedDepthM, OutCorrectedDepth}, {dst.ResidualDepthM, OutResidualDepth},
+		{dst.PredictedDepthSigmaM, OutPredictedDepthSigma}, {dst.HeatFlowSigmaMWm2, OutHeatFlowSigma},
+		{dst.ThermalThicknessSigmaKm, OutThermalThicknessSigma}, {dst.ResidualDepthSigmaM, OutResidualDepthSigma},
+		{dst.RidgePushNPerM, OutRidgePush},
 	} {
 		if f.g != nil {
 			want |= f.o
@@ -182,7 +223,8 @@ func EvaluateInto(ctx context.Context, in Inputs, dst *Result) error {
 	if err != nil {
 		return err
 	}
-	for _, g := range []*Grid{dst.PredictedDepthM, dst.HeatFlowMWm2, dst.ThermalThicknessKm, dst.Depth600CKm, dst.CorrectedDepthM, dst.ResidualDepthM} {
+	for _, g := range []*Grid{dst.PredictedDepthM, dst.HeatFlowMWm2, dst.ThermalThicknessKm, dst.Depth600CKm, dst.CorrectedDepthM, dst.ResidualDepthM,
+		dst.PredictedDepthSigmaM, dst.HeatFlowSigmaMWm2, dst.ThermalThicknessSigmaKm, dst.ResidualDepthSigmaM, dst.RidgePushNPerM} {
 		if g != nil && (g.NX != p.lat.NX || g.NY != p.lat.NY || len(g.Data) != g.NX*g.NY) {
 			return fmt.Errorf("EvaluateInto: output grid %d×%d (%d values), want %d×%d", g.NX, g.NY, len(g.Data), p.lat.NX, p.lat.NY)
 		}
@@ -208,6 +250,12 @@ func (p *residualPlan) evaluateInto(ctx context.Context, res *Result) error {
 			d600:  slice(res.Depth600CKm, r0, r1),
 			corr:  slice(res.CorrectedDepthM, r0, r1),
 			res:   slice(res.ResidualDepthM, r0, r1),
+
+			predSig:  slice(res.PredictedDepthSigmaM, r0, r1),
+			hfSig:    slice(res.HeatFlowSigmaMWm2, r0, r1),
+			thickSig: slice(res.ThermalThicknessSigmaKm, r0, r1),
+			resSig:   slice(res.ResidualDepthSigmaM, r0, r1),
+			push:     slice(res.RidgePushNPerM, r0, r1),
 		}
 		p.block(w, r0, r1, &dst)
 		if p.progress != nil {
@@ -264,6 +312,11 @@ func EvaluateRows(ctx context.Context, in Inputs, want Outputs, rowsPerBlock int
 		b.Depth600CKm = mk(OutDepth600C)
 		b.CorrectedDepthM = mk(OutCorrectedDepth)
 		b.ResidualDepthM = mk(OutResidualDepth)
+		b.PredictedDepthSigmaM = mk(OutPredictedDepthSigma)
+		b.HeatFlowSigmaMWm2 = mk(OutHeatFlowSigma)
+		b.ThermalThicknessSigmaKm = mk(OutThermalThicknessSigma)
+		b.ResidualDepthSigmaM = mk(OutResidualDepthSigma)
+		b.RidgePushNPerM = mk(OutRidgePush)
 		free <- b
 	}
 	type doneBlock struct {
@@ -303,6 +356,8 @@ func EvaluateRows(ctx context.Context, in Inputs, want Outputs, rowsPerBlock int
 				dst := residualDst{
 					pred: cut(b.PredictedDepthM), hf: cut(b.HeatFlowMWm2), thick: cut(b.ThermalThicknessKm),
 					d600: cut(b.Depth600CKm), corr: cut(b.CorrectedDepthM), res: cut(b.ResidualDepthM),
+					predSig: cut(b.PredictedDepthSigmaM), hfSig: cut(b.HeatFlowSigmaMWm2), thickSig: cut(b.ThermalThicknessSigmaKm),
+					resSig: cut(b.ResidualDepthSigmaM), push: cut(b.RidgePushNPerM),
 				}
 				p.block(w, r0, r1, &dst)
 				select {
@@ -341,6 +396,9 @@ func EvaluateRows(ctx context.Context, in Inputs, want Outputs, rowsPerBlock int
 				PredictedDepthM: cut(b.PredictedDepthM), HeatFlowMWm2: cut(b.HeatFlowMWm2),
 				ThermalThicknessKm: cut(b.ThermalThicknessKm), Depth600CKm: cut(b.Depth600CKm),
 				CorrectedDepthM: cut(b.CorrectedDepthM), ResidualDepthM: cut(b.ResidualDepthM),
+				PredictedDepthSigmaM: cut(b.PredictedDepthSigmaM), HeatFlowSigmaMWm2: cut(b.HeatFlowSigmaMWm2),
+				ThermalThicknessSigmaKm: cut(b.ThermalThicknessSigmaKm), ResidualDepthSigmaM: cut(b.ResidualDepthSigmaM),
+				RidgePushNPerM: cut(b.RidgePushNPerM),
 			}
 			if cbErr = fn(out); cbErr == nil {
 				if p.progress != nil {
@@ -392,6 +450,12 @@ type residualPlan struct {
 	hasMask                          bool
 	workers                          int
 	progress                         func(done, total int)
+	// age uncertainty and ridge push (uncertainty.go)
+	wantSigma bool
+	sigma     residualSource // the age-uncertainty grid, if any
+	sigmaMa   float64        // the single age uncertainty where there is no grid
+	push      *ridgePushTable
+	rate      *ageNodes // subsidence-rate nodes (thermal.Table.SubsidenceRateNodes), for depth uncertainties
 }
 
 // residualSource maps output rows to rows of one input grid.
@@ -407,10 +471,12 @@ type residualWorker struct {
 	pred, corr             []float32 // chunk scratch
 	depth, sed, crust, age []float32 // row scratch
 	mask                   []bool    // row scratch
+	sigma                  []float32 // row scratch of the age-uncertainty grid
 }
 
 type residualDst struct {
-	pred, hf, thick, d600, corr, res []float32
+	pred, hf, thick, d600, corr, res       []float32
+	predSig, hfSig, thickSig, resSig, push []float32
 }
 
 func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
@@ -463,7 +529,7 @@ func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
 		}
 		p.mask, p.hasMask = rm, true
 	}
-	p.needCorr = want&(OutCorrectedDepth|OutResidualDepth) != 0
+	p.needCorr = want&(OutCorrectedDepth|OutResidualDepth|OutResidualDepthSigma) != 0
 	p.needPred = want&(OutPredictedDepth|OutResidualDepth) != 0
 	p.tbl = thermal.TableFor(in.Model)
 	if want&OutResidualDepth != 0 {
@@ -515,6 +581,9 @@ func newResidualPlan(in Inputs, want Outputs) (*residualPlan, error) {
 				return nil, fault.New(fault.InvalidModel, "crust_density_kg_m3", "crust density %g kg/m³ must lie between the water (%g) and mantle (%g) densities", p.crustKgM3, p.waterKgM3, p.mantleKgM3)
 			}
 		}
+	}
+	if err := p.prepareUnc(in); err != nil {
+		return nil, err
 	}
 	p.workers = in.Workers
 	if p.workers <= 0 {
@@ -604,6 +673,9 @@ func (p *residualPlan) newWorker() *residualWorker {
 			w.crust = make([]float32, nx)
 		}
 	}
+	if p.sigma.g != nil {
+		w.sigma = make([]float32, nx)
+	}
 	if p.hasMask {
 		w.age = make([]float32, nx)
 		w.mask = make([]bool, nx)
@@ -666,7 +738,12 @@ func (p *residualPlan) block(w *residualWorker, r0, r1 int, dst *residualDst) {
 			}
 			return s[o : o+nx : o+nx]
 		}
-		p.row(w, r, cut(dst.pred), cut(dst.hf), cut(dst.thick), cut(dst.d600), cut(dst.corr), cut(dst.res))
+		if dst.pred != nil || dst.hf != nil || dst.thick != nil || dst.d600 != nil || dst.corr != nil || dst.res != nil {
+			p.row(w, r, cut(dst.pred), cut(dst.hf), cut(dst.thick), cut(dst.d600), cut(dst.corr), cut(dst.res))
+		}
+		if p.want&(outSigma|OutRidgePush) != 0 {
+			p.uncRow(w, r, cut(dst.predSig), cut(dst.hfSig), cut(dst.thickSig), cut(dst.resSig), cut(dst.push), cut(dst.res))
+		}
 	}
 }
 

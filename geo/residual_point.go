@@ -21,6 +21,21 @@ type SampleValues struct {
 	Depth600CKm        float64 // depth of the 600 °C isotherm below the seafloor, km
 	CorrectedDepthM    float64 // depth_m, positive down
 	ResidualDepthM     float64 // predicted − corrected, m; positive = shallower than the model
+
+	AgeSigmaMa              float64 // age uncertainty used, Ma (one standard deviation)
+	PredictedDepthSigmaM    float64 // uncertainty of predicted depth from age uncertainty, m
+	HeatFlowSigmaMWm2       float64 // uncertainty of heat flow from age uncertainty, mW/m²
+	ThermalThicknessSigmaKm float64 // uncertainty of thermal thickness from age uncertainty, km
+	ResidualDepthSigmaM     float64 // uncertainty of residual depth from age uncertainty, m
+	RidgePushNPerM          float64 // ridge push per unit length of ridge, N/m
+}
+
+// NaNSampleValues is a SampleValues with every field NaN (no data).
+func NaNSampleValues() SampleValues {
+	nan := math.NaN()
+	return SampleValues{AgeMa: nan, ObservedDepthM: nan, SedimentM: nan, CrustKm: nan,
+		PredictedDepthM: nan, HeatFlowMWm2: nan, ThermalThicknessKm: nan, Depth600CKm: nan, CorrectedDepthM: nan, ResidualDepthM: nan,
+		AgeSigmaMa: nan, PredictedDepthSigmaM: nan, HeatFlowSigmaMWm2: nan, ThermalThicknessSigmaKm: nan, ResidualDepthSigmaM: nan, RidgePushNPerM: nan}
 }
 
 // PointEvaluator evaluates the residual-depth quantities at single positions with the same
@@ -28,8 +43,9 @@ type SampleValues struct {
 // the value at a position that is a sample of the output lattice equals Evaluate's value there.
 // Grids are sampled bilinearly (Grid.SampleBilinear). Safe for concurrent use.
 type PointEvaluator struct {
-	p   *residualPlan
-	age *Grid
+	p     *residualPlan
+	age   *Grid
+	sigma *Grid // age uncertainty, if given as a grid
 }
 
 // NewPointEvaluator prepares point evaluations of the outputs want from in (Window, Mask,
@@ -43,15 +59,14 @@ func NewPointEvaluator(in Inputs, want Outputs) (*PointEvaluator, error) {
 	if want&OutResidualDepth == 0 && p.needPred {
 		p.depthTab = depthTableFor(p.tbl)
 	}
-	return &PointEvaluator{p: p, age: in.Age}, nil
+	return &PointEvaluator{p: p, age: in.Age, sigma: in.AgeSigma}, nil
 }
 
 // At evaluates the outputs at (lon, lat), degrees.
 func (e *PointEvaluator) At(lon, lat float64) SampleValues {
 	p := e.p
-	nan := math.NaN()
-	v := SampleValues{AgeMa: float64(e.age.SampleBilinear(lon, lat)), ObservedDepthM: nan, SedimentM: nan, CrustKm: nan,
-		PredictedDepthM: nan, HeatFlowMWm2: nan, ThermalThicknessKm: nan, Depth600CKm: nan, CorrectedDepthM: nan, ResidualDepthM: nan}
+	v := NaNSampleValues()
+	v.AgeMa = float64(e.age.SampleBilinear(lon, lat))
 	age := float32(v.AgeMa)
 	if p.want&(OutPredictedDepth|OutResidualDepth) != 0 {
 		v.PredictedDepthM = float64(p.depthTab.at(age))
@@ -66,6 +81,7 @@ func (e *PointEvaluator) At(lon, lat float64) SampleValues {
 		v.Depth600CKm = p.tbl.Depth600CKm(float64(age))
 	}
 	if !p.needCorr {
+		p.pointUnc(&v, e.sigma, lon, lat, math.NaN())
 		return v
 	}
 	obs := p.depth.g.SampleBilinear(lon, lat)
@@ -86,6 +102,7 @@ func (e *PointEvaluator) At(lon, lat float64) SampleValues {
 	if p.want&OutResidualDepth != 0 {
 		v.ResidualDepthM = float64(residualAt(float32(v.PredictedDepthM), corr))
 	}
+	p.pointUnc(&v, e.sigma, lon, lat, float64(corr))
 	return v
 }
 

@@ -58,19 +58,26 @@ type Histogram struct {
 // unit and whoever publishes the values should name it (the HTTP API writes mean_m, p95_ma,
 // edges_m, ...). With no valid cell (or zero total weight) the value fields are NaN.
 type Stats struct {
-	Count     int        `json:"count"`      // valid (non-NaN) cells inside the mask
-	NoData    int        `json:"no_data"`    // NaN cells inside the mask
-	WeightSum float64    `json:"weight_sum"` // Σ weights of the valid cells (m² for WeightCellArea)
-	Mean      float64    `json:"mean"`
-	Std       float64    `json:"std"` // weighted population standard deviation
-	Min       float64    `json:"min"`
-	Max       float64    `json:"max"`
-	Median    float64    `json:"median"`
-	P05       float64    `json:"p05"`
-	P25       float64    `json:"p25"`
-	P75       float64    `json:"p75"`
-	P95       float64    `json:"p95"`
-	Histogram *Histogram `json:"histogram,omitempty"`
+	Count     int     `json:"count"`      // valid (non-NaN) cells inside the mask
+	NoData    int     `json:"no_data"`    // NaN cells inside the mask
+	WeightSum float64 `json:"weight_sum"` // Σ weights of the valid cells (m² for WeightCellArea)
+	Mean      float64 `json:"mean"`
+	Std       float64 `json:"std"` // weighted population standard deviation
+	Min       float64 `json:"min"`
+	Max       float64 `json:"max"`
+	Median    float64 `json:"median"`
+	P05       float64 `json:"p05"`
+	P25       float64 `json:"p25"`
+	P75       float64 `json:"p75"`
+	P95       float64 `json:"p95"`
+	// QuadratureMean is √(Σ w²x²)/Σw over the valid cells. When the values x are the
+	// one-standard-deviation uncertainties of the cells, it is the uncertainty of the weighted
+	// mean if the cells' errors are independent (the σ/√n rule with weights: optimistic
+	// wherever errors are correlated between cells, as errors of an age grid are over a
+	// magnetic-anomaly spacing); the Mean of the uncertainties is the bound for fully
+	// correlated errors. Not written by the API's generic statistics object.
+	QuadratureMean float64    `json:"-"`
+	Histogram      *Histogram `json:"histogram,omitempty"`
 	// PercentileErrorBound bounds |reported − exact| for Median, P05, P25, P75 and P95, in the
 	// grid's unit. It is 0 from AreaWeightedStats (exact percentiles). From StatsStream it is the
 	// largest, over the five percentiles, of half the spread (hi−lo)/2 of the values in the fine
@@ -173,11 +180,11 @@ func AreaWeightedStats(values *Grid, mask Mask, opt StatsOptions) (Stats, error)
 
 	// pass 1: counts, weight, mean, range
 	lo, hi := math.Inf(1), math.Inf(-1)
-	var sumW, sumWX float64
+	var sumW, sumWX, sumW2X2 float64
 	for r := 0; r < g.NY; r++ {
 		w := ws[r]
 		base := r * g.NX
-		var rowW, rowWX float64
+		var rowW, rowWX, rowXX float64
 		for c, v32 := range g.Data[base : base+nx] {
 			if useMask && mask.words[(base+c)>>6]&(1<<(uint(base+c)&63)) == 0 {
 				continue
@@ -190,6 +197,7 @@ func AreaWeightedStats(values *Grid, mask Mask, opt StatsOptions) (Stats, error)
 			st.Count++
 			rowW += w
 			rowWX += v
+			rowXX += v * v
 			if v < lo {
 				lo = v
 			}
@@ -199,6 +207,7 @@ func AreaWeightedStats(values *Grid, mask Mask, opt StatsOptions) (Stats, error)
 		}
 		sumW += rowW
 		sumWX += w * rowWX
+		sumW2X2 += w * w * rowXX
 	}
 	st.WeightSum = sumW
 	if st.Count == 0 {
@@ -210,6 +219,7 @@ func AreaWeightedStats(values *Grid, mask Mask, opt StatsOptions) (Stats, error)
 	}
 	mean := sumWX / sumW
 	st.Mean = mean
+	st.QuadratureMean = math.Sqrt(sumW2X2) / sumW
 
 	// pass 2: variance, percentile-locating histogram, user histogram
 	hist, edgesErr := newHistogram(opt, lo, hi)

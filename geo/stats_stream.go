@@ -87,6 +87,7 @@ const (
 type streamMoments struct {
 	count, noData int
 	w, mean, m2   float64 // Σw, weighted mean, Σw(x−mean)²
+	sq            float64 // Σw²x² (Stats.QuadratureMean)
 	min, max      float64
 }
 
@@ -218,14 +219,16 @@ func (s *StatsStream) AddMoments(block *Grid, mask Mask) error {
 			continue
 		}
 		mean := sum / float64(n)
-		var ss float64
+		var ss, xx float64
 		for c, v := range row {
 			if v != v || useMask && mask.words[(base+c)>>6]&(1<<(uint(base+c)&63)) == 0 {
 				continue
 			}
 			d := float64(v) - mean
 			ss += d * d
+			xx += float64(v) * float64(v)
 		}
+		s.mom.sq += w * w * xx
 		s.mom.mergeWeighted(float64(n)*w, mean, w*ss)
 	}
 	return nil
@@ -250,6 +253,7 @@ func (m *streamMoments) merge(o streamMoments) {
 	m.noData += o.noData
 	m.min = math.Min(m.min, o.min)
 	m.max = math.Max(m.max, o.max)
+	m.sq += o.sq
 	m.mergeWeighted(o.w, o.mean, o.m2)
 }
 
@@ -417,6 +421,7 @@ func (s *StatsStream) Result() (Stats, error) {
 	}
 	st.Mean = m.mean
 	st.Std = math.Sqrt(m.m2 / m.w)
+	st.QuadratureMean = math.Sqrt(m.sq) / m.w
 
 	total := 0.0
 	last := -1

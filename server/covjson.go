@@ -99,6 +99,9 @@ type coverage struct {
 type unitStats struct {
 	Unit  string // name suffix, unitSuffix of the parameter's UCUM unit
 	Stats geo.Stats
+	// MeanUnc is the uncertainty of the mean from the age uncertainty (nil: none), written as
+	// mean_uncertainty_independent_<unit> and mean_uncertainty_correlated_<unit>.
+	MeanUnc *evaluate.MeanUncertainty
 }
 
 func newUnitStats(st geo.Stats, p evaluate.Parameter) unitStats {
@@ -114,6 +117,9 @@ func (u unitStats) MarshalJSON() ([]byte, error) {
 		{"mean" + sfx, s.Mean}, {"std" + sfx, s.Std}, {"min" + sfx, s.Min}, {"max" + sfx, s.Max},
 		{"median" + sfx, s.Median}, {"p05" + sfx, s.P05}, {"p25" + sfx, s.P25}, {"p75" + sfx, s.P75}, {"p95" + sfx, s.P95},
 		{"percentile_error_bound" + sfx, s.PercentileErrorBound},
+	}
+	if m := u.MeanUnc; m != nil {
+		obj = append(obj, member{"mean_uncertainty_independent" + sfx, m.Independent}, member{"mean_uncertainty_correlated" + sfx, m.Correlated})
 	}
 	if h := s.Histogram; h != nil {
 		obj = append(obj, member{"histogram", orderedJSON{

@@ -1,7 +1,9 @@
 package server
 
 import (
+	"math"
 	"net/http"
+	"strconv"
 	"strings"
 
 	"ridgeflank/evaluate"
@@ -25,6 +27,13 @@ const (
 func queryOptions(r *http.Request) evaluate.Options {
 	q := r.URL.Query()
 	o := evaluate.Options{Model: strings.TrimSpace(q.Get("model")), Sediment: q.Get("sediment")}
+	if v := strings.TrimSpace(q.Get("age-uncertainty-ma")); v != "" {
+		u, err := strconv.ParseFloat(v, 64)
+		if err != nil {
+			u = math.NaN() // refused by the service, naming age-uncertainty-ma
+		}
+		o.AgeUncertaintyMa = u
+	}
 	if names := q.Get("parameter-name"); names != "" {
 		for _, n := range strings.Split(names, ",") {
 			if n = strings.TrimSpace(n); n != "" {

@@ -78,7 +78,11 @@ func (s *server) writeStatistics(w http.ResponseWriter, id, region string, res *
 		Statistics: map[string]unitStats{}, Provenance: &prov, Caution: prov.Caution, Flags: res.Flags, Repairs: res.Region.Repairs,
 		Weighting: "cos(latitude) of each cell's centre", PercentileNote: percentileMethod}
 	for i, p := range res.Query.Params {
-		a.Statistics[p.ID] = newUnitStats(res.Stats[i], p)
+		us := newUnitStats(res.Stats[i], p)
+		if res.MeanUncertainty != nil {
+			us.MeanUnc = res.MeanUncertainty[i]
+		}
+		a.Statistics[p.ID] = us
 	}
 	return writeJSON(w, http.StatusOK, "", a)
 }

@@ -246,3 +246,27 @@ func TestNodeCounts(t *testing.T) {
 		t.Errorf("sediment table holds %d nodes, SedimentNodeCount %d", got, SedimentNodeCount)
 	}
 }
+
+// The subsidence-rate nodes resample SubsidenceRateMPerMyr within 1e-5 of its value over the
+// table (the float32 node layer's stated accuracy for the 1/√age quantities, 1.4e-6 for heat
+// flow, plus float32 rounding), and against the half-space's analytic rate ½·C/√t (Turcotte &
+// Schubert, Geodynamics, 2nd ed. 2002, eq. 4-209 differentiated, C = 354.7 m/Myr^½ with the
+// built-in half-space parameters, worked by hand) within the table's 0.1 %.
+func TestSubsidenceRateNodes(t *testing.T) {
+	tb := TableFor(mustBuiltin(t, IDHalfSpace))
+	n := tb.SubsidenceRateNodes()
+	if got, want := n.EndBits(), math.Float32bits(TableMaxAgeMa); got != want {
+		t.Errorf("table ends at %g", math.Float32frombits(got))
+	}
+	c := 2 * 3300 * 3e-5 * 1300 / (3300 - 1000) * math.Sqrt(1e-6*SecondsPerMyr/math.Pi)
+	for _, a := range []float32{0.01, 0.5, 3, 17.3, 64, 150, 399} {
+		b := math.Float32bits(a)
+		got := float64(n[b>>Float32NodeShift].At(b))
+		if want := tb.SubsidenceRateMPerMyr(float64(a)); math.Abs(got-want) > 1e-5*want {
+			t.Errorf("%g Ma: nodes %v, table %v", a, got, want)
+		}
+		if want := 0.5 * c / math.Sqrt(float64(a)); math.Abs(got-want) > 1e-3*want {
+			t.Errorf("%g Ma: nodes %v, analytic %v", a, got, want)
+		}
+	}
+}

@@ -60,6 +60,7 @@ type Table struct {
 	// built on first use.
 	depthNodes            Float32Nodes
 	heatNodes, thickNodes lazyNodes
+	rateNodes             lazyNodes // subsidence rate (m/Myr), built on first use
 }
 
 var tableCache struct {
@@ -252,6 +253,18 @@ func (t *Table) Depth600CKm(ageMa float64) float64 {
 	}
 	v, _ := t.interp(t.iso600, ageMa)
 	return v
+}
+
+// SubsidenceRateNodes is the table's subsidence rate dd/dt (m/Myr) on bit-indexed float32
+// nodes in age (Ma) over [0, TableMaxAgeMa), built on first use, for loops that need the
+// derivative of depth per cell (propagation of age uncertainty); ages outside it must be given
+// SubsidenceRateMPerMyr. Like heat flow it grows like 1/√age, and the nodes resample
+// SubsidenceRateMPerMyr as HeatFlowNodes resample heat flow.
+func (t *Table) SubsidenceRateNodes() Float32Nodes {
+	if p := t.rateNodes.load(); p != nil {
+		return *p
+	}
+	return *t.rateNodes.build(TableMaxAgeMa, t.SubsidenceRateMPerMyr)
 }
 
 // SubsidenceRateMPerMyr is the interpolated dd/dt (m/Myr); +Inf at 0.

@@ -68,6 +68,7 @@ type gridFlags struct {
 	vertical, model, sedimentSet, param, out string
 	format, compress                         string
 	workers                                  int
+	ageSigmaMa                               float64
 	loc                                      dbLocationFlags
 }
 
@@ -90,6 +91,7 @@ func runGrid(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	fs.StringVar(&f.model, "model", evaluate.DefaultModel, "cooling model: "+strings.Join(thermal.BuiltinIDs(), ", ")+", or a stored custom model id (needs the store)")
 	fs.StringVar(&f.sedimentSet, "sediment-set", evaluate.DefaultSediment, "compaction set of the sediment correction: "+strings.Join(thermal.CompactionNames(), ", "))
 	fs.IntVar(&f.workers, "workers", 0, "goroutines computing each block (default: the number of CPUs)")
+	fs.Float64Var(&f.ageSigmaMa, "age-uncertainty-ma", 0, "one seafloor-age uncertainty, Ma (one standard deviation), for every cell: needed by the *_uncertainty parameters")
 	f.loc.define(fs)
 	if err := parseFlags(ctx, gridCmd, fs, args, stdout, false); err != nil {
 		return err
@@ -275,7 +277,7 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 		}
 	}
 	gin.Workers = f.workers
-	q, err := svc.ResolveGrid(ctx, gin, evaluate.Options{Model: f.model, Sediment: f.sedimentSet, Parameters: []string{f.param}})
+	q, err := svc.ResolveGrid(ctx, gin, evaluate.Options{Model: f.model, Sediment: f.sedimentSet, Parameters: []string{f.param}, AgeUncertaintyMa: f.ageSigmaMa})
 	if err != nil {
 		return err
 	}

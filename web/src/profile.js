@@ -8,7 +8,8 @@ import "uplot/dist/uPlot.min.css";
 
 /**
  * drawProfile draws p = {distanceKm, observed, corrected, predicted, bandLow,
- * bandHigh, residual, bandLabel, units, waypoints} into el; units holds the
+ * bandHigh, residual, bandLabel, sigma, units, waypoints} into el (sigma: the
+ * predicted depth's age uncertainty, m, drawn as a band of its own); units holds the
  * display unit of each series as the service gave it, waypoints
  * [{name, distanceKm}] are marked by a line and their name. onHover(index|null)
  * follows the cursor. Returns the uPlot instance.
@@ -21,8 +22,12 @@ export function drawProfile(el, p, onHover) {
   const width = Math.max(320, el.clientWidth || 600);
   const hasBand = p.bandLow?.some(Number.isFinite);
   const nul = (a) => (a ? a.map((v) => (Number.isFinite(v) ? v : null)) : p.distanceKm.map(() => null));
-  // Drawing order: band, predicted, corrected, observed on top, residual.
-  const data = [p.distanceKm, nul(p.bandHigh), nul(p.bandLow), nul(p.predicted), nul(p.corrected), nul(p.observed), nul(p.residual)];
+  // ±1σ of the predicted depth from the seafloor-age uncertainty (predicted_depth_uncertainty),
+  // a band of its own beside the spread of the models.
+  const hasSigma = !!p.predicted && p.sigma?.some(Number.isFinite);
+  const off = (k) => (hasSigma ? p.predicted.map((v, i) => (Number.isFinite(v) && Number.isFinite(p.sigma[i]) ? v + k * p.sigma[i] : null)) : null);
+  // Drawing order: bands, predicted, corrected, observed on top, residual.
+  const data = [p.distanceKm, nul(p.bandHigh), nul(p.bandLow), nul(p.predicted), nul(p.corrected), nul(p.observed), nul(p.residual), nul(off(1)), nul(off(-1))];
   const opts = {
     width,
     height: 190,
@@ -46,8 +51,10 @@ export function drawProfile(el, p, onHover) {
       { label: withUnit("Corrected depth", u.corrected), scale: "depth", stroke: "#1b8a6b", width: 1.2, dash: [6, 3], points: { show: false } },
       { label: withUnit("Observed depth", u.observed), scale: "depth", stroke: "#0d2a5c", width: 1.6, points: { show: false } },
       { label: withUnit("Residual", u.residual), scale: "res", stroke: "#c0650f", width: 1, points: { show: false } },
+      { label: "Age-uncertainty upper", scale: "depth", stroke: "rgba(90,84,146,0.45)", width: 0.5, show: hasSigma, points: { show: false } },
+      { label: "Age-uncertainty lower", scale: "depth", stroke: "rgba(90,84,146,0.45)", width: 0.5, show: hasSigma, points: { show: false } },
     ],
-    bands: hasBand ? [{ series: [1, 2], fill: "rgba(179,0,95,0.18)" }] : [],
+    bands: [...(hasBand ? [{ series: [1, 2], fill: "rgba(179,0,95,0.18)" }] : []), ...(hasSigma ? [{ series: [7, 8], fill: "rgba(90,84,146,0.22)" }] : [])],
     hooks: {
       ready: [(u) => placeWaypoints(u, p.waypoints || [])],
       setSize: [(u) => placeWaypoints(u, p.waypoints || [])],
@@ -69,6 +76,7 @@ export function drawProfile(el, p, onHover) {
       ["Predicted depth", "#b3005f", "solid"],
       ...(p.waypoints?.length ? [["Waypoint (name from the track file)", "#003c43", "waypoint"]] : []),
       ...(hasBand ? [[`Band: ${p.bandLabel || "uncertainty"}`, "rgba(179,0,95,0.3)", "band"]] : []),
+      ...(hasSigma ? [["Band: predicted depth ±1σ from the seafloor-age uncertainty", "rgba(90,84,146,0.35)", "band"]] : []),
       ["Residual, right axis (+ = shallower than the model)", "#c0650f", "solid"],
     ];
     for (const [label, colour, style] of items) {

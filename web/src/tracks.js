@@ -25,7 +25,7 @@ const $ = (id) => document.getElementById(id);
 // The series the profile chart draws (depths on the left axis, residual on
 // the right, age in the read-out); each is asked for only when the chosen
 // collection lists it.
-const PROFILE_SERIES = { observed: "observed_depth", corrected: "corrected_depth", predicted: "predicted_depth", residual: "residual_depth", age: "seafloor_age" };
+const PROFILE_SERIES = { observed: "observed_depth", corrected: "corrected_depth", predicted: "predicted_depth", residual: "residual_depth", age: "seafloor_age", sigma: "predicted_depth_uncertainty" };
 
 export class TracksPanel {
   constructor(map, drawer) {
@@ -189,8 +189,9 @@ export class TracksPanel {
       li.textContent = `${w.name} · ${fmt(w.distanceKm, 1, "km")} · ${fmtLatLon(w.lat, w.lon)}`;
       list.append(li);
     }
-    $("profile-band-note").textContent = p.bandLabel
-      ? `Shaded band: ${p.bandLabel}. Hover the chart to mark the sample on the map.`
+    const bands = [p.bandLabel, p.sigma?.some(Number.isFinite) ? "predicted depth ±1σ from the dataset's seafloor-age uncertainty" : ""].filter(Boolean);
+    $("profile-band-note").textContent = bands.length
+      ? `Shaded: ${bands.join("; ")}. Hover the chart to mark the sample on the map.`
       : "No uncertainty band is available. Hover the chart to mark the sample on the map.";
   }
 
