@@ -104,3 +104,11 @@ func TestCorrCanExceed(t *testing.T) {
 		})
 	}
 }
+
+// TestEveryParameterFitsOneQuestion: the default parameter limit lets one question ask for every
+// parameter the service answers (the page's read-out does).
+func TestEveryParameterFitsOneQuestion(t *testing.T) {
+	if n, lim := len(Parameters), DefaultLimits.MaxParameters; n > lim {
+		t.Fatalf("%d parameters, but a question may name only %d", n, lim)
+	}
+}

@@ -52,7 +52,7 @@ var DefaultLimits = Limits{
 	MaxAreaCells:    4_000_000,
 	MaxInputCells:   20_000_000,
 	MaxTrackSamples: 100_000,
-	MaxParameters:   9,
+	MaxParameters:   32, // more than the parameters the service answers (TestEveryParameterFitsOneQuestion)
 	MaxTileZoom:     14,
 	// 200 M cells: a whole ocean at 1′ in a few seconds on two cores.
 	MaxStatisticsCells: 200_000_000,
