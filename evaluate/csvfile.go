@@ -3,9 +3,9 @@ package evaluate
 import (
 	"cmp"
 	"encoding/csv"
-	"encoding/json"
 	"io"
 	"math"
+	"ridgeflank/csvfacts"
 	"strings"
 )
 
@@ -18,23 +18,9 @@ type CSVColumn struct {
 	Text   []string
 }
 
-// CSVFacts are what a CSV file says about itself, in columns after the data columns so that the
-// first line stays the header row every CSV reader expects:
-//
-//   - dataset, model: on every row (short; they survive concatenating files);
-//   - data_label: "SYNTHETIC" on every row when the answer is built from at least one
-//     invented grid (only present then);
-//   - caution, provenance: on the first data row only (the navigation caution and the
-//     provenance as JSON), empty on the others.
-//
-// A file with no data row gets one row holding only these facts, so no file loses them.
-type CSVFacts struct {
-	Dataset    string
-	Model      string
-	Label      string
-	Caution    string
-	Provenance any // encoded as JSON; nil: no provenance column
-}
+// CSVFacts are what a CSV file says about itself: csvfacts.Facts (the one rule, shared with
+// the survey plan's CSV).
+type CSVFacts = csvfacts.Facts
 
 // FactsOf are the CSV facts of an answer with provenance p.
 func FactsOf(p Provenance) CSVFacts {
@@ -56,38 +42,12 @@ func WriteCSV(w io.Writer, cols []CSVColumn, facts CSVFacts) error {
 	if len(cols) > 0 {
 		n = max(len(cols[0].Values), len(cols[0].Text))
 	}
-	var prov string
-	if facts.Provenance != nil {
-		var b strings.Builder
-		enc := json.NewEncoder(&b)
-		enc.SetEscapeHTML(false)
-		if err := enc.Encode(facts.Provenance); err != nil {
-			return err
-		}
-		prov = strings.TrimSuffix(b.String(), "\n")
-	}
-	type fact struct {
-		name, value string
-		firstOnly   bool
-	}
-	var fs []fact
-	if facts.Dataset != "" {
-		fs = append(fs, fact{"dataset", facts.Dataset, false})
-	}
-	if facts.Model != "" {
-		fs = append(fs, fact{"model", facts.Model, false})
-	}
-	if facts.Label != "" {
-		fs = append(fs, fact{"data_label", facts.Label, false})
-	}
-	if facts.Caution != "" {
-		fs = append(fs, fact{"caution", facts.Caution, true})
-	}
-	if prov != "" {
-		fs = append(fs, fact{"provenance", prov, true})
+	fs, err := facts.Columns()
+	if err != nil {
+		return err
 	}
 	for _, f := range fs {
-		header = append(header, f.name)
+		header = append(header, f.Name)
 	}
 	cw := csv.NewWriter(w)
 	if err := cw.Write(header); err != nil {
@@ -110,10 +70,7 @@ func WriteCSV(w io.Writer, cols []CSVColumn, facts CSVFacts) error {
 			}
 		}
 		for k, f := range fs {
-			row[len(cols)+k] = f.value
-			if f.firstOnly && i > 0 {
-				row[len(cols)+k] = ""
-			}
+			row[len(cols)+k] = f.Cell(i)
 		}
 		if err := cw.Write(row); err != nil {
 			return err

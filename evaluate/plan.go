@@ -99,7 +99,8 @@ func (s *Service) CheckPlan(ctx context.Context, p survey.Plan, progress func(fr
 	if err != nil {
 		return nil, err
 	}
-	chk := &survey.Check{Plan: p, Caution: Caution, Lines: make([]survey.LineResult, len(p.Lines))}
+	chk := &survey.Check{Plan: p, Caution: Caution, Lines: make([]survey.LineResult, len(p.Lines)),
+		Model: q.Model.Params().ID, Label: s.Provenance(q).Label}
 	for i := range p.Lines {
 		if err := ctx.Err(); err != nil {
 			return nil, err

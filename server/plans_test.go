@@ -149,11 +149,13 @@ func TestPlanCheckFormats(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if strings.Join(recs[0], ",") != strings.Join(survey.CSVHeader(), ",") || len(recs) < 10 {
+			h := strings.Join(recs[0], ",")
+			if !strings.HasPrefix(h, "line,line_name,sample,lon_deg,lat_deg,") || !strings.HasSuffix(h, ",dataset,model,data_label,caution") || len(recs) < 10 {
 				t.Errorf("header %v, %d rows", recs[0], len(recs))
 			}
-			if recs[1][len(recs[1])-1] == "" {
-				t.Error("no caution on the first data row")
+			last := len(recs[1]) - 1
+			if recs[1][last] == "" || recs[2][last] != "" || recs[2][last-1] != "SYNTHETIC" || recs[2][last-2] != "gdh1" {
+				t.Errorf("facts: first row %v, second %v: want the caution on the first only, the demo's label and model on every row", recs[1][last-3:], recs[2][last-3:])
 			}
 		}},
 		{"geojson", "application/geo+json", func(t *testing.T, b []byte) {

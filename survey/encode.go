@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"reflect"
+	"ridgeflank/csvfacts"
 	"strconv"
 	"strings"
 	"unicode"
@@ -104,32 +105,52 @@ func sampleColumns() []sampleColumn {
 	return cols
 }
 
-// CSVHeader is the header row WriteCSV writes: the line's index ("line", 0-based, as in
+// CSVFacts are what the check's CSV says about itself (csvfacts.Facts, the rule every CSV
+// answer follows): dataset, model and data label on every row, the caution on the first.
+func (c *Check) CSVFacts() csvfacts.Facts {
+	return csvfacts.Facts{Dataset: c.Plan.Settings.Dataset, Model: c.Model, Label: c.Label, Caution: c.Caution}
+}
+
+// CSVHeader is the header row WriteCSV writes for c: the line's index ("line", 0-based, as in
 // Plan.Lines) and name ("line_name"), the sample's index along the line ("sample"), then every
 // column of Samples in order (lon_deg, lat_deg, leg, distance_km, …; the leg is the 0-based
-// index of the leg), and last "caution".
-func CSVHeader() []string {
+// index of the leg), and last the fact columns of c.CSVFacts() (dataset, model, data_label when
+// synthetic, caution).
+func CSVHeader(c *Check) []string {
 	h := []string{"line", "line_name", "sample"}
-	for _, c := range sampleColumns() {
-		h = append(h, c.header)
+	for _, col := range sampleColumns() {
+		h = append(h, col.header)
 	}
-	return append(h, "caution")
+	fs, _ := c.CSVFacts().Columns() // no provenance: nothing to encode, no error
+	for _, f := range fs {
+		h = append(h, f.Name)
+	}
+	return h
 }
 
 // WriteCSV writes c's samples as CSV (RFC 4180): the header row of CSVHeader first, then one row
 // per sample, lines in order. There are no comment lines, so that any CSV reader (GDAL's, a
-// spreadsheet's, Python's csv.DictReader) reads the file as it is; the caution that expected
-// depths are not for navigation is the "caution" column, filled on the first data row only and
-// empty below. Numbers follow numjson.CSV (seven significant digits, no value as an empty cell);
-// units are in the headers (_m metres positive down, _km, _nmi, _h hours, _deg degrees, _ma
-// million years, _m_s metres per second, _s seconds, _hz hertz).
+// spreadsheet's, Python's csv.DictReader) reads the file as it is; what the file says about
+// itself follows csvfacts: dataset and model on every row, the caution that expected depths are
+// not for navigation on the first data row only. Numbers follow numjson.CSV (seven significant
+// digits, no value as an empty cell); units are in the headers (_m metres positive down, _km,
+// _nmi, _h hours, _deg degrees, _ma million years, _m_s metres per second, _s seconds, _hz
+// hertz).
 func WriteCSV(w io.Writer, c *Check) error {
 	bw := bufio.NewWriterSize(w, 64<<10)
 	cols := sampleColumns()
-	header := CSVHeader()
+	header := CSVHeader(c)
+	fs, err := c.CSVFacts().Columns()
+	if err != nil {
+		return err
+	}
+	facts := make([]string, len(fs))
+	for k, f := range fs {
+		facts[k] = csvField(f.Value)
+	}
 	bw.WriteString(strings.Join(quoteAll(header), ",") + "\n")
 	var row []byte
-	first := true
+	r := 0
 	for li := range c.Lines {
 		l := &c.Lines[li]
 		cells := columnWriters(&l.Samples, cols)
@@ -144,11 +165,13 @@ func WriteCSV(w io.Writer, c *Check) error {
 				row = append(row, ',')
 				row = cell(row, i)
 			}
-			row = append(row, ',')
-			if first {
-				row = append(row, csvField(c.Caution)...)
-				first = false
+			for k, f := range fs {
+				row = append(row, ',')
+				if !f.FirstRowOnly || r == 0 {
+					row = append(row, facts[k]...)
+				}
 			}
+			r++
 			row = append(row, '\n')
 			if _, err := bw.Write(row); err != nil {
 				return err

@@ -52,6 +52,8 @@ func encodeFixture() *Check {
 	return &Check{
 		Plan:    p.WithDefaults(),
 		Caution: "Expected depths are model estimates and gridded data, not for navigation.",
+		Model:   "gdh1",
+		Label:   "SYNTHETIC",
 		Lines: []LineResult{
 			{Name: "A", LengthKm: 60, LengthNmi: 32.4, MinDepthM: 3000, MeanDepthM: 3000.5, MaxDepthM: 3001, Legs: []Leg{{}},
 				Samples: samples([]float64{-30.5, -30.25, -30}, []float64{10.25, 10.375, 10.5}, "A")},
@@ -79,11 +81,12 @@ func TestWriteCSVRoundTrip(t *testing.T) {
 		t.Fatalf("encoding/csv cannot read the CSV: %v", err)
 	}
 	header := recs[0]
-	if !reflect.DeepEqual(header, CSVHeader()) {
-		t.Fatalf("header %v, want %v", header, CSVHeader())
+	if !reflect.DeepEqual(header, CSVHeader(c)) {
+		t.Fatalf("header %v, want %v", header, CSVHeader(c))
 	}
 	// Units in every header that carries one: all except indices, names, source and caution.
-	unitless := map[string]bool{"line": true, "line_name": true, "sample": true, "leg": true, "depth_source": true, "caution": true}
+	unitless := map[string]bool{"line": true, "line_name": true, "sample": true, "leg": true, "depth_source": true, "caution": true,
+		"dataset": true, "model": true, "data_label": true}
 	units := []string{"_deg", "_km", "_nmi", "_h", "_m", "_ma", "_m_s", "_s", "_hz"}
 	for _, h := range header {
 		ok := unitless[h]
@@ -108,6 +111,11 @@ func TestWriteCSVRoundTrip(t *testing.T) {
 	for _, r := range rows[1:] {
 		if r[col["caution"]] != "" {
 			t.Fatalf("caution repeated below the first data row: %v", r)
+		}
+	}
+	for _, r := range rows {
+		if r[col["dataset"]] != c.Plan.Settings.Dataset || r[col["model"]] != c.Model || r[col["data_label"]] != c.Label {
+			t.Fatalf("row %v: dataset/model/label %q/%q/%q on every row", r, c.Plan.Settings.Dataset, c.Model, c.Label)
 		}
 	}
 	r := 0

@@ -204,6 +204,8 @@ type Totals struct {
 type Check struct {
 	Plan     Plan         `json:"plan"` // as checked, defaults filled in
 	Caution  string       `json:"caution"`
+	Model    string       `json:"model"`                // the cooling model the check used (the default when the plan names none)
+	Label    string       `json:"data_label,omitempty"` // "SYNTHETIC" when a grid of the dataset is invented
 	Lines    []LineResult `json:"lines"`
 	Transits []Transit    `json:"transits"`
 	Hazards  []Hazard     `json:"hazards"`
