@@ -7,6 +7,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 
@@ -253,6 +254,29 @@ func TestServedLargerThanBudgetEqualsInMemory(t *testing.T) {
 		f, ok := fault.As(err)
 		if !ok || f.Kind != fault.LimitExceeded || f.Limit == nil || f.Limit.Name != "max_statistics_cells" {
 			t.Fatalf("error %v, want limit max_statistics_cells", err)
+		}
+		// As a job the same question is answered, with the numbers of the service whose
+		// request limit it fits, and progress reaching 1.
+		req := StatisticsRequest{Dataset: "big", Coords: "POLYGON((-160 -60,-20 -60,-20 60,-160 60,-160 -60))", Options: Options{Parameters: []string{PResidualDepth}}}
+		job, cells, err := small.StatisticsAsJob(ctx, req)
+		if err != nil || !job || cells <= 1000 {
+			t.Fatalf("as job %v, %d cells, %v", job, cells, err)
+		}
+		var last float64
+		got, _, err := small.AnswerStatistics(ctx, req, func(f float64) { last = f })
+		if err != nil {
+			t.Fatal(err)
+		}
+		want, err := s.Statistics(ctx, "big", req.Options, r, 0, 0, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !reflect.DeepEqual(got.Stats, want.Stats) || got.Cells != want.Cells || last != 1 {
+			t.Fatalf("job %+v (progress %g), at once %+v", got.Stats[0], last, want.Stats[0])
+		}
+		tiny := New(Config{Store: st, MemoryBudget: budget, Limits: Limits{MaxStatisticsCells: 1000, MaxStatisticsJobCells: 2000}})
+		if _, _, err := tiny.StatisticsAsJob(ctx, req); !fault.Is(err, fault.LimitExceeded) {
+			t.Fatalf("over the job limit: %v", err)
 		}
 	})
 

@@ -13,6 +13,7 @@ import (
 const (
 	KindGridImport = "grid_import"
 	KindExport     = "export"
+	KindStatistics = "statistics"
 )
 
 // Documented limits and timings of the queue.
@@ -78,6 +79,16 @@ type ExportArgs struct {
 // Kind implements river.JobArgs.
 func (ExportArgs) Kind() string { return KindExport }
 
+// StatisticsArgs describe one statistics question that needs more work than a request should
+// do: an opaque request the statistics worker understands (serialised); the job's result is
+// the answer itself.
+type StatisticsArgs struct {
+	Request json.RawMessage `json:"request"`
+}
+
+// Kind implements river.JobArgs.
+func (StatisticsArgs) Kind() string { return KindStatistics }
+
 // Progress reports a job's progress: fraction in [0, 1] and a short message.
 // It is safe to call from several goroutines.
 type Progress func(fraction float64, message string)
@@ -88,6 +99,8 @@ type Progress func(fraction float64, message string)
 type Handlers struct {
 	Import func(ctx context.Context, args ImportArgs, progress Progress) (any, error)
 	Export func(ctx context.Context, args ExportArgs, progress Progress) (any, error)
+	// Statistics answers a large statistics question.
+	Statistics func(ctx context.Context, args StatisticsArgs, progress Progress) (any, error)
 }
 
 // PermanentError marks an error that no retry will fix: the queue records it and runs the job

@@ -139,6 +139,12 @@ func newQueue[TTx any](driver riverdriver.Driver[TTx], pollOnly bool, h jobs.Han
 			}
 			return rq.run(ctx, job.ID, func(p jobs.Progress) (any, error) { return h.Export(ctx, job.Args, p) })
 		}))
+		river.AddWorker(workers, river.WorkFunc(func(ctx context.Context, job *river.Job[jobs.StatisticsArgs]) error {
+			if h.Statistics == nil {
+				return river.JobCancel(errors.New("this server answers no statistics jobs"))
+			}
+			return rq.run(ctx, job.ID, func(p jobs.Progress) (any, error) { return h.Statistics(ctx, job.Args, p) })
+		}))
 		cfg.Workers = workers
 		cfg.Queues = map[string]river.QueueConfig{river.QueueDefault: {MaxWorkers: n}}
 	}
@@ -290,6 +296,11 @@ func (q *Queue) EnqueueImport(ctx context.Context, a jobs.ImportArgs) (int64, er
 
 // EnqueueExport accepts a large export.
 func (q *Queue) EnqueueExport(ctx context.Context, a jobs.ExportArgs) (int64, error) {
+	return q.impl.insert(ctx, a, &river.InsertOpts{MaxAttempts: jobs.MaxAttempts})
+}
+
+// EnqueueStatistics accepts a statistics question larger than a request should answer.
+func (q *Queue) EnqueueStatistics(ctx context.Context, a jobs.StatisticsArgs) (int64, error) {
 	return q.impl.insert(ctx, a, &river.InsertOpts{MaxAttempts: jobs.MaxAttempts})
 }
 
