@@ -251,12 +251,8 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 	if crustW != nil && fl.need&inCrust != 0 && needCorr {
 		crustL = sampleOnto(ageW, crustW)
 	}
-	// Corrected depths for the plausibility screen, when the window could hold an impossible
-	// one, are computed on their own: asking for them with the residual would change the
-	// kernel's path for the residual (geo.Evaluate fuses predicted and corrected depth through
-	// tables otherwise, within 1 cm), and the answer must not depend on how a question is cut
-	// into windows.
-	screenCorr := needCorr && want&geo.OutCorrectedDepth == 0 && corrCanExceed(obsL, sedL, crustW != nil)
+	// Corrected depths for the plausibility screen (screenCorrOnItsOwn).
+	screenCorr := screenCorrOnItsOwn(needCorr, want, gridData(obsL), gridData(sedL), crustW != nil)
 	var ev, evCorr *geo.Result
 	in := geo.Inputs{Age: ageW, Model: q.Model, Compaction: q.Sediment, Mask: mask}
 	if needCorr {
@@ -391,10 +387,25 @@ func sampleOnto(lattice, src *geo.Grid) *geo.Grid {
 }
 
 // toDepthM converts observed bathymetry in sense to depth in metres, positive down, in place.
-func toDepthM(g *geo.Grid, sense geo.VerticalSense) {
-	for i, v := range g.Data {
-		g.Data[i] = float32(geo.ToDepthM(float64(v), sense))
+func toDepthM(g *geo.Grid, sense geo.VerticalSense) { toDepthRows(g.Data, sense) }
+
+// toDepthRows is toDepthM over a slice of values (geo.ToDepthM's rule: NaN for an unknown
+// sense).
+func toDepthRows(d []float32, sense geo.VerticalSense) {
+	if sense == geo.DepthPositiveDown {
+		return
 	}
+	for i, v := range d {
+		d[i] = float32(geo.ToDepthM(float64(v), sense))
+	}
+}
+
+// gridData is g's values, nil for a nil grid.
+func gridData(g *geo.Grid) []float32 {
+	if g == nil {
+		return nil
+	}
+	return g.Data
 }
 
 func ceilDiv(a, b int) int { return (a + b - 1) / b }
