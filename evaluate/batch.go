@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"sync"
 
 	"ridgeflank/fault"
 	"ridgeflank/geo"
@@ -157,19 +158,32 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 			n := min(rowsPerBlock, ny-r0)
 			set.age = grow(set.age, n*nx)
 			l := loaded{row0: r0, rows: n, age: set.age, set: si}
-			l.err = in.Age.ReadRows(r0, l.age)
+			// The grids of a block are read concurrently (each reader is its own file); the
+			// first error in the order age, depth, sediment, crust is the block's.
+			var errs [4]error
+			var wg sync.WaitGroup
+			wg.Add(1)
+			go func() { defer wg.Done(); errs[0] = in.Age.ReadRows(r0, l.age) }()
 			for i, c := range comps {
-				if c == nil || l.err != nil {
+				if c == nil {
 					continue
 				}
 				top, bot := c.rowsFor(&age, r0, r0+n)
 				set.comp[i] = grow(set.comp[i], (bot-top)*c.h.NX)
-				l.err = c.r.ReadRows(top, set.comp[i])
 				g := c.h
 				g.NY = bot - top
 				g.North = c.h.North - float64(top)*c.h.DY
 				g.Data = set.comp[i]
 				l.comp[i] = &g
+				wg.Add(1)
+				go func() { defer wg.Done(); errs[i+1] = c.r.ReadRows(top, set.comp[i]) }()
+			}
+			wg.Wait()
+			for _, err := range errs {
+				if err != nil {
+					l.err = err
+					break
+				}
 			}
 			select {
 			case loadedCh <- l:
