@@ -48,7 +48,7 @@ func newNetCDFWriter(path string, header geo.Grid, m gdal.Meta) (rowWriter, erro
 	if err != nil {
 		return nil, fmt.Errorf("export: starting the netCDF file: %w", err)
 	}
-	return &netCDFWriter{NetCDFStream: st, path: path, rows: min(256, max(16, netCDFBlockBytes/(4*max(header.NX, 1))))}, nil
+	return &netCDFWriter{NetCDFStream: st, path: path, rows: gdal.NetCDFBlockRows(header.NX, netCDFBlockBytes)}, nil
 }
 
 // BlockRows is the number of rows written at a time.
