@@ -38,18 +38,6 @@ func (s *Service) Area(ctx context.Context, datasetID string, o Options, r geo.P
 	return s.area(ctx, q, r, resX, resY)
 }
 
-// AreaCells is the number of cells Area would answer (before it computes anything).
-func (s *Service) AreaCells(ctx context.Context, datasetID string, r geo.PreparedRegion, resX, resY float64) (int64, error) {
-	d, err := s.Dataset(ctx, datasetID)
-	if err != nil {
-		return 0, err
-	}
-	h := d.AgeHeader()
-	inX, inY := inputSize(&h, r.Bound)
-	fx, fy := factors(&h, resX, resY)
-	return int64(ceilDiv(inX, fx)) * int64(ceilDiv(inY, fy)), nil
-}
-
 // Region evaluates o's parameters over the stored region regionID, as Area does, with
 // area-weighted statistics of every parameter computed as Statistics computes them (the same
 // streams, here fed the answer's grids). A region with no value of some parameter is
