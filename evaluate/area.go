@@ -355,22 +355,12 @@ func sameLattice(a, b *geo.Grid) bool {
 	return math.Abs(fx-math.Round(fx)) < 1e-6 && math.Abs(fy-math.Round(fy)) < 1e-6
 }
 
-// sampleOnto returns src's values on lattice's positions: a copy when src already is on that
-// lattice, bilinear samples otherwise.
+// sampleOnto returns src's values on lattice's positions by onto's rule (the one rule of
+// every way in: read by index when src's samples coincide with lattice's, bilinear samples
+// otherwise).
 func sampleOnto(lattice, src *geo.Grid) *geo.Grid {
-	if src.NX == lattice.NX && src.NY == lattice.NY && sameLattice(lattice, src) &&
-		math.Abs(src.West-lattice.West) < 1e-6*lattice.DX && math.Abs(src.North-lattice.North) < 1e-6*lattice.DY {
-		return src.Clone()
-	}
 	out := geo.NewGrid(lattice.NX, lattice.NY, lattice.West, lattice.North, lattice.DX, lattice.DY, lattice.Registration)
-	lons := make([]float64, lattice.NX)
-	for col := range lons {
-		lons[col] = lattice.Lon(col)
-	}
-	sm := src.NewBilinearSampler(lons)
-	for row := 0; row < lattice.NY; row++ {
-		sm.Row(lattice.Lat(row), out.Data[row*lattice.NX:(row+1)*lattice.NX])
-	}
+	onto(out.Data, lattice, src)
 	return out
 }
 
