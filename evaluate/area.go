@@ -38,18 +38,6 @@ func (s *Service) Area(ctx context.Context, datasetID string, o Options, r geo.P
 	return s.area(ctx, q, r, resX, resY)
 }
 
-// AreaCells is the number of cells Area would answer (before it computes anything).
-func (s *Service) AreaCells(ctx context.Context, datasetID string, r geo.PreparedRegion, resX, resY float64) (int64, error) {
-	d, err := s.Dataset(ctx, datasetID)
-	if err != nil {
-		return 0, err
-	}
-	h := d.AgeHeader()
-	inX, inY := inputSize(&h, r.Bound)
-	fx, fy := factors(&h, resX, resY)
-	return int64(ceilDiv(inX, fx)) * int64(ceilDiv(inY, fy)), nil
-}
-
 // Region evaluates o's parameters over the stored region regionID, as Area does, with
 // area-weighted statistics of every parameter computed as Statistics computes them (the same
 // streams, here fed the answer's grids). A region with no value of some parameter is
@@ -254,12 +242,8 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 	if crustW != nil && fl.need&inCrust != 0 && needCorr {
 		crustL = sampleOnto(ageW, crustW)
 	}
-	// Corrected depths for the plausibility screen, when the window could hold an impossible
-	// one, are computed on their own: asking for them with the residual would change the
-	// kernel's path for the residual (geo.Evaluate fuses predicted and corrected depth through
-	// tables otherwise, within 1 cm), and the answer must not depend on how a question is cut
-	// into windows.
-	screenCorr := needCorr && want&geo.OutCorrectedDepth == 0 && corrCanExceed(obsL, sedL, crustW != nil)
+	// Corrected depths for the plausibility screen (screenCorrOnItsOwn).
+	screenCorr := screenCorrOnItsOwn(needCorr, want, gridData(obsL), gridData(sedL), crustW != nil)
 	var ev, evCorr *geo.Result
 	in := geo.Inputs{Age: ageW, Model: q.Model, Compaction: q.Sediment, Mask: mask}
 	q.ageSigma(&in, v)
@@ -388,30 +372,35 @@ func sameLattice(a, b *geo.Grid) bool {
 	return math.Abs(fx-math.Round(fx)) < 1e-6 && math.Abs(fy-math.Round(fy)) < 1e-6
 }
 
-// sampleOnto returns src's values on lattice's positions: a copy when src already is on that
-// lattice, bilinear samples otherwise.
+// sampleOnto returns src's values on lattice's positions by onto's rule (the one rule of
+// every way in: read by index when src's samples coincide with lattice's, bilinear samples
+// otherwise).
 func sampleOnto(lattice, src *geo.Grid) *geo.Grid {
-	if src.NX == lattice.NX && src.NY == lattice.NY && sameLattice(lattice, src) &&
-		math.Abs(src.West-lattice.West) < 1e-6*lattice.DX && math.Abs(src.North-lattice.North) < 1e-6*lattice.DY {
-		return src.Clone()
-	}
 	out := geo.NewGrid(lattice.NX, lattice.NY, lattice.West, lattice.North, lattice.DX, lattice.DY, lattice.Registration)
-	lons := make([]float64, lattice.NX)
-	for col := range lons {
-		lons[col] = lattice.Lon(col)
-	}
-	sm := src.NewBilinearSampler(lons)
-	for row := 0; row < lattice.NY; row++ {
-		sm.Row(lattice.Lat(row), out.Data[row*lattice.NX:(row+1)*lattice.NX])
-	}
+	onto(out.Data, lattice, src)
 	return out
 }
 
 // toDepthM converts observed bathymetry in sense to depth in metres, positive down, in place.
-func toDepthM(g *geo.Grid, sense geo.VerticalSense) {
-	for i, v := range g.Data {
-		g.Data[i] = float32(geo.ToDepthM(float64(v), sense))
+func toDepthM(g *geo.Grid, sense geo.VerticalSense) { toDepthRows(g.Data, sense) }
+
+// toDepthRows is toDepthM over a slice of values (geo.ToDepthM's rule: NaN for an unknown
+// sense).
+func toDepthRows(d []float32, sense geo.VerticalSense) {
+	if sense == geo.DepthPositiveDown {
+		return
 	}
+	for i, v := range d {
+		d[i] = float32(geo.ToDepthM(float64(v), sense))
+	}
+}
+
+// gridData is g's values, nil for a nil grid.
+func gridData(g *geo.Grid) []float32 {
+	if g == nil {
+		return nil
+	}
+	return g.Data
 }
 
 func ceilDiv(a, b int) int { return (a + b - 1) / b }

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"sync"
 
 	"ridgeflank/fault"
 	"ridgeflank/geo"
@@ -72,10 +73,9 @@ const GridMargin = 2
 // values holds rows·NX float32, NaN = no data, and is reused after fn returns). The numbers are
 // Area's at the age grid's own spacing over a region covering the grid: the same kernel
 // (geo.EvaluateInto), the same sampling of companion grids, the same plausibility screening
-// (values refused as physically impossible are NaN and counted in the returned flags). One
-// difference: Area decides once per answer whether corrected depths must be computed for the
-// screening (corrCanExceed), EvaluateGrid once per block, so a grid where some corrected depth
-// exceeds MaxDepthM may differ from Area by the kernel's table error (< 1 cm) in other blocks.
+// (values refused as physically impossible are NaN and counted in the returned flags; the
+// corrected depths it needs are computed by the rule every window follows, screenCorrOnItsOwn,
+// per block).
 //
 // Memory is bounded by a few blocks: reading the next block, computing one (in parallel over
 // in.Workers goroutines) and handing the last to fn overlap, with two buffers each; a
@@ -158,19 +158,32 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 			n := min(rowsPerBlock, ny-r0)
 			set.age = grow(set.age, n*nx)
 			l := loaded{row0: r0, rows: n, age: set.age, set: si}
-			l.err = in.Age.ReadRows(r0, l.age)
+			// The grids of a block are read concurrently (each reader is its own file); the
+			// first error in the order age, depth, sediment, crust is the block's.
+			var errs [4]error
+			var wg sync.WaitGroup
+			wg.Add(1)
+			go func() { defer wg.Done(); errs[0] = in.Age.ReadRows(r0, l.age) }()
 			for i, c := range comps {
-				if c == nil || l.err != nil {
+				if c == nil {
 					continue
 				}
 				top, bot := c.rowsFor(&age, r0, r0+n)
 				set.comp[i] = grow(set.comp[i], (bot-top)*c.h.NX)
-				l.err = c.r.ReadRows(top, set.comp[i])
 				g := c.h
 				g.NY = bot - top
 				g.North = c.h.North - float64(top)*c.h.DY
 				g.Data = set.comp[i]
 				l.comp[i] = &g
+				wg.Add(1)
+				go func() { defer wg.Done(); errs[i+1] = c.r.ReadRows(top, set.comp[i]) }()
+			}
+			wg.Wait()
+			for _, err := range errs {
+				if err != nil {
+					l.err = err
+					break
+				}
 			}
 			select {
 			case loadedCh <- l:
@@ -238,15 +251,7 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 		if l.comp[0] != nil && fl.need&inObs != 0 {
 			scratch.obs = grow(scratch.obs, n)
 			obsL = onto(scratch.obs, &blk, l.comp[0])
-			sign := float32(1)
-			if in.DepthSense == geo.ElevationPositiveUp {
-				sign = -1
-			}
-			if sign != 1 {
-				for i, v := range obsL {
-					obsL[i] = sign * v
-				}
-			}
+			toDepthRows(obsL, in.DepthSense)
 		}
 		if l.comp[1] != nil && fl.need&inSed != 0 {
 			scratch.sed = grow(scratch.sed, n)
@@ -255,10 +260,6 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 		if l.comp[2] != nil && fl.need&inCrust != 0 && needCorr {
 			scratch.crust = grow(scratch.crust, n)
 			crustL = onto(scratch.crust, &blk, l.comp[2])
-		}
-		w := want
-		if needCorr && corrCanExceedRows(obsL, sedL, l.comp[2] != nil) {
-			w |= geo.OutCorrectedDepth
 		}
 		var corr []float32
 		switch p.ID {
@@ -278,15 +279,6 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 			}
 			dst := &geo.Result{}
 			outGrid := func(d []float32) *geo.Grid { g := blk; g.Data = d; return &g }
-			if w&geo.OutCorrectedDepth != 0 {
-				if p.ID == PCorrectedDepth {
-					corr = vals
-				} else {
-					scratch.corr = grow(scratch.corr, n)
-					corr = scratch.corr
-				}
-				dst.CorrectedDepthM = outGrid(corr)
-			}
 			switch p.ID {
 			case PPredictedDepth:
 				dst.PredictedDepthM = outGrid(vals)
@@ -296,6 +288,8 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 				dst.ThermalThicknessKm = outGrid(vals)
 			case PDepth600C:
 				dst.Depth600CKm = outGrid(vals)
+			case PCorrectedDepth:
+				dst.CorrectedDepthM, corr = outGrid(vals), vals
 			case PResidualDepth:
 				dst.ResidualDepthM = outGrid(vals)
 			default:
@@ -305,6 +299,10 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 			}
 			if err := geo.EvaluateInto(ctx, gin, dst); err != nil {
 				runErr = err
+			} else if screenCorrOnItsOwn(needCorr, want, obsL, sedL, l.comp[2] != nil) {
+				scratch.corr = grow(scratch.corr, n)
+				corr = scratch.corr
+				runErr = geo.EvaluateInto(ctx, gin, &geo.Result{CorrectedDepthM: outGrid(corr)})
 			}
 		}
 		if runErr != nil {
@@ -408,29 +406,6 @@ func onto(dst []float32, lattice, src *geo.Grid) []float32 {
 		sm.Row(lattice.Lat(r), dst[r*nx:(r+1)*nx])
 	}
 	return dst
-}
-
-// corrCanExceedRows is the rule of corrCanExceed over slices (obs and sed of equal length, or
-// nil): whether some observed depth plus positive sediment exceeds MaxDepthM.
-func corrCanExceedRows(obs, sed []float32, crust bool) bool {
-	if crust {
-		return true
-	}
-	if obs == nil {
-		return false
-	}
-	for k, o := range obs {
-		v := float64(o)
-		if sed != nil {
-			if s := float64(sed[k]); s > 0 {
-				v += s
-			}
-		}
-		if v > MaxDepthM {
-			return true
-		}
-	}
-	return false
 }
 
 // screenRows is screenGrids over one block of one parameter: vals[k] is refused (NaN) when the

@@ -7,6 +7,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 
@@ -254,22 +255,52 @@ func TestServedLargerThanBudgetEqualsInMemory(t *testing.T) {
 		if !ok || f.Kind != fault.LimitExceeded || f.Limit == nil || f.Limit.Name != "max_statistics_cells" {
 			t.Fatalf("error %v, want limit max_statistics_cells", err)
 		}
+		// As a job the same question is answered, with the numbers of the service whose
+		// request limit it fits, and progress reaching 1.
+		req := StatisticsRequest{Dataset: "big", Coords: "POLYGON((-160 -60,-20 -60,-20 60,-160 60,-160 -60))", Options: Options{Parameters: []string{PResidualDepth}}}
+		job, cells, err := small.StatisticsAsJob(ctx, req)
+		if err != nil || !job || cells <= 1000 {
+			t.Fatalf("as job %v, %d cells, %v", job, cells, err)
+		}
+		var last float64
+		got, _, err := small.AnswerStatistics(ctx, req, func(f float64) { last = f })
+		if err != nil {
+			t.Fatal(err)
+		}
+		want, err := s.Statistics(ctx, "big", req.Options, r, 0, 0, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !reflect.DeepEqual(got.Stats, want.Stats) || got.Cells != want.Cells || last != 1 {
+			t.Fatalf("job %+v (progress %g), at once %+v", got.Stats[0], last, want.Stats[0])
+		}
+		tiny := New(Config{Store: st, MemoryBudget: budget, Limits: Limits{MaxStatisticsCells: 1000, MaxStatisticsJobCells: 2000}})
+		if _, _, err := tiny.StatisticsAsJob(ctx, req); !fault.Is(err, fault.LimitExceeded) {
+			t.Fatalf("over the job limit: %v", err)
+		}
 	})
 
 	t.Run("large export streamed in bands equals the area answer", func(t *testing.T) {
-		small := New(Config{Store: st, MemoryBudget: budget, Limits: Limits{MaxAreaCells: 100_000}})
-		for _, res := range []float64{0, 0.45} {
+		small := New(Config{Store: st, MemoryBudget: budget, Limits: Limits{MaxAreaCells: 10_000}})
+		for _, c := range []struct {
+			format, ext string
+			res         float64
+		}{{FormatCOG, "tif", 0}, {FormatCOG, "tif", 0.45}, {FormatNetCDF, "nc", 0}, {FormatNetCDF, "nc", 0.45}} {
+			res := c.res
 			wktArea := "POLYGON((-170 -70,160 -70,160 70,-170 70,-170 -70))"
 			req := ExportRequest{Dataset: "big", Options: Options{Parameters: []string{PResidualDepth}}, Coords: wktArea,
-				ResX: res, ResY: res, Format: FormatCOG}
-			path := filepath.Join(dir, fmt.Sprintf("export-%g.tif", res))
+				ResX: res, ResY: res, Format: c.format}
+			path := filepath.Join(dir, fmt.Sprintf("export-%g.%s", res, c.ext))
 			var fractions []float64
 			if _, err := small.Export(ctx, req, path, func(f float64, _ string) { fractions = append(fractions, f) }); err != nil {
-				t.Fatal(err)
+				t.Fatalf("%s: %v", c.format, err)
 			}
 			got, _, err := gdal.Read(path)
 			if err != nil {
 				t.Fatal(err)
+			}
+			if out := (areaPlan{inX: got.NX, inY: got.NY, k: 1, rx: 1, ry: 1}).outCells(); out <= 10_000 {
+				t.Fatalf("%s: %d cells, not over max_area_cells: not streamed", c.format, out)
 			}
 			mp, _ := ParseArea(wktArea)
 			r, _ := s.PrepareRegion(mp, "coords")
@@ -287,11 +318,26 @@ func TestServedLargerThanBudgetEqualsInMemory(t *testing.T) {
 			for i := range w.Data {
 				a, b := got.Data[i], w.Data[i]
 				if (a != a) != (b != b) || math.Abs(float64(a-b)) > math.Abs(float64(b))/(1<<20) {
-					t.Fatalf("resolution %g: cell %d file %v, area %v", res, i, a, b)
+					t.Fatalf("%s resolution %g: cell %d file %v, area %v", c.format, res, i, a, b)
 				}
 			}
 			if len(fractions) < 3 || fractions[len(fractions)-1] != 1 {
 				t.Fatalf("progress %v", fractions)
+			}
+		}
+		// Over max_export_cells both formats are refused with the limit's name, and nothing
+		// is left at the path.
+		tiny := New(Config{Store: st, MemoryBudget: budget, Limits: Limits{MaxAreaCells: 10_000, MaxExportCells: 100_000}})
+		for _, format := range []string{FormatCOG, FormatNetCDF} {
+			req := ExportRequest{Dataset: "big", Options: Options{Parameters: []string{PResidualDepth}},
+				Coords: "POLYGON((-170 -70,160 -70,160 70,-170 70,-170 -70))", Format: format}
+			path := filepath.Join(dir, "refused."+format)
+			_, err := tiny.Export(ctx, req, path, nil)
+			if f, ok := fault.As(err); !ok || f.Limit == nil || f.Limit.Name != "max_export_cells" {
+				t.Fatalf("%s: error %v (%T), want limit max_export_cells", format, err, err)
+			}
+			if _, err := os.Stat(path); !os.IsNotExist(err) {
+				t.Fatalf("%s: %s left behind", format, path)
 			}
 		}
 	})

@@ -165,9 +165,8 @@ func (s *Service) Export(ctx context.Context, req ExportRequest, path string, pr
 		media = MediaNetCDF
 	}
 	if out := plan.outCells(); out > int64(s.limits.MaxAreaCells) {
-		if out > s.limits.MaxExportCells {
-			return ExportResult{}, fault.Over("max_export_cells", s.limits.MaxExportCells, out, "coords",
-				"the file would have about %d cells; the limit is %d: ask for a coarser resolution or a smaller area", out, s.limits.MaxExportCells)
+		if err := s.exportLimit(out); err != nil {
+			return ExportResult{}, err
 		}
 		err = s.streamExport(ctx, q, r, plan, req.Format, tmp, progress)
 	} else {
@@ -199,6 +198,39 @@ func (s *Service) Export(ctx context.Context, req ExportRequest, path string, pr
 	}
 	progress(1, "written")
 	return ExportResult{Filename: name, MediaType: media, Bytes: size, SHA256: sum}, nil
+}
+
+// exportLimit refuses a file of out cells over Limits.MaxExportCells.
+func (s *Service) exportLimit(out int64) error {
+	if out > s.limits.MaxExportCells {
+		return fault.Over("max_export_cells", s.limits.MaxExportCells, out, "coords",
+			"the file would have about %d cells; the limit is %d: ask for a coarser resolution or a smaller area", out, s.limits.MaxExportCells)
+	}
+	return nil
+}
+
+// ExportCells is the number of cells of the file req asks for, before anything is computed,
+// for choosing between an answer now and an export job; over Limits.MaxExportCells it is
+// refused as Export refuses it (fault.Over("max_export_cells")).
+func (s *Service) ExportCells(ctx context.Context, req ExportRequest) (int64, error) {
+	mp, err := ParseArea(req.Coords)
+	if err != nil {
+		return 0, err
+	}
+	r, err := s.PrepareRegion(mp, "coords")
+	if err != nil {
+		return 0, err
+	}
+	d, err := s.Dataset(ctx, req.Dataset)
+	if err != nil {
+		return 0, err
+	}
+	plan, err := planArea(d, r.Bound, req.ResX, req.ResY)
+	if err != nil {
+		return 0, err
+	}
+	out := plan.outCells()
+	return out, s.exportLimit(out)
 }
 
 // streamExport writes q's parameter over r on plan's lattice to path, band by band of rows

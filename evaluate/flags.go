@@ -154,20 +154,43 @@ var nan = math.NaN()
 
 var ageRangeReason = fmt.Sprintf("seafloor age beyond the model's range (0 to %g Ma)", MaxAgeMa)
 
-// corrCanExceed reports whether a corrected depth beyond MaxDepthM can occur over the cells of
-// obs (observed depth, m positive down) and sed (sediment thickness, m), so that corrected
-// depth must be computed for the check. Without a crustal-thickness grid the corrected depth is
-// at most observed + sediment thickness: the unloading correction S·(ρm − ρs)/(ρm − ρw) is less
-// than S because the sediment is denser than water (Airy isostasy; Sclater & Christie 1980).
-// With a crustal-thickness grid, whose correction may have either sign, it is always computed.
-// A nil obs means the check cannot find a cause; a nil sed counts as no sediment.
-func corrCanExceed(obs, sed *geo.Grid, crust bool) bool {
-	var o, sd []float32
-	if obs != nil {
-		o = obs.Data
+// corrCanExceedRows reports whether a corrected depth beyond MaxDepthM can occur over the
+// cells of obs (observed depth, m positive down) and sed (sediment thickness, m; equal length,
+// or nil), so that corrected depth must be computed for the check. Without a crustal-thickness
+// grid the corrected depth is at most observed + sediment thickness: the unloading correction
+// S·(ρm − ρs)/(ρm − ρw) is less than S because the sediment is denser than water (Airy
+// isostasy; Sclater & Christie 1980). With a crustal-thickness grid, whose correction may
+// have either sign, it is always computed. A nil obs means the check cannot find a cause; a
+// nil sed counts as no sediment.
+func corrCanExceedRows(obs, sed []float32, crust bool) bool {
+	if crust {
+		return true
 	}
-	if sed != nil {
-		sd = sed.Data
+	if obs == nil {
+		return false
 	}
-	return corrCanExceedRows(o, sd, crust)
+	for k, o := range obs {
+		v := float64(o)
+		if sed != nil {
+			if s := float64(sed[k]); s > 0 {
+				v += s
+			}
+		}
+		if v > MaxDepthM {
+			return true
+		}
+	}
+	return false
+}
+
+// screenCorrOnItsOwn is the one rule, for every way a window, tile or row block is evaluated,
+// of when corrected depths must be computed for the plausibility screen in a kernel call of
+// their own: when the answer needs corrected depths as an input (needCorr), does not ask for
+// them itself (want), and the window could hold one beyond MaxDepthM (corrCanExceedRows, over
+// the window's own cells). They are not added to the answer's call: asking geo.Evaluate for
+// corrected depth together with the residual changes the kernel's path for the residual
+// (predicted and corrected depth are fused through tables otherwise, within 1 cm), and an
+// answer must not depend on how a question is cut into windows.
+func screenCorrOnItsOwn(needCorr bool, want geo.Outputs, obs, sed []float32, crust bool) bool {
+	return needCorr && want&geo.OutCorrectedDepth == 0 && corrCanExceedRows(obs, sed, crust)
 }

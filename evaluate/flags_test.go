@@ -77,15 +77,11 @@ func TestCorrCanExceed(t *testing.T) {
 			}
 		}
 	}
-	grid := func(v ...float32) *geo.Grid {
-		g := geo.NewGrid(len(v), 1, 0, 0, 1, 1, geo.CellCentre)
-		copy(g.Data, v)
-		return g
-	}
+	grid := func(v ...float32) []float32 { return v }
 	nan := float32(math.NaN())
 	for _, c := range []struct {
 		name     string
-		obs, sed *geo.Grid
+		obs, sed []float32
 		crust    bool
 		want     bool
 	}{
@@ -98,8 +94,17 @@ func TestCorrCanExceed(t *testing.T) {
 		{"no depth grid", nil, grid(30000), false, false},
 	} {
 		t.Run(c.name, func(t *testing.T) {
-			if got := corrCanExceed(c.obs, c.sed, c.crust); got != c.want {
-				t.Errorf("corrCanExceed = %v, want %v", got, c.want)
+			if got := corrCanExceedRows(c.obs, c.sed, c.crust); got != c.want {
+				t.Errorf("corrCanExceedRows = %v, want %v", got, c.want)
+			}
+			// The screen's own kernel call follows the rule only when corrected depth is an
+			// input of the answer and not asked for itself.
+			if got := screenCorrOnItsOwn(true, geo.OutResidualDepth, c.obs, c.sed, c.crust); got != c.want {
+				t.Errorf("screenCorrOnItsOwn(residual) = %v, want %v", got, c.want)
+			}
+			if screenCorrOnItsOwn(true, geo.OutCorrectedDepth|geo.OutResidualDepth, c.obs, c.sed, c.crust) ||
+				screenCorrOnItsOwn(false, geo.OutResidualDepth, c.obs, c.sed, c.crust) {
+				t.Error("screenCorrOnItsOwn true when corrected depth is asked for or not needed")
 			}
 		})
 	}

@@ -2,7 +2,7 @@ package evaluate
 
 import (
 	"context"
-	"errors"
+	"fmt"
 
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
@@ -27,10 +27,48 @@ func newCOGWriter(header geo.Grid, dir string) (rowWriter, error) {
 	return cogWriter{st}, nil
 }
 
-// newNetCDFWriter is a streamed CF netCDF file (not yet available: large netCDF answers are
-// refused until the streaming netCDF writer lands).
+// netCDFWriter is a streamed CF netCDF-4 file (gdal.NetCDFStream: WriteNetCDF's variables,
+// attributes and fill value), written under a temporary name beside the path it was started
+// for and renamed into place by Finish.
+type netCDFWriter struct {
+	*gdal.NetCDFStream
+	path string
+	rows int
+}
+
+// netCDFBlockBytes bounds one block of rows handed to a netCDFWriter (24 MiB of float32: 256
+// rows of a 2-arc-minute global grid, 72 of a 15-arc-second one; at least 16 rows).
+const netCDFBlockBytes = 24 << 20
+
+// newNetCDFWriter starts the netCDF file path for the lattice of header with the metadata m
+// (the file's metadata is fixed when it is created: Finish's m is not used). Any size is
+// written; what is refused (over Limits.MaxExportCells) is refused before, as for a COG.
 func newNetCDFWriter(path string, header geo.Grid, m gdal.Meta) (rowWriter, error) {
-	return nil, errors.New("export: netCDF files larger than max_area_cells cannot be streamed yet; ask for a COG")
+	st, err := gdal.NewNetCDFStream(path, header, m)
+	if err != nil {
+		return nil, fmt.Errorf("export: starting the netCDF file: %w", err)
+	}
+	return &netCDFWriter{NetCDFStream: st, path: path, rows: gdal.NetCDFBlockRows(header.NX, netCDFBlockBytes)}, nil
+}
+
+// BlockRows is the number of rows written at a time.
+func (w *netCDFWriter) BlockRows() int { return w.rows }
+
+// Finish completes the file at the path it was started for (path must be that one).
+func (w *netCDFWriter) Finish(ctx context.Context, path string, _ gdal.Meta, progress func(float64)) error {
+	if path != w.path {
+		return fmt.Errorf("export: netCDF file started as %s, finished as %s", w.path, path)
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	if err := w.NetCDFStream.Finish(nil); err != nil {
+		return err
+	}
+	if progress != nil {
+		progress(1)
+	}
+	return nil
 }
 
 // rowBuffer gathers rows of any count into the writer's blocks.

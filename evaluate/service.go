@@ -31,9 +31,14 @@ type Limits struct {
 	MaxTrackSamples int // samples along one track ("max_track_samples")
 	MaxParameters   int // parameters in one question ("max_parameters")
 	MaxTileZoom     int // deepest tile zoom ("max_tile_zoom")
-	// MaxStatisticsCells bounds the cells one statistics question reads at its level
-	// ("max_statistics_cells"); statistics stream in bands, so this bounds time, not memory.
+	// MaxStatisticsCells bounds the cells one statistics question answered at once reads at
+	// its level ("max_statistics_cells"); statistics stream in bands, so this bounds time, not
+	// memory. A larger question is answered as a job (AnswerStatistics), up to
+	// MaxStatisticsJobCells.
 	MaxStatisticsCells int
+	// MaxStatisticsJobCells bounds the cells one statistics job reads
+	// ("max_statistics_job_cells").
+	MaxStatisticsJobCells int64
 	// MaxExportCells bounds the cells of one exported file ("max_export_cells"); files
 	// larger than MaxAreaCells are written band by band, so this bounds time and disk.
 	MaxExportCells int64
@@ -56,6 +61,8 @@ var DefaultLimits = Limits{
 	MaxTileZoom:     14,
 	// 200 M cells: a whole ocean at 1′ in a few seconds on two cores.
 	MaxStatisticsCells: 200_000_000,
+	// 16 G cells: four 15-arc-second global grids' worth (86400 × 43200 = 3.7 G each).
+	MaxStatisticsJobCells: 16_000_000_000,
 	// 4 G cells: a 15-arc-second global grid (86400 × 43200 = 3.7 G).
 	MaxExportCells: 4_000_000_000,
 	// 200 lines and 500,000 samples: 50,000 km at 100 m spacing.
@@ -79,6 +86,9 @@ func (l Limits) WithDefaults() Limits {
 	}
 	if l.MaxExportCells <= 0 {
 		l.MaxExportCells = d.MaxExportCells
+	}
+	if l.MaxStatisticsJobCells <= 0 {
+		l.MaxStatisticsJobCells = d.MaxStatisticsJobCells
 	}
 	return l
 }

@@ -101,7 +101,7 @@ func (s *Service) Statistics(ctx context.Context, datasetID string, o Options, r
 	if err != nil {
 		return nil, err
 	}
-	return s.statistics(ctx, q, r, resX, resY, progress)
+	return s.statistics(ctx, q, r, resX, resY, progress, false)
 }
 
 // RegionStatistics is Statistics over the stored region regionID.
@@ -114,7 +114,7 @@ func (s *Service) RegionStatistics(ctx context.Context, datasetID, regionID stri
 	if err != nil {
 		return nil, rg, err
 	}
-	res, err := s.statistics(ctx, q, r, resX, resY, progress)
+	res, err := s.statistics(ctx, q, r, resX, resY, progress, false)
 	return res, rg, err
 }
 
@@ -145,16 +145,16 @@ func (s *Service) StatisticsCells(ctx context.Context, datasetID string, r geo.P
 	return plan.readCells(), nil
 }
 
-func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion, resX, resY float64, progress func(float64)) (*StatsResult, error) {
+// statistics answers a statistics question; job says it runs as a job (limit
+// MaxStatisticsJobCells) rather than in a request (MaxStatisticsCells).
+func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion, resX, resY float64, progress func(float64), job bool) (*StatsResult, error) {
 	d := q.Dataset
 	plan, err := planArea(d, r.Bound, resX, resY)
 	if err != nil {
 		return nil, err
 	}
-	if in := plan.readCells(); in > int64(s.limits.MaxStatisticsCells) {
-		return nil, fault.Over("max_statistics_cells", int64(s.limits.MaxStatisticsCells), in, "coords",
-			"the statistics would read about %d cells; the limit is %d: ask for a coarser resolution (resolution-x, resolution-y) or a smaller area",
-			in, s.limits.MaxStatisticsCells)
+	if err := s.statisticsLimit(plan.readCells(), job); err != nil {
+		return nil, err
 	}
 	if progress == nil {
 		progress = func(float64) {}
@@ -287,6 +287,22 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 	}
 	progress(1)
 	return res, nil
+}
+
+// statisticsLimit refuses a statistics question reading cells cells: over
+// Limits.MaxStatisticsJobCells as a job, over Limits.MaxStatisticsCells at once.
+func (s *Service) statisticsLimit(cells int64, job bool) error {
+	if job && cells > s.limits.MaxStatisticsJobCells {
+		return fault.Over("max_statistics_job_cells", s.limits.MaxStatisticsJobCells, cells, "coords",
+			"the statistics would read about %d cells; the limit of a statistics job is %d: ask for a coarser resolution (resolution-x, resolution-y) or a smaller area",
+			cells, s.limits.MaxStatisticsJobCells)
+	}
+	if !job && cells > int64(s.limits.MaxStatisticsCells) {
+		return fault.Over("max_statistics_cells", int64(s.limits.MaxStatisticsCells), cells, "coords",
+			"the statistics would read about %d cells; the limit is %d: ask for a coarser resolution (resolution-x, resolution-y) or a smaller area",
+			cells, s.limits.MaxStatisticsCells)
+	}
+	return nil
 }
 
 // scans reports whether a question reading plan's cells should read without filling the

@@ -139,14 +139,18 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 				crustL = sampleOnto(win, in.Crust)
 			}
 		}
-		if p.NeedsDepth && corrCanExceed(obsL, sedL, in.Crust != nil) {
-			want |= geo.OutCorrectedDepth
-		}
 		res, err := geo.Evaluate(ctx, in, want)
 		if err != nil {
 			return nil, 0, err
 		}
 		vals, corrL = modelGrid(res, p.ID), res.CorrectedDepthM
+		if screenCorrOnItsOwn(p.NeedsDepth && v.Depth != nil, want, gridData(obsL), gridData(sedL), in.Crust != nil) {
+			ec, err := geo.Evaluate(ctx, in, geo.OutCorrectedDepth)
+			if err != nil {
+				return nil, 0, err
+			}
+			corrL = ec.CorrectedDepthM
+		}
 	}
 	screenGrids(fl, []*geo.Grid{vals}, geo.Mask{}, win, obsL, sedL, crustL, corrL)
 	// Nearest sample of each pixel centre: columns and rows are separable, so each is found

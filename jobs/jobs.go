@@ -15,6 +15,8 @@ const (
 	KindExport     = "export"
 	// KindCalibration fits a cooling model to a region (evaluate.Service.Calibrate).
 	KindCalibration = "calibration"
+	// KindStatistics answers a statistics question larger than a request should.
+	KindStatistics = "statistics"
 )
 
 // Documented limits and timings of the queue.
@@ -86,8 +88,18 @@ type CalibrationArgs struct {
 	Request json.RawMessage `json:"request"`
 }
 
+// StatisticsArgs describe one statistics question that needs more work than a request should
+// do: an opaque request the statistics worker understands (serialised); the job's result is
+// the answer itself.
+type StatisticsArgs struct {
+	Request json.RawMessage `json:"request"`
+}
+
 // Kind implements river.JobArgs.
 func (CalibrationArgs) Kind() string { return KindCalibration }
+
+// Kind implements river.JobArgs.
+func (StatisticsArgs) Kind() string { return KindStatistics }
 
 // Progress reports a job's progress: fraction in [0, 1] and a short message.
 // It is safe to call from several goroutines.
@@ -101,6 +113,8 @@ type Handlers struct {
 	Export func(ctx context.Context, args ExportArgs, progress Progress) (any, error)
 	// Calibrate answers the evaluate.Calibration as its result.
 	Calibrate func(ctx context.Context, args CalibrationArgs, progress Progress) (any, error)
+	// Statistics answers a large statistics question.
+	Statistics func(ctx context.Context, args StatisticsArgs, progress Progress) (any, error)
 }
 
 // PermanentError marks an error that no retry will fix: the queue records it and runs the job

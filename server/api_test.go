@@ -698,6 +698,65 @@ func TestExportJob(t *testing.T) {
 	}
 }
 
+// A netCDF answer over max_area_cells (lowered to 500) becomes an export job that writes the
+// file band by band; the file holds the values a server with the default limits answers at
+// once, and an answer over max_export_cells is refused at once with that limit's name.
+func TestLargeNetCDFExportJob(t *testing.T) {
+	e := newEnvLimits(t, "sqlite", Config{}, Limits{SyncExportCells: 100, Limits: evaluate.Limits{MaxAreaCells: 500, MaxExportCells: 50_000}})
+	poly := esc("POLYGON((-145 -31,-142 -31,-142 -28,-145 -28,-145 -31))")
+	path := "/api/collections/" + e.dataset + "/area?coords=" + poly + "&parameter-name=residual_depth&f=NetCDF"
+	r := e.get(path)
+	e.want(r, 202)
+	job := e.waitJob(jobOf(r))
+	if job["state"] != "succeeded" {
+		t.Fatalf("export job %v", job)
+	}
+	f := e.get(jobOf(r) + "/result")
+	e.want(f, 200)
+	ref := httptest.NewServer(New(Deps{Store: e.st, Version: "test", Config: Config{RateLimitPerMinute: -1}}))
+	defer ref.Close()
+	re := *e
+	re.ts = ref
+	w := re.get(path)
+	re.want(w, 200)
+	dir := t.TempDir()
+	read := func(name string, body []byte) *geo.Grid {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, body, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		g, _, err := gdal.Read(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return g
+	}
+	got, want := read("job.nc", f.Body), read("now.nc", w.Body)
+	if got.NX != want.NX || got.NY != want.NY || got.NX*got.NY <= 500 {
+		t.Fatalf("job file %d×%d, at once %d×%d (must exceed 500 cells)", got.NX, got.NY, want.NX, want.NY)
+	}
+	valid := 0
+	for i := range want.Data {
+		a, b := got.Data[i], want.Data[i]
+		// Companion grids are interpolated relative to each band's window: equal to float32
+		// rounding (2⁻²⁰ relative), as evaluate's streamed-export test states.
+		if (a != a) != (b != b) || math.Abs(float64(a-b)) > math.Abs(float64(b))/(1<<20) {
+			t.Fatalf("cell %d: job %v, at once %v", i, a, b)
+		}
+		if b == b {
+			valid++
+		}
+	}
+	if valid == 0 {
+		t.Fatal("no valid cell")
+	}
+	big := esc("POLYGON((-150 -40,-130 -40,-130 -20,-150 -20,-150 -40))")
+	p := wantProblem(t, e.get("/api/collections/"+e.dataset+"/area?coords="+big+"&parameter-name=residual_depth&f=NetCDF"), 422, CodeLimitExceeded)
+	if p["limit_name"] != "max_export_cells" {
+		t.Errorf("limit name %v", p["limit_name"])
+	}
+}
+
 func TestBodyAndRateLimits(t *testing.T) {
 	e := newEnv(t, "sqlite", Config{RateLimitPerMinute: 3})
 	small := httptest.NewServer(New(Deps{Store: e.st, Limits: Limits{MaxBodyBytes: 100, Limits: evaluate.Limits{MaxAreaCells: 50}}, Config: Config{RateLimitPerMinute: -1}}))

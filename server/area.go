@@ -189,11 +189,13 @@ func (s *server) area(w http.ResponseWriter, r *http.Request) error {
 			req.Format, req.Filename = evaluate.FormatNetCDF, evaluate.ExportFileName(id, "area", o, "nc")
 		}
 		if s.deps.Jobs != nil {
-			cells, err := s.ev.AreaCells(r.Context(), id, region, resX, resY)
+			// Files above max_area_cells are written band by band by the job (any size up to
+			// max_export_cells, as COG or netCDF).
+			cells, err := s.ev.ExportCells(r.Context(), req)
 			if err != nil {
 				return err
 			}
-			if cells > int64(s.limits.SyncExportCells) && cells <= int64(s.limits.MaxAreaCells) {
+			if cells > int64(s.limits.SyncExportCells) {
 				return s.queueExport(w, r, req)
 			}
 		}

@@ -85,7 +85,7 @@ func newEnvLimits(t testing.TB, backend string, cfg Config, limits Limits) *env 
 		cfg.RateLimitPerMinute = -1
 	}
 	deps := Deps{Store: e.st, Version: "test", Config: cfg, Assets: testAssets(), Limits: limits}
-	h := jobs.Handlers{Import: ImportWorker(e.st, nil), Export: ExportWorker(deps), Calibrate: CalibrationWorker(deps)}
+	h := jobs.Handlers{Import: ImportWorker(e.st, nil), Export: ExportWorker(deps), Calibrate: CalibrationWorker(deps), Statistics: StatisticsWorker(deps)}
 	e.q, err = queue.Open(ctx, e.st, h, queue.Options{Workers: 1, PollInterval: 100 * time.Millisecond})
 	if err != nil {
 		t.Fatal(err)

@@ -81,13 +81,20 @@ func ExportWorker(deps Deps) func(ctx context.Context, a jobs.ExportArgs, progre
 	}
 }
 
-// jobResult downloads the file of a succeeded export job.
+// jobResult downloads the file of a succeeded export job, or the answer of a succeeded
+// statistics job.
 func (s *server) jobResult(w http.ResponseWriter, r *http.Request) error {
 	st, err := s.jobFromPath(r)
 	if err != nil {
 		return err
 	}
 	id := st.ID
+	if st.Kind == jobs.KindStatistics {
+		if st.State != jobs.StateSucceeded {
+			return problem(CodeConflict, "job %d is %s; its statistics are ready when the job has succeeded", id, st.State)
+		}
+		return writeJSON(w, http.StatusOK, "", st.Result)
+	}
 	if st.Kind != jobs.KindExport {
 		return problem(CodeNotFound, "job %d is a %s job and has no file to download", id, st.Kind)
 	}

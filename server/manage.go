@@ -525,6 +525,9 @@ func jobJSON(base string, st jobs.Status) map[string]any {
 	if st.Kind == jobs.KindExport && st.State == jobs.StateSucceeded {
 		out["links"] = append(out["links"].([]link), link{Href: fmt.Sprintf("%s/api/jobs/%d/result", base, st.ID), Rel: "enclosure", Title: "the exported file"})
 	}
+	if st.Kind == jobs.KindStatistics && st.State == jobs.StateSucceeded {
+		out["links"] = append(out["links"].([]link), link{Href: fmt.Sprintf("%s/api/jobs/%d/result", base, st.ID), Rel: "enclosure", Type: "application/json", Title: "the statistics"})
+	}
 	if len(st.Errors) > 0 {
 		out["errors"] = st.Errors
 	}

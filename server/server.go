@@ -278,6 +278,7 @@ type JobQueue interface {
 	EnqueueImport(ctx context.Context, a jobs.ImportArgs) (int64, error)
 	EnqueueExport(ctx context.Context, a jobs.ExportArgs) (int64, error)
 	EnqueueCalibration(ctx context.Context, a jobs.CalibrationArgs) (int64, error)
+	EnqueueStatistics(ctx context.Context, a jobs.StatisticsArgs) (int64, error)
 	Get(ctx context.Context, id int64) (jobs.Status, error)
 	Ready(ctx context.Context) error
 }

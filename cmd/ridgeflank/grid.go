@@ -319,7 +319,7 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 		if err != nil {
 			return err
 		}
-		rowsPerBlock = min(256, max(16, blockBytes/(4*lattice.NX)))
+		rowsPerBlock = gdal.NetCDFBlockRows(lattice.NX, blockBytes)
 		write, finish, abandon = ncw.WriteRows, ncw.Finish, ncw.Close
 	}
 	defer abandon()

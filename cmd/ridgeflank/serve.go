@@ -142,7 +142,7 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	log.Info("memory budget", "bytes", budget)
 
 	// The durable job queue, in the store's database.
-	handlers := jobs.Handlers{Import: server.ImportWorker(st, log), Export: server.ExportWorker(deps), Calibrate: server.CalibrationWorker(deps)}
+	handlers := jobs.Handlers{Import: server.ImportWorker(st, log), Export: server.ExportWorker(deps), Calibrate: server.CalibrationWorker(deps), Statistics: server.StatisticsWorker(deps)}
 	qopts := queue.Options{Logger: log.With("component", "jobs")}
 	q, err := queue.Open(ctx, st, handlers, qopts)
 	if err != nil {

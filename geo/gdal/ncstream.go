@@ -69,6 +69,13 @@ type NetCDFStream struct {
 	buf    []float32
 }
 
+// NetCDFBlockRows is the number of rows a writer should hand a NetCDFStream at a time for a
+// grid nx columns wide within blockBytes of float32: between 16 and 256 (a NetCDFStream takes
+// any whole number of rows; this bounds the caller's buffer).
+func NetCDFBlockRows(nx, blockBytes int) int {
+	return min(256, max(16, blockBytes/(4*max(nx, 1))))
+}
+
 // NewNetCDFStream starts the netCDF file path for the lattice of header (its Data is ignored)
 // with the metadata m (as WriteNetCDF records it).
 func NewNetCDFStream(path string, header geo.Grid, m Meta) (*NetCDFStream, error) {

@@ -145,6 +145,12 @@ func newQueue[TTx any](driver riverdriver.Driver[TTx], pollOnly bool, h jobs.Han
 			}
 			return rq.run(ctx, job.ID, func(p jobs.Progress) (any, error) { return h.Calibrate(ctx, job.Args, p) })
 		}))
+		river.AddWorker(workers, river.WorkFunc(func(ctx context.Context, job *river.Job[jobs.StatisticsArgs]) error {
+			if h.Statistics == nil {
+				return river.JobCancel(errors.New("this server answers no statistics jobs"))
+			}
+			return rq.run(ctx, job.ID, func(p jobs.Progress) (any, error) { return h.Statistics(ctx, job.Args, p) })
+		}))
 		cfg.Workers = workers
 		cfg.Queues = map[string]river.QueueConfig{river.QueueDefault: {MaxWorkers: n}}
 	}
@@ -301,6 +307,11 @@ func (q *Queue) EnqueueExport(ctx context.Context, a jobs.ExportArgs) (int64, er
 
 // EnqueueCalibration accepts a calibration.
 func (q *Queue) EnqueueCalibration(ctx context.Context, a jobs.CalibrationArgs) (int64, error) {
+	return q.impl.insert(ctx, a, &river.InsertOpts{MaxAttempts: jobs.MaxAttempts})
+}
+
+// EnqueueStatistics accepts a statistics question larger than a request should answer.
+func (q *Queue) EnqueueStatistics(ctx context.Context, a jobs.StatisticsArgs) (int64, error) {
 	return q.impl.insert(ctx, a, &river.InsertOpts{MaxAttempts: jobs.MaxAttempts})
 }
 
