@@ -660,7 +660,26 @@ func TestReadAuth(t *testing.T) {
 		e.want(e.get("/tiles/"+e.dataset+"/seafloor_age/0/0/0.png?access_token="+e.reader), 200)
 		wantProblem(t, e.get("/tiles/"+e.dataset+"/seafloor_age/0/0/0.png?access_token=rft_wrong"), 401, CodeUnauthorized)
 		e.want(e.get("/api/openapi.json"), 200)
+		wantProblem(t, e.get("/metrics"), 401, CodeUnauthorized)
+		e.want(e.get("/metrics", "Authorization", "Bearer "+e.reader), 200)
 	})
+}
+
+// Every answer refuses content sniffing and framing; the page and its assets carry a
+// Content-Security-Policy that allows this origin only (OWASP secure headers, common practice).
+func TestSecurityHeaders(t *testing.T) {
+	e := newEnv(t, "sqlite", Config{})
+	for _, p := range []string{"/", "/app.js", "/api/collections", "/healthz"} {
+		r := e.get(p)
+		if r.Header.Get("X-Content-Type-Options") != "nosniff" || r.Header.Get("X-Frame-Options") != "DENY" {
+			t.Errorf("%s: X-Content-Type-Options %q, X-Frame-Options %q", p, r.Header.Get("X-Content-Type-Options"), r.Header.Get("X-Frame-Options"))
+		}
+		csp := r.Header.Get("Content-Security-Policy")
+		page := !strings.HasPrefix(p, "/api/")
+		if page && (!strings.Contains(csp, "default-src 'self'") || !strings.Contains(csp, "frame-ancestors 'none'")) {
+			t.Errorf("%s: Content-Security-Policy %q", p, csp)
+		}
+	}
 }
 
 // A COG answer over Limits.SyncExportCells becomes an export job whose file

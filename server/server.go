@@ -183,7 +183,7 @@ func (s *server) h(fn handlerFunc) http.HandlerFunc {
 
 func (s *server) routes() http.Handler {
 	r := chi.NewRouter()
-	r.Use(s.requestIDMiddleware, s.accessLog, s.recoverer, s.metrics.middleware, middleware.GetHead)
+	r.Use(s.requestIDMiddleware, s.accessLog, s.recoverer, s.metrics.middleware, securityHeaders, middleware.GetHead)
 	if len(s.deps.Config.CORSOrigins) > 0 {
 		r.Use(s.corsMiddleware())
 	}
@@ -196,7 +196,8 @@ func (s *server) routes() http.Handler {
 
 	r.Get("/healthz", s.h(s.healthz))
 	r.Get("/readyz", s.h(s.readyz))
-	r.Get("/metrics", s.metrics.handler().ServeHTTP)
+	// Under ReadAuth the metrics need a token too (they describe the service's use).
+	r.With(s.authenticate).Get("/metrics", s.metrics.handler().ServeHTTP)
 
 	r.Route("/api", func(r chi.Router) {
 		r.Use(s.rateLimit(1), s.timeout(s.limits.RequestTimeout, "/api/grids"), s.needStore, s.authenticate)
