@@ -1,11 +1,14 @@
 package e2etest
 
 import (
+	"bytes"
 	"encoding/json"
 	"fmt"
+	"image/png"
 	"math"
 	"net/http"
 	"net/url"
+	"os"
 	"strconv"
 	"strings"
 	"testing"
@@ -318,4 +321,106 @@ func TestPageStatisticsFollowLayer(t *testing.T) {
 	}
 	b.shot("stats-01-heat-flow-by-model")
 	b.checkNoProblems()
+}
+
+// TestPageNoTileSeam: tiles of one uniform colour (an age range far above every age, so all
+// cells take the ramp's first colour) must meet without a visible line, at device-pixel ratios
+// 1, 1.25 and 1.5. Every device pixel along the tile edges in view is compared with the tiles'
+// interior colour (tolerance 6 of 255 per channel for resampling; common practice, no source).
+func TestPageNoTileSeam(t *testing.T) {
+	requireBrowserAndPage(t)
+	ts := startServer(t, true)
+	bb := collectionBBox(t, ts)
+	w, s, e, n := bb[0], bb[1], bb[2], bb[3]
+	for _, dpr := range []float64{1, 1.25, 1.5} {
+		t.Run(fmt.Sprintf("dpr-%g", dpr), func(t *testing.T) {
+			b := newBrowser(t)
+			b.do(10*time.Second, chromedp.EmulateViewport(1400, 1000, chromedp.EmulateScale(dpr)))
+			b.do(30*time.Second, chromedp.Navigate(ts.URL+"/#layer=seafloor_age&range=1000,1001&view=-30,-137,5"))
+			b.waitReadyAfter(0)
+			b.waitFor("the page to restore its state", `document.body.dataset.restored === "true"`, 20*time.Second)
+			// Only the data tiles: no graticule, no overlays (the swell outline), no land.
+			eval[bool](b, `(document.querySelectorAll(".leaflet-graticule-pane, .leaflet-overlay-pane").forEach((p) => (p.style.display = "none")), document.getElementById("land-toggle").checked && document.getElementById("land-toggle").click(), true)`)
+			time.Sleep(300 * time.Millisecond)
+			if top := eval[float64](b, `document.getElementById("map").getBoundingClientRect().top`); top != math.Round(top) {
+				t.Errorf("the map starts at %g px, between pixels", top)
+			}
+			// Tile rectangles (CSS px) inside both the map and the dataset's extent.
+			rects := eval[[][]float64](b, fmt.Sprintf(`(() => { const map = window.ridgeflank.map, m = map.getContainer().getBoundingClientRect();
+				const nw = map.latLngToContainerPoint([%g, %g]), se = map.latLngToContainerPoint([%g, %g]);
+				const d = [m.left + nw.x, m.top + nw.y, m.left + se.x, m.top + se.y];
+				return [...document.querySelectorAll(".data-tiles img.leaflet-tile-loaded")].map((i) => { const r = i.getBoundingClientRect(); return [r.left, r.top, r.right, r.bottom]; })
+					.filter((r) => r[0] >= Math.max(m.left, d[0]) && r[2] <= Math.min(m.right, d[2]) && r[1] >= Math.max(m.top, d[1]) && r[3] <= Math.min(m.bottom, d[3])); })()`, n, w, s, e))
+			path := b.shot(fmt.Sprintf("seam-dpr-%g", dpr))
+			raw, err := os.ReadFile(path)
+			if err != nil {
+				t.Fatal(err)
+			}
+			img, err := png.Decode(bytes.NewReader(raw))
+			if err != nil {
+				t.Fatal(err)
+			}
+			// The interior colour: the most common colour at the tiles' centres.
+			count := map[[3]uint32]int{}
+			for _, r := range rects {
+				c := img.At(int((r[0]+r[2])/2*dpr), int((r[1]+r[3])/2*dpr))
+				cr, cg, cb, _ := c.RGBA()
+				count[[3]uint32{cr >> 8, cg >> 8, cb >> 8}]++
+			}
+			var ref [3]uint32
+			for c, n := range count {
+				if n > count[ref] {
+					ref = c
+				}
+			}
+			bad, checked := 0, 0
+			var where []string
+			differs := func(x, y int) bool {
+				cr, cg, cb, _ := img.At(x, y).RGBA()
+				d := func(a, b uint32) bool { return math.Abs(float64(a>>8)-float64(b)) > 6 }
+				if d(cr, ref[0]) || d(cg, ref[1]) || d(cb, ref[2]) {
+					if len(where) < 4 {
+						where = append(where, fmt.Sprintf("(%d,%d) %02x%02x%02x", x, y, cr>>8, cg>>8, cb>>8))
+					}
+					return true
+				}
+				return false
+			}
+			// Edges shared by two tiles of the list: the right edge of one at the left of another.
+			for _, a := range rects {
+				for _, c := range rects {
+					if a[2] == c[0] && a[1] == c[1] { // vertical edge
+						x := a[2] * dpr
+						for y := int(a[1]*dpr) + 2; y < int(a[3]*dpr)-2; y++ {
+							for _, xi := range []int{int(math.Floor(x)) - 1, int(math.Floor(x)), int(math.Ceil(x))} {
+								checked++
+								if differs(xi, y) {
+									bad++
+								}
+							}
+						}
+					}
+					if a[3] == c[1] && a[0] == c[0] { // horizontal edge
+						y := a[3] * dpr
+						for x := int(a[0]*dpr) + 2; x < int(a[2]*dpr)-2; x++ {
+							for _, yi := range []int{int(math.Floor(y)) - 1, int(math.Floor(y)), int(math.Ceil(y))} {
+								checked++
+								if differs(x, yi) {
+									bad++
+								}
+							}
+						}
+					}
+				}
+			}
+			if checked == 0 {
+				t.Fatalf("no shared tile edges in view (%d tiles)", len(rects))
+			}
+			if bad > 0 {
+				t.Errorf("%d of %d device pixels along tile edges differ from the tiles' colour %v, e.g. %v", bad, checked, ref, where)
+			}
+			t.Logf("dpr %g: %d tiles, %d edge pixels checked, colour %v", dpr, len(rects), checked, ref)
+			b.checkNoProblems()
+		})
+	}
 }
