@@ -319,7 +319,9 @@ func TestPageStatisticsFollowLayer(t *testing.T) {
 	if rows["psm"] == rows["halfspace"] {
 		t.Errorf("PSM and half-space give the same mean heat flow %g", rows["psm"])
 	}
-	b.shot("stats-01-heat-flow-by-model")
+	b.shot("stats-01-heat-flow-map")
+	eval[bool](b, `(document.getElementById("region-stats").scrollIntoView(), true)`)
+	b.shot("stats-02-heat-flow-by-model")
 	b.checkNoProblems()
 }
 

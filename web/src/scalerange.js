@@ -113,14 +113,14 @@ export function rangeParam(r) {
 /**
  * legendTicks are the values labelled under the colour bar: both ends always, zero when it
  * lies inside (the centre of a diverging scale), and round values between them that do not
- * crowd the ends (at least 12 % of the bar apart).
+ * crowd the others (at least a fifth of the bar apart, room for "+1,500").
  */
 export function legendTicks(min, max, inner = []) {
   const span = max - min;
   const out = [min, max];
   if (min < 0 && max > 0) out.push(0);
   for (const v of inner) {
-    if (v > min && v < max && out.every((u) => Math.abs(u - v) >= 0.12 * span)) out.push(v);
+    if (v > min && v < max && out.every((u) => Math.abs(u - v) >= 0.2 * span)) out.push(v);
   }
   return out.sort((a, b) => a - b);
 }

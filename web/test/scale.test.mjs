@@ -65,7 +65,8 @@ test("typed ranges", () => {
 
 test("legend labels: both ends and zero always, inner values only where they do not crowd", () => {
   assert.deepEqual(legendTicks(-200, 200), [-200, 0, 200]);
-  assert.deepEqual(legendTicks(-1500, 1500, [-1000, 0, 1000]), [-1500, -1000, 0, 1000, 1500]);
+  assert.deepEqual(legendTicks(-1500, 1500, [-1000, 0, 1000]), [-1500, 0, 1500]);
+  assert.deepEqual(legendTicks(-200, 200, [-200, -100, 0, 100, 200]), [-200, -100, 0, 100, 200]);
   assert.deepEqual(legendTicks(0, 6500, [0, 2000, 4000, 6000]), [0, 2000, 4000, 6500]);
   assert.deepEqual(legendTicks(30, 300, []), [30, 300]);
 });
