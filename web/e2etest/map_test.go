@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"image/png"
+	"io"
 	"math"
 	"net/http"
 	"net/url"
@@ -17,6 +18,8 @@ import (
 	"github.com/chromedp/chromedp"
 
 	"ridgeflank/colour"
+	"ridgeflank/geo"
+	"ridgeflank/survey"
 )
 
 // postRegion stores a polygon region through the API and returns its id.
@@ -40,6 +43,27 @@ func postRegion(t *testing.T, ts *testServer, name string, w, s, e, n float64) s
 		t.Fatalf("creating region %s: HTTP %d", name, res.StatusCode)
 	}
 	return r.ID
+}
+
+// postPlan stores a survey plan through the API and returns its id.
+func postPlan(t *testing.T, ts *testServer, p survey.Plan) string {
+	t.Helper()
+	body, _ := json.Marshal(p)
+	req, _ := http.NewRequest(http.MethodPost, ts.URL+"/api/plans", bytes.NewReader(body))
+	req.Header.Set("Content-Type", "application/json")
+	req.Header.Set("Authorization", "Bearer "+ts.Token)
+	res, err := http.DefaultClient.Do(req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer res.Body.Close()
+	raw, _ := io.ReadAll(res.Body)
+	var got survey.Plan
+	_ = json.Unmarshal(raw, &got)
+	if res.StatusCode != http.StatusCreated || got.ID == "" {
+		t.Fatalf("creating plan %s: HTTP %d: %s", p.Name, res.StatusCode, raw)
+	}
+	return got.ID
 }
 
 // regionMean asks the API for a parameter's area-weighted mean over a stored region.
@@ -198,8 +222,8 @@ func TestPageColourRange(t *testing.T) {
 	b.checkNoProblems()
 }
 
-// TestPageURLState: the URL keeps dataset, layer, model, colour range, view, pinned point and
-// region; opening that URL in a fresh tab restores them, and the graticule labels stay clear of
+// TestPageURLState: the URL keeps dataset, layer, model, colour range, view, pinned point,
+// region and survey plan; opening that URL in a fresh tab restores them, and the graticule labels stay clear of
 // the zoom control.
 func TestPageURLState(t *testing.T) {
 	requireBrowserAndPage(t)
@@ -207,6 +231,8 @@ func TestPageURLState(t *testing.T) {
 	bb := collectionBBox(t, ts)
 	w, s, e, n := bb[0], bb[1], bb[2], bb[3]
 	region := postRegion(t, ts, "URL test box (SYNTHETIC)", w+0.3*(e-w), s+0.3*(n-s), w+0.5*(e-w), s+0.5*(n-s))
+	plan := postPlan(t, ts, survey.Plan{Name: "URL test plan (SYNTHETIC)", Lines: []survey.Line{{Name: "L1", Waypoints: []geo.Waypoint{
+		{Lon: w + 0.6*(e-w), Lat: s + 0.6*(n-s)}, {Lon: w + 0.7*(e-w), Lat: s + 0.7*(n-s)}}}}, Settings: survey.Settings{Dataset: ts.DatasetID}})
 	b := newBrowser(t)
 	b.do(30*time.Second, chromedp.Navigate(ts.URL+"/"))
 	b.waitReadyAfter(0)
@@ -219,6 +245,8 @@ func TestPageURLState(t *testing.T) {
 	b.choose("model-select", "psm")
 	b.waitReadyAfter(seq)
 	b.do(10*time.Second, chromedp.SetValue(chromedp.CSS("#range-min"), "3000"), chromedp.SetValue(chromedp.CSS("#range-max"), "6000"), chromedp.Click(chromedp.CSS("#range-apply")))
+	b.waitFor("the stored plans", fmt.Sprintf(`[...document.querySelectorAll("option")].some((o) => o.value === %q)`, plan), 10*time.Second)
+	b.do(10*time.Second, chromedp.Evaluate[chromedp.Void](fmt.Sprintf(`window.ridgeflank.plans.openStored(%q)`, plan), chromedp.EvalAwaitPromise))
 	b.do(10*time.Second, chromedp.Click(chromedp.CSS(fmt.Sprintf(`.region-item[data-region-id=%q]`, region))))
 	b.waitFor("the region's statistics", `document.getElementById("region-stats").dataset.state === "done"`, 30*time.Second)
 	cLat, cLon := s+0.42*(n-s), w+0.37*(e-w)
@@ -230,7 +258,7 @@ func TestPageURLState(t *testing.T) {
 	b.waitFor("the URL to follow", `location.hash.includes("pin=")`, 5*time.Second)
 	link := eval[string](b, `location.href`)
 	t.Logf("link: %s", link)
-	for _, want := range []string{"dataset=" + ts.DatasetID, "layer=predicted_depth", "model=psm", "range=3000,6000", "view=", "pin=", "region=" + region} {
+	for _, want := range []string{"dataset=" + ts.DatasetID, "layer=predicted_depth", "model=psm", "range=3000,6000", "view=", "pin=", "region=" + region, "plan=" + plan} {
 		if !strings.Contains(link, want) {
 			t.Errorf("the link %s lacks %s", link, want)
 		}
@@ -242,7 +270,7 @@ func TestPageURLState(t *testing.T) {
 	b2.do(30*time.Second, chromedp.Navigate(link))
 	b2.waitReadyAfter(0)
 	b2.waitFor("the page to restore its state", `document.body.dataset.restored === "true"`, 30*time.Second)
-	got := eval[map[string]any](b2, `(() => { const m = window.ridgeflank.map, c = m.getCenter(); return {dataset: document.body.dataset.dataset, layer: document.body.dataset.layer, model: document.body.dataset.model, lat: c.lat, lon: c.lng, zoom: m.getZoom(), pinned: document.getElementById("readout").dataset.pinned, region: document.getElementById("region-selected-name").textContent, min: document.getElementById("legend").dataset.min, max: document.getElementById("legend").dataset.max}; })()`)
+	got := eval[map[string]any](b2, `(() => { const m = window.ridgeflank.map, c = m.getCenter(); return {dataset: document.body.dataset.dataset, layer: document.body.dataset.layer, model: document.body.dataset.model, lat: c.lat, lon: c.lng, zoom: m.getZoom(), pinned: document.getElementById("readout").dataset.pinned, plan: document.getElementById("plans").dataset.planId, region: document.getElementById("region-selected-name").textContent, min: document.getElementById("legend").dataset.min, max: document.getElementById("legend").dataset.max}; })()`)
 	checks := []struct {
 		what      string
 		got, want any
@@ -253,6 +281,7 @@ func TestPageURLState(t *testing.T) {
 		{"zoom", got["zoom"], 6.0},
 		{"pinned", got["pinned"], "true"},
 		{"region", got["region"], "URL test box (SYNTHETIC)"},
+		{"plan", got["plan"], plan},
 		{"range min", got["min"], "3000"},
 		{"range max", got["max"], "6000"},
 	}
