@@ -54,10 +54,18 @@ type Binding struct {
 var ramps = []*Ramp{
 	{
 		ID: "abyss", Kind: Sequential,
-		Description: "dark blue through teal and green to pale yellow; for depths and ages",
+		Description: "dark blue through teal and green to pale yellow; for ages",
 		Stops: []Stop{
 			{0, "#15173f"}, {0.2, "#1f3f74"}, {0.4, "#1f6e8a"},
 			{0.6, "#3a9c83"}, {0.8, "#8cc46e"}, {1, "#f2ea9e"},
+		},
+	},
+	{
+		ID: "fathom", Kind: Sequential,
+		Description: "pale yellow (shallow) through green and teal to dark blue (deep); for depths, metres positive down, so deep water is dark",
+		Stops: []Stop{
+			{0, "#f2ea9e"}, {0.2, "#8cc46e"}, {0.4, "#3a9c83"},
+			{0.6, "#1f6e8a"}, {0.8, "#1f3f74"}, {1, "#15173f"},
 		},
 	},
 	{
@@ -90,7 +98,7 @@ var ramps = []*Ramp{
 		ID: "residual", Kind: Diverging,
 		Description: "blue (deeper than the model) through pale grey (zero) to orange-brown (shallower than the model)",
 		Stops: []Stop{
-			{0, "#1346b8"}, {0.25, "#5a82c4"}, {0.5, "#efefea"},
+			{0, "#1346b8"}, {0.25, "#5a82c4"}, {0.5, "#f6f6f1"},
 			{0.75, "#dc8f4f"}, {1, "#b0560a"},
 		},
 	},
@@ -100,12 +108,12 @@ var ramps = []*Ramp{
 // Ranges are common practice for ocean-basin maps, no source.
 var bindings = []Binding{
 	{"seafloor_age", "abyss", 0, 180, 0, "Ma", "Seafloor age"},
-	{"observed_depth", "abyss", 0, 7000, 0, "m", "Observed depth"},
+	{"observed_depth", "fathom", 0, 7000, 0, "m", "Observed depth"},
 	{"sediment_thickness", "strata", 0, 3000, 0, "m", "Sediment thickness"},
-	{"predicted_depth", "abyss", 2500, 6500, 0, "m", "Predicted depth (model estimate, not for navigation)"},
+	{"predicted_depth", "fathom", 2500, 6500, 0, "m", "Predicted depth (model estimate, not for navigation)"},
 	{"heat_flow", "ember", 30, 300, 0, "mW/m²", "Surface heat flow"},
 	{"thermal_thickness", "strata", 0, 130, 0, "km", "Thermal lithosphere thickness"},
-	{"corrected_depth", "abyss", 2000, 7000, 0, "m", "Corrected depth"},
+	{"corrected_depth", "fathom", 2000, 7000, 0, "m", "Corrected depth"},
 	{"residual_depth", "residual", -1500, 1500, 0, "m", "Residual depth (positive = shallower than the model)"},
 	{"depth_600c", "strata", 0, 100, 0, "km", "Depth of the 600 °C isotherm"},
 	// Uncertainty ranges suit age uncertainties of 1–5 Ma (common practice, no source).
@@ -243,7 +251,19 @@ func ParseHex(s string) (color.NRGBA, error) {
 type Document struct {
 	Ramps    []RampJSON `json:"ramps"`
 	Bindings []Binding  `json:"bindings"`
-	Note     string     `json:"note"`
+	// Background is the map's colour where there is no grid (MapBackground).
+	Background string `json:"background"`
+	// NoData says how cells of a grid without a value are drawn (hatch lines, see NoData).
+	NoData NoDataJSON `json:"no_data"`
+	Note   string     `json:"note"`
+}
+
+// NoDataJSON describes the no-data hatch in the Document.
+type NoDataJSON struct {
+	Pattern     string `json:"pattern"` // "hatch": diagonal lines, transparent between them
+	Colour      string `json:"colour"`
+	SpacingPx   int    `json:"spacing_px"`
+	LineWidthPx int    `json:"line_width_px"`
 }
 
 // RampJSON is one ramp in the Document.
@@ -255,8 +275,10 @@ type RampJSON struct {
 // NewDocument builds the Document.
 func NewDocument() Document {
 	d := Document{
-		Bindings: bindings,
-		Note:     "Colours between stops are interpolated in OKLab; samples are evenly spaced from 0 to 1. Diverging ramps put the binding's centre at 0.5.",
+		Bindings:   bindings,
+		Background: MapBackground,
+		NoData:     NoDataJSON{Pattern: "hatch", Colour: NoDataColour, SpacingPx: NoDataSpacingPx, LineWidthPx: NoDataLineWidthPx},
+		Note:       "Colours between stops are interpolated in OKLab; samples are evenly spaced from 0 to 1. Diverging ramps put the binding's centre at 0.5. Tiles take range=min,max to draw another value range (diverging ramps: centre ± the larger half-range).",
 	}
 	for _, r := range ramps {
 		rj := RampJSON{Ramp: *r}

@@ -172,5 +172,147 @@ func ExampleBinding_Position() {
 	b, _ := BindingFor("residual_depth")
 	r, _ := RampByID(b.Ramp)
 	fmt.Println(Hex(r.At(b.Position(0))))
-	// Output: #efefea
+	// Output: #f6f6f1
+}
+
+// TestZeroColourContrast checks that "no anomaly" (the centre of every diverging ramp) cannot
+// be mistaken for the map background or for no data: the WCAG 2.1 contrast ratio (W3C, Web
+// Content Accessibility Guidelines 2.1, definitions of "relative luminance" and "contrast
+// ratio"; success criterion 1.4.11 Non-text Contrast asks ≥ 3:1 for graphical objects) between
+// them must be at least 3. The ratio itself is checked first against the worked values of the
+// definition: black on white 21:1, a colour on itself 1:1, and #777777 on white 4.48:1
+// (WCAG's own example of a grey that narrowly fails 4.5:1; from memory, tolerance 0.01).
+func TestZeroColourContrast(t *testing.T) {
+	hex := func(s string) color.NRGBA {
+		c, err := ParseHex(s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return c
+	}
+	ref := []struct {
+		name string
+		a, b string
+		want float64
+	}{
+		{"black on white", "#000000", "#ffffff", 21},
+		{"white on white", "#ffffff", "#ffffff", 1},
+		{"#777777 on white", "#777777", "#ffffff", 4.48},
+	}
+	for _, c := range ref {
+		t.Run("reference/"+c.name, func(t *testing.T) {
+			if got := ContrastRatio(hex(c.a), hex(c.b)); math.Abs(got-c.want) > 0.01 {
+				t.Errorf("contrast %.3f, want %.2f", got, c.want)
+			}
+		})
+	}
+	const minContrast = 3.0 // WCAG 2.1 SC 1.4.11
+	bg, nd := hex(MapBackground), hex(NoDataColour)
+	for _, r := range Ramps() {
+		if r.Kind != Diverging {
+			continue
+		}
+		zero := r.At(0.5)
+		t.Run(r.ID+"/zero-vs-background", func(t *testing.T) {
+			if got := ContrastRatio(zero, bg); got < minContrast {
+				t.Errorf("zero %s on background %s: %.2f:1, want ≥ %g:1", Hex(zero), MapBackground, got, minContrast)
+			}
+		})
+		t.Run(r.ID+"/zero-vs-no-data", func(t *testing.T) {
+			if got := ContrastRatio(zero, nd); got < minContrast {
+				t.Errorf("zero %s against no-data lines %s: %.2f:1, want ≥ %g:1", Hex(zero), NoDataColour, got, minContrast)
+			}
+		})
+	}
+	// The old pair, measured in the issue at 1.01:1, must fail this test.
+	if got := ContrastRatio(hex("#efefea"), hex("#e8eef3")); got > 1.05 {
+		t.Errorf("old zero on old background %.3f, the issue measured 1.01", got)
+	}
+}
+
+// TestDepthRampsDarkIsDeep: depths are metres positive down, and a bathymetric map reads dark
+// as deep (common practice, no source), so every depth parameter's ramp must get darker (lower
+// OKLab L) as the value grows.
+func TestDepthRampsDarkIsDeep(t *testing.T) {
+	for _, p := range []string{"observed_depth", "predicted_depth", "corrected_depth"} {
+		t.Run(p, func(t *testing.T) {
+			b, _ := BindingFor(p)
+			r, _ := RampByID(b.Ramp)
+			shallow, deep := toOKLab(r.At(b.Position(b.Min))), toOKLab(r.At(b.Position(b.Max)))
+			if !(deep.L < shallow.L-0.3) {
+				t.Errorf("L at %g m = %.3f, at %g m = %.3f: deep must be darker by > 0.3", b.Min, shallow.L, b.Max, deep.L)
+			}
+		})
+	}
+}
+
+func TestWithRange(t *testing.T) {
+	res, _ := BindingFor("residual_depth")
+	age, _ := BindingFor("seafloor_age")
+	cases := []struct {
+		name    string
+		b       Binding
+		lo, hi  float64
+		v, want float64 // Position(v) after the change
+		ok      bool
+	}{
+		// Worked by hand: centre 0, half-range max(150, 200) = 200, so −200 → 0, +200 → 1, 100 → 0.75.
+		{"residual lopsided drawn symmetric", res, -150, 200, 100, 0.75, true},
+		{"residual lower end", res, -150, 200, -200, 0, true},
+		{"age 20 to 120 Ma", age, 20, 120, 70, 0.5, true},
+		{"reversed", age, 120, 20, 0, 0, false},
+		{"empty", age, 5, 5, 0, 0, false},
+		{"not finite", age, math.Inf(-1), 5, 0, 0, false},
+		{"NaN", age, math.NaN(), 5, 0, 0, false},
+		{"too large", age, 0, 2e7, 0, 0, false},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			b, err := c.b.WithRange(c.lo, c.hi)
+			if (err == nil) != c.ok {
+				t.Fatalf("err = %v, want ok = %v", err, c.ok)
+			}
+			if c.ok {
+				if got := b.Position(c.v); math.Abs(got-c.want) > 1e-12 {
+					t.Errorf("Position(%g) = %g, want %g", c.v, got, c.want)
+				}
+			}
+		})
+	}
+}
+
+func TestNoDataHatch(t *testing.T) {
+	// Along any row, exactly NoDataLineWidthPx of every NoDataSpacingPx pixels are on a line,
+	// and the pattern continues across a tile edge (x = 255 → 256) and into negative x.
+	for _, y := range []int{0, 3, 255, 256} {
+		on := 0
+		for x := -NoDataSpacingPx * 10; x < NoDataSpacingPx*50; x++ {
+			if NoDataAt(x, y) {
+				on++
+			}
+		}
+		if want := 60 * NoDataLineWidthPx; on != want {
+			t.Errorf("row %d: %d pixels on lines, want %d", y, on, want)
+		}
+	}
+}
+
+// TestRampsPerceptuallyEven: equal steps of data must look like roughly equal steps of colour.
+// Along each ramp sampled at 33 even positions, the largest OKLab distance between
+// neighbours (Euclidean ΔE in OKLab, Ottosson 2020) may be at most 3 times the smallest
+// (common practice, no source; the ramps measure 1.4 to 2.5).
+func TestRampsPerceptuallyEven(t *testing.T) {
+	for _, r := range Ramps() {
+		t.Run(r.ID, func(t *testing.T) {
+			p := r.Palette(33)
+			lo, hi := math.Inf(1), 0.0
+			for i := 1; i < len(p); i++ {
+				d := dist(toOKLab(p[i]), toOKLab(p[i-1]))
+				lo, hi = math.Min(lo, d), math.Max(hi, d)
+			}
+			if hi > 3*lo {
+				t.Errorf("OKLab steps from %.4f to %.4f: ratio %.2f > 3", lo, hi, hi/lo)
+			}
+		})
+	}
 }

@@ -79,8 +79,26 @@ func (s *Service) Tile(ctx context.Context, datasetID, parameter string, z, x, y
 	return &TilePlan{Query: q, Param: p, Binding: b, ETag: tag, z: z, x: x, y: y, s: s}, nil
 }
 
-// Render computes the tile: the parameter colour-mapped through package colour (Paint), no
-// data and refused values transparent. The grids are read at the coarsest overview whose cell
+// WithRange redraws the tile with the value range [lo, hi] (units of the parameter) instead of
+// the binding's default (colour.Binding.WithRange: finite ends, lo < hi; diverging ramps stay
+// centred). A bad range is fault.InvalidParameter on the field "range". The ETag changes with
+// the range.
+func (t *TilePlan) WithRange(lo, hi float64) error {
+	b, err := t.Binding.WithRange(lo, hi)
+	if err != nil {
+		return fault.New(fault.InvalidParameter, "range", "%v", err)
+	}
+	t.Binding = b
+	h := sha256.New()
+	fmt.Fprintf(h, "%s|range=%g,%g", t.ETag, lo, hi)
+	t.ETag = `"` + hex.EncodeToString(h.Sum(nil))[:32] + `"`
+	return nil
+}
+
+// Render computes the tile: the parameter colour-mapped through package colour (Paint). Cells
+// of the grid without a value (no data, refused values) carry the no-data hatch of package
+// colour (colour.NoDataAt, in whole-map pixels so it runs on across tiles); outside the grid the
+// tile is transparent. The grids are read at the coarsest overview whose cell
 // is no wider than a pixel (window), so a tile never reads many more cells than it has pixels,
 // whatever the grid's size. It returns the number of grid cells evaluated too.
 func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
@@ -173,6 +191,7 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 		}
 	}
 	paint := NewPaint(t.Binding)
+	noData, _ := colour.ParseHex(colour.NoDataColour)
 	for j := 0; j < TileSize; j++ {
 		lat := tileLat(float64(y)+(float64(j)+0.5)/TileSize, n) // mercator rows
 		r := math.Round((vals.North - lat) / vals.DY)
@@ -180,9 +199,23 @@ func (t *TilePlan) Render(ctx context.Context) (*image.NRGBA, int, error) {
 			continue
 		}
 		row := vals.Data[int(r)*vals.NX : (int(r)+1)*vals.NX]
-		paint.Row(img.Pix[j*img.Stride:(j+1)*img.Stride], row, cols)
+		pix := img.Pix[j*img.Stride : (j+1)*img.Stride]
+		paint.Row(pix, row, cols)
+		hatchNoData(pix, cols, x*TileSize, y*TileSize+j, noData)
 	}
 	return img, len(vals.Data), nil
+}
+
+// hatchNoData draws the no-data hatch (colour.NoDataAt) in the colour nd on the pixels of one
+// tile row that lie inside the grid (cols[i] ≥ 0) but were left transparent by Paint.Row; x0 is
+// the whole-map pixel column of the row's first pixel and gy its whole-map pixel row.
+func hatchNoData(pix []uint8, cols []int, x0, gy int, nd color.NRGBA) {
+	for i, c := range cols {
+		if c >= 0 && pix[4*i+3] == 0 && colour.NoDataAt(x0+i, gy) {
+			px := pix[4*i : 4*i+4 : 4*i+4]
+			px[0], px[1], px[2], px[3] = nd.R, nd.G, nd.B, 255
+		}
+	}
 }
 
 // Paint maps values to colours through a colour.Binding (colour.Binding.Position onto a

@@ -16,8 +16,20 @@ import (
 // TileSize is the width and height of map tiles in pixels.
 const TileSize = evaluate.TileSize
 
+// parseColourRange reads the tile query's range=min,max.
+func parseColourRange(s string) (lo, hi float64, ok bool) {
+	a, b, found := strings.Cut(s, ",")
+	if !found {
+		return 0, 0, false
+	}
+	lo, err1 := strconv.ParseFloat(strings.TrimSpace(a), 64)
+	hi, err2 := strconv.ParseFloat(strings.TrimSpace(b), 64)
+	return lo, hi, err1 == nil && err2 == nil
+}
+
 // tile renders /tiles/{datasetId}/{parameter}/{z}/{x}/{y}.png: one parameter colour-mapped with
-// the shared colour scale (package colour), computed by the evaluate service.
+// the shared colour scale (package colour), computed by the evaluate service. The query's
+// range=min,max (units of the parameter) draws another value range than the scale's default.
 func (s *server) tile(w http.ResponseWriter, r *http.Request) error {
 	z, err1 := strconv.Atoi(chi.URLParam(r, "z"))
 	x, err2 := strconv.Atoi(chi.URLParam(r, "x"))
@@ -29,6 +41,15 @@ func (s *server) tile(w http.ResponseWriter, r *http.Request) error {
 	plan, err := s.ev.Tile(r.Context(), chi.URLParam(r, "datasetId"), chi.URLParam(r, "parameter"), z, x, y, o)
 	if err != nil {
 		return err
+	}
+	if rs := r.URL.Query().Get("range"); rs != "" {
+		lo, hi, ok := parseColourRange(rs)
+		if !ok {
+			return problem(CodeInvalidParameter, "range must be two numbers min,max (units of the parameter), got %q", rs)
+		}
+		if err := plan.WithRange(lo, hi); err != nil {
+			return err
+		}
 	}
 	w.Header().Set("ETag", plan.ETag)
 	w.Header().Set("Cache-Control", fmt.Sprintf("public, max-age=%d", s.deps.Config.TileMaxAgeSeconds))

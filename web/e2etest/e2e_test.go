@@ -774,7 +774,7 @@ func TestPageDemoBasin(t *testing.T) {
 	b.waitFor("the statistics of the empty region", `["done", "error"].includes(document.getElementById("region-stats").dataset.state)`, 20*time.Second)
 	statsText := eval[string](b, `document.getElementById("region-stats").textContent`)
 	t.Logf("region outside the basin: %s", strings.Join(strings.Fields(statsText), " "))
-	if !strings.Contains(statsText, "no residual-depth data") {
+	if !strings.Contains(statsText, "no residual depth data") {
 		t.Errorf("a region outside the basin does not say it has no data: %q", statsText)
 	}
 	b.shot("11-region-outside-basin")

@@ -37,6 +37,16 @@ export class Scale {
     this.samples = samples.map(hexToRgb);
   }
 
+  /**
+   * withRange is this scale drawn over [min, max] instead of the service's default range
+   * (the tiles get the same range as range=min,max); defaultMin/defaultMax keep the default.
+   */
+  withRange(min, max) {
+    const s = Object.create(Scale.prototype);
+    Object.assign(s, this, { min, max, defaultMin: this.defaultMin ?? this.min, defaultMax: this.defaultMax ?? this.max, custom: true });
+    return s;
+  }
+
   get diverging() {
     return this.kind === "diverging";
   }
@@ -63,12 +73,32 @@ export class Scale {
   }
 }
 
-/** parseColourDocument builds a Map parameter → Scale from the JSON document. */
+/**
+ * parseColourDocument builds a Map parameter → Scale from the JSON document; the map also
+ * carries the document's background colour (.background) and no-data hatch (.noData).
+ */
 export function parseColourDocument(doc) {
   const ramps = new Map((doc?.ramps || []).map((r) => [r.id, r]));
   const out = new Map();
   for (const b of doc?.bindings || []) out.set(b.parameter, new Scale(b, ramps.get(b.ramp)));
+  out.background = doc?.background || "";
+  out.noData = doc?.no_data || null;
   return out;
+}
+
+/**
+ * hatchCSS is a CSS background drawing the service's no-data hatch (diagonal lines of
+ * noData.colour, line_width_px wide every spacing_px pixels) over background.
+ */
+export function hatchCSS(noData, background = "transparent") {
+  if (!noData?.colour) return background;
+  const w = noData.line_width_px || 2;
+  const sp = noData.spacing_px || 6;
+  // Lines of constant x + y run at 45° (from lower left to upper right); along x the period
+  // is spacing_px, so across the lines it is spacing_px / √2.
+  const period = (sp / Math.SQRT2).toFixed(3);
+  const line = ((w / sp) * (sp / Math.SQRT2)).toFixed(3);
+  return `repeating-linear-gradient(-45deg, ${noData.colour} 0 ${line}px, transparent ${line}px ${period}px), ${background}`;
 }
 
 /** loadColourScales fetches the document once and returns Map parameter → Scale. */

@@ -47,30 +47,38 @@ export class Graticule {
     const east = Math.min(540, b.getEast());
     const step = stepFor(Math.min(east - west, (north - south) * 1.5));
     this.group.clearLayers();
-    const style = { color: "#5b6b7a", weight: 0.7, opacity: 0.55, interactive: false, renderer: this.renderer };
+    const style = { color: "#d5dde5", weight: 0.7, opacity: 0.5, interactive: false, renderer: this.renderer };
+    // Labels stay clear of the zoom control in the top-left corner: a label that would sit
+    // under it moves beside it (latitudes) or below it (longitudes).
+    const zc = this.map.zoomControl?.getContainer?.();
+    const avoid = zc ? { right: zc.offsetLeft + zc.offsetWidth + 4, bottom: zc.offsetTop + zc.offsetHeight + 4 } : { right: 0, bottom: 0 };
     const labelPane = "graticule";
     for (let lon = Math.ceil(west / step) * step; lon <= east; lon += step) {
       const l = +lon.toFixed(6);
       this.group.addLayer(L.polyline([[south, l], [north, l]], style));
       const wrapped = ((((l + 180) % 360) + 360) % 360) - 180;
+      const px = this.map.latLngToContainerPoint([north, l]).x;
+      const dy = px - 3 < avoid.right && px + 48 > 0 ? avoid.bottom : 2;
       this.group.addLayer(
         L.marker([north, l], {
           pane: labelPane,
           interactive: false,
           keyboard: false,
-          icon: L.divIcon({ className: "grat-label grat-lon", html: label(+wrapped.toFixed(6), "E", "W"), iconSize: [48, 14], iconAnchor: [-3, -2] }),
+          icon: L.divIcon({ className: "grat-label grat-lon", html: label(+wrapped.toFixed(6), "E", "W"), iconSize: [48, 14], iconAnchor: [-3, -dy] }),
         }),
       );
     }
     for (let lat = Math.ceil(south / step) * step; lat <= north; lat += step) {
       const la = +lat.toFixed(6);
       this.group.addLayer(L.polyline([[la, west], [la, east]], style));
+      const py = this.map.latLngToContainerPoint([la, west]).y;
+      const dx = py - 15 < avoid.bottom && py > 0 ? avoid.right : 3;
       this.group.addLayer(
         L.marker([la, west], {
           pane: labelPane,
           interactive: false,
           keyboard: false,
-          icon: L.divIcon({ className: "grat-label grat-lat", html: label(la, "N", "S"), iconSize: [48, 14], iconAnchor: [-3, 15] }),
+          icon: L.divIcon({ className: "grat-label grat-lat", html: label(la, "N", "S"), iconSize: [48, 14], iconAnchor: [-dx, 15] }),
         }),
       );
     }

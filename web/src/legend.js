@@ -3,6 +3,8 @@
 
 import { fmt } from "./format.js";
 import { unitText } from "./parameters.js";
+import { legendTicks } from "./scalerange.js";
+import { hatchCSS } from "./colourscales.js";
 
 /** niceTicks returns round numbers spanning [min, max], about n of them. */
 export function niceTicks(min, max, n = 5) {
@@ -20,7 +22,7 @@ export function niceTicks(min, max, n = 5) {
  * (a parameter of the collection, from parameters.js, or null) into container: title and units, the colour bar, ticks, and the scale's own
  * note (for residuals, its sign convention).
  */
-export function renderLegend(container, scale, param) {
+export function renderLegend(container, scale, param, { noData = null, background = "", basis = "" } = {}) {
   container.replaceChildren();
   const title = document.createElement("div");
   title.className = "legend-title";
@@ -56,16 +58,41 @@ export function renderLegend(container, scale, param) {
   const ticks = document.createElement("div");
   ticks.className = "legend-ticks";
   ticks.style.width = `${width}px`;
-  for (const v of niceTicks(scale.min, scale.max, 4)) {
+  container.dataset.min = String(scale.min);
+  container.dataset.max = String(scale.max);
+  for (const v of legendTicks(scale.min, scale.max, niceTicks(scale.min, scale.max, 4))) {
     const t = document.createElement("span");
     const pos = (v - scale.min) / span;
     t.style.left = `${pos * 100}%`;
     if (pos < 0.02) t.className = "tick-start";
     else if (pos > 0.98) t.className = "tick-end";
-    t.textContent = scale.diverging && v > 0 ? `+${fmt(v, digits)}` : fmt(v, digits);
+    const end = v === scale.min || v === scale.max;
+    const d = end && !Number.isInteger(v) ? Math.max(digits, Math.min(3, -Math.floor(Math.log10(Math.abs(v) || 1)) + 2)) : digits;
+    t.textContent = scale.diverging && v > 0 ? `+${fmt(v, d)}` : fmt(v, d);
+    t.dataset.value = String(v);
     ticks.append(t);
   }
   container.append(ticks);
+
+  const info = document.createElement("p");
+  info.className = "legend-range small";
+  info.id = "legend-range";
+  const dflt = scale.custom ? ` (default ${fmt(scale.defaultMin, digits)} to ${fmt(scale.defaultMax, digits)})` : "";
+  info.textContent = `Range ${fmt(scale.min, digits)} to ${fmt(scale.max, digits)}${units ? ` ${units}` : ""}${basis ? `, ${basis}` : scale.custom ? ", chosen" : ""}${dflt}; values beyond the ends take the end colours.`;
+  container.append(info);
+
+  if (noData) {
+    const nd = document.createElement("div");
+    nd.className = "legend-nodata";
+    const sw = document.createElement("span");
+    sw.className = "swatch";
+    sw.style.background = hatchCSS(noData, "#ffffff");
+    const bg = document.createElement("span");
+    bg.className = "swatch";
+    bg.style.background = background;
+    nd.append(sw, document.createTextNode(" no data in the grid "), bg, document.createTextNode(" outside the grid"));
+    container.append(nd);
+  }
 
   if (scale.note) {
     const p = document.createElement("p");

@@ -8,6 +8,9 @@ import { createMap, DataLayer, setReady } from "./mapview.js";
 import { Graticule } from "./graticule.js";
 import { LandLayer } from "./coastline.js";
 import { loadColourScales } from "./colourscales.js";
+import { encodeState, decodeState } from "./urlstate.js";
+import { fitRange, parseRange, rangeParam } from "./scalerange.js";
+import { loadAreaStats } from "./regionstats.js";
 import { renderLegend } from "./legend.js";
 import { parametersOf, parameterById } from "./parameters.js";
 import { Readout } from "./readout.js";
@@ -46,18 +49,35 @@ let scales = new Map();
 // residual-depth review page); otherwise on one of the dataset's own grids.
 const OPENING_LAYER = "residual_depth";
 
+// The page's state lives in the URL's fragment (urlstate.js): a link restores the
+// dataset, layer, model, colour range, view, pinned point, region and plan.
+const initial = decodeState(location.hash, { minZoom: map.getMinZoom(), maxZoom: map.getMaxZoom() });
+
 function readHash() {
-  const h = new URLSearchParams(location.hash.slice(1));
-  return { datasetId: h.get("dataset") || "", layer: h.get("layer") || "", model: h.get("model") || "", sediment: h.get("sediment") || "" };
+  return initial;
 }
 
 function writeHash() {
-  const h = new URLSearchParams();
-  if (state.datasetId) h.set("dataset", state.datasetId);
-  if (state.layer) h.set("layer", state.layer);
-  if (state.model) h.set("model", state.model);
-  if (state.sediment) h.set("sediment", state.sediment);
+  if (!started) return; // the link is read, not overwritten, while the page starts
+  const c = map.getCenter();
+  const pin = readout.pinned;
+  const h = encodeState({
+    ...state,
+    view: { lat: c.lat, lon: c.lng, zoom: map.getZoom() },
+    pin: pin ? { lat: pin.lat, lon: pin.lng } : null,
+    region: regions.selected?.id || "",
+    plan: plans.plan?.id || "",
+  });
   history.replaceState(null, "", `#${h}`);
+  document.body.dataset.hash = h;
+}
+document.addEventListener("ridgeflank:urlstate", () => writeHash());
+map.on("moveend", () => writeHash());
+
+/** currentScale is the layer's colour scale with the user's range, if one is chosen. */
+function currentScale() {
+  const base = scales.get(state.layer) || null;
+  return base && state.range ? base.withRange(state.range.min, state.range.max) : base;
 }
 
 /** fillLayers offers exactly the collection's parameters as map layers. */
@@ -86,13 +106,20 @@ function collectionBounds(c) {
   return L.latLngBounds([s, w], [n, e]);
 }
 
+let rangeBasis = ""; // how the current range was found, for the legend
+
 function redraw() {
   const param = parameterById(state.collection, state.layer);
-  renderLegend($("legend"), scales.get(state.layer) || null, param);
+  const scale = currentScale();
+  renderLegend($("legend"), scale, param, { noData: scales.noData, background: scales.background, basis: state.range ? rangeBasis : "" });
+  $("range-min").value = scale ? String(scale.min) : "";
+  $("range-max").value = scale ? String(scale.max) : "";
+  $("range-units").textContent = scale?.units || "";
+  $("range-reset").disabled = !state.range;
   $("model-select").disabled = !state.datasetId;
   $("model-note").textContent = param?.modelDependent === false ? "This layer does not depend on the cooling model." : "";
   const bounds = collectionBounds(state.collection);
-  data.show(state.datasetId, state.layer, state.model, bounds, Number($("opacity").value), state.sediment);
+  data.show(state.datasetId, state.layer, state.model, bounds, Number($("opacity").value), state.sediment, rangeParam(state.range));
   document.body.dataset.layer = state.layer;
   document.body.dataset.model = state.model;
   document.body.dataset.dataset = state.datasetId;
@@ -104,7 +131,8 @@ let started = false; // no drawing until the initial choices are loaded
 onChange((changed) => {
   if (!started) return;
   if (changed.includes("collection")) readout.buildTable();
-  if (changed.some((k) => ["datasetId", "layer", "model", "sediment", "collection"].includes(k))) redraw();
+  if (changed.some((k) => ["datasetId", "layer", "model", "sediment", "collection", "range"].includes(k))) redraw();
+  if (changed.includes("layer") && !changed.includes("collection")) regions.refresh();
   if (["model", "sediment", "datasetId", "collection"].some((k) => changed.includes(k))) {
     readout.refresh();
     regions.refresh();
@@ -112,7 +140,65 @@ onChange((changed) => {
   }
 });
 
-$("layer-select").addEventListener("change", (e) => update({ layer: e.target.value }));
+$("layer-select").addEventListener("change", (e) => update({ layer: e.target.value, range: null }));
+
+// ---- colour range ----------------------------------------------------------
+
+$("range-apply").addEventListener("click", () => {
+  const scale = scales.get(state.layer);
+  try {
+    const r = parseRange($("range-min").value, $("range-max").value, { diverging: scale?.diverging, centre: scale?.centre });
+    $("range-status").textContent = scale?.diverging && (r.min !== Number($("range-min").value) || r.max !== Number($("range-max").value)) ? "A diverging scale is drawn symmetric about zero." : "";
+    rangeBasis = "typed";
+    update({ range: r });
+  } catch (err) {
+    $("range-status").textContent = err.message;
+  }
+});
+for (const id of ["range-min", "range-max"]) $(id).addEventListener("keydown", (e) => e.key === "Enter" && $("range-apply").click());
+$("range-reset").addEventListener("click", () => {
+  $("range-status").textContent = "";
+  update({ range: null });
+});
+
+/** viewPolygon is the part of the view inside the dataset's extent, as WKT, or "". */
+function viewPolygon() {
+  const v = map.getBounds();
+  const d = collectionBounds(state.collection);
+  const w = Math.max(v.getWest(), d ? d.getWest() : -180);
+  const e = Math.min(v.getEast(), d ? d.getEast() : 180);
+  const s = Math.max(v.getSouth(), d ? d.getSouth() : -90);
+  const n = Math.min(v.getNorth(), d ? d.getNorth() : 90);
+  if (!(e > w && n > s)) return "";
+  const r = (x) => Number(x.toFixed(5));
+  return `POLYGON((${r(w)} ${r(s)}, ${r(e)} ${r(s)}, ${r(e)} ${r(n)}, ${r(w)} ${r(n)}, ${r(w)} ${r(s)}))`;
+}
+
+$("range-fit").addEventListener("click", () =>
+  messages.guard(async () => {
+    const scale = scales.get(state.layer);
+    const coords = viewPolygon();
+    if (!coords || !state.datasetId) {
+      $("range-status").textContent = "The view holds none of this dataset: pan to the data first.";
+      return;
+    }
+    $("range-status").textContent = "Fitting to the values in view…";
+    document.body.dataset.fitting = "true";
+    try {
+      const s = await loadAreaStats(state.datasetId, coords, state.layer, state.model, state.sediment);
+      const r = fitRange(s, { diverging: scale?.diverging, centre: scale?.centre });
+      if (!r) {
+        $("range-status").textContent = "No values of this layer are in view.";
+        return;
+      }
+      rangeBasis = `fitted to ${r.basis}`;
+      $("range-status").textContent = "";
+      update({ range: { min: r.min, max: r.max } });
+    } finally {
+      delete document.body.dataset.fitting;
+    }
+  }),
+);
 $("model-select").addEventListener("change", (e) => update({ model: e.target.value }));
 $("sediment-select").addEventListener("change", (e) => update({ sediment: e.target.value }));
 $("dataset-select").addEventListener("change", (e) => messages.guard(() => chooseDataset(e.target.value, true)));
@@ -137,6 +223,7 @@ async function chooseDataset(id, fit) {
   const before = parameterById(state.collection, state.layer);
   fillLayers(c);
   const sediment = fillSediments(c);
+  const wasLayer = state.layer;
   let layer = state.layer || readHash().layer;
   if (!ids.includes(layer)) {
     const own = (c["ridgeflank:grids"] || []).map((g) => g.role);
@@ -147,7 +234,9 @@ async function chooseDataset(id, fit) {
     }
   }
   $("layer-select").value = layer;
-  update({ datasetId: id, collection: c, layer, sediment });
+  // A range from the link belongs to the link's layer; a new layer starts on its default.
+  const range = !started && layer === initial.layer ? initial.range : layer === wasLayer ? state.range : null;
+  update({ datasetId: id, collection: c, layer, sediment, range });
 }
 
 async function loadCollections(prefer = "") {
@@ -160,7 +249,7 @@ async function loadCollections(prefer = "") {
   if (!list.length) sel.add(new Option("(no datasets)", ""));
   const pick = list.find((c) => c.id === current) ? current : list[0]?.id || "";
   sel.value = pick;
-  await chooseDataset(pick, !state.datasetId || pick !== state.datasetId);
+  await chooseDataset(pick, (!state.datasetId || pick !== state.datasetId) && !(initial.view && !started));
 }
 
 async function loadModels() {
@@ -192,7 +281,7 @@ showTokenState();
 
 function snapshotCanvas() {
   const param = parameterById(state.collection, state.layer);
-  const scale = scales.get(state.layer);
+  const scale = currentScale();
   return mapToCanvas(map, {
     title: `${state.collection?.title || state.datasetId || "no dataset"} · ${param?.label || state.layer} · model ${state.model}${state.sediment ? ` · sediment ${state.sediment}` : ""}`,
     legendCanvas: $("legend").querySelector("canvas"),
@@ -216,13 +305,23 @@ async function start() {
   const land0 = $("land-toggle").checked ? land.show().catch(messages.error) : null;
   const [sc] = await Promise.all([loadColourScales().catch((e) => (messages.error(e), new Map())), messages.guard(loadCollections)]);
   scales = sc;
+  if (sc.background) $("map").style.background = sc.background;
   await messages.guard(loadModels); // after the collection: it names the default model
+  if (initial.view) map.setView([initial.view.lat, initial.view.lon], initial.view.zoom, { animate: false });
   started = true;
   readout.buildTable();
   regions.fillParameters();
   redraw();
   await messages.guard(() => regions.load());
   await plans.list().catch((err) => ($("plan-status").textContent = err.message));
+  // The rest of the link: region, plan and pinned point, then its exact view again (opening
+  // a region or plan fits the map to it).
+  if (initial.region && regions.regions.some((r) => r.id === initial.region)) await messages.guard(() => regions.select(initial.region));
+  if (initial.plan) await messages.guard(() => plans.openStored(initial.plan));
+  if (initial.pin && state.datasetId) readout.pin(L.latLng(initial.pin.lat, initial.pin.lon));
+  if (initial.view) map.setView([initial.view.lat, initial.view.lon], initial.view.zoom, { animate: false });
+  writeHash();
+  document.body.dataset.restored = "true";
   await land0;
 }
 

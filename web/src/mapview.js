@@ -60,32 +60,33 @@ export class DataLayer {
     this.key = "";
   }
 
-  static url(datasetId, parameter, model, sediment = "") {
+  static url(datasetId, parameter, model, sediment = "", range = "") {
     const q = new URLSearchParams();
     if (model) q.set("model", model);
     if (sediment) q.set("sediment", sediment);
+    if (range) q.set("range", range); // min,max: the service draws the tiles over this range
     return `/tiles/${encodeURIComponent(datasetId)}/${encodeURIComponent(parameter)}/{z}/{x}/{y}.png?${q}`;
   }
 
   /**
    * show draws parameter for datasetId with model (and sediment compaction,
- * "" for the service's default); bounds (L.LatLngBounds or
+   * "" for the service's default; range "min,max" or "" for the scale's default); bounds (L.LatLngBounds or
    * null) limits tile requests to the dataset's extent. With no dataset the
    * layer is removed and the page is marked ready (nothing to draw).
    */
-  show(datasetId, parameter, model, bounds, opacity = 0.9, sediment = "") {
+  show(datasetId, parameter, model, bounds, opacity = 0.9, sediment = "", range = "") {
     if (!datasetId || !parameter) {
       this.clear();
       setReady(true, "no-dataset");
       return;
     }
-    const key = `${datasetId}|${parameter}|${model}|${sediment}|${bounds ? bounds.toBBoxString() : ""}`;
+    const key = `${datasetId}|${parameter}|${model}|${sediment}|${range}|${bounds ? bounds.toBBoxString() : ""}`;
     if (key === this.key && this.layer) return;
     this.clear();
     this.key = key;
     setReady(false);
     let started = 0;
-    const layer = L.tileLayer(DataLayer.url(datasetId, parameter, model, sediment), {
+    const layer = L.tileLayer(DataLayer.url(datasetId, parameter, model, sediment, range), {
       bounds: bounds || undefined,
       opacity,
       maxNativeZoom: 12,

@@ -184,6 +184,7 @@ export class PlansPanel {
     $("plan-name").value = this.plan.name;
     $("plans").dataset.lines = String(this.plan.lines.length);
     $("plans").dataset.planId = this.plan.id;
+    document.dispatchEvent(new Event("ridgeflank:urlstate"));
     $("plans").dataset.version = String(this.plan.version || 0);
     $("plan-delete").hidden = !this.plan.id;
     this.renderWaypoints();

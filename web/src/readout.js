@@ -74,6 +74,7 @@ export class Readout {
     this.marker.setLatLng(latlng).addTo(this.map);
     this.el.dataset.pinned = "true";
     this.el.querySelector("#readout-unpin").hidden = false;
+    document.dispatchEvent(new Event("ridgeflank:urlstate"));
     return this.lookup(latlng, "click");
   }
 
@@ -82,6 +83,7 @@ export class Readout {
     this.marker.remove();
     this.el.dataset.pinned = "false";
     this.el.querySelector("#readout-unpin").hidden = true;
+    document.dispatchEvent(new Event("ridgeflank:urlstate"));
   }
 
   /** refresh repeats the pinned query (after a model or dataset change). */

@@ -1,7 +1,8 @@
 // regions.js: the regions panel. Lists stored regions (GET /api/regions),
 // draws new ones and saves them (POST), edits their vertices and saves with
 // the version they were read at (PUT with If-Match), deletes them (DELETE),
-// and for the chosen region shows residual-depth statistics and download
+// and for the chosen region shows the map layer's statistics (with a
+// comparison of the cooling models) and download
 // links for its grids, all through the public API.
 
 import L from "leaflet";
@@ -11,7 +12,7 @@ import { polygonFromLatLngs, toWKT } from "./geometry.js";
 import { drawHistogram } from "./histogram.js";
 import { fmt, fmtSigned } from "./format.js";
 import { state } from "./state.js";
-import { parametersOf, unitText } from "./parameters.js";
+import { parametersOf, parameterById, unitText, digitsFor } from "./parameters.js";
 import * as messages from "./messages.js";
 import { loadRegionStats } from "./regionstats.js";
 
@@ -236,6 +237,7 @@ export class RegionsPanel {
       what: "Deleting the region",
     });
     this.selected = null;
+    document.dispatchEvent(new Event("ridgeflank:urlstate"));
     await this.load();
     this.setMode("idle");
     messages.show(`Region "${r.name}" deleted.`, "info");
@@ -253,32 +255,48 @@ export class RegionsPanel {
     const lyr = this.layerById.get(r.id);
     if (lyr) this.map.fitBounds(lyr.getBounds(), { padding: [30, 30], maxZoom: 8, animate: false });
     this.updateDownloads();
+    document.dispatchEvent(new Event("ridgeflank:urlstate"));
     await this.showStats();
   }
 
-  /** showStats asks the service for the chosen region's residual statistics. */
+  /**
+   * showStats asks the service for the chosen region's statistics of the layer on the map
+   * (every parameter the dataset has is answered), draws its histogram, and for a layer that
+   * depends on the cooling model compares the models side by side for the same region.
+   */
   async showStats() {
     const r = this.selected;
     const box = $("region-stats");
     box.dataset.state = "loading";
     const table = $("region-stats-table");
     const hist = $("region-histogram");
+    const cmp = $("region-compare");
     table.replaceChildren();
     hist.replaceChildren();
-    if (!r || !state.datasetId) {
+    cmp.replaceChildren();
+    if (!r || !state.datasetId || !state.layer) {
       box.dataset.state = "empty";
       return;
     }
+    const param = parameterById(state.collection, state.layer);
+    const label = param?.label || state.layer;
+    const signed = state.layer === "residual_depth";
+    const f = signed ? fmtSigned : fmt;
+    $("region-stats-title").textContent = `${label} in this region`;
+    box.dataset.parameter = state.layer;
+    const seq = (this.statsSeq = (this.statsSeq || 0) + 1);
     try {
-      const s = await loadRegionStats(state.datasetId, r, state.model, state.sediment);
+      const s = await loadRegionStats(state.datasetId, r, state.layer, state.model, state.sediment, param?.unit || "");
+      if (seq !== this.statsSeq) return; // a newer question was asked meanwhile
       const unit = unitText(s.unit);
+      const digits = digitsFor(NaN, s.p95 - s.p05);
       const rows = [
         ["Cells with data", fmt(s.count, 0)],
         ["Cells without data", fmt(s.noData, 0)],
-        ["Area-weighted mean", fmtSigned(s.mean, 0, unit)],
-        ["Median", fmtSigned(s.median, 0, unit)],
-        ["Standard deviation", fmt(s.std, 0, unit)],
-        ["5th–95th percentile", Number.isFinite(s.p05) ? `${fmtSigned(s.p05, 0)} to ${fmtSigned(s.p95, 0, unit)}` : "no data"],
+        ["Area-weighted mean", f(s.mean, digits, unit)],
+        ["Median", f(s.median, digits, unit)],
+        ["Standard deviation", fmt(s.std, digits, unit)],
+        ["5th–95th percentile", Number.isFinite(s.p05) ? `${f(s.p05, digits)} to ${f(s.p95, digits, unit)}` : "no data"],
       ];
       for (const [k, v] of rows) {
         const tr = document.createElement("tr");
@@ -291,22 +309,24 @@ export class RegionsPanel {
         table.append(tr);
       }
       if (s.count > 0 && s.edges?.length) {
-        drawHistogram(hist, s.edges, s.counts);
+        drawHistogram(hist, s.edges, s.counts, { xLabel: `${label}${unit ? ` (${unit})` : ""}` });
       } else {
         const p = document.createElement("p");
-        p.textContent = s.count > 0 ? "No histogram is available for this region." : "This region has no residual-depth data in this dataset.";
+        p.textContent = s.count > 0 ? "No histogram is available for this region." : `This region has no ${label.toLowerCase()} data in this dataset.`;
         hist.append(p);
       }
       box.dataset.state = "done";
       box.dataset.count = String(s.count);
+      if (param?.modelDependent !== false && state.models.length > 1) await this.compareModels(r, param, seq);
     } catch (err) {
+      if (seq !== this.statsSeq) return;
       const p = document.createElement("p");
       if (err.code === "no-data") {
         // Not a failure: the region simply lies outside this dataset's grids.
         box.dataset.state = "done";
         box.dataset.count = "0";
         const d = (err.detail || "").trim();
-        p.textContent = `This region has no residual-depth data in this dataset.${d ? ` ${d[0].toUpperCase()}${d.slice(1)}${/[.!?]$/.test(d) ? "" : "."}` : ""}`;
+        p.textContent = `This region has no ${label.toLowerCase()} data in this dataset.${d ? ` ${d[0].toUpperCase()}${d.slice(1)}${/[.!?]$/.test(d) ? "" : "."}` : ""}`;
       } else {
         box.dataset.state = "error";
         p.className = "inline-error";
@@ -314,6 +334,51 @@ export class RegionsPanel {
       }
       hist.append(p);
     }
+  }
+
+  /** compareModels tabulates the layer's statistics over region r for every cooling model. */
+  async compareModels(r, param, seq) {
+    const cmp = $("region-compare");
+    const ids = state.models.map((m) => m.id || m.params?.id).filter(Boolean);
+    const names = new Map(state.models.map((m) => [m.id || m.params?.id, m.name || m.id || m.params?.id]));
+    const all = await Promise.all(
+      ids.map((id) => loadRegionStats(state.datasetId, r, param.id, id, state.sediment, param.unit || "").catch((err) => ({ error: err }))),
+    );
+    if (seq !== this.statsSeq) return;
+    const unit = unitText(param.unit);
+    const f = param.id === "residual_depth" ? fmtSigned : fmt;
+    const digits = digitsFor(NaN, Math.max(...all.map((s) => (Number.isFinite(s.p95 - s.p05) ? s.p95 - s.p05 : 0))));
+    const t = document.createElement("table");
+    t.className = "compare";
+    t.id = "region-compare-table";
+    const cap = document.createElement("caption");
+    cap.textContent = `${param.label} by cooling model, same region${unit ? ` (${unit})` : ""}`;
+    const head = document.createElement("tr");
+    for (const h of ["Model", "Mean", "Median", "5th–95th"]) {
+      const th = document.createElement("th");
+      th.scope = "col";
+      th.textContent = h;
+      head.append(th);
+    }
+    t.append(cap, head);
+    ids.forEach((id, i) => {
+      const s = all[i];
+      const tr = document.createElement("tr");
+      tr.dataset.model = id;
+      if (id === state.model) tr.className = "current";
+      const cells = s.error
+        ? [names.get(id), s.error.code === "no-data" ? "no data" : "failed", "", ""]
+        : [names.get(id), f(s.mean, digits), f(s.median, digits), Number.isFinite(s.p05) ? `${f(s.p05, digits)} to ${f(s.p95, digits)}` : "no data"];
+      cells.forEach((c, k) => {
+        const td = document.createElement(k === 0 ? "th" : "td");
+        if (k === 0) td.scope = "row";
+        td.textContent = c;
+        if (k === 1 && !s.error) td.dataset.value = String(s.mean);
+        tr.append(td);
+      });
+      t.append(tr);
+    });
+    cmp.append(t);
   }
 
   updateDownloads() {

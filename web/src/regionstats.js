@@ -1,14 +1,14 @@
-// regionstats.js: residual-depth statistics of a stored region, from the
-// service's EDR locations query (/collections/{id}/locations/{regionId}),
-// whose CoverageJSON answer carries area-weighted statistics per parameter
-// under "ridgeflank:statistics".
-// Returns {count, noData, mean, median, std, p05, p25, p75, p95, edges, counts}
-// with counts as the share of the region's area in each bin (%). The service
+// regionstats.js: statistics of one parameter over a stored region
+// (/collections/{id}/locations/{regionId}/statistics) or over any polygon, such
+// as the map's view (/collections/{id}/statistics?coords=…): area-weighted
+// statistics per parameter under "statistics", without the grid.
+// Returns {count, noData, mean, median, std, p05, p25, p75, p95, edges, counts,
+// fractions} with counts as the share of the area in each bin (%) and fractions
+// the same as parts of 1. The service
 // names every field that carries a unit with that unit (mean_m, p05_m,
 // edges_m for residual depth, in metres).
 
 import { request, query } from "./api.js";
-import { unitSymbol } from "./parameters.js";
 
 const num = (v) => (v === null || v === undefined ? NaN : Number(v));
 
@@ -33,8 +33,8 @@ export function normaliseStats(s, unit = unitSuffixOf(s)) {
   const u = (name) => num(s?.[`${name}_${unit}`]);
   const h = s?.histogram || {};
   const edges = h[`edges_${unit}`] || null;
-  let counts = h.area_fractions || null;
-  if (counts && counts.length) counts = counts.map((c) => c * 100);
+  const fractions = h.area_fractions || null;
+  const counts = fractions && fractions.length ? fractions.map((c) => c * 100) : fractions;
   return {
     count: num(s?.count),
     noData: num(s?.no_data),
@@ -47,20 +47,36 @@ export function normaliseStats(s, unit = unitSuffixOf(s)) {
     p95: u("p95"),
     edges,
     counts,
+    fractions,
   };
 }
 
-/** loadRegionStats fetches the residual statistics of region r in datasetId. */
-export async function loadRegionStats(datasetId, r, model, sediment = "") {
+/**
+ * loadRegionStats fetches the statistics of parameter over region r in datasetId with model;
+ * unit is the parameter's unit symbol (from the collection) for the page's labels.
+ */
+export async function loadRegionStats(datasetId, r, parameter, model, sediment = "", unit = "") {
   const body = await request(
-    `/api/collections/${encodeURIComponent(datasetId)}/locations/${encodeURIComponent(r.id)}${query({
-      "parameter-name": "residual_depth",
+    `/api/collections/${encodeURIComponent(datasetId)}/locations/${encodeURIComponent(r.id)}/statistics${query({
+      "parameter-name": parameter,
       model,
       sediment,
     })}`,
-    { what: "Computing the region's statistics", headers: { Accept: "application/vnd.cov+json, application/problem+json" } },
+    { what: "Computing the region's statistics" },
   );
-  const s = normaliseStats(body?.["ridgeflank:statistics"]?.residual_depth);
-  s.unit = unitSymbol(body?.parameters?.residual_depth?.unit);
+  const s = normaliseStats(body?.statistics?.[parameter]);
+  s.unit = unit;
   return s;
+}
+
+/**
+ * loadAreaStats fetches the statistics of parameter over the polygon coords (WKT) in
+ * datasetId with model, as "fit to view" uses them.
+ */
+export async function loadAreaStats(datasetId, coords, parameter, model, sediment = "") {
+  const body = await request(
+    `/api/collections/${encodeURIComponent(datasetId)}/statistics${query({ coords, "parameter-name": parameter, model, sediment })}`,
+    { what: "Computing the statistics of the view" },
+  );
+  return normaliseStats(body?.statistics?.[parameter]);
 }

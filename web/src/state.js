@@ -1,4 +1,4 @@
-// state.js: the page's shared selection (dataset, layer, model) with change
+// state.js: the page's shared selection (dataset, layer, model, colour range) with change
 // notification, so modules stay independent of one another.
 
 const listeners = new Set();
@@ -9,6 +9,7 @@ export const state = {
   layer: "", // a parameter id of the collection
   model: "", // a model id from /api/models (default: the collection's ridgeflank:models.default)
   sediment: "", // a sediment compaction name from ridgeflank:models.sediment; "" = the service's default
+  range: null, // {min, max}: the layer's colour range chosen by the user; null = the scale's default
   models: [],
 };
 

@@ -1,0 +1,58 @@
+// urlstate.js: the page's state in the URL's fragment, so a link restores what was on
+// screen: dataset, layer, model, sediment law, colour range, the view (centre and zoom), the
+// pinned point, the selected region and the open survey plan. Pure functions, no DOM.
+
+const ID = /^[A-Za-z0-9._:-]{1,200}$/;
+
+function numbers(text, n) {
+  const parts = String(text ?? "").split(",");
+  if (parts.length !== n) return null;
+  const v = parts.map((p) => (p.trim() === "" ? NaN : Number(p)));
+  return v.every(Number.isFinite) ? v : null;
+}
+
+/** round keeps a coordinate to 5 decimals (about 1 m), enough for a link. */
+const round = (v, d = 5) => Number(v.toFixed(d));
+
+/**
+ * encodeState writes s ({datasetId, layer, model, sediment, range: {min, max},
+ * view: {lat, lon, zoom}, pin: {lat, lon}, region, plan}; any may be missing) as the
+ * fragment's query string (without "#").
+ */
+export function encodeState(s) {
+  const h = new URLSearchParams();
+  if (s.datasetId) h.set("dataset", s.datasetId);
+  if (s.layer) h.set("layer", s.layer);
+  if (s.model) h.set("model", s.model);
+  if (s.sediment) h.set("sediment", s.sediment);
+  if (s.range && Number.isFinite(s.range.min) && Number.isFinite(s.range.max)) h.set("range", `${s.range.min},${s.range.max}`);
+  if (s.view) h.set("view", `${round(s.view.lat)},${round(s.view.lon)},${s.view.zoom}`);
+  if (s.pin) h.set("pin", `${round(s.pin.lat)},${round(s.pin.lon)}`);
+  if (s.region) h.set("region", s.region);
+  if (s.plan) h.set("plan", s.plan);
+  return h.toString().replace(/%2C/g, ",");
+}
+
+/**
+ * decodeState reads a fragment (with or without "#") back. Values that cannot be right
+ * (latitude beyond ±90°, zoom outside minZoom..maxZoom, ids with unexpected characters, an
+ * empty or reversed range) are left out, so a damaged link opens the page on its defaults
+ * for those parts only.
+ */
+export function decodeState(hash, { minZoom = 0, maxZoom = 22 } = {}) {
+  const h = new URLSearchParams(String(hash || "").replace(/^#/, ""));
+  const out = { datasetId: "", layer: "", model: "", sediment: "", range: null, view: null, pin: null, region: "", plan: "" };
+  for (const [k, key] of [["dataset", "datasetId"], ["layer", "layer"], ["model", "model"], ["sediment", "sediment"], ["region", "region"], ["plan", "plan"]]) {
+    const v = h.get(k) || "";
+    if (ID.test(v)) out[key] = v;
+  }
+  const r = numbers(h.get("range"), 2);
+  if (r && r[0] < r[1]) out.range = { min: r[0], max: r[1] };
+  const v = numbers(h.get("view"), 3);
+  if (v && Math.abs(v[0]) <= 90 && Math.abs(v[1]) <= 540 && Number.isInteger(v[2]) && v[2] >= minZoom && v[2] <= maxZoom) {
+    out.view = { lat: v[0], lon: v[1], zoom: v[2] };
+  }
+  const p = numbers(h.get("pin"), 2);
+  if (p && Math.abs(p[0]) <= 90 && Math.abs(p[1]) <= 540) out.pin = { lat: p[0], lon: p[1] };
+  return out;
+}
