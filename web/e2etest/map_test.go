@@ -82,7 +82,7 @@ func regionMean(t *testing.T, ts *testServer, region, param, model string) float
 		t.Fatalf("%s: HTTP %d %v", u, res.StatusCode, err)
 	}
 	for k, v := range body.Statistics[param] {
-		if strings.HasPrefix(k, "mean_") {
+		if strings.HasPrefix(k, "mean_") && !strings.HasPrefix(k, "mean_uncertainty") { // the mean itself, not its uncertainty
 			if f, ok := v.(float64); ok {
 				return f
 			}
