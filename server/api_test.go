@@ -1,12 +1,14 @@
 package server
 
 import (
+	"bufio"
 	"bytes"
 	"encoding/json"
 	"fmt"
 	"image/png"
 	"math"
 	"mime/multipart"
+	"net"
 	"net/http"
 	"net/http/httptest"
 	"net/url"
@@ -985,4 +987,62 @@ func TestOpenAPIChecksBite(t *testing.T) {
 	if covSchema(t).Validate(inst) == nil {
 		t.Error("a Grid domain without y passed the CoverageJSON schema")
 	}
+}
+
+// A body that announces a million bytes and trickles them is cut off with a 408 once it falls
+// behind the minimum pace, and one that stalls after a few bytes once it has been idle; a body
+// cut short is a 400. None is a server error.
+func TestSlowBodies(t *testing.T) {
+	e := newEnvLimits(t, "sqlite", Config{}, Limits{BodyIdleTimeout: 300 * time.Millisecond, BodyMinBytesPerSecond: 1 << 20})
+	addr := strings.TrimPrefix(e.ts.URL, "http://")
+	send := func(t *testing.T, head string, trickle func(c net.Conn)) string {
+		c, err := net.Dial("tcp", addr)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer c.Close()
+		if _, err := c.Write([]byte(head)); err != nil {
+			t.Fatal(err)
+		}
+		done := make(chan struct{})
+		go func() { defer close(done); trickle(c) }()
+		_ = c.SetReadDeadline(time.Now().Add(10 * time.Second))
+		line, err := bufio.NewReader(c).ReadString('\n')
+		if err != nil {
+			t.Fatalf("no answer within 10 s: %v", err)
+		}
+		<-done
+		return strings.TrimSpace(line)
+	}
+	path := "/api/collections/" + e.dataset + "/trajectory"
+	head := "POST " + path + " HTTP/1.1\r\nHost: x\r\nContent-Type: text/csv\r\nContent-Length: 1000000\r\n\r\n"
+	t.Run("trickle", func(t *testing.T) {
+		stop := time.Now().Add(5 * time.Second)
+		got := send(t, head, func(c net.Conn) {
+			for time.Now().Before(stop) {
+				if _, err := c.Write([]byte("1")); err != nil {
+					return
+				}
+				time.Sleep(100 * time.Millisecond)
+			}
+		})
+		if !strings.Contains(got, " 408 ") {
+			t.Errorf("trickling body: %q, want 408", got)
+		}
+	})
+	t.Run("stall", func(t *testing.T) {
+		got := send(t, head, func(c net.Conn) { _, _ = c.Write([]byte("lon,lat\n")) })
+		if !strings.Contains(got, " 408 ") {
+			t.Errorf("stalled body: %q, want 408", got)
+		}
+	})
+	t.Run("cut short", func(t *testing.T) {
+		got := send(t, head, func(c net.Conn) {
+			_, _ = c.Write([]byte("lon,lat\n"))
+			_ = c.(*net.TCPConn).CloseWrite()
+		})
+		if !strings.Contains(got, " 400 ") {
+			t.Errorf("body cut short: %q, want 400", got)
+		}
+	})
 }

@@ -4,7 +4,9 @@ import (
 	"context"
 	"crypto/rand"
 	"encoding/hex"
+	"errors"
 	"fmt"
+	"io"
 	"net"
 	"net/http"
 	"runtime/debug"
@@ -215,4 +217,61 @@ func securityHeaders(next http.Handler) http.Handler {
 		}
 		next.ServeHTTP(w, r)
 	})
+}
+
+// bodyPace holds request bodies to a pace: every read must bring bytes within
+// Limits.BodyIdleTimeout, and the body as a whole must arrive at Limits.BodyMinBytesPerSecond on
+// average after a grace of BodyIdleTimeout. A stalled or trickling body ends in a 408 problem
+// (its connection is closed), a body cut short in a 400; neither is a server error.
+func (s *server) bodyPace(next http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		if r.Body != nil && r.Body != http.NoBody {
+			r.Body = &pacedBody{rc: r.Body, ctl: http.NewResponseController(w), start: time.Now(),
+				idle: s.limits.BodyIdleTimeout, rate: s.limits.BodyMinBytesPerSecond, declared: r.ContentLength}
+		}
+		next.ServeHTTP(w, r)
+	})
+}
+
+// pacedBody is a request body read under bodyPace's deadlines.
+type pacedBody struct {
+	rc       io.ReadCloser
+	ctl      *http.ResponseController
+	start    time.Time
+	idle     time.Duration
+	rate     int64
+	declared int64 // Content-Length, or -1
+	read     int64
+}
+
+func (b *pacedBody) Read(p []byte) (int, error) {
+	want := b.declared
+	if want < 0 {
+		want = b.read + int64(len(p))
+	}
+	deadline := b.start.Add(b.idle + time.Duration(float64(want)/float64(b.rate)*float64(time.Second)))
+	if d := time.Now().Add(b.idle); d.Before(deadline) {
+		deadline = d
+	}
+	_ = b.ctl.SetReadDeadline(deadline) // not every writer supports it (tests' recorders): then no pace
+	n, err := b.rc.Read(p)
+	b.read += int64(n)
+	switch {
+	case err == nil, errors.Is(err, io.EOF):
+		return n, err
+	case isTimeout(err):
+		return n, problem(CodeTimeout, "the request body stalled: %d bytes arrived in %s, slower than %d bytes/s or idle for %s",
+			b.read, time.Since(b.start).Round(time.Millisecond), b.rate, b.idle).withStatus(http.StatusRequestTimeout).withCause(err)
+	case errors.Is(err, io.ErrUnexpectedEOF):
+		return n, problem(CodeBadRequest, "the request body ended after %d of the %d bytes it announced", b.read, b.declared).withCause(err)
+	}
+	return n, err
+}
+
+func (b *pacedBody) Close() error { return b.rc.Close() }
+
+// isTimeout reports a network read timeout.
+func isTimeout(err error) bool {
+	var ne net.Error
+	return errors.As(err, &ne) && ne.Timeout()
 }

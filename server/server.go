@@ -29,6 +29,11 @@ type Limits struct {
 	RequestTimeout  time.Duration // every API request except uploads
 	UploadTimeout   time.Duration // grid uploads (streamed to disk)
 	SyncExportCells int           // COG/netCDF area answers above this many cells become export jobs
+	// BodyIdleTimeout is the longest a request body may send nothing; BodyMinBytesPerSecond the
+	// slowest pace a body may keep on average (after a grace of BodyIdleTimeout). A body that
+	// stalls or trickles slower is answered 408 and its connection closed.
+	BodyIdleTimeout       time.Duration
+	BodyMinBytesPerSecond int64
 }
 
 // DefaultLimits are the limits used when Deps.Limits leaves a field zero.
@@ -40,6 +45,10 @@ var DefaultLimits = Limits{
 	RequestTimeout:  30 * time.Second,
 	UploadTimeout:   30 * time.Minute,
 	SyncExportCells: 1_000_000,
+	// 10 s without a byte, or slower than 16 KiB/s on average: a satellite link manages more;
+	// a client holding connections open does not (common practice, no source).
+	BodyIdleTimeout:       10 * time.Second,
+	BodyMinBytesPerSecond: 16 << 10,
 }
 
 func (l Limits) withDefaults() Limits {
@@ -64,6 +73,8 @@ func (l Limits) withDefaults() Limits {
 	set64(&l.MaxUploadBytes, d.MaxUploadBytes)
 	set(&l.MaxCurvePoints, d.MaxCurvePoints)
 	setD(&l.RequestTimeout, d.RequestTimeout)
+	setD(&l.BodyIdleTimeout, d.BodyIdleTimeout)
+	set64(&l.BodyMinBytesPerSecond, d.BodyMinBytesPerSecond)
 	setD(&l.UploadTimeout, d.UploadTimeout)
 	set(&l.SyncExportCells, d.SyncExportCells)
 	return l
@@ -183,7 +194,7 @@ func (s *server) h(fn handlerFunc) http.HandlerFunc {
 
 func (s *server) routes() http.Handler {
 	r := chi.NewRouter()
-	r.Use(s.requestIDMiddleware, s.accessLog, s.recoverer, s.metrics.middleware, securityHeaders, middleware.GetHead)
+	r.Use(s.requestIDMiddleware, s.accessLog, s.recoverer, s.metrics.middleware, securityHeaders, s.bodyPace, middleware.GetHead)
 	if len(s.deps.Config.CORSOrigins) > 0 {
 		r.Use(s.corsMiddleware())
 	}
