@@ -95,3 +95,21 @@ func UnitSuffix(ucum string) string {
 	}
 	return string(out)
 }
+
+// SignConvention states the sign of parameter id's values in words, for figures and file
+// metadata ("" for a parameter with no sign to state).
+func SignConvention(id string) string {
+	switch id {
+	case PObservedDepth, PPredictedDepth, PCorrectedDepth:
+		return "depth below sea level, positive down"
+	case PResidualDepth:
+		return "predicted minus corrected depth: positive = shallower than the model"
+	case PSedimentThickness:
+		return "thickness, positive"
+	case PThermalThickness, PDepth600C:
+		return "depth below the seafloor, positive down"
+	case PHeatFlow:
+		return "heat flow out of the Earth, positive upward"
+	}
+	return ""
+}
