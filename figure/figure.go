@@ -265,7 +265,7 @@ func draw1(l Layout, m mapData, format string) ([]byte, error) {
 	}
 	line := draw.LineStyle{Color: gratColor, Width: 0.06 * fs, Dashes: []vg.Length{0.3 * fs, 0.25 * fs}}
 	lab := st(0.85*fs, ink, draw.XCenter, draw.YTop)
-	step := niceStep(math.Max(l.East-l.West, l.North-l.South) / 5)
+	step := graticuleStep(math.Max(l.East-l.West, l.North-l.South) / 5)
 	for lon := math.Ceil(l.West/step-1e-9) * step; lon <= l.East+1e-9; lon += step {
 		c.StrokeLine2(line, x(lon), mapMin.Y, x(lon), mapMax.Y)
 		c.FillText(lab, vg.Point{X: x(lon), Y: mapMin.Y - 0.35*fs}, lonLabel(lon, step))
@@ -418,6 +418,17 @@ func drawScaleBar(c *draw.Canvas, l Layout, at vg.Point, maxLen vg.Length, fs vg
 
 func (l Layout) mapWidthPt() vg.Length { return vg.Length(l.Map.Dx()) * 72 / vg.Length(l.DPI) }
 
+// graticuleStep is the graticule interval (degrees) nearest below v among intervals that
+// divide the circle into whole degrees or simple fractions of one.
+func graticuleStep(v float64) float64 {
+	for _, s := range []float64{90, 60, 45, 30, 20, 15, 10, 5, 2, 1, 0.5, 0.25, 0.2, 0.1, 0.05, 0.02, 0.01} {
+		if s <= v {
+			return s
+		}
+	}
+	return 0.01
+}
+
 // niceStep is the step of 1, 2, 2.5 or 5 × 10ⁿ nearest below v (v > 0).
 func niceStep(v float64) float64 {
 	if !(v > 0) {
@@ -466,8 +477,8 @@ func latLabel(lat, step float64) string {
 }
 
 func degrees(v, step float64) string {
-	d := 0
-	for s := step; s < 1-1e-9 && d < 3; s *= 10 {
+	d := 0 // decimals enough to write multiples of step exactly
+	for s := step; math.Abs(s-math.Round(s)) > 1e-6 && d < 3; s *= 10 {
 		d++
 	}
 	return fmt.Sprintf("%.*f", d, v)

@@ -84,4 +84,3 @@ func (s *server) figureAnswer(w http.ResponseWriter, r *http.Request) error {
 	_, err = w.Write(fig.Bytes)
 	return err
 }
-
