@@ -190,7 +190,7 @@ func Render(ctx context.Context, ev *evaluate.Service, req Request) (*Figure, er
 		title:   p.Label,
 		sub:     fmt.Sprintf("Dataset: %s · model: %s", res.Query.Dataset.Row.Name, res.Query.Model.Params().ID),
 		caution: prov.Caution,
-		label:   fmt.Sprintf("%s (%s)", p.Label, p.Unit),
+		label:   fmt.Sprintf("%s (%s)", p.Label, unitText(p.Unit, b.Units)),
 		sign:    evaluate.SignConvention(p.ID),
 		scale:   b,
 		grid:    res.Grids[0],
@@ -273,6 +273,9 @@ func draw1(l Layout, m mapData, format string) ([]byte, error) {
 	labL := st(0.85*fs, ink, draw.XRight, draw.YCenter)
 	for lat := math.Ceil(l.South/step-1e-9) * step; lat <= l.North+1e-9; lat += step {
 		c.StrokeLine2(line, mapMin.X, y(lat), mapMax.X, y(lat))
+		if y(lat)-mapMin.Y < 0.7*fs && lat > l.South+1e-9 || math.Abs(lat-l.South) < 1e-9 {
+			continue // the corner belongs to the longitude label
+		}
 		c.FillText(labL, vg.Point{X: mapMin.X - 0.35*fs, Y: y(lat)}, latLabel(lat, step))
 	}
 	frame := draw.LineStyle{Color: ink, Width: 0.08 * fs}
@@ -443,11 +446,21 @@ func niceStep(v float64) float64 {
 	return p
 }
 
+// trimNum writes v with at most three decimals, no trailing zeros, and a true minus sign.
 func trimNum(v float64) string {
 	if math.Abs(v) < 1e-9 {
 		return "0"
 	}
-	return strings.TrimRight(strings.TrimRight(fmt.Sprintf("%.3f", v), "0"), ".")
+	return strings.Replace(strings.TrimRight(strings.TrimRight(fmt.Sprintf("%.3f", v), "0"), "."), "-", "−", 1)
+}
+
+// unitText is the unit as a figure writes it: the colour scale's typeset form ("mW/m²") when
+// it names the same unit, else the UCUM symbol.
+func unitText(ucum, scale string) string {
+	if scale != "" && strings.ReplaceAll(strings.ReplaceAll(scale, "²", "2"), "³", "3") == ucum {
+		return scale
+	}
+	return ucum
 }
 
 // lonLabel writes a longitude (any multiple of 360 away) as degrees with E or W: "145°W",
