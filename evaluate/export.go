@@ -108,8 +108,21 @@ func (s *Service) FileMeta(res *AreaResult) gdal.Meta { return s.fileMeta(res.Qu
 func (s *Service) fileMeta(q *Query) gdal.Meta {
 	p := q.Params[0]
 	prov := s.Provenance(q)
-	return gdal.Meta{Name: p.ID, LongName: p.Label, Units: p.Unit, Title: q.Dataset.Row.Name + ": " + p.Label,
-		Source: "ridgeflank " + s.version, Metadata: prov.Metadata()}
+	title := q.Dataset.Row.Name + ": " + p.Label
+	if p.Predicted {
+		title += " (model " + q.Model.Params().ID + ")"
+	}
+	md := prov.Metadata()
+	// What a figure of the file states, so the file stands alone: title, parameter, units,
+	// sign convention (model and caution come with the provenance).
+	md["ridgeflank_title"] = title
+	md["ridgeflank_parameter"] = p.ID
+	md["ridgeflank_units"] = p.Unit
+	if sc := SignConvention(p.ID); sc != "" {
+		md["ridgeflank_sign_convention"] = sc
+	}
+	return gdal.Meta{Name: p.ID, LongName: p.Label, Units: p.Unit, Title: title,
+		Source: "ridgeflank " + s.version, Metadata: md}
 }
 
 // EncodeRaster answers an export request as the bytes of the file.

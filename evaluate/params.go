@@ -103,7 +103,7 @@ func SignConvention(id string) string {
 	case PObservedDepth, PPredictedDepth, PCorrectedDepth:
 		return "depth below sea level, positive down"
 	case PResidualDepth:
-		return "predicted minus corrected depth: positive = shallower than the model"
+		return "predicted minus corrected depth; positive means shallower than the model"
 	case PSedimentThickness:
 		return "thickness, positive"
 	case PThermalThickness, PDepth600C:

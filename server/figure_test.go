@@ -2,6 +2,7 @@ package server
 
 import (
 	"bytes"
+	"encoding/json"
 	"encoding/xml"
 	"fmt"
 	"image/color"
@@ -9,6 +10,9 @@ import (
 	"io"
 	"math"
 	"net/url"
+	"os"
+	"os/exec"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -85,7 +89,7 @@ func TestFigure(t *testing.T) {
 		s := e.get(base + "&f=svg&width-px=1200&dpi=120")
 		e.want(s, 200)
 		text := svgText(t, s.Body)
-		for _, want := range []string{evaluate.Caution[:40], "Residual depth (m)", "positive = shallower than the model", "144°W", "30°S", "km", "psm"} {
+		for _, want := range []string{evaluate.Caution[:40], "Residual depth (m)", "positive means shallower than the model", "144°W", "30°S", "km", "psm"} {
 			if !strings.Contains(text, want) {
 				t.Errorf("SVG text lacks %q", want)
 			}
@@ -180,4 +184,49 @@ func svgText(t *testing.T, raw []byte) string {
 		t.Fatalf("root element %q", root)
 	}
 	return sb.String()
+}
+
+// Region rasters carry what the figure states: title, parameter, units, sign convention, model
+// and caution, read back by gdalinfo -json (GDAL's own reader).
+func TestRasterMetadataLikeFigure(t *testing.T) {
+	gi, err := exec.LookPath("gdalinfo")
+	if err != nil {
+		t.Skip("gdalinfo not installed")
+	}
+	e := newEnv(t, "sqlite", Config{})
+	poly := url.QueryEscape("POLYGON((-145 -31,-142 -31,-142 -28,-145 -28,-145 -31))")
+	for _, c := range []struct{ f, ext, prefix string }{{"COG", ".tif", ""}, {"NetCDF", ".nc", "NC_GLOBAL#"}} {
+		t.Run(c.f, func(t *testing.T) {
+			r := e.get("/api/collections/" + e.dataset + "/area?coords=" + poly + "&parameter-name=residual_depth&model=psm&f=" + c.f)
+			e.want(r, 200)
+			path := filepath.Join(t.TempDir(), "x"+c.ext)
+			if err := os.WriteFile(path, r.Body, 0o644); err != nil {
+				t.Fatal(err)
+			}
+			out, err := exec.Command(gi, "-json", path).Output()
+			if err != nil {
+				t.Fatal(err)
+			}
+			var info struct {
+				Metadata map[string]map[string]string `json:"metadata"`
+			}
+			if err := json.Unmarshal(out, &info); err != nil {
+				t.Fatal(err)
+			}
+			md := info.Metadata[""]
+			for k, want := range map[string]string{
+				"ridgeflank_title":           "Quillon Basin (SYNTHETIC): Residual depth (model psm)",
+				"ridgeflank_parameter":       "residual_depth",
+				"ridgeflank_units":           "m",
+				"ridgeflank_sign_convention": evaluate.SignConvention("residual_depth"),
+				"ridgeflank_model":           "psm",
+				"ridgeflank_caution":         evaluate.Caution,
+				"title":                      "Quillon Basin (SYNTHETIC): Residual depth (model psm)",
+			} {
+				if got := md[c.prefix+k]; got != want {
+					t.Errorf("%s%s = %q, want %q", c.prefix, k, got, want)
+				}
+			}
+		})
+	}
 }
