@@ -9,6 +9,7 @@ import (
 	"image/png"
 	"io"
 	"math"
+	"net/http/httptest"
 	"net/url"
 	"os"
 	"os/exec"
@@ -228,5 +229,21 @@ func TestRasterMetadataLikeFigure(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// BenchmarkFigurePNG renders a 1600 px wide PNG (1600×1000 about, the map's shape decides) of
+// the demo basin's residual depth through the handler.
+func BenchmarkFigurePNG(b *testing.B) {
+	e := newEnv(b, "sqlite", Config{})
+	req := httptest.NewRequest("GET", "/api/collections/"+e.dataset+"/figure?bbox=-152,-34,-136,-24&parameter-name=residual_depth&width-px=1600&dpi=150", nil)
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		rec := httptest.NewRecorder()
+		e.handler.ServeHTTP(rec, req)
+		if rec.Code != 200 {
+			b.Fatalf("status %d: %s", rec.Code, rec.Body.String())
+		}
 	}
 }
