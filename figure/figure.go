@@ -229,7 +229,7 @@ func draw1(l Layout, m mapData, format string) ([]byte, error) {
 		img = vgimg.NewWith(vgimg.UseWH(wPt, hPt), vgimg.UseDPI(l.DPI))
 		vc = vgimg.PngCanvas{Canvas: img}
 	case SVG:
-		vc = vgsvg.New(wPt, hPt)
+		vc = vgsvg.NewWith(vgsvg.UseWH(wPt, hPt), vgsvg.EmbedFonts(true)) // stands alone: no font needed on the reader's machine
 	case PDF:
 		pc := vgpdf.New(wPt, hPt)
 		pc.EmbedFonts(true)

@@ -232,11 +232,11 @@ func TestRasterMetadataLikeFigure(t *testing.T) {
 	}
 }
 
-// BenchmarkFigurePNG renders a 1600 px wide PNG (1600×1000 about, the map's shape decides) of
+// BenchmarkFigurePNG renders a 1600 × 1025 PNG (the box's shape sets the height) of
 // the demo basin's residual depth through the handler.
 func BenchmarkFigurePNG(b *testing.B) {
 	e := newEnv(b, "sqlite", Config{})
-	req := httptest.NewRequest("GET", "/api/collections/"+e.dataset+"/figure?bbox=-152,-34,-136,-24&parameter-name=residual_depth&width-px=1600&dpi=150", nil)
+	req := httptest.NewRequest("GET", "/api/collections/"+e.dataset+"/figure?bbox=-154,-34,-134,-24&parameter-name=residual_depth&width-px=1600&dpi=150", nil)
 	b.ReportAllocs()
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
@@ -244,6 +244,11 @@ func BenchmarkFigurePNG(b *testing.B) {
 		e.handler.ServeHTTP(rec, req)
 		if rec.Code != 200 {
 			b.Fatalf("status %d: %s", rec.Code, rec.Body.String())
+		}
+		if i == 0 {
+			if cfg, err := png.DecodeConfig(rec.Body); err != nil || cfg.Width != 1600 || cfg.Height != 1025 {
+				b.Fatalf("PNG %d×%d (%v), want 1600×1025", cfg.Width, cfg.Height, err)
+			}
 		}
 	}
 }
