@@ -4,7 +4,9 @@ import (
 	"math"
 	"testing"
 
+	"ridgeflank/colour"
 	"ridgeflank/fault"
+	"ridgeflank/geo"
 )
 
 // One degree of longitude along a parallel of the WGS84 ellipsoid.
@@ -88,5 +90,28 @@ func TestLayoutLimits(t *testing.T) {
 				t.Errorf("limit %+v, want %s", f.Limit, c.limit)
 			}
 		})
+	}
+}
+
+// BenchmarkDraw draws a 1600 px wide PNG of a SYNTHETIC lattice of one cell per map pixel,
+// without the area evaluation (BenchmarkFigurePNG in package server includes it).
+func BenchmarkDraw(b *testing.B) {
+	l, err := NewLayout(-154, -34, -134, -24, 1600, 150)
+	if err != nil {
+		b.Fatal(err)
+	}
+	resX, resY := l.Resolution()
+	g := geo.NewGrid(l.Map.Dx(), l.Map.Dy(), l.West+resX/2, l.North-resY/2, resX, resY, geo.CellCentre)
+	for i := range g.Data {
+		g.Data[i] = float32(i%997) - 500 // SYNTHETIC values across the residual scale
+	}
+	bind, _ := colour.BindingFor("residual_depth")
+	m := mapData{title: "Residual depth", sub: "Dataset: SYNTHETIC", caution: "SYNTHETIC caution text", label: "Residual depth (m)", sign: "SYNTHETIC", scale: bind, grid: g}
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := draw1(l, m, PNG); err != nil {
+			b.Fatal(err)
+		}
 	}
 }

@@ -69,7 +69,8 @@ func (s *server) figureAnswer(w http.ResponseWriter, r *http.Request) error {
 	}
 	res := fig.Area
 	s.metrics.cells.Add(float64(len(res.Lattice.Data)))
-	setProvenance(w, s.ev.Provenance(res.Query))
+	prov := s.ev.Provenance(res.Query)
+	setProvenance(w, prov)
 	setAnswerHeaders(w, res.Flags, res.Region.Repairs)
 	m, g := fig.Layout.Map, res.Lattice
 	w.Header().Set("Ridgeflank-Figure-Map", fmt.Sprintf("%d,%d,%d,%d", m.Min.X, m.Min.Y, m.Max.X, m.Max.Y))
@@ -81,6 +82,10 @@ func (s *server) figureAnswer(w http.ResponseWriter, r *http.Request) error {
 		name += "-" + res.Query.Model.Params().ID
 	}
 	w.Header().Set("Content-Disposition", `attachment; filename="`+name+"."+req.Format+`"`)
-	_, err = w.Write(fig.Bytes)
+	raw := fig.Bytes
+	if req.Format == figure.PNG {
+		raw = withPNGCaution(raw, prov.Caution) // drawn in the picture and kept in its text chunk
+	}
+	_, err = w.Write(raw)
 	return err
 }
