@@ -121,6 +121,22 @@ func TestStatisticsPostAndModels(t *testing.T) {
 	if p0 == p2 {
 		t.Errorf("psm and halfspace give the same mean predicted depth %v", p0)
 	}
+	// The stored region's statistics: the same opt-in grid and side-by-side models.
+	feat := `{"type":"Feature","geometry":` + poly + `,"properties":{"name":"stats box"}}`
+	c := e.do("POST", "/api/regions", strings.NewReader(feat), "Authorization", "Bearer "+e.editor, "Content-Type", MediaGeoJSON)
+	e.want(c, 201)
+	loc := "/api/collections/" + e.dataset + "/locations/" + c.json(t)["id"].(string) + "/statistics"
+	byRegion := e.get(loc+"?parameter-name=residual_depth", auth...).json(t)
+	if _, ok := byRegion["grid"]; ok {
+		t.Error("the region's statistics carry the grid without grid=true")
+	}
+	if _, ok := e.get(loc+"?parameter-name=residual_depth&grid=true", auth...).json(t)["grid"]; !ok {
+		t.Error("the region's statistics lack the grid with grid=true")
+	}
+	rc := e.get(loc+"?parameter-name=residual_depth&models=psm,gdh1", auth...).json(t)
+	if blocks := rc["comparison"].([]any); len(blocks) != 2 || !reflect.DeepEqual(blocks[1], any(byRegion)) {
+		t.Errorf("region comparison %v, its gdh1 block should equal the default (gdh1) answer", trunc(mustJSON(t, rc)))
+	}
 	wantProblem(t, post("?models=psm,psm", poly, auth...), 400, CodeInvalidParameter)
 	wantProblem(t, post("?models=psm,gdh1,halfspace,psm1,a,b,c", poly, auth...), 422, CodeLimitExceeded)
 	wantProblem(t, post("?grid=perhaps", poly, auth...), 400, CodeInvalidParameter)
