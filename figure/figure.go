@@ -359,6 +359,25 @@ func drawColourBar(c *draw.Canvas, m mapData, bar vg.Rectangle, fs vg.Length, st
 		grad.SetNRGBA(0, 255-i, col) // top row: the high end
 	}
 	c.DrawImage(bar, grad)
+	// Values beyond the colour range take the end colours: a triangle at that end says so.
+	lo0, hi0 := dataRange(m.grid)
+	tri := func(base, tip vg.Length, t float64) {
+		var p vg.Path
+		p.Move(vg.Point{X: bar.Min.X, Y: base})
+		p.Line(vg.Point{X: bar.Max.X, Y: base})
+		p.Line(vg.Point{X: (bar.Min.X + bar.Max.X) / 2, Y: tip})
+		p.Close()
+		c.SetColor(ramp.At(t))
+		c.Fill(p)
+		c.SetLineStyle(draw.LineStyle{Color: ink, Width: 0.05 * fs})
+		c.Stroke(p)
+	}
+	if hi0 > lo+span {
+		tri(bar.Max.Y, bar.Max.Y+0.9*fs, 1)
+	}
+	if lo0 < lo {
+		tri(bar.Min.Y, bar.Min.Y-0.9*fs, 0)
+	}
 	c.StrokeLines(draw.LineStyle{Color: ink, Width: 0.05 * fs}, []vg.Point{bar.Min, {X: bar.Max.X, Y: bar.Min.Y}, bar.Max, {X: bar.Min.X, Y: bar.Max.Y}, bar.Min})
 	tick := niceStep(span / 5)
 	lab := st(0.8*fs, ink, draw.XLeft, draw.YCenter)
@@ -376,6 +395,24 @@ func drawColourBar(c *draw.Canvas, m mapData, bar vg.Rectangle, fs vg.Length, st
 		sg.Rotation = math.Pi / 2
 		c.FillText(sg, vg.Point{X: bar.Max.X + 6.1*fs, Y: mid}, m.sign)
 	}
+}
+
+// dataRange is the least and greatest value of g (NaN, NaN when it has none).
+func dataRange(g *geo.Grid) (lo, hi float64) {
+	lo, hi = math.Inf(1), math.Inf(-1)
+	for _, v := range g.Data {
+		f := float64(v)
+		if f < lo {
+			lo = f
+		}
+		if f > hi {
+			hi = f
+		}
+	}
+	if lo > hi {
+		return math.NaN(), math.NaN()
+	}
+	return lo, hi
 }
 
 // wgs84A and wgs84F are the WGS84 ellipsoid's semi-major axis (m) and flattening (NIMA TR8350.2,
