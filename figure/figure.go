@@ -49,7 +49,7 @@ const (
 	MinWidthPx  = 320
 	MaxWidthPx  = 8000
 	MaxHeightPx = 8000
-	MaxPixels   = 32_000_000 // width × height
+	MaxPixels   = 16_000_000 // width × height: the RGBA picture and its drawing context take 8 bytes a pixel, 128 MB at most
 	MinDPI      = 50
 	MaxDPI      = 600
 	MinWidthIn  = 2.5 // narrower figures leave no room for the legend's text
