@@ -65,6 +65,12 @@ func TestLayoutLimits(t *testing.T) {
 	if l.WidthPx != 1600 || l.Map.Dx() <= 0 || l.Map.Max.X > 1600 || l.Map.Max.Y > l.HeightPx {
 		t.Errorf("layout %+v", l)
 	}
+	// 8000 × about 2700 pixels: within each side's limit, over the total.
+	if _, err := NewLayout(-180, -40, -60, -10, 8000, 600); err == nil {
+		t.Error("an 8000 px wide figure of a 120° × 30° box was accepted")
+	} else if f, ok := fault.As(err); !ok || f.Limit == nil || f.Limit.Name != "max_figure_pixels" {
+		t.Errorf("err %v, want max_figure_pixels", err)
+	}
 	for _, c := range []struct {
 		name       string
 		w, dpi     int
