@@ -241,15 +241,30 @@ func draw1(l Layout, m mapData, format string) ([]byte, error) {
 	}
 	mapMin, mapMax := pt(l.Map.Min.X, l.Map.Max.Y), pt(l.Map.Max.X, l.Map.Min.Y)
 	mapRect := vg.Rectangle{Min: mapMin, Max: mapMax}
+	x := func(lon float64) vg.Length {
+		return mapMin.X + (mapMax.X-mapMin.X)*vg.Length((lon-l.West)/(l.East-l.West))
+	}
+	y := func(lat float64) vg.Length {
+		return mapMin.Y + (mapMax.Y-mapMin.Y)*vg.Length((lat-l.South)/(l.North-l.South))
+	}
 	c.SetColor(noData)
 	c.Fill(mapRect.Path())
 	paint := evaluate.NewPaint(m.scale)
 	if img != nil {
 		// The map's pixels straight from the lattice (nearest cell), exactly the colours of
 		// the tiles' painter.
-		blit(img.Image(), l, m.grid, paint)
+		if rgba, ok := img.Image().(*image.RGBA); ok {
+			blit(rgba.Pix, rgba.Stride, l.Map.Min, l, m.grid, paint)
+		}
 	} else {
-		c.DrawImage(mapRect, paint.Image(m.grid))
+		// The same pixels as an image of the map area's size, so viewers keeping an image's
+		// aspect ratio (SVG's default) fill the map area exactly.
+		pic := image.NewNRGBA(image.Rect(0, 0, l.Map.Dx(), l.Map.Dy()))
+		for i := 0; i < len(pic.Pix); i += 4 {
+			pic.Pix[i], pic.Pix[i+1], pic.Pix[i+2], pic.Pix[i+3] = noData.R, noData.G, noData.B, 0xff
+		}
+		blit(pic.Pix, pic.Stride, image.Point{}, l, m.grid, paint)
+		c.DrawImage(mapRect, pic)
 	}
 	fs := l.fs
 	st := func(size vg.Length, col color.Color, xa text.XAlignment, ya text.YAlignment) draw.TextStyle {
@@ -257,22 +272,21 @@ func draw1(l Layout, m mapData, format string) ([]byte, error) {
 			Handler: plot.DefaultTextHandler, XAlign: xa, YAlign: ya}
 	}
 	// Graticule.
-	x := func(lon float64) vg.Length {
-		return mapMin.X + (mapMax.X-mapMin.X)*vg.Length((lon-l.West)/(l.East-l.West))
-	}
-	y := func(lat float64) vg.Length {
-		return mapMin.Y + (mapMax.Y-mapMin.Y)*vg.Length((lat-l.South)/(l.North-l.South))
-	}
 	line := draw.LineStyle{Color: gratColor, Width: 0.06 * fs, Dashes: []vg.Length{0.3 * fs, 0.25 * fs}}
+	halo := draw.LineStyle{Color: color.NRGBA{0xff, 0xff, 0xff, 0x70}, Width: 0.07 * fs, Dashes: []vg.Length{0.3 * fs, 0.25 * fs}, DashOffs: 0.3 * fs}
+	stroke := func(x0, y0, x1, y1 vg.Length) { // dark and light dashes: visible on dark and pale colours
+		c.StrokeLine2(halo, x0, y0, x1, y1)
+		c.StrokeLine2(line, x0, y0, x1, y1)
+	}
 	lab := st(0.85*fs, ink, draw.XCenter, draw.YTop)
 	step := graticuleStep(math.Max(l.East-l.West, l.North-l.South) / 5)
 	for lon := math.Ceil(l.West/step-1e-9) * step; lon <= l.East+1e-9; lon += step {
-		c.StrokeLine2(line, x(lon), mapMin.Y, x(lon), mapMax.Y)
+		stroke(x(lon), mapMin.Y, x(lon), mapMax.Y)
 		c.FillText(lab, vg.Point{X: x(lon), Y: mapMin.Y - 0.35*fs}, lonLabel(lon, step))
 	}
 	labL := st(0.85*fs, ink, draw.XRight, draw.YCenter)
 	for lat := math.Ceil(l.South/step-1e-9) * step; lat <= l.North+1e-9; lat += step {
-		c.StrokeLine2(line, mapMin.X, y(lat), mapMax.X, y(lat))
+		stroke(mapMin.X, y(lat), mapMax.X, y(lat))
 		if y(lat)-mapMin.Y < 0.7*fs && lat > l.South+1e-9 || math.Abs(lat-l.South) < 1e-9 {
 			continue // the corner belongs to the longitude label
 		}
@@ -313,29 +327,26 @@ func draw1(l Layout, m mapData, format string) ([]byte, error) {
 	return buf.Bytes(), nil
 }
 
-// blit colours the map area of dst from g, each pixel with the cell its centre falls in.
-func blit(dst image.Image, l Layout, g *geo.Grid, paint *evaluate.Paint) {
-	rgba, ok := dst.(*image.RGBA)
-	if !ok {
-		return
-	}
+// blit colours the map area, whose top left pixel is at origin in pix (4 bytes a pixel, stride
+// bytes a row, opaque), from g: each pixel with the cell its centre falls in; pixels of cells
+// without a value keep their colour.
+func blit(pix []uint8, stride int, origin image.Point, l Layout, g *geo.Grid, paint *evaluate.Paint) {
 	w, h := l.Map.Dx(), l.Map.Dy()
+	w0 := g.West + 360*math.Round((l.West-g.West)/360) // the lattice in the box's longitude frame
 	cols := make([]int, w)
 	for i := range cols {
 		lon := l.West + (float64(i)+0.5)/float64(w)*(l.East-l.West)
-		cols[i] = cellIndex(lon, g.West, g.DX, g.NX)
+		cols[i] = cellIndex(lon, w0, g.DX, g.NX)
 	}
-	row := make([]uint8, 4*w)
 	for j := 0; j < h; j++ {
 		lat := l.North - (float64(j)+0.5)/float64(h)*(l.North-l.South)
 		r := cellIndex(-lat, -g.North, g.DY, g.NY)
-		off := (l.Map.Min.Y+j)*rgba.Stride + 4*l.Map.Min.X
 		if r < 0 {
 			continue
 		}
-		copy(row, rgba.Pix[off:off+4*w]) // the no-data fill stays where a cell has no value
-		paint.Row(row, g.Data[r*g.NX:(r+1)*g.NX], cols)
-		copy(rgba.Pix[off:off+4*w], row) // opaque colours: RGBA and NRGBA agree
+		off := (origin.Y+j)*stride + 4*origin.X
+		// Opaque colours: premultiplied and straight RGBA agree.
+		paint.Row(pix[off:off+4*w], g.Data[r*g.NX:(r+1)*g.NX], cols)
 	}
 }
 
@@ -354,9 +365,15 @@ func drawColourBar(c *draw.Canvas, m mapData, bar vg.Rectangle, fs vg.Length, st
 		return
 	}
 	lo, span := m.scale.Linear()
-	grad := image.NewNRGBA(image.Rect(0, 0, 1, 256))
-	for i, col := range ramp.Palette256() {
-		grad.SetNRGBA(0, 255-i, col) // top row: the high end
+	// An image of the bar's own shape (about 4 pixels a point), so viewers keeping an image's
+	// aspect ratio fill the bar exactly.
+	gw, gh := max(1, int(math.Round(float64(bar.Max.X-bar.Min.X)*4))), max(2, int(math.Round(float64(bar.Max.Y-bar.Min.Y)*4)))
+	grad := image.NewNRGBA(image.Rect(0, 0, gw, gh))
+	for j := 0; j < gh; j++ {
+		col := ramp.At(1 - (float64(j)+0.5)/float64(gh)) // top row: the high end
+		for k := 0; k < gw; k++ {
+			grad.SetNRGBA(k, j, col)
+		}
 	}
 	c.DrawImage(bar, grad)
 	// Values beyond the colour range take the end colours: a triangle at that end says so.
