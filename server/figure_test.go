@@ -2,6 +2,7 @@ package server
 
 import (
 	"bytes"
+	"encoding/base64"
 	"encoding/json"
 	"encoding/xml"
 	"fmt"
@@ -14,6 +15,8 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -90,6 +93,27 @@ func TestFigure(t *testing.T) {
 		s := e.get(base + "&f=svg&width-px=1200&dpi=120")
 		e.want(s, 200)
 		text := svgText(t, s.Body)
+		// Viewers keep an embedded image's aspect ratio (SVG's default preserveAspectRatio), so
+		// every image must have the shape of the rectangle it fills (1 %, common practice).
+		images := regexp.MustCompile(`<image [^>]*width="([0-9.]+)" height="([0-9.]+)" xlink:href="data:image/[a-z]+;base64,([^"]+)"`).FindAllSubmatch(s.Body, -1)
+		if len(images) < 2 {
+			t.Fatalf("%d images in the SVG, want the map and the colour bar", len(images))
+		}
+		for _, im := range images {
+			w, _ := strconv.ParseFloat(string(im[1]), 64)
+			h, _ := strconv.ParseFloat(string(im[2]), 64)
+			raw, err := base64.StdEncoding.DecodeString(string(im[3]))
+			if err != nil {
+				t.Fatal(err)
+			}
+			cfg, err := png.DecodeConfig(bytes.NewReader(raw))
+			if err != nil {
+				t.Fatal(err)
+			}
+			if r := (w / h) / (float64(cfg.Width) / float64(cfg.Height)); math.Abs(r-1) > 0.01 {
+				t.Errorf("image of %d×%d px fills %g×%g pt: aspect off by %.1f %%", cfg.Width, cfg.Height, w, h, 100*(r-1))
+			}
+		}
 		for _, want := range []string{evaluate.Caution[:40], "Residual depth (m)", "positive means shallower than the model", "144°W", "30°S", "km", "psm"} {
 			if !strings.Contains(text, want) {
 				t.Errorf("SVG text lacks %q", want)
