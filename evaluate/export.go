@@ -109,11 +109,23 @@ func (s *Service) fileMeta(q *Query) gdal.Meta {
 	p := q.Params[0]
 	prov := s.Provenance(q)
 	title := q.Dataset.Row.Name + ": " + p.Label
+	if p.Predicted {
+		title += " (model " + q.Model.Params().ID + ")"
+	}
 	if prov.Label != "" && !strings.Contains(title, prov.Label) {
 		title += " (" + prov.Label + " data)"
 	}
+	md := prov.Metadata()
+	// What a figure of the file states, so the file stands alone: title, parameter, units,
+	// sign convention (model and caution come with the provenance).
+	md["ridgeflank_title"] = title
+	md["ridgeflank_parameter"] = p.ID
+	md["ridgeflank_units"] = p.Unit
+	if sc := SignConvention(p.ID); sc != "" {
+		md["ridgeflank_sign_convention"] = sc
+	}
 	return gdal.Meta{Name: p.ID, LongName: p.Label, Units: p.Unit, Title: title,
-		Source: "ridgeflank " + s.version, Metadata: prov.Metadata(), BandMetadata: p.CFAttributes()}
+		Source: "ridgeflank " + s.version, Metadata: md, BandMetadata: p.CFAttributes()}
 }
 
 // EncodeRaster answers an export request as the bytes of the file.

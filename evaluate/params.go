@@ -134,21 +134,16 @@ func (p Parameter) CFAttributes() map[string]string {
 	case PObservedDepth, PPredictedDepth:
 		m["standard_name"] = cfSeaFloorDepth
 		m["positive"] = "down"
-		m["sign_convention"] = "metres below the sea surface, positive down"
 	case PCorrectedDepth:
 		// Basement depth after sediment (and crust) correction: not the sea floor, no CF name.
 		m["positive"] = "down"
-		m["sign_convention"] = "metres below the sea surface, positive down"
-	case PResidualDepth:
-		m["sign_convention"] = "predicted minus corrected depth: positive where the sea floor is shallower than the model"
 	case PThermalThickness, PDepth600C:
 		m["positive"] = "down"
-		m["sign_convention"] = "kilometres below the sea floor, positive down"
-	case PSedimentThickness:
-		m["sign_convention"] = "thickness, never negative"
 	case PHeatFlow:
 		m["standard_name"] = cfSeaFloorHeat
-		m["sign_convention"] = "upward flux out of the sea floor is positive"
+	}
+	if sc := SignConvention(p.ID); sc != "" {
+		m["sign_convention"] = sc
 	}
 	return m
 }
@@ -171,4 +166,22 @@ func modelOutput(dst *geo.Result, id string, g *geo.Grid) error {
 		return fmt.Errorf("evaluate: parameter %q is not a model output", id)
 	}
 	return nil
+}
+
+// SignConvention states the sign of parameter id's values in words, for figures and file
+// metadata ("" for a parameter with no sign to state).
+func SignConvention(id string) string {
+	switch id {
+	case PObservedDepth, PPredictedDepth, PCorrectedDepth:
+		return "depth below sea level, positive down"
+	case PResidualDepth:
+		return "predicted minus corrected depth; positive means shallower than the model"
+	case PSedimentThickness:
+		return "thickness, positive"
+	case PThermalThickness, PDepth600C:
+		return "depth below the seafloor, positive down"
+	case PHeatFlow:
+		return "heat flow out of the Earth, positive upward"
+	}
+	return ""
 }

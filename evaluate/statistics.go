@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"math"
+	"strings"
 
 	"github.com/paulmach/orb"
 
@@ -344,4 +345,59 @@ func statsOptions(p Parameter) geo.StatsOptions {
 		return geo.StatsOptions{HistogramBinWidth: 50}
 	}
 	return geo.StatsOptions{HistogramBins: 50}
+}
+
+// MaxCompareModels is the most models a side-by-side statistics question may name.
+const MaxCompareModels = 6
+
+// StatisticsByModel is Statistics once per model of models (o.Model is ignored), in the order
+// given, over the same region and lattice, so the answers compare side by side: each is the
+// answer Statistics gives with that model. No model, a model named twice, or more than
+// MaxCompareModels are faults naming field "models".
+func (s *Service) StatisticsByModel(ctx context.Context, datasetID string, models []string, o Options, r geo.PreparedRegion, resX, resY float64) ([]*StatsResult, error) {
+	if err := checkCompareModels(models); err != nil {
+		return nil, err
+	}
+	out := make([]*StatsResult, 0, len(models))
+	for _, m := range models {
+		om := o
+		om.Model = m
+		res, err := s.Statistics(ctx, datasetID, om, r, resX, resY, nil)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, res)
+	}
+	return out, nil
+}
+
+// RegionStatisticsByModel is StatisticsByModel over the stored region regionID.
+func (s *Service) RegionStatisticsByModel(ctx context.Context, datasetID, regionID string, models []string, o Options, resX, resY float64) ([]*StatsResult, store.Region, error) {
+	if err := checkCompareModels(models); err != nil {
+		return nil, store.Region{}, err
+	}
+	rg, r, err := s.storedRegion(ctx, regionID)
+	if err != nil {
+		return nil, rg, err
+	}
+	out, err := s.StatisticsByModel(ctx, datasetID, models, o, r, resX, resY)
+	return out, rg, err
+}
+
+func checkCompareModels(models []string) error {
+	if len(models) == 0 {
+		return fault.New(fault.InvalidParameter, "models", "models= names no model: give a comma-separated list such as psm,gdh1,halfspace")
+	}
+	if len(models) > MaxCompareModels {
+		return fault.Over("max_compare_models", MaxCompareModels, int64(len(models)), "models",
+			"%d models were asked side by side; the limit is %d", len(models), MaxCompareModels)
+	}
+	seen := map[string]bool{}
+	for _, m := range models {
+		if m == "" || seen[m] {
+			return fault.New(fault.InvalidParameter, "models", "models=%q: each model once, none empty", strings.Join(models, ","))
+		}
+		seen[m] = true
+	}
+	return nil
 }

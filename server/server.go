@@ -232,6 +232,8 @@ func (s *server) routes() http.Handler {
 			r.Get("/locations/{regionId}", s.h(s.location))
 			r.Get("/locations/{regionId}/statistics", s.h(s.locationStatistics))
 			r.Get("/statistics", s.h(s.areaStatistics))
+			r.Get("/figure", s.h(s.figureAnswer))
+			r.With(s.bodyLimit(s.limits.MaxBodyBytes)).Post("/statistics", s.h(s.areaStatisticsPost)) // a read: no editor role
 			r.With(s.require(RoleEditor), s.bodyLimit(s.limits.MaxBodyBytes)).Post("/calibrations", s.h(s.createCalibration))
 			r.Get("/calibrations/{jobId}", s.h(s.getCalibration))
 			r.Get("/calibrations/{jobId}/plot.png", s.h(s.calibrationPlot(evaluate.PlotPNG)))

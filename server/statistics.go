@@ -5,23 +5,29 @@ import (
 	"encoding/json"
 	"fmt"
 	"net/http"
+	"strconv"
+	"strings"
 
 	"github.com/go-chi/chi/v5"
 
 	"ridgeflank/evaluate"
 	"ridgeflank/fault"
+	"ridgeflank/geo"
 	"ridgeflank/jobs"
 )
 
 // statisticsAnswer is the JSON answer of the statistics queries: area-weighted statistics of
-// each parameter over an area or a stored region, without the gridded values.
+// each parameter over an area or a stored region, for one model; the gridded values only when
+// asked (grid=true).
 type statisticsAnswer struct {
 	Dataset        string               `json:"dataset"`
 	Region         string               `json:"region,omitempty"`
+	Model          string               `json:"model"`
 	ResolutionX    float64              `json:"resolution_x_deg"`
 	ResolutionY    float64              `json:"resolution_y_deg"`
 	Cells          int64                `json:"cells"`
 	Statistics     map[string]unitStats `json:"statistics"`
+	Grid           *coverage            `json:"grid,omitempty"`
 	Provenance     *Provenance          `json:"ridgeflank:provenance,omitempty"`
 	Caution        string               `json:"ridgeflank:caution,omitempty"`
 	Flags          []evaluate.Flag      `json:"ridgeflank:flags,omitempty"`
@@ -30,48 +36,183 @@ type statisticsAnswer struct {
 	PercentileNote string               `json:"percentile_method"`
 }
 
+// comparisonAnswer is the answer of a statistics query with models=: one statistics answer
+// per model, in the order asked, each the answer the same query with model= gives.
+type comparisonAnswer struct {
+	Dataset string             `json:"dataset"`
+	Region  string             `json:"region,omitempty"`
+	Models  []string           `json:"models"`
+	Blocks  []statisticsAnswer `json:"comparison"`
+	Caution string             `json:"ridgeflank:caution,omitempty"`
+}
+
+// statisticsQuery is what the statistics queries read from the query string.
+type statisticsQuery struct {
+	resX, resY float64
+	options    evaluate.Options
+	models     []string // models= (nil: one model, options.Model)
+	grid       bool     // grid=true: attach the gridded values
+}
+
+func parseStatisticsQuery(r *http.Request) (q statisticsQuery, err error) {
+	if q.resX, err = parseResolution(r, "resolution-x"); err != nil {
+		return
+	}
+	if q.resY, err = parseResolution(r, "resolution-y"); err != nil {
+		return
+	}
+	q.options = queryOptions(r)
+	v := r.URL.Query()
+	if g := v.Get("grid"); g != "" {
+		if q.grid, err = strconv.ParseBool(g); err != nil {
+			return q, problem(CodeInvalidParameter, "grid=%q must be true or false", g).withParam("grid")
+		}
+	}
+	if v.Has("models") {
+		if v.Get("model") != "" {
+			return q, problem(CodeInvalidParameter, "give model= or models=, not both").withParam("models")
+		}
+		q.models = []string{}
+		for _, m := range strings.Split(v.Get("models"), ",") {
+			q.models = append(q.models, strings.TrimSpace(m))
+		}
+	}
+	return q, nil
+}
+
 // areaStatistics answers GET /api/collections/{id}/statistics?coords=WKT: statistics over any
-// polygon (no stored region, no token needed), streamed over the grids at the asked
-// resolution. A question reading more than Limits.MaxStatisticsCells cells is answered as a
-// statistics job (202 and the job's link) when the server runs a job queue.
+// polygon (no stored region, no editor token), streamed over the grids at the asked
+// resolution. A one-model question without the grid reading more than
+// Limits.MaxStatisticsCells cells is answered as a statistics job (202 and the job's link) when
+// the server runs a job queue.
 func (s *server) areaStatistics(w http.ResponseWriter, r *http.Request) error {
-	id := chi.URLParam(r, "datasetId")
 	coords, region, err := s.areaParam(r)
 	if err != nil {
 		return err
 	}
-	resX, resY, o, err := parseStatisticsQuery(r)
+	q, err := parseStatisticsQuery(r)
 	if err != nil {
 		return err
 	}
-	req := evaluate.StatisticsRequest{Dataset: id, Coords: coords, Options: o, ResX: resX, ResY: resY}
-	if queued, err := s.statisticsAsJob(w, r, req); queued || err != nil {
-		return err
+	if q.models == nil && !q.grid {
+		req := evaluate.StatisticsRequest{Dataset: chi.URLParam(r, "datasetId"), Coords: coords, Options: q.options, ResX: q.resX, ResY: q.resY}
+		if queued, err := s.statisticsAsJob(w, r, req); queued || err != nil {
+			return err
+		}
 	}
-	res, err := s.ev.Statistics(r.Context(), id, o, region, resX, resY, nil)
+	return s.answerStatistics(w, r, region, q)
+}
+
+// areaStatisticsPost answers POST /api/collections/{id}/statistics with a GeoJSON Polygon or
+// MultiPolygon (bare or as a Feature) in the body: the same answer as the GET with coords=,
+// for geometries too long for a URL; a read, so a reader token suffices.
+func (s *server) areaStatisticsPost(w http.ResponseWriter, r *http.Request) error {
+	q, err := parseStatisticsQuery(r)
 	if err != nil {
 		return err
 	}
-	return writeJSON(w, s.statisticsHeaders(w, res), "", statisticsBody(s.ev, id, "", res))
+	body, err := readAllLimited(r)
+	if err != nil {
+		return err
+	}
+	region, err := s.ev.PrepareRegionGeoJSON(body, "geometry")
+	if err != nil {
+		return err
+	}
+	return s.answerStatistics(w, r, region, q)
+}
+
+func (s *server) answerStatistics(w http.ResponseWriter, r *http.Request, region geo.PreparedRegion, q statisticsQuery) error {
+	id := chi.URLParam(r, "datasetId")
+	if q.models != nil {
+		res, err := s.ev.StatisticsByModel(r.Context(), id, q.models, q.options, region, q.resX, q.resY)
+		if err != nil {
+			return err
+		}
+		return s.writeComparison(w, r, id, "", q, res)
+	}
+	res, err := s.ev.Statistics(r.Context(), id, q.options, region, q.resX, q.resY, nil)
+	if err != nil {
+		return err
+	}
+	return s.writeStatistics(w, r, id, "", q, res)
 }
 
 // locationStatistics answers GET /api/collections/{id}/locations/{regionId}/statistics; as
-// areaStatistics, a question over Limits.MaxStatisticsCells cells becomes a job.
+// areaStatistics, a one-model question without the grid over Limits.MaxStatisticsCells cells
+// becomes a job.
 func (s *server) locationStatistics(w http.ResponseWriter, r *http.Request) error {
 	id := chi.URLParam(r, "datasetId")
-	resX, resY, o, err := parseStatisticsQuery(r)
+	q, err := parseStatisticsQuery(r)
 	if err != nil {
 		return err
 	}
-	req := evaluate.StatisticsRequest{Dataset: id, Region: chi.URLParam(r, "regionId"), Options: o, ResX: resX, ResY: resY}
-	if queued, err := s.statisticsAsJob(w, r, req); queued || err != nil {
-		return err
+	if q.models != nil {
+		res, rg, err := s.ev.RegionStatisticsByModel(r.Context(), id, chi.URLParam(r, "regionId"), q.models, q.options, q.resX, q.resY)
+		if err != nil {
+			return err
+		}
+		return s.writeComparison(w, r, id, rg.ID, q, res)
 	}
-	res, rg, err := s.ev.RegionStatistics(r.Context(), id, req.Region, o, resX, resY, nil)
+	req := evaluate.StatisticsRequest{Dataset: id, Region: chi.URLParam(r, "regionId"), Options: q.options, ResX: q.resX, ResY: q.resY}
+	if !q.grid {
+		if queued, err := s.statisticsAsJob(w, r, req); queued || err != nil {
+			return err
+		}
+	}
+	res, rg, err := s.ev.RegionStatistics(r.Context(), id, req.Region, q.options, q.resX, q.resY, nil)
 	if err != nil {
 		return err
 	}
-	return writeJSON(w, s.statisticsHeaders(w, res), "", statisticsBody(s.ev, id, rg.ID, res))
+	return s.writeStatistics(w, r, id, rg.ID, q, res)
+}
+
+// statisticsBlock builds one model's statistics answer (statisticsBody); with grid, the gridded
+// values of the same lattice (evaluate.Service.Area over the same region and resolution) are
+// attached.
+func (s *server) statisticsBlock(r *http.Request, id, region string, q statisticsQuery, res *evaluate.StatsResult) (statisticsAnswer, error) {
+	s.metrics.cells.Add(float64(res.Cells))
+	a := statisticsBody(s.ev, id, region, res)
+	if q.grid {
+		o := q.options
+		o.Model = a.Model
+		ar, err := s.ev.Area(r.Context(), id, o, res.Region, q.resX, q.resY)
+		if err != nil {
+			return a, err
+		}
+		c := gridCoverage(ar.Lattice, ar.Query.Params, ar.Grids)
+		a.Grid = &c
+	}
+	return a, nil
+}
+
+func (s *server) writeStatistics(w http.ResponseWriter, r *http.Request, id, region string, q statisticsQuery, res *evaluate.StatsResult) error {
+	a, err := s.statisticsBlock(r, id, region, q, res)
+	if err != nil {
+		return err
+	}
+	setProvenance(w, *a.Provenance)
+	setAnswerHeaders(w, res.Flags, res.Region.Repairs)
+	return writeJSON(w, http.StatusOK, "", a)
+}
+
+func (s *server) writeComparison(w http.ResponseWriter, r *http.Request, id, region string, q statisticsQuery, res []*evaluate.StatsResult) error {
+	c := comparisonAnswer{Dataset: id, Region: region}
+	for _, sr := range res {
+		a, err := s.statisticsBlock(r, id, region, q, sr)
+		if err != nil {
+			return err
+		}
+		c.Models = append(c.Models, a.Model)
+		c.Blocks = append(c.Blocks, a)
+		if c.Caution == "" {
+			c.Caution = a.Caution
+		}
+	}
+	if c.Caution != "" {
+		w.Header().Set("Ridgeflank-Caution", c.Caution)
+	}
+	return writeJSON(w, http.StatusOK, "", c)
 }
 
 // statisticsAsJob queues req as a statistics job and answers 202 with the job's link when it
@@ -130,30 +271,11 @@ func StatisticsWorker(deps Deps) func(ctx context.Context, a jobs.StatisticsArgs
 	}
 }
 
-func parseStatisticsQuery(r *http.Request) (resX, resY float64, o evaluate.Options, err error) {
-	if resX, err = parseResolution(r, "resolution-x"); err != nil {
-		return
-	}
-	if resY, err = parseResolution(r, "resolution-y"); err != nil {
-		return
-	}
-	return resX, resY, queryOptions(r), nil
-}
-
-// statisticsHeaders records the answer's cells and sets its provenance and flag headers; it
-// returns the status of the answer.
-func (s *server) statisticsHeaders(w http.ResponseWriter, res *evaluate.StatsResult) int {
-	s.metrics.cells.Add(float64(res.Cells))
-	setProvenance(w, s.ev.Provenance(res.Query))
-	setAnswerHeaders(w, res.Flags, res.Region.Repairs)
-	return http.StatusOK
-}
-
 // statisticsBody is the JSON answer of a statistics question, the same whether it is answered
 // at once or by a job.
 func statisticsBody(ev *evaluate.Service, id, region string, res *evaluate.StatsResult) statisticsAnswer {
 	prov := ev.Provenance(res.Query)
-	a := statisticsAnswer{Dataset: id, Region: region, ResolutionX: res.Lattice.DX, ResolutionY: res.Lattice.DY, Cells: res.Cells,
+	a := statisticsAnswer{Dataset: id, Region: region, Model: res.Query.Model.Params().ID, ResolutionX: res.Lattice.DX, ResolutionY: res.Lattice.DY, Cells: res.Cells,
 		Statistics: map[string]unitStats{}, Provenance: &prov, Caution: prov.Caution, Flags: res.Flags, Repairs: res.Region.Repairs,
 		Weighting: "cos(latitude) of each cell's centre", PercentileNote: percentileMethod}
 	for i, p := range res.Query.Params {

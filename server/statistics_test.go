@@ -1,6 +1,7 @@
 package server
 
 import (
+	"encoding/json"
 	"math"
 	"net/http/httptest"
 	"net/url"
@@ -114,4 +115,114 @@ func TestStatisticsJob(t *testing.T) {
 			t.Errorf("limit name %v", p["limit_name"])
 		}
 	})
+}
+
+// Statistics of a geometry posted as GeoJSON: with read authentication on, a reader token
+// suffices; the answer equals the GET with coords= for the same polygon (same computation,
+// so exact equality, no tolerance); the grid comes only when asked; models= answers one
+// block per model, each equal to the single-model answer.
+func TestStatisticsPostAndModels(t *testing.T) {
+	e := newEnv(t, "sqlite", Config{ReadAuth: true})
+	auth := []string{"Authorization", "Bearer " + e.reader}
+	ds := "/api/collections/" + e.dataset + "/statistics"
+	wkt := "POLYGON((-145 -31,-142 -31,-142 -28,-145 -28,-145 -31))"
+	poly := `{"type":"Polygon","coordinates":[[[-145,-31],[-142,-31],[-142,-28],[-145,-28],[-145,-31]]]}`
+	post := func(query, body string, hdr ...string) reply {
+		return e.do("POST", ds+query, strings.NewReader(body), append([]string{"Content-Type", "application/geo+json"}, hdr...)...)
+	}
+	wantProblem(t, post("", poly), 401, CodeUnauthorized)
+
+	get := e.get(ds+"?coords="+url.QueryEscape(wkt), auth...)
+	e.want(get, 200)
+	byGet := get.json(t)
+	for _, body := range []string{poly, `{"type":"Feature","properties":{},"geometry":` + poly + `}`} {
+		r := post("", body, auth...)
+		e.want(r, 200)
+		if byPost := r.json(t); !reflect.DeepEqual(byPost, byGet) {
+			t.Errorf("POST %s answers\n%s\nGET coords= answers\n%s", body[:20], trunc(r.Body), trunc(get.Body))
+		}
+	}
+	// Every parameter the demo basin answers is there by default.
+	st := byGet["statistics"].(map[string]any)
+	for _, p := range []string{"seafloor_age", "observed_depth", "predicted_depth", "heat_flow", "residual_depth"} {
+		if _, ok := st[p]; !ok {
+			t.Errorf("default statistics lack %s: %v", p, st)
+		}
+		if _, ok := st[p].(map[string]any)["histogram"]; !ok {
+			t.Errorf("%s has no histogram", p)
+		}
+	}
+	if _, ok := byGet["grid"]; ok {
+		t.Error("the grid came without grid=true")
+	}
+	withGrid := post("?grid=true&parameter-name=residual_depth", poly, auth...)
+	e.want(withGrid, 200)
+	g, ok := withGrid.json(t)["grid"].(map[string]any)
+	if !ok {
+		t.Fatalf("grid=true answer has no grid: %s", trunc(withGrid.Body))
+	}
+	checkCoverageJSON(t, mustJSON(t, g))
+	vals := g["ranges"].(map[string]any)["residual_depth"].(map[string]any)["values"].([]any)
+	n := 0
+	for _, v := range vals {
+		if v != nil {
+			n++
+		}
+	}
+	cnt := num(t, st["residual_depth"].(map[string]any)["count"])
+	if float64(n) != cnt {
+		t.Errorf("grid holds %d residual values, statistics count %v", n, cnt)
+	}
+	t.Logf("statistics of every parameter: %d bytes; residual statistics with the grid: %d bytes", len(get.Body), len(withGrid.Body))
+
+	models := []string{"psm", "gdh1", "halfspace"}
+	cmp := post("?models="+strings.Join(models, ","), poly, auth...)
+	e.want(cmp, 200)
+	blocks := cmp.json(t)["comparison"].([]any)
+	if len(blocks) != len(models) {
+		t.Fatalf("%d blocks for %d models", len(blocks), len(models))
+	}
+	for i, m := range models {
+		single := e.get(ds+"?coords="+url.QueryEscape(wkt)+"&model="+m, auth...).json(t)
+		if !reflect.DeepEqual(blocks[i], any(single)) {
+			t.Errorf("block %d (%s) differs from the model=%s answer", i, m, m)
+		}
+		if single["model"] != m {
+			t.Errorf("model=%s answer says model %v", m, single["model"])
+		}
+	}
+	p0 := blocks[0].(map[string]any)["statistics"].(map[string]any)["predicted_depth"].(map[string]any)["mean_m"]
+	p2 := blocks[2].(map[string]any)["statistics"].(map[string]any)["predicted_depth"].(map[string]any)["mean_m"]
+	if p0 == p2 {
+		t.Errorf("psm and halfspace give the same mean predicted depth %v", p0)
+	}
+	// The stored region's statistics: the same opt-in grid and side-by-side models.
+	feat := `{"type":"Feature","geometry":` + poly + `,"properties":{"name":"stats box"}}`
+	c := e.do("POST", "/api/regions", strings.NewReader(feat), "Authorization", "Bearer "+e.editor, "Content-Type", MediaGeoJSON)
+	e.want(c, 201)
+	loc := "/api/collections/" + e.dataset + "/locations/" + c.json(t)["id"].(string) + "/statistics"
+	byRegion := e.get(loc+"?parameter-name=residual_depth", auth...).json(t)
+	if _, ok := byRegion["grid"]; ok {
+		t.Error("the region's statistics carry the grid without grid=true")
+	}
+	if _, ok := e.get(loc+"?parameter-name=residual_depth&grid=true", auth...).json(t)["grid"]; !ok {
+		t.Error("the region's statistics lack the grid with grid=true")
+	}
+	rc := e.get(loc+"?parameter-name=residual_depth&models=psm,gdh1", auth...).json(t)
+	if blocks := rc["comparison"].([]any); len(blocks) != 2 || !reflect.DeepEqual(blocks[1], any(byRegion)) {
+		t.Errorf("region comparison %v, its gdh1 block should equal the default (gdh1) answer", trunc(mustJSON(t, rc)))
+	}
+	wantProblem(t, post("?models=psm,psm", poly, auth...), 400, CodeInvalidParameter)
+	wantProblem(t, post("?models=psm,gdh1,halfspace,psm1,a,b,c", poly, auth...), 422, CodeLimitExceeded)
+	wantProblem(t, post("?grid=perhaps", poly, auth...), 400, CodeInvalidParameter)
+	wantProblem(t, post("", `{"type":"Point","coordinates":[0,0]}`, auth...), 400, CodeInvalidRegion)
+}
+
+func mustJSON(t *testing.T, v any) []byte {
+	t.Helper()
+	b, err := json.Marshal(v)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
 }

@@ -3,7 +3,7 @@
 
 import "./style.css";
 import L from "leaflet";
-import { request } from "./api.js";
+import { request, query } from "./api.js";
 import { createMap, DataLayer, setReady } from "./mapview.js";
 import { Graticule } from "./graticule.js";
 import { LandLayer } from "./coastline.js";
@@ -290,9 +290,43 @@ function snapshotCanvas() {
   });
 }
 
+// "Save map" asks the server for the figure of the view (GET …/figure: graticule labels, scale
+// bar, colour bar with units and sign convention, caution drawn in), the one path every tool
+// uses; without a dataset it falls back to the canvas snapshot.
 $("snapshot").addEventListener("click", () =>
-  messages.guard(() => downloadCanvas(snapshotCanvas(), `ridgeflank-${state.datasetId || "map"}-${state.layer}-${state.model}.png`)),
+  messages.guard(() =>
+    state.datasetId ? saveFigure() : downloadCanvas(snapshotCanvas(), `ridgeflank-map-${state.layer}-${state.model}.png`),
+  ),
 );
+
+async function saveFigure() {
+  const b = map.getBounds();
+  const wrap = (x) => ((((x + 180) % 360) + 360) % 360) - 180;
+  let [w, e] = [wrap(b.getWest()), wrap(b.getEast())];
+  if (b.getEast() - b.getWest() >= 360) [w, e] = [-180, 180];
+  const [s, n] = [Math.max(-90, b.getSouth()), Math.min(90, b.getNorth())];
+  const q = query({
+    bbox: [w, s, e, n].map((v) => v.toFixed(4)).join(","),
+    "parameter-name": state.layer,
+    model: state.model,
+    sediment: state.sediment,
+    f: "png",
+    "width-px": 1600,
+    dpi: 150,
+  });
+  const token = getToken();
+  const res = await request(`/api/collections/${encodeURIComponent(state.datasetId)}/figure${q}`, {
+    raw: true,
+    headers: token ? { Authorization: `Bearer ${token}` } : {},
+    what: "Save map",
+  });
+  const name = res.headers.get("Content-Disposition")?.match(/filename="([^"]+)"/)?.[1] || `ridgeflank-${state.datasetId}-${state.layer}.png`;
+  const a = document.createElement("a");
+  a.href = URL.createObjectURL(await res.blob());
+  a.download = name;
+  a.click();
+  setTimeout(() => URL.revokeObjectURL(a.href), 10000);
+}
 
 // A small scripting surface for tests and power users: the Leaflet map, the
 // track panel (its layer holds the drawn track), the plan panel and
