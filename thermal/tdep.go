@@ -153,13 +153,16 @@ func mjp05Params() Params {
 //	d(t) = dr + ρm/(ρm − ρw) ∫_0^a ∫_{T(z,t)}^{Tm} α(T') dT' dz,  ρm = ρ(Tm)
 //
 // which with constant α is the plate model's ρm α ∫(Tm − T) dz/(ρm − ρw).
-// Thermal contraction of the grid itself is neglected.
+// Thermal contraction of the grid itself is neglected, and α does not fall
+// with pressure: with the MJP05 set the plate subsides about 3.9 km by
+// 100 Ma, some 0.6–0.9 km more than the series plate models (PSM, GDH1) and
+// than old seafloor is observed to lie (about 5.5 km; common practice).
 //
 // The solution (profiles, depth and heat flow at tdepAgeNodes+1 ages uniform
 // in √age over 0..TableMaxAgeMa) is computed once, on first use (sync.Once;
-// about 2 000 steps on 161 nodes, a few tens of milliseconds, 0.5 MB; see
-// BenchmarkTDepBuild), and every method interpolates it linearly in √age
-// (and in depth for temperatures). Ages beyond TableMaxAgeMa take the values
+// about 1 100 steps on 161 nodes, tens of milliseconds, 0.5 MB of profiles;
+// see BenchmarkTDepBuild), and every method interpolates it linearly in √age
+// (depth and q·√age by cubic Hermite interpolation, temperatures along isotherms). Ages beyond TableMaxAgeMa take the values
 // at TableMaxAgeMa, where the plate is within a fraction of a metre of its
 // steady state.
 type tdepModel struct {
@@ -226,7 +229,7 @@ func solveTDep(p Params, pr *tdepProps, nz int, eps float64, ages []float64) (*t
 	}
 	T[0] = ts
 	Tprev := append([]float64(nil), T...) // T at the step before (BDF2)
-	it := make([]float64, nz+1)          // Picard iterate
+	it := make([]float64, nz+1)           // Picard iterate
 	lo := make([]float64, nz+1)
 	di := make([]float64, nz+1)
 	up := make([]float64, nz+1)
@@ -322,6 +325,7 @@ func solveTDep(p Params, pr *tdepProps, nz int, eps float64, ages []float64) (*t
 	}
 	if len(ages) > 1 && ages[0] == 0 {
 		sol.heatS[0] = sol.heatS[1]
+		sol.depth[0] = p.RidgeDepthM // the limit of the depth at age 0
 	}
 	return sol, nil
 }
@@ -367,101 +371,155 @@ func (sol *tdepSolution) at(ageMa float64) (j int, f, s float64) {
 
 func (m *tdepModel) Params() Params { return m.p }
 
-// DepthM is the isostatic water depth (m, positive down).
+// slopeS is the derivative with respect to s = √age of node values y at
+// node i: centred differences inside, one-sided at the ends.
+func (sol *tdepSolution) slopeS(y []float64, i int) float64 {
+	switch {
+	case i == 0:
+		return (y[1] - y[0]) / sol.ds
+	case i == len(y)-1:
+		return (y[i] - y[i-1]) / sol.ds
+	}
+	return (y[i+1] - y[i-1]) / (2 * sol.ds)
+}
+
+// hermite is the cubic Hermite interpolant in s of node values y (slopes from
+// slopeS) between nodes j and j+1 at fraction u, and its derivative dy/ds.
+// It is continuous with a continuous derivative, so the rates below are the
+// exact derivatives of DepthM and HeatFlowMWm2.
+func (sol *tdepSolution) hermite(y []float64, j int, u float64) (v, dv float64) {
+	h := sol.ds
+	m0, m1 := sol.slopeS(y, j)*h, sol.slopeS(y, j+1)*h
+	u2, u3 := u*u, u*u*u
+	v = (2*u3-3*u2+1)*y[j] + (u3-2*u2+u)*m0 + (-2*u3+3*u2)*y[j+1] + (u3-u2)*m1
+	dv = ((6*u2-6*u)*y[j] + (3*u2-4*u+1)*m0 + (-6*u2+6*u)*y[j+1] + (3*u2-2*u)*m1) / h
+	return v, dv
+}
+
+// DepthM is the isostatic water depth (m, positive down), interpolated in
+// √age between node ages (cubic Hermite).
 func (m *tdepModel) DepthM(ageMa float64) float64 {
 	if badAge(ageMa) {
 		return math.NaN()
 	}
 	sol := m.solution()
 	j, f, _ := sol.at(ageMa)
-	return sol.depth[j] + f*(sol.depth[j+1]-sol.depth[j])
+	v, _ := sol.hermite(sol.depth, j, f)
+	return v
 }
 
-// HeatFlowMWm2 is k(Ts)·∂T/∂z at the surface (mW/m²); +Inf at age 0.
+// HeatFlowMWm2 is k(Ts)·∂T/∂z at the surface (mW/m²), with q·√age
+// interpolated in √age between node ages (cubic Hermite); +Inf at age 0.
 func (m *tdepModel) HeatFlowMWm2(ageMa float64) float64 {
 	if badAge(ageMa) {
 		return math.NaN()
 	}
 	sol := m.solution()
 	j, f, s := sol.at(ageMa)
-	return (sol.heatS[j] + f*(sol.heatS[j+1]-sol.heatS[j])) / s
+	g, _ := sol.hermite(sol.heatS, j, f)
+	return g / s
 }
 
-// SubsidenceRateMPerMyr is dd/dt (m/Myr) of the interpolated depth:
-// (dd/ds)/(2s) with s = √age; +Inf at age 0.
+// SubsidenceRateMPerMyr is dd/dt = (dd/ds)/(2s), s = √age, of DepthM
+// (m/Myr); +Inf at age 0, 0 from TableMaxAgeMa on (DepthM is constant there).
 func (m *tdepModel) SubsidenceRateMPerMyr(ageMa float64) float64 {
 	if badAge(ageMa) {
 		return math.NaN()
 	}
-	sol := m.solution()
 	if ageMa >= TableMaxAgeMa {
 		return 0
 	}
-	j, _, s := sol.at(ageMa)
-	return (sol.depth[j+1] - sol.depth[j]) / sol.ds / (2 * s)
+	sol := m.solution()
+	j, f, s := sol.at(ageMa)
+	_, dv := sol.hermite(sol.depth, j, f)
+	return dv / (2 * s)
 }
 
-// HeatFlowRateMWm2PerMyr is dq/dt (mW/m² per Myr) of the interpolated heat
-// flow q = g(s)/s, g = q·√age: dq/dt = (g′/s − g/s²)/(2s); −Inf at age 0.
+// HeatFlowRateMWm2PerMyr is dq/dt (mW/m² per Myr) of HeatFlowMWm2, q = g/s
+// with g = q·√age: dq/dt = (g′/s − g/s²)/(2s); −Inf at age 0, 0 from
+// TableMaxAgeMa on.
 func (m *tdepModel) HeatFlowRateMWm2PerMyr(ageMa float64) float64 {
 	if badAge(ageMa) {
 		return math.NaN()
 	}
-	sol := m.solution()
 	if ageMa >= TableMaxAgeMa {
 		return 0
 	}
+	sol := m.solution()
 	j, f, s := sol.at(ageMa)
-	g := sol.heatS[j] + f*(sol.heatS[j+1]-sol.heatS[j])
-	dg := (sol.heatS[j+1] - sol.heatS[j]) / sol.ds
+	g, dg := sol.hermite(sol.heatS, j, f)
 	return (dg/s - g/(s*s)) / (2 * s)
 }
 
-// TemperatureC is the temperature at depthKm below the seafloor,
-// interpolated linearly in depth and √age; Tm below the plate, NaN for
-// negative depth or age.
+// TemperatureC is the temperature at depthKm below the seafloor: Tm below
+// the plate and, for depths within it, at age 0; NaN for negative depth or
+// age. Between node ages it is interpolated along isotherms: the
+// temperature whose depth, interpolated linearly in √age between the two
+// node profiles (IsothermDepthKm), is depthKm, found by bisection. This
+// moves the cooling front smoothly at young ages and makes TemperatureC and
+// IsothermDepthKm exact inverses.
 func (m *tdepModel) TemperatureC(depthKm, ageMa float64) float64 {
 	if badAge(ageMa) || !(depthKm >= 0) {
 		return math.NaN()
 	}
-	if depthKm >= m.p.PlateThicknessKm {
+	if depthKm == 0 {
+		return m.p.SurfaceTemperatureC
+	}
+	if depthKm >= m.p.PlateThicknessKm || ageMa == 0 {
 		return m.p.MantleTemperatureC
 	}
 	sol := m.solution()
 	j, f, _ := sol.at(ageMa)
 	zm := depthKm * 1000
-	i := sort.SearchFloat64s(sol.z, zm) // z[i−1] < zm ≤ z[i]
-	if i == 0 {
-		return m.p.SurfaceTemperatureC
+	lo, hi := m.p.SurfaceTemperatureC, m.p.MantleTemperatureC
+	for range 64 {
+		mid := (lo + hi) / 2
+		z0, z1 := sol.isothermM(j, mid), sol.isothermM(j+1, mid)
+		if z0+f*(z1-z0) < zm {
+			lo = mid
+		} else {
+			hi = mid
+		}
+		if hi-lo < 1e-10 {
+			break
+		}
 	}
-	g := (zm - sol.z[i-1]) / (sol.z[i] - sol.z[i-1])
-	t0 := sol.temps[j][i-1] + f*(sol.temps[j+1][i-1]-sol.temps[j][i-1])
-	t1 := sol.temps[j][i] + f*(sol.temps[j+1][i]-sol.temps[j][i])
-	return t0 + g*(t1-t0)
+	return (lo + hi) / 2
 }
 
-// IsothermDepthKm is the first depth (km) where the interpolated profile
-// reaches temperatureC: 0 at or below the surface temperature, the plate
-// thickness at the mantle temperature, NaN above it.
+// IsothermDepthKm is the depth (km) where temperatureC is first reached,
+// found in the profiles of the two neighbouring node ages (linear in depth)
+// and interpolated linearly in √age: 0 at or below the surface temperature
+// and at age 0, the plate thickness at the mantle temperature, NaN above it.
 func (m *tdepModel) IsothermDepthKm(temperatureC, ageMa float64) float64 {
 	if badAge(ageMa) || math.IsNaN(temperatureC) || temperatureC > m.p.MantleTemperatureC {
 		return math.NaN()
 	}
-	if temperatureC <= m.p.SurfaceTemperatureC {
+	if temperatureC == m.p.MantleTemperatureC {
+		return m.p.PlateThicknessKm
+	}
+	if temperatureC <= m.p.SurfaceTemperatureC || ageMa == 0 {
 		return 0
 	}
 	sol := m.solution()
 	j, f, _ := sol.at(ageMa)
-	prev := m.p.SurfaceTemperatureC
-	for i := 1; i < len(sol.z); i++ {
-		v := sol.temps[j][i] + f*(sol.temps[j+1][i]-sol.temps[j][i])
-		if v >= temperatureC {
-			g := (temperatureC - prev) / (v - prev)
-			return (sol.z[i-1] + g*(sol.z[i]-sol.z[i-1])) / 1000
-		}
-		prev = v
+	z0, z1 := sol.isothermM(j, temperatureC), sol.isothermM(j+1, temperatureC)
+	return (z0 + f*(z1-z0)) / 1000
+}
+
+// isothermM is the depth (m) where profile j reaches tc (Ts < tc < Tm),
+// linear between depth nodes; the profiles increase with depth.
+func (sol *tdepSolution) isothermM(j int, tc float64) float64 {
+	T := sol.temps[j]
+	i := sort.Search(len(T), func(i int) bool { return T[i] >= tc })
+	if i == len(T) {
+		return sol.z[len(sol.z)-1]
 	}
-	return m.p.PlateThicknessKm
+	if i == 0 {
+		return 0
+	}
+	g := (tc - T[i-1]) / (T[i] - T[i-1])
+	return sol.z[i-1] + g*(sol.z[i]-sol.z[i-1])
 }
 
 // ThermalThicknessKm is the depth of Ts + 0.9 (Tm − Ts) (see Model).
