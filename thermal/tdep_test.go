@@ -237,12 +237,21 @@ func TestTDepBuiltin(t *testing.T) {
 }
 
 // BenchmarkTDepBuild is the one-time cost of the temperature-dependent plate:
-// the solution on a fresh model and its lookup table.
+// its solution on a fresh model, and the lookup table built from it.
 func BenchmarkTDepBuild(b *testing.B) {
 	p, pr := mjp05Params(), mjp05Props()
-	b.ReportAllocs()
-	for b.Loop() {
+	b.Run("solution", func(b *testing.B) {
+		b.ReportAllocs()
+		for b.Loop() {
+			newTDep(p, pr, tdepIntervals, tdepStepFactor).solution()
+		}
+	})
+	b.Run("table", func(b *testing.B) {
 		m := newTDep(p, pr, tdepIntervals, tdepStepFactor)
-		_ = newTable(m)
-	}
+		m.solution()
+		b.ReportAllocs()
+		for b.Loop() {
+			_ = newTable(m)
+		}
+	})
 }
