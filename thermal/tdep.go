@@ -161,10 +161,10 @@ func mjp05Params() Params {
 // The solution (profiles, depth and heat flow at tdepAgeNodes+1 ages uniform
 // in √age over 0..TableMaxAgeMa) is computed once, on first use (sync.Once;
 // about 1 100 steps on 161 nodes, about 40 ms of one core, 0.5 MB of profiles;
-// see BenchmarkTDepBuild), and every method interpolates it linearly in √age
-// (depth and q·√age by cubic Hermite interpolation, temperatures along isotherms). Ages beyond TableMaxAgeMa take the values
-// at TableMaxAgeMa, where the plate is within a fraction of a metre of its
-// steady state.
+// see BenchmarkTDepBuild), and every method interpolates it in √age: depth
+// and q·√age by cubic Hermite interpolation, temperatures along isotherms.
+// Ages beyond TableMaxAgeMa take the values at TableMaxAgeMa, where the plate
+// is close to its steady state (TestTDepMJP05Published).
 type tdepModel struct {
 	p     Params
 	props *tdepProps
