@@ -140,7 +140,7 @@ func TestTDepEnergyBalance(t *testing.T) {
 				gained += dt * (sol.baseQ[i] + sol.baseQ[i+1]) / 2000
 			}
 			dH := content(sol.temps[i0], sol.temps[i1])
-			t.Logf("surface loss %.4g J/m², base gain %.4g J/m², content change %.4g J/m²", lost, gained, dH)
+			t.Logf("surface loss %.4g J/m², base gain %.4g J/m², content change %.4g J/m², imbalance %.3f %% of the loss", lost, gained, dH, 100*(dH+lost-gained)/lost)
 			near(t, "content change + surface loss − base gain (J/m²)", dH+lost-gained, 0, 0.005*lost)
 		})
 	}
