@@ -398,6 +398,10 @@ func TestAPI(t *testing.T) {
 				t.Errorf("%d models", n)
 			}
 			e.want(e.get("/api/models/psm"), 200)
+			if !strings.Contains(string(e.get("/api/models").Body), `"plate-tdep-mjp05"`) {
+				t.Error("GET /api/models does not list the built-in plate-tdep-mjp05")
+			}
+			e.want(e.get("/api/models/plate-tdep-mjp05/curve?ages=0:200:50"), 200)
 			wantProblem(t, e.get("/api/models/nope"), 404, CodeNotFound)
 			c := e.get("/api/models/gdh1/curve?ages=10:100:45").json(t)
 			ages, depths := c["age_ma"].([]any), c["depth_m"].([]any)

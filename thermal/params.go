@@ -329,11 +329,13 @@ var builtins = func() map[string]Model {
 		}
 		m[p.ID] = mod
 	}
+	m[IDPlateTDepMJP05] = newTDep(mjp05Params(), mjp05Props(), tdepIntervals, tdepStepFactor)
 	return m
 }()
 
-// BuiltinIDs lists the built-in parameter sets: "halfspace", "psm", "gdh1".
-func BuiltinIDs() []string { return []string{IDHalfSpace, IDPSM, IDGDH1} }
+// BuiltinIDs lists the built-in models: "halfspace", "psm", "gdh1" and the
+// temperature-dependent plate "plate-tdep-mjp05" (solved on first use).
+func BuiltinIDs() []string { return []string{IDHalfSpace, IDPSM, IDGDH1, IDPlateTDepMJP05} }
 
 // Builtin returns the built-in model with the given id (case-insensitive,
 // surrounding spaces ignored). The same Model value is returned on every call,

