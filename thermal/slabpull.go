@@ -112,14 +112,26 @@ func SlabCoreDepthKm(m Model, ageMa, convergenceMmYr, dipDeg, isothermC float64)
 	a := aKm * 1000
 	kappa := p.EffectiveDiffusivityM2s()
 	tm := p.MantleTemperatureC
+	// θ(z, 0) at the nodes of a composite 64-panel, 16-point Gauss–Legendre rule, shared by
+	// every coefficient.
+	const panels, order = 64, 16
+	xs, ws := make([]float64, order), make([]float64, order)
+	quad.Legendre{}.FixedLocations(xs, ws, -1, 1)
+	zs, wt := make([]float64, 0, panels*order), make([]float64, 0, panels*order)
+	for i := 0; i < panels; i++ {
+		lo, hi := aKm*float64(i)/panels, aKm*float64(i+1)/panels
+		for k := range xs {
+			z := lo + (xs[k]+1)/2*(hi-lo)
+			zs = append(zs, z)
+			wt = append(wt, ws[k]*(hi-lo)/2*(tm-m.TemperatureC(z, ageMa)))
+		}
+	}
 	b := make([]float64, modes)
 	for n := range b {
 		k := float64(n+1) * math.Pi / aKm
-		f := func(zKm float64) float64 { return (tm - m.TemperatureC(zKm, ageMa)) * math.Sin(k*zKm) }
-		const panels = 64
 		s := 0.0
-		for i := 0; i < panels; i++ {
-			s += quad.Fixed(f, aKm*float64(i)/panels, aKm*float64(i+1)/panels, 16, quad.Legendre{}, 0)
+		for i, z := range zs {
+			s += wt[i] * math.Sin(k*z)
 		}
 		b[n] = 2 / aKm * s
 	}
@@ -155,7 +167,7 @@ func SlabCoreDepthKm(m Model, ageMa, convergenceMmYr, dipDeg, isothermC float64)
 	for maxDeficit(hi) > target {
 		lo, hi = hi, 2*hi
 	}
-	for i := 0; i < 60 && hi-lo > 1e-9*hi; i++ {
+	for i := 0; i < 60 && hi-lo > 1e-7*hi; i++ {
 		mid := (lo + hi) / 2
 		if maxDeficit(mid) > target {
 			lo = mid
