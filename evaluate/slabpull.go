@@ -183,3 +183,12 @@ func (r *SlabPullResult) SlabColumns() []CSVColumn {
 		{Name: SlabCoreDepthColumn, Values: d},
 	}
 }
+
+// SlabProvenance is the provenance of a slab answer: the question's grids, and the model, which
+// every slab value comes from (the question's only parameter, the seafloor age, names none).
+// It carries no navigation caution: a slab answer holds no predicted seafloor depth.
+func (s *Service) SlabProvenance(r *SlabPullResult) Provenance {
+	p := s.Provenance(r.Track.Query)
+	p.Model = s.ModelRef(r.Track.Query.Model)
+	return p
+}
