@@ -139,3 +139,12 @@ func TestSlabCoreDepth(t *testing.T) {
 		}
 	})
 }
+
+// One slab-core depth under GDH1 (the cost per sample of a slab answer along a trench).
+func BenchmarkSlabCoreDepth(b *testing.B) {
+	m := mustBuiltin(b, IDGDH1)
+	b.ReportAllocs()
+	for i := 0; b.Loop(); i++ {
+		SlabCoreDepthKm(m, 100+float64(i%50), 60, 45, SlabCoreIsothermC)
+	}
+}
