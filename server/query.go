@@ -6,7 +6,6 @@ import (
 	"math"
 	"mime"
 	"net/http"
-	"strconv"
 	"strings"
 
 	"github.com/paulmach/orb"
@@ -302,19 +301,28 @@ var trackFormats = map[string]string{
 // trajectoryPost takes the track file itself as the body: CSV (decimal degrees or degrees and
 // decimal minutes), GPX or GeoJSON, read once by geo.ParseTrack (waypoint names kept).
 func (s *server) trajectoryPost(w http.ResponseWriter, r *http.Request) error {
+	wps, err := readTrackBody(r)
+	if err != nil {
+		return err
+	}
+	return s.answerTrajectory(w, r, wps)
+}
+
+// readTrackBody reads a track sent as the request body (trajectoryPost's formats).
+func readTrackBody(r *http.Request) ([]geo.Waypoint, error) {
 	ct := r.Header.Get("Content-Type")
 	format := ""
 	if ct != "" {
 		mt, _, err := mime.ParseMediaType(ct)
 		f, ok := trackFormats[strings.ToLower(mt)]
 		if err != nil || !ok {
-			return problem(CodeUnsupportedMedia, "send the track as CSV (text/csv), GPX (application/gpx+xml) or GeoJSON (application/geo+json), not %q", ct)
+			return nil, problem(CodeUnsupportedMedia, "send the track as CSV (text/csv), GPX (application/gpx+xml) or GeoJSON (application/geo+json), not %q", ct)
 		}
 		format = f
 	}
 	body, err := io.ReadAll(r.Body)
 	if err != nil {
-		return err
+		return nil, err
 	}
 	if format == "" {
 		t := bytes.TrimLeft(bytes.TrimPrefix(body, []byte("\ufeff")), " \t\r\n")
@@ -327,14 +335,14 @@ func (s *server) trajectoryPost(w http.ResponseWriter, r *http.Request) error {
 	wps, err := geo.ParseTrack(body, format, math.MaxInt32)
 	if err != nil {
 		if f, ok := fault.As(err); ok && !(format == "geojson" && f.Kind == fault.InvalidTrack) {
-			return err
+			return nil, err
 		}
 		if format == "geojson" { // a JSON body that is no GeoJSON track
-			return problem(CodeInvalidGeoJSON, "%v", err).withParam("track").withCause(err)
+			return nil, problem(CodeInvalidGeoJSON, "%v", err).withParam("track").withCause(err)
 		}
-		return problem(CodeInvalidTrack, "%v", err).withParam("track").withCause(err)
+		return nil, problem(CodeInvalidTrack, "%v", err).withParam("track").withCause(err)
 	}
-	return s.answerTrajectory(w, r, wps)
+	return wps, nil
 }
 
 func (s *server) answerTrajectory(w http.ResponseWriter, r *http.Request, wps []geo.Waypoint) error {
@@ -342,15 +350,11 @@ func (s *server) answerTrajectory(w http.ResponseWriter, r *http.Request, wps []
 	if err != nil {
 		return err
 	}
-	spacingKm := 0.0
-	if v := r.URL.Query().Get("spacing-km"); v != "" {
-		f, err := strconv.ParseFloat(v, 64)
-		if err != nil || !(f > 0) || math.IsInf(f, 0) {
-			return problem(CodeInvalidParameter, "spacing-km=%q must be a positive number", v).withParam("spacing-km")
-		}
-		spacingKm = f
+	km, err := spacingKm(r)
+	if err != nil {
+		return err
 	}
-	res, err := s.ev.Track(r.Context(), chi.URLParam(r, "datasetId"), queryOptions(r), wps, spacingKm)
+	res, err := s.ev.Track(r.Context(), chi.URLParam(r, "datasetId"), queryOptions(r), wps, km)
 	if err != nil {
 		return err
 	}

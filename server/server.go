@@ -228,6 +228,8 @@ func (s *server) routes() http.Handler {
 			r.Get("/trajectory", s.h(s.trajectory))
 			r.With(s.bodyLimit(s.limits.MaxBodyBytes)).Post("/trajectory", s.h(s.trajectoryPost))
 			r.Get("/corridor", s.h(s.corridor))
+			r.Get("/slab-pull", s.h(s.slabPull))
+			r.With(s.bodyLimit(s.limits.MaxBodyBytes)).Post("/slab-pull", s.h(s.slabPullPost))
 			r.Get("/locations", s.h(s.locationsList))
 			r.Get("/locations/{regionId}", s.h(s.location))
 			r.Get("/locations/{regionId}/statistics", s.h(s.locationStatistics))
