@@ -125,7 +125,7 @@ func mjp05Params() Params {
 	pr := mjp05Props()
 	const tm = 1315.0
 	return Params{
-		ID: IDPlateTDepMJP05, Name: "Plate, temperature-dependent properties (MJP05)", Kind: KindPlateTDep,
+		ID: IDPlateTDepMJP05, Name: "Plate, temperature-dependent properties (MJP05 set; experimental: no pressure dependence or crust, subsides ~0.9 km too far at 100 Ma)", Kind: KindPlateTDep,
 		PlateThicknessKm: 106, MantleTemperatureC: tm, SurfaceTemperatureC: 0,
 		ExpansivityPerK:   pr.a0 + pr.a1*(tm+273.15),
 		ConductivityWmK:   pr.k(tm),
