@@ -279,17 +279,18 @@ func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig
 
 // spreadTable is the predicted depth's uncertainty for one model and one single age uncertainty
 // σ on thermal's bit-indexed float32 age nodes (thermal.Float32Nodes), for the ages the
-// sampling branch covers. Node j is kept only where every age of it is sampled
-// (SamplingRatio·x_{j+1} < σ); there the node interpolates the sampled spread linearly between
-// its ends, whose values are in turn interpolated linearly from sampledSpread at spreadIntervals+1
-// ages uniform over [0, σ/SamplingRatio]. Ages past the table take the first-order branch from
-// the subsidence-rate nodes (from node first on) or depthSpread (the one node straddling the
-// switch, ages beyond the model's table, NaN and negative ages). The interpolation differs from
-// the direct quadrature by at most 1e-4 of its value plus 1 mm (TestSpreadTableMatchesQuadrature,
-// over σ from 0.01 to 300 Ma and ages from 0 to the switch).
+// sampling branch covers: the float32 ages whose bits are below switchBits, the first with
+// σ ≤ SamplingRatio·age (the branch test of ageSpread, so each age takes the same branch as
+// before). A node interpolates the sampled spread linearly between its ends, whose values are
+// in turn interpolated linearly from sampledSpread at spreadIntervals+1 ages uniform over
+// [0, σ/SamplingRatio]. Ages from switchBits on take the first-order branch from the
+// subsidence-rate nodes, bit for bit as depthSpread; ages beyond the model's table, NaN and
+// negative ages take depthSpread. The interpolation differs from the direct quadrature by at
+// most spreadTableTol: 1e-4 of its value plus 1 mm (TestSpreadTableMatchesQuadrature, over σ
+// from 0.01 to 300 Ma and ages from 0 to the switch; largest seen 1.5e-5 of the value).
 type spreadTable struct {
-	nodes []spreadNode
-	first uint // first node wholly on the first-order branch
+	nodes      []spreadNode
+	switchBits uint32
 }
 
 // spreadNode is one node of a spreadTable, laid out and read as thermal.Float32Node: the value
@@ -349,18 +350,20 @@ func newSpreadTable(tbl *thermal.Table, sigmaMa float64) *spreadTable {
 		f := x - float64(i)
 		return coarse[i] + f*(coarse[i+1]-coarse[i])
 	}
+	// the first float32 age on the first-order branch (σ ≤ SamplingRatio·age is monotone in
+	// age, and the bits of non-negative float32 values are ordered as the values)
+	lo, hi := uint32(0), uint32(0x7f800000) // +Inf is on the first-order side
+	for lo < hi {
+		mid := lo + (hi-lo)/2
+		if sigmaMa <= SamplingRatio*float64(math.Float32frombits(mid)) {
+			hi = mid
+		} else {
+			lo = mid + 1
+		}
+	}
+	n := min(int((lo+(1<<thermal.Float32NodeShift-1))>>thermal.Float32NodeShift), thermal.AgeNodeCount)
 	nodeStart := func(j int) float64 { return float64(math.Float32frombits(uint32(j) << thermal.Float32NodeShift)) }
-	// nodes wholly sampled: SamplingRatio·x_{j+1} < σ, so every float32 age a < x_{j+1} has
-	// SamplingRatio·a < σ and takes the sampling branch of ageSpread.
-	n := 0
-	for n < thermal.AgeNodeCount && SamplingRatio*nodeStart(n+1) < sigmaMa {
-		n++
-	}
-	first := n
-	for first < thermal.AgeNodeCount && !(sigmaMa <= SamplingRatio*nodeStart(first)) {
-		first++
-	}
-	t := &spreadTable{nodes: make([]spreadNode, n), first: uint(first)}
+	t := &spreadTable{nodes: make([]spreadNode, n), switchBits: lo}
 	v0 := interp(0)
 	for j := range n {
 		v1 := interp(nodeStart(j + 1))
@@ -376,14 +379,14 @@ func newSpreadTable(tbl *thermal.Table, sigmaMa float64) *spreadTable {
 func (p *residualPlan) depthSpreadRow(dst, age []float32, s float64) {
 	dst = dst[:len(age)]
 	samp := p.spread.nodes
-	first := p.spread.first
+	sw := p.spread.switchBits
 	rate := p.rate
 	for i, ab := range float32Bits(age) {
 		j := uint(ab >> thermal.Float32NodeShift)
 		switch {
-		case j < uint(len(samp)):
+		case ab < sw && j < uint(len(samp)):
 			dst[i] = samp[j].at(ab)
-		case j >= first && j < uint(len(rate)):
+		case ab >= sw && j < uint(len(rate)):
 			dst[i] = float32(math.Abs(float64(rate[j].At(ab))) * s)
 		default:
 			dst[i] = float32(p.depthSpread(age[i], s))
@@ -394,12 +397,13 @@ func (p *residualPlan) depthSpreadRow(dst, age []float32, s float64) {
 // depthSpread is the predicted depth's uncertainty at age a (float32, as the grids hold it) for
 // σ = s: ageSpread of the table's depth with the model's subsidence rate as derivative, the
 // first-order branch reading the rate from its float32 nodes (one lookup; the nodes resample
-// SubsidenceRateMPerMyr to about 1e-6 of its value, as thermal's heat-flow nodes do).
+// SubsidenceRateMPerMyr to about 1e-6 of its value, as thermal's heat-flow nodes do). For the
+// question's single σ the sampling branch reads p.spread instead (see spreadTable).
 func (p *residualPlan) depthSpread(a float32, s float64) float64 {
 	af := float64(a)
 	if p.spread != nil && s == p.sigmaMa {
 		b := math.Float32bits(a)
-		if j := uint(b >> thermal.Float32NodeShift); j < uint(len(p.spread.nodes)) {
+		if j := uint(b >> thermal.Float32NodeShift); b < p.spread.switchBits && j < uint(len(p.spread.nodes)) {
 			return float64(p.spread.nodes[j].at(b))
 		}
 	}
