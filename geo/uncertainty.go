@@ -201,13 +201,18 @@ func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig
 	}
 	var pdRow []float32 // the depth uncertainty of the row, for a single σ with its table
 	if p.spread != nil && sig == nil && (predSig != nil || resSig != nil) {
+		simple := !p.hasMask && push == nil && hfSig == nil && thickSig == nil && (resSig == nil || res != nil)
+		if simple && predSig == nil {
+			// The common question (the residual's uncertainty alone): one pass.
+			p.depthSpreadRow(resSig, age, res, p.sigmaMa)
+			return
+		}
 		pdRow = w.spread
 		if predSig != nil {
 			pdRow = predSig
 		}
-		p.depthSpreadRow(pdRow, age, p.sigmaMa)
-		if !p.hasMask && push == nil && hfSig == nil && thickSig == nil && (resSig == nil || res != nil) {
-			// The common question (depth or residual uncertainty alone): done in one pass.
+		p.depthSpreadRow(pdRow, age, nil, p.sigmaMa)
+		if simple {
 			if resSig != nil {
 				res = res[:len(resSig)]
 				pdRow = pdRow[:len(resSig)]
@@ -375,22 +380,32 @@ func newSpreadTable(tbl *thermal.Table, sigmaMa float64) *spreadTable {
 
 // depthSpreadRow writes the predicted depth's uncertainty at every age of the row for the
 // single σ = s of the question (p.spread built for it): one node lookup per cell on either
-// branch, depthSpread for the rest (see spreadTable).
-func (p *residualPlan) depthSpreadRow(dst, age []float32, s float64) {
+// branch, depthSpread for the rest (see spreadTable). If res is not nil (the row's residual
+// depth, as long as age), dst is NaN where res is.
+func (p *residualPlan) depthSpreadRow(dst, age, res []float32, s float64) {
 	dst = dst[:len(age)]
+	if res != nil {
+		res = res[:len(age)]
+	}
 	samp := p.spread.nodes
 	sw := p.spread.switchBits
 	rate := p.rate
+	nan := float32(math.NaN())
 	for i, ab := range float32Bits(age) {
 		j := uint(ab >> thermal.Float32NodeShift)
+		var y float32
 		switch {
 		case ab < sw && j < uint(len(samp)):
-			dst[i] = samp[j].at(ab)
+			y = samp[j].at(ab)
 		case ab >= sw && j < uint(len(rate)):
-			dst[i] = float32(math.Abs(float64(rate[j].At(ab))) * s)
+			y = float32(math.Abs(float64(rate[j].At(ab))) * s)
 		default:
-			dst[i] = float32(p.depthSpread(age[i], s))
+			y = float32(p.depthSpread(age[i], s))
 		}
+		if res != nil && res[i] != res[i] {
+			y = nan
+		}
+		dst[i] = y
 	}
 }
 

@@ -444,7 +444,7 @@ func TestSpreadTableMatchesQuadrature(t *testing.T) {
 				}
 				ages = append(ages, math.Nextafter32(float32(end), 0), float32(end), float32(1.01*end), float32(3*end))
 				row := make([]float32, len(ages))
-				p.depthSpreadRow(row, ages, sigma)
+				p.depthSpreadRow(row, ages, nil, sigma)
 				worst := 0.0
 				for i, a := range ages {
 					want := float32(ageSpread(tbl.DepthM, tbl.SubsidenceRateMPerMyr, float64(a), sigma))
