@@ -31,6 +31,11 @@ import (
 //     spreadPanels panels of spreadPoints points, each node weighted by the normal density
 //     and the weights normalised to sum to one.
 //
+// For a question's single σ the sampled depth uncertainty is tabulated over age once per model
+// and σ (spreadTable, within 1e-4 of the value plus 1 mm of the direct quadrature), so a grid
+// cell costs one node lookup on either branch; with an age-uncertainty grid every sampled cell
+// is integrated directly.
+//
 // Heat flow grows like 1/√age, so where the distribution reaches age 0 its variance is
 // unbounded (the integral of 1/t diverges at t → 0): there the rule's finite value is a lower
 // bound, set by its nodes. Only age uncertainty is propagated: the observed depth, sediment and
@@ -310,6 +315,8 @@ func (e spreadNode) at(bits uint32) float32 {
 // spread is found by quadrature when a spreadTable is built (513 quadratures of 32 points).
 const spreadIntervals = 512
 
+const maxSpreadTables = 32
+
 var spreadTables struct {
 	sync.Mutex
 	m map[spreadKey]*spreadTable
@@ -321,7 +328,8 @@ type spreadKey struct {
 }
 
 // spreadTableFor returns the cached spread table of model m (table tbl) for σ = sigmaMa > 0
-// (finite), built on first use (about a millisecond); at most thermal.MaxCachedTables are kept.
+// (finite), built on first use (about a millisecond); at most maxSpreadTables (of up to 280 KiB)
+// are kept.
 func spreadTableFor(m thermal.Model, tbl *thermal.Table, sigmaMa float64) *spreadTable {
 	key := spreadKey{m.Params(), sigmaMa}
 	spreadTables.Lock()
@@ -335,7 +343,7 @@ func spreadTableFor(m thermal.Model, tbl *thermal.Table, sigmaMa float64) *sprea
 	if spreadTables.m == nil {
 		spreadTables.m = make(map[spreadKey]*spreadTable)
 	}
-	if len(spreadTables.m) < thermal.MaxCachedTables {
+	if len(spreadTables.m) < maxSpreadTables {
 		spreadTables.m[key] = t
 	}
 	spreadTables.Unlock()
@@ -392,20 +400,21 @@ func (p *residualPlan) depthSpreadRow(dst, age, res []float32, s float64) {
 	rate := p.rate
 	nan := float32(math.NaN())
 	for i, ab := range float32Bits(age) {
+		if res != nil && res[i] != res[i] {
+			dst[i] = nan // no residual (land, no data): no lookup
+			continue
+		}
 		j := uint(ab >> thermal.Float32NodeShift)
-		var y float32
 		switch {
 		case ab < sw && j < uint(len(samp)):
-			y = samp[j].at(ab)
+			dst[i] = samp[j].at(ab)
 		case ab >= sw && j < uint(len(rate)):
-			y = float32(math.Abs(float64(rate[j].At(ab))) * s)
+			dst[i] = float32(math.Abs(float64(rate[j].At(ab))) * s)
+		case ab&^signBit32 > infBits32:
+			dst[i] = nan // NaN age
 		default:
-			y = float32(p.depthSpread(age[i], s))
+			dst[i] = float32(p.depthSpread(age[i], s))
 		}
-		if res != nil && res[i] != res[i] {
-			y = nan
-		}
-		dst[i] = y
 	}
 }
 
