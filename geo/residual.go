@@ -455,7 +455,8 @@ type residualPlan struct {
 	sigma     residualSource // the age-uncertainty grid, if any
 	sigmaMa   float64        // the single age uncertainty where there is no grid
 	push      *ridgePushTable
-	rate      *ageNodes // subsidence-rate nodes (thermal.Table.SubsidenceRateNodes), for depth uncertainties
+	rate      *ageNodes    // subsidence-rate nodes (thermal.Table.SubsidenceRateNodes), for depth uncertainties
+	spread    *spreadTable // the depth uncertainty's table for the single age uncertainty, if any
 }
 
 // residualSource maps output rows to rows of one input grid.
@@ -472,6 +473,7 @@ type residualWorker struct {
 	depth, sed, crust, age []float32 // row scratch
 	mask                   []bool    // row scratch
 	sigma                  []float32 // row scratch of the age-uncertainty grid
+	spread                 []float32 // row scratch of the depth uncertainty (single σ)
 }
 
 type residualDst struct {
@@ -675,6 +677,9 @@ func (p *residualPlan) newWorker() *residualWorker {
 	}
 	if p.sigma.g != nil {
 		w.sigma = make([]float32, nx)
+	}
+	if p.spread != nil {
+		w.spread = make([]float32, nx)
 	}
 	if p.hasMask {
 		w.age = make([]float32, nx)

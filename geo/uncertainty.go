@@ -31,6 +31,11 @@ import (
 //     spreadPanels panels of spreadPoints points, each node weighted by the normal density
 //     and the weights normalised to sum to one.
 //
+// For a question's single σ the sampled depth uncertainty is tabulated over age once per model
+// and σ (spreadTable, within 1e-4 of the value plus 1 mm of the direct quadrature), so a grid
+// cell costs one node lookup on either branch; with an age-uncertainty grid every sampled cell
+// is integrated directly.
+//
 // Heat flow grows like 1/√age, so where the distribution reaches age 0 its variance is
 // unbounded (the integral of 1/t diverges at t → 0): there the rule's finite value is a lower
 // bound, set by its nodes. Only age uncertainty is propagated: the observed depth, sediment and
@@ -199,6 +204,34 @@ func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig
 			crust = p.crust.row(p, r, w.crust)
 		}
 	}
+	var pdRow []float32 // the depth uncertainty of the row, for a single σ with its table
+	if p.spread != nil && sig == nil && (predSig != nil || resSig != nil) {
+		simple := !p.hasMask && push == nil && hfSig == nil && thickSig == nil && (resSig == nil || res != nil)
+		if simple && predSig == nil {
+			// The common question (the residual's uncertainty alone): one pass.
+			p.depthSpreadRow(resSig, age, res, p.sigmaMa)
+			return
+		}
+		pdRow = w.spread
+		if predSig != nil {
+			pdRow = predSig
+		}
+		p.depthSpreadRow(pdRow, age, nil, p.sigmaMa)
+		if simple {
+			if resSig != nil {
+				res = res[:len(resSig)]
+				pdRow = pdRow[:len(resSig)]
+				for i, v := range res {
+					if v != v {
+						resSig[i] = nan
+					} else {
+						resSig[i] = pdRow[i]
+					}
+				}
+			}
+			return
+		}
+	}
 	for i, a32 := range age {
 		if p.hasMask && !p.mask.Get(r*nx+i) {
 			a32 = nan
@@ -215,7 +248,12 @@ func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig
 			s = float64(sig[i])
 		}
 		var pd float64
-		if predSig != nil || resSig != nil {
+		switch {
+		case pdRow != nil && a32 != a32:
+			pd = math.NaN() // masked (pdRow holds the unmasked age's value)
+		case pdRow != nil:
+			pd = float64(pdRow[i])
+		case predSig != nil || resSig != nil:
 			pd = p.depthSpread(a32, s)
 		}
 		if predSig != nil {
@@ -249,12 +287,150 @@ func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig
 	}
 }
 
+// spreadTable is the predicted depth's uncertainty for one model and one single age uncertainty
+// σ on thermal's bit-indexed float32 age nodes (thermal.Float32Nodes), for the ages the
+// sampling branch covers: the float32 ages whose bits are below switchBits, the first with
+// σ ≤ SamplingRatio·age (the branch test of ageSpread, so each age takes the same branch as
+// before). A node interpolates the sampled spread linearly between its ends, whose values are
+// in turn interpolated linearly from sampledSpread at spreadIntervals+1 ages uniform over
+// [0, σ/SamplingRatio]. Ages from switchBits on take the first-order branch from the
+// subsidence-rate nodes, bit for bit as depthSpread; ages beyond the model's table, NaN and
+// negative ages take depthSpread. The interpolation differs from the direct quadrature by at
+// most spreadTableTol: 1e-4 of its value plus 1 mm (TestSpreadTableMatchesQuadrature, over σ
+// from 0.01 to 300 Ma and ages from 0 to the switch; largest seen 1.5e-5 of the value).
+type spreadTable struct {
+	nodes      []spreadNode
+	switchBits uint32
+}
+
+// spreadNode is one node of a spreadTable, laid out and read as thermal.Float32Node: the value
+// at the node's start and the change per unit of the low thermal.Float32NodeShift bits.
+type spreadNode struct{ v, d float32 }
+
+func (e spreadNode) at(bits uint32) float32 {
+	return e.v + float32(bits&(1<<thermal.Float32NodeShift-1))*e.d
+}
+
+// spreadIntervals is the number of uniform age intervals over [0, σ/SamplingRatio] at which the
+// spread is found by quadrature when a spreadTable is built (513 quadratures of 32 points).
+const spreadIntervals = 512
+
+const maxSpreadTables = 32
+
+var spreadTables struct {
+	sync.Mutex
+	m map[spreadKey]*spreadTable
+}
+
+type spreadKey struct {
+	p     thermal.Params
+	sigma float64
+}
+
+// spreadTableFor returns the cached spread table of model m (table tbl) for σ = sigmaMa > 0
+// (finite), built on first use (about a millisecond); at most maxSpreadTables (of up to 280 KiB)
+// are kept.
+func spreadTableFor(m thermal.Model, tbl *thermal.Table, sigmaMa float64) *spreadTable {
+	key := spreadKey{m.Params(), sigmaMa}
+	spreadTables.Lock()
+	t, ok := spreadTables.m[key]
+	spreadTables.Unlock()
+	if ok {
+		return t
+	}
+	t = newSpreadTable(tbl, sigmaMa)
+	spreadTables.Lock()
+	if spreadTables.m == nil {
+		spreadTables.m = make(map[spreadKey]*spreadTable)
+	}
+	if len(spreadTables.m) < maxSpreadTables {
+		spreadTables.m[key] = t
+	}
+	spreadTables.Unlock()
+	return t
+}
+
+func newSpreadTable(tbl *thermal.Table, sigmaMa float64) *spreadTable {
+	end := sigmaMa / SamplingRatio
+	h := end / spreadIntervals
+	var coarse [spreadIntervals + 1]float64
+	for i := range coarse {
+		coarse[i] = sampledSpread(tbl.DepthM, float64(i)*h, sigmaMa)
+	}
+	interp := func(a float64) float64 {
+		x := a / h
+		i := min(int(x), spreadIntervals-1)
+		f := x - float64(i)
+		return coarse[i] + f*(coarse[i+1]-coarse[i])
+	}
+	// the first float32 age on the first-order branch (σ ≤ SamplingRatio·age is monotone in
+	// age, and the bits of non-negative float32 values are ordered as the values)
+	lo, hi := uint32(0), uint32(0x7f800000) // +Inf is on the first-order side
+	for lo < hi {
+		mid := lo + (hi-lo)/2
+		if sigmaMa <= SamplingRatio*float64(math.Float32frombits(mid)) {
+			hi = mid
+		} else {
+			lo = mid + 1
+		}
+	}
+	n := min(int((lo+(1<<thermal.Float32NodeShift-1))>>thermal.Float32NodeShift), thermal.AgeNodeCount)
+	nodeStart := func(j int) float64 { return float64(math.Float32frombits(uint32(j) << thermal.Float32NodeShift)) }
+	t := &spreadTable{nodes: make([]spreadNode, n), switchBits: lo}
+	v0 := interp(0)
+	for j := range n {
+		v1 := interp(nodeStart(j + 1))
+		t.nodes[j] = spreadNode{float32(v0), float32((v1 - v0) / (1 << thermal.Float32NodeShift))}
+		v0 = v1
+	}
+	return t
+}
+
+// depthSpreadRow writes the predicted depth's uncertainty at every age of the row for the
+// single σ = s of the question (p.spread built for it): one node lookup per cell on either
+// branch, depthSpread for the rest (see spreadTable). If res is not nil (the row's residual
+// depth, as long as age), dst is NaN where res is.
+func (p *residualPlan) depthSpreadRow(dst, age, res []float32, s float64) {
+	dst = dst[:len(age)]
+	if res != nil {
+		res = res[:len(age)]
+	}
+	samp := p.spread.nodes
+	sw := p.spread.switchBits
+	rate := p.rate
+	nan := float32(math.NaN())
+	for i, ab := range float32Bits(age) {
+		if res != nil && res[i] != res[i] {
+			dst[i] = nan // no residual (land, no data): no lookup
+			continue
+		}
+		j := uint(ab >> thermal.Float32NodeShift)
+		switch {
+		case ab < sw && j < uint(len(samp)):
+			dst[i] = samp[j].at(ab)
+		case ab >= sw && j < uint(len(rate)):
+			dst[i] = float32(math.Abs(float64(rate[j].At(ab))) * s)
+		case ab&^signBit32 > infBits32:
+			dst[i] = nan // NaN age
+		default:
+			dst[i] = float32(p.depthSpread(age[i], s))
+		}
+	}
+}
+
 // depthSpread is the predicted depth's uncertainty at age a (float32, as the grids hold it) for
 // σ = s: ageSpread of the table's depth with the model's subsidence rate as derivative, the
 // first-order branch reading the rate from its float32 nodes (one lookup; the nodes resample
-// SubsidenceRateMPerMyr to about 1e-6 of its value, as thermal's heat-flow nodes do).
+// SubsidenceRateMPerMyr to about 1e-6 of its value, as thermal's heat-flow nodes do). For the
+// question's single σ the sampling branch reads p.spread instead (see spreadTable).
 func (p *residualPlan) depthSpread(a float32, s float64) float64 {
 	af := float64(a)
+	if p.spread != nil && s == p.sigmaMa {
+		b := math.Float32bits(a)
+		if j := uint(b >> thermal.Float32NodeShift); b < p.spread.switchBits && j < uint(len(p.spread.nodes)) {
+			return float64(p.spread.nodes[j].at(b))
+		}
+	}
 	if s > 0 && s <= SamplingRatio*af {
 		b := math.Float32bits(a)
 		if j := uint(b >> thermal.Float32NodeShift); j < uint(len(p.rate)) {
@@ -326,6 +502,9 @@ func (p *residualPlan) prepareUnc(in Inputs) error {
 		return fault.New(fault.UnknownParameter, AgeSigmaField, "the uncertainty parameters need an age-uncertainty grid or a single age uncertainty (%s)", AgeSigmaField)
 	}
 	p.sigmaMa = in.AgeSigmaMa
+	if p.rate != nil {
+		p.spread = spreadTableFor(in.Model, p.tbl, p.sigmaMa)
+	}
 	return nil
 }
 
