@@ -123,7 +123,10 @@ func (s *Service) Resolve(ctx context.Context, d *Dataset, o Options) (*Query, e
 	seen := map[string]bool{}
 	for _, n := range o.Parameters {
 		n = strings.TrimSpace(n)
-		if n == "" || seen[n] {
+		if n == "" {
+			return nil, fault.New(fault.UnknownParameter, "parameter-name", "parameter-name has an empty name (a stray comma?); choose from %s", strings.Join(ParameterIDs(), ", "))
+		}
+		if seen[n] {
 			continue
 		}
 		seen[n] = true

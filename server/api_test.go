@@ -431,6 +431,8 @@ func TestAPI(t *testing.T) {
 			wantProblem(t, e.get("/api/models/gdh1/curve?ages=0:500:1"), 422, CodeAgeOutOfRange)
 			wantProblem(t, e.get("/api/models/gdh1/curve?ages=a:b"), 400, CodeInvalidParameter)
 			wantProblem(t, e.get("/api/models/gdh1/curve?ages=0:100000:0.001"), 422, CodeLimitExceeded)
+			// A stray comma in parameter-name is refused, not dropped.
+			wantProblem(t, e.get(ds+"/position?coords="+at(clon, clat)+"&parameter-name=seafloor_age,"), 400, CodeUnknownParameter)
 			// Spans and steps whose count overflows an integer are over the limit, not a panic.
 			for _, q := range []string{"ages=0:1e308:1e-308", "ages=0:1:5e-324", "depths=0:1e308:1e-308"} {
 				path := "/api/models/gdh1/curve?" + q

@@ -35,13 +35,10 @@ func queryOptions(r *http.Request) evaluate.Options {
 		o.AgeUncertaintyMa = u
 	}
 	if names := q.Get("parameter-name"); names != "" {
+		// Every name is kept, empty ones too ("a,,b", a trailing comma): the service refuses
+		// an empty name rather than this layer dropping it silently.
 		for _, n := range strings.Split(names, ",") {
-			if n = strings.TrimSpace(n); n != "" {
-				o.Parameters = append(o.Parameters, n)
-			}
-		}
-		if len(o.Parameters) == 0 {
-			o.Parameters = []string{""} // present but empty: let the service say so
+			o.Parameters = append(o.Parameters, strings.TrimSpace(n))
 		}
 	}
 	return o
