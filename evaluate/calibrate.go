@@ -245,7 +245,7 @@ func (s *Service) calibrationSpec(ctx context.Context, req CalibrateRequest) (Fi
 // checkNewModelID refuses an id a new custom model cannot take (bad characters, built-in, or
 // taken) before any work is done.
 func (s *Service) checkNewModelID(ctx context.Context, id string) error {
-	if !ValidModelID(id) {
+	if !ValidID(id) {
 		return fault.New(fault.InvalidParameter, "save_as", "save_as %q must be 1 to 64 characters from a-z, 0-9, '-' and '_'", id)
 	}
 	if IsBuiltin(id) {
@@ -259,9 +259,9 @@ func (s *Service) checkNewModelID(ctx context.Context, id string) error {
 	return nil
 }
 
-// ValidModelID accepts ids of 1 to 64 characters from a-z, 0-9, '-' and '_' (the ids the store
-// and the API accept).
-func ValidModelID(id string) bool {
+// ValidID accepts the ids clients may choose for what they store (models, regions, datasets):
+// 1 to 64 characters from a-z, 0-9, '-' and '_'. It is the one rule every way in applies.
+func ValidID(id string) bool {
 	if id == "" || len(id) > 64 {
 		return false
 	}

@@ -99,19 +99,8 @@ func (s *server) createModel(w http.ResponseWriter, r *http.Request) error {
 	return writeJSON(w, http.StatusCreated, "", s.modelJSON(r, p, false))
 }
 
-// validID accepts ids of 1..64 characters from [a-z0-9_-] (stored ids of
-// models, regions, grids and datasets).
-func validID(id string) bool {
-	if id == "" || len(id) > 64 {
-		return false
-	}
-	for _, c := range id {
-		if !(c >= 'a' && c <= 'z' || c >= '0' && c <= '9' || c == '-' || c == '_') {
-			return false
-		}
-	}
-	return true
-}
+// validID is evaluate.ValidID, the one rule for ids clients choose.
+func validID(id string) bool { return evaluate.ValidID(id) }
 
 // parseRange reads "start:stop:step" (inclusive of stop when it falls on a
 // step) or a single number.
