@@ -42,27 +42,18 @@ type CorridorResult struct {
 // more samples in all (along × across) than Limits.MaxTrackSamples is
 // fault.Over("max_track_samples").
 func (s *Service) Corridor(ctx context.Context, datasetID string, o Options, waypoints []geo.Waypoint, widthKm, spacingKm float64) (*CorridorResult, error) {
-	if len(waypoints) > s.limits.MaxVertices {
-		return nil, fault.Over("max_vertices", int64(s.limits.MaxVertices), int64(len(waypoints)), "coords",
-			"the corridor's centre line has %d waypoints; the limit is %d", len(waypoints), s.limits.MaxVertices)
-	}
-	wps, err := geo.ValidateWaypoints(waypoints, s.limits.MaxVertices)
+	wps, err := s.trackLine(waypoints, "the corridor's centre line", spacingKm)
 	if err != nil {
-		return nil, trackFault(err)
+		return nil, err
 	}
 	if !(widthKm > 0) || widthKm > MaxCorridorWidthKm {
 		return nil, fault.New(fault.InvalidParameter, "corridor-width", "the corridor width must be a positive number of at most %g km, not %g km", MaxCorridorWidthKm, widthKm)
-	}
-	if math.IsNaN(spacingKm) || math.IsInf(spacingKm, 0) {
-		return nil, fault.New(fault.InvalidParameter, "spacing-km", "spacing-km must be a positive number")
 	}
 	q, err := s.load(ctx, datasetID, o)
 	if err != nil {
 		return nil, err
 	}
-	if spacingKm <= 0 {
-		spacingKm = q.Dataset.AgeHeader().DY * 111.32 // as Track
-	}
+	spacingKm = sampleSpacingKm(q.Dataset, spacingKm)
 	cg, err := corridorSamples(gdal.WGS84(), wps, spacingKm*1000, widthKm*500, s.limits.MaxTrackSamples)
 	if err != nil {
 		return nil, trackFault(err)

@@ -65,10 +65,7 @@ func (s *Service) CheckPlan(ctx context.Context, p survey.Plan, progress func(fr
 	if err != nil {
 		return nil, planFault(err)
 	}
-	spacingKm := st.SpacingKm
-	if spacingKm <= 0 {
-		spacingKm = q.Dataset.AgeHeader().DY * 111.32 // as Service.Track
-	}
+	spacingKm := sampleSpacingKm(q.Dataset, st.SpacingKm)
 	g := gdal.WGS84()
 	wps := make([][]geo.Waypoint, len(p.Lines))
 	legs := make([][]geo.Leg, len(p.Lines))

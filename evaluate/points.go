@@ -242,26 +242,15 @@ type TrackResult struct {
 // Limits.MaxVertices is fault.Over("max_vertices"), more samples than Limits.MaxTrackSamples
 // fault.Over("max_track_samples").
 func (s *Service) Track(ctx context.Context, datasetID string, o Options, waypoints []geo.Waypoint, spacingKm float64) (*TrackResult, error) {
-	if len(waypoints) > s.limits.MaxVertices {
-		return nil, fault.Over("max_vertices", int64(s.limits.MaxVertices), int64(len(waypoints)), "coords",
-			"the track has %d waypoints; the limit is %d", len(waypoints), s.limits.MaxVertices)
-	}
-	wps, err := geo.ValidateWaypoints(waypoints, s.limits.MaxVertices)
+	wps, err := s.trackLine(waypoints, "the track", spacingKm)
 	if err != nil {
-		return nil, trackFault(err)
-	}
-	if math.IsNaN(spacingKm) || math.IsInf(spacingKm, 0) {
-		return nil, fault.New(fault.InvalidParameter, "spacing-km", "spacing-km must be a positive number")
+		return nil, err
 	}
 	q, err := s.load(ctx, datasetID, o)
 	if err != nil {
 		return nil, err
 	}
-	if spacingKm <= 0 {
-		// The age grid's row spacing at a nominal 111.32 km per degree (2π × 6378.137 km / 360,
-		// the WGS84 equatorial radius; worked by hand).
-		spacingKm = q.Dataset.AgeHeader().DY * 111.32
-	}
+	spacingKm = sampleSpacingKm(q.Dataset, spacingKm)
 	samples, err := geo.Densify(gdal.WGS84(), wps, spacingKm*1000, s.limits.MaxTrackSamples)
 	if err != nil {
 		return nil, trackFault(err)
@@ -297,4 +286,32 @@ func trackFault(err error) error {
 		return err
 	}
 	return fault.New(fault.InvalidTrack, "coords", "%v", err)
+}
+
+// trackLine checks the waypoints of a line to sample (a track, a corridor's centre line): at
+// most Limits.MaxVertices (fault.Over("max_vertices")), valid positions (geo.ValidateWaypoints,
+// longitudes wrapped), and a finite spacing-km. what names the line in messages.
+func (s *Service) trackLine(waypoints []geo.Waypoint, what string, spacingKm float64) ([]geo.Waypoint, error) {
+	if len(waypoints) > s.limits.MaxVertices {
+		return nil, fault.Over("max_vertices", int64(s.limits.MaxVertices), int64(len(waypoints)), "coords",
+			"%s has %d waypoints; the limit is %d", what, len(waypoints), s.limits.MaxVertices)
+	}
+	wps, err := geo.ValidateWaypoints(waypoints, s.limits.MaxVertices)
+	if err != nil {
+		return nil, trackFault(err)
+	}
+	if math.IsNaN(spacingKm) || math.IsInf(spacingKm, 0) {
+		return nil, fault.New(fault.InvalidParameter, "spacing-km", "spacing-km must be a positive number")
+	}
+	return wps, nil
+}
+
+// sampleSpacingKm is the along-line sample spacing: spacingKm when positive, else the age grid's
+// row spacing at a nominal 111.32 km per degree (2π × 6378.137 km / 360, the WGS84 equatorial
+// radius; worked by hand). Tracks, corridors and plan checks all use it.
+func sampleSpacingKm(d *Dataset, spacingKm float64) float64 {
+	if spacingKm > 0 {
+		return spacingKm
+	}
+	return d.AgeHeader().DY * 111.32
 }
