@@ -68,4 +68,4 @@ fmt: ## gofmt every Go file
 	gofmt -w $$(git ls-files '*.go')
 
 clean: ## remove build outputs (keeps ./data)
-	rm -rf bin build web/dist/assets web/dist/*.js web/dist/*.css web/dist/*.html
+	rm -rf bin build web/dist/assets web/dist/*.js web/dist/*.css web/dist/*.map web/dist/*.html

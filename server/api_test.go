@@ -677,7 +677,7 @@ func TestReadAuth(t *testing.T) {
 // Content-Security-Policy that allows this origin only (OWASP secure headers, common practice).
 func TestSecurityHeaders(t *testing.T) {
 	e := newEnv(t, "sqlite", Config{})
-	for _, p := range []string{"/", "/app.js", "/api/collections", "/healthz"} {
+	for _, p := range []string{"/", "/app-R4GYCEPN.js", "/api/collections", "/healthz"} {
 		r := e.get(p)
 		if r.Header.Get("X-Content-Type-Options") != "nosniff" || r.Header.Get("X-Frame-Options") != "DENY" {
 			t.Errorf("%s: X-Content-Type-Options %q, X-Frame-Options %q", p, r.Header.Get("X-Content-Type-Options"), r.Header.Get("X-Frame-Options"))

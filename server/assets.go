@@ -103,8 +103,8 @@ func acceptsGzip(r *http.Request) bool {
 
 // assets serves the page: index.html at "/", every file with an entity tag (a conditional GET
 // answers 304), gzip for text when the client accepts it, and Cache-Control: files whose names
-// carry a content hash are immutable for a year, the others (index.html, app.js, app.css)
-// are revalidated on every use (no-cache). Unknown paths fall through to a 404 problem.
+// carry a content hash (the bundle app-[hash].js, its stylesheet, their images) are immutable
+// for a year, the others (index.html, land-50m.json, the notices) are revalidated on every use (no-cache). Unknown paths fall through to a 404 problem.
 func (s *server) assets() http.Handler {
 	c := &assetCache{fsys: s.deps.Assets}
 	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {

@@ -6,8 +6,11 @@ import (
 	"io"
 	"net/http"
 	"net/http/httptest"
+	"regexp"
 	"strings"
 	"testing"
+
+	"ridgeflank/web"
 )
 
 // TestPageAssets: the page's files come gzip-compressed when Accept-Encoding allows it (RFC 9110
@@ -17,7 +20,8 @@ import (
 func TestPageAssets(t *testing.T) {
 	index := "<!doctype html><title>ridgeflank</title>" + strings.Repeat("<p>residual depth</p>\n", 100)
 	js := strings.Repeat("export const depthM = 4000;\n", 200)
-	files := fsys{"index.html": index, "app.js": js, "assets/land-7QWERTY2.json": strings.Repeat(`{"type":"Feature"}`, 100), "assets/marker-AB12CD34.png": "\x89PNG\r\n\x1a\n"}
+	land := strings.Repeat(`{"type":"Topology"}`, 100)
+	files := fsys{"index.html": index, "app-R4GYCEPN.js": js, "land-50m.json": land, "assets/land-7QWERTY2.json": strings.Repeat(`{"type":"Feature"}`, 100), "assets/marker-AB12CD34.png": "\x89PNG\r\n\x1a\n"}
 	h := New(Deps{Assets: files})
 	get := func(path string, hdr ...string) *httptest.ResponseRecorder {
 		req := httptest.NewRequest("GET", path, nil)
@@ -34,7 +38,8 @@ func TestPageAssets(t *testing.T) {
 	}{
 		{"/", index, "no-cache", true},
 		{"/index.html", index, "no-cache", true},
-		{"/app.js", js, "no-cache", true},
+		{"/app-R4GYCEPN.js", js, "public, max-age=31536000, immutable", true},
+		{"/land-50m.json", land, "no-cache", true},
 		{"/assets/land-7QWERTY2.json", files["assets/land-7QWERTY2.json"], "public, max-age=31536000, immutable", true},
 		{"/assets/marker-AB12CD34.png", files["assets/marker-AB12CD34.png"], "public, max-age=31536000, immutable", false},
 	} {
@@ -78,10 +83,71 @@ func TestPageAssets(t *testing.T) {
 			}
 		})
 	}
-	if r := get("/app.js", "If-None-Match", `"stale"`); r.Code != 200 {
+	if r := get("/app-R4GYCEPN.js", "If-None-Match", `"stale"`); r.Code != 200 {
 		t.Errorf("a stale entity tag answered %d, want 200", r.Code)
 	}
 	if r := get("/nope.js"); r.Code != 404 {
 		t.Errorf("unknown asset answered %d", r.Code)
+	}
+}
+
+// pageRefs are the script and stylesheet references in the built index.html.
+var pageRefs = regexp.MustCompile(`<(?:script[^>]*\ssrc|link[^>]*\shref)="([^"]+)"`)
+
+// TestEmbeddedPageCache serves the page as built into the binary (web.Assets): index.html is
+// revalidated on every load (no-cache), and the script and stylesheet it references carry a
+// content hash in their names, so they are served immutable for a year (RFC 9111 §5.2.2.1
+// max-age, RFC 8246 immutable), still gzip-compressed on request and answering 304 to their
+// entity tag.
+func TestEmbeddedPageCache(t *testing.T) {
+	if !web.HasPage() {
+		t.Skip("the page is not built: run `make web`")
+	}
+	h := New(Deps{Assets: web.Assets()})
+	get := func(path string, hdr ...string) *httptest.ResponseRecorder {
+		req := httptest.NewRequest("GET", path, nil)
+		for i := 0; i+1 < len(hdr); i += 2 {
+			req.Header.Set(hdr[i], hdr[i+1])
+		}
+		rec := httptest.NewRecorder()
+		h.ServeHTTP(rec, req)
+		return rec
+	}
+	page := get("/", "Accept-Encoding", "gzip")
+	if page.Code != 200 || page.Header().Get("Cache-Control") != "no-cache" {
+		t.Fatalf("/: %d, Cache-Control %q, want 200 and no-cache", page.Code, page.Header().Get("Cache-Control"))
+	}
+	html := page.Body.Bytes()
+	if page.Header().Get("Content-Encoding") == "gzip" {
+		zr, err := gzip.NewReader(bytes.NewReader(html))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if html, err = io.ReadAll(zr); err != nil {
+			t.Fatal(err)
+		}
+	}
+	refs := pageRefs.FindAllStringSubmatch(string(html), -1)
+	if len(refs) != 2 {
+		t.Fatalf("index.html references %d scripts and stylesheets, want 2 (bundle and stylesheet)", len(refs))
+	}
+	for _, m := range refs {
+		p := "/" + m[1]
+		t.Run(m[1], func(t *testing.T) {
+			r := get(p, "Accept-Encoding", "gzip")
+			if r.Code != 200 {
+				t.Fatalf("%s: %d", p, r.Code)
+			}
+			if got := r.Header().Get("Cache-Control"); got != "public, max-age=31536000, immutable" {
+				t.Errorf("%s: Cache-Control %q, want immutable for a year", p, got)
+			}
+			if r.Header().Get("Content-Encoding") != "gzip" {
+				t.Errorf("%s: Content-Encoding %q, want gzip", p, r.Header().Get("Content-Encoding"))
+			}
+			etag := r.Header().Get("ETag")
+			if again := get(p, "Accept-Encoding", "gzip", "If-None-Match", etag); again.Code != http.StatusNotModified {
+				t.Errorf("%s: If-None-Match %s answered %d, want 304", p, etag, again.Code)
+			}
+		})
 	}
 }

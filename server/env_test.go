@@ -110,7 +110,7 @@ func newEnvLimits(t testing.TB, backend string, cfg Config, limits Limits) *env 
 }
 
 func testAssets() fsys {
-	return fsys{"index.html": "<!doctype html><title>ridgeflank</title>"}
+	return fsys{"index.html": "<!doctype html><title>ridgeflank</title>", "app-R4GYCEPN.js": "export {};"}
 }
 
 // forEachStore runs fn against the SQLite and the PostGIS store.

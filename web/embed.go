@@ -12,9 +12,10 @@ import (
 //go:embed all:dist
 var dist embed.FS
 
-// Assets returns the built page: index.html at the root, the bundled
-// app.js/app.css, their images under assets/, the land outline and the
-// third-party notices.
+// Assets returns the built page: index.html at the root, the bundle and
+// stylesheet under content-hashed names (app-[hash].js, app-[hash].css, which
+// index.html references), their images under assets/, the land outline and
+// the third-party notices.
 func Assets() fs.FS {
 	sub, err := fs.Sub(dist, "dist")
 	if err != nil {
