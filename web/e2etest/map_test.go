@@ -256,9 +256,17 @@ func TestPageURLState(t *testing.T) {
 	b.clickXY(x, y)
 	b.waitFor("the pinned read-out", `document.getElementById("readout").dataset.pinned === "true"`, 10*time.Second)
 	b.waitFor("the URL to follow", `location.hash.includes("pin=")`, 5*time.Second)
+	// A drawn track (two waypoints inside the basin) goes into the link too.
+	tw := [][2]float64{{w + 0.2*(e-w), s + 0.8*(n-s)}, {w + 0.35*(e-w), s + 0.75*(n-s)}}
+	b.do(30*time.Second, chromedp.Evaluate[chromedp.Void](fmt.Sprintf(`window.ridgeflank.tracks.useWaypoints([[%g, %g], [%g, %g]], false)`, tw[0][0], tw[0][1], tw[1][0], tw[1][1]), chromedp.EvalAwaitPromise))
+	b.waitFor("the URL to keep the track", `location.hash.includes("track=")`, 5*time.Second)
+	// The profile panel under the map resizes it, which may move its centre: the link holds
+	// the view as it is now.
+	centre := eval[[]float64](b, `(() => { const c = window.ridgeflank.map.getCenter(); return [c.lat, c.lng]; })()`)
+	cLat, cLon = centre[0], centre[1]
 	link := eval[string](b, `location.href`)
 	t.Logf("link: %s", link)
-	for _, want := range []string{"dataset=" + ts.DatasetID, "layer=predicted_depth", "model=psm", "range=3000,6000", "view=", "pin=", "region=" + region, "plan=" + plan} {
+	for _, want := range []string{"dataset=" + ts.DatasetID, "layer=predicted_depth", "model=psm", "range=3000,6000", "view=", "pin=", "region=" + region, "plan=" + plan, "track="} {
 		if !strings.Contains(link, want) {
 			t.Errorf("the link %s lacks %s", link, want)
 		}
@@ -290,6 +298,7 @@ func TestPageURLState(t *testing.T) {
 			t.Errorf("restored %s = %v, want %v", c.what, c.got, c.want)
 		}
 	}
+	b2.waitFor("the drawn track's profile", `document.getElementById("profile").dataset.state === "done" && document.getElementById("profile").dataset.waypoints === "2"`, 30*time.Second)
 	// The centre to 1e-4° (the link keeps 5 decimals; common practice, no source).
 	if math.Abs(got["lat"].(float64)-cLat) > 1e-4 || math.Abs(got["lon"].(float64)-cLon) > 1e-4 {
 		t.Errorf("restored centre %v, %v, want %g, %g", got["lat"], got["lon"], cLat, cLon)

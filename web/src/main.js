@@ -67,6 +67,7 @@ function writeHash() {
     pin: pin ? { lat: pin.lat, lon: pin.lng } : null,
     region: regions.selected?.id || "",
     plan: plans.plan?.id || "",
+    track: tracks.drawnWaypoints || null,
   });
   history.replaceState(null, "", `#${h}`);
   document.body.dataset.hash = h;
@@ -351,6 +352,7 @@ async function start() {
   // The rest of the link: region, plan and pinned point, then its exact view again (opening
   // a region or plan fits the map to it).
   if (initial.region && regions.regions.some((r) => r.id === initial.region)) await messages.guard(() => regions.select(initial.region));
+  if (initial.track) await messages.guard(() => tracks.useWaypoints(initial.track, false)); // the view comes from the link
   if (initial.plan) await messages.guard(() => plans.openStored(initial.plan));
   if (initial.pin && state.datasetId) readout.pin(L.latLng(initial.pin.lat, initial.pin.lon));
   if (initial.view) map.setView([initial.view.lat, initial.view.lon], initial.view.zoom, { animate: false });

@@ -50,8 +50,19 @@ export class TracksPanel {
     $("track-hint").textContent = "";
     this.setMode("idle");
     if (!pts) return;
-    const feature = { type: "Feature", properties: {}, geometry: lineFromLatLngs(pts) };
-    await this.use({ body: JSON.stringify(feature), type: "application/geo+json", name: "drawn track" }, false);
+    const geometry = lineFromLatLngs(pts);
+    await this.useWaypoints(geometry.coordinates, false);
+  }
+
+  /** useWaypoints makes a drawn track ([[lon, lat], …]) current; a link restores it (urlstate.js). */
+  async useWaypoints(coords, fit = true) {
+    const feature = { type: "Feature", properties: {}, geometry: { type: "LineString", coordinates: coords } };
+    await this.use({ body: JSON.stringify(feature), type: "application/geo+json", name: "drawn track", waypoints: coords }, fit);
+  }
+
+  /** drawnWaypoints are the current track's waypoints when it was drawn (files are not put in links). */
+  get drawnWaypoints() {
+    return this.source?.waypoints || null;
   }
 
   /** upload sends the file as it is: the service parses it, once. */
@@ -76,6 +87,7 @@ export class TracksPanel {
     // The profile panel now takes room under the map: let Leaflet measure again.
     this.map.invalidateSize({ animate: false });
     if (fit && this.layer.getLayers().length) this.map.fitBounds(this.layer.getBounds(), { padding: [40, 40], maxZoom: 9, animate: false });
+    document.dispatchEvent(new Event("ridgeflank:urlstate")); // a drawn track goes into the link
   }
 
   async trajectory(params, model) {
@@ -233,6 +245,7 @@ export class TracksPanel {
     $("profile-chart").replaceChildren();
     $("profile-waypoints").replaceChildren();
     this.setMode("idle");
+    document.dispatchEvent(new Event("ridgeflank:urlstate"));
   }
 
   refresh() {

@@ -1,8 +1,12 @@
 // urlstate.js: the page's state in the URL's fragment, so a link restores what was on
 // screen: dataset, layer, model, sediment law, colour range, the view (centre and zoom), the
-// pinned point, the selected region and the open survey plan. Pure functions, no DOM.
+// pinned point, the selected region, the open survey plan and a drawn track (its waypoints, at
+// most MAX_TRACK_WAYPOINTS). Pure functions, no DOM.
 
 const ID = /^[A-Za-z0-9._:-]{1,200}$/;
+
+/** MAX_TRACK_WAYPOINTS bounds the waypoints a link carries (a longer track is left out). */
+export const MAX_TRACK_WAYPOINTS = 100;
 
 function numbers(text, n) {
   const parts = String(text ?? "").split(",");
@@ -16,7 +20,8 @@ const round = (v, d = 5) => Number(v.toFixed(d));
 
 /**
  * encodeState writes s ({datasetId, layer, model, sediment, range: {min, max},
- * view: {lat, lon, zoom}, pin: {lat, lon}, region, plan}; any may be missing) as the
+ * view: {lat, lon, zoom}, pin: {lat, lon}, region, plan, track: [[lon, lat], …]}; any may be
+ * missing) as the
  * fragment's query string (without "#").
  */
 export function encodeState(s) {
@@ -30,7 +35,10 @@ export function encodeState(s) {
   if (s.pin) h.set("pin", `${round(s.pin.lat)},${round(s.pin.lon)}`);
   if (s.region) h.set("region", s.region);
   if (s.plan) h.set("plan", s.plan);
-  return h.toString().replace(/%2C/g, ",");
+  if (Array.isArray(s.track) && s.track.length >= 2 && s.track.length <= MAX_TRACK_WAYPOINTS) {
+    h.set("track", s.track.map(([lon, lat]) => `${round(lon)},${round(lat)}`).join(";"));
+  }
+  return h.toString().replace(/%2C/g, ",").replace(/%3B/g, ";");
 }
 
 /**
@@ -41,7 +49,7 @@ export function encodeState(s) {
  */
 export function decodeState(hash, { minZoom = 0, maxZoom = 22 } = {}) {
   const h = new URLSearchParams(String(hash || "").replace(/^#/, ""));
-  const out = { datasetId: "", layer: "", model: "", sediment: "", range: null, view: null, pin: null, region: "", plan: "" };
+  const out = { datasetId: "", layer: "", model: "", sediment: "", range: null, view: null, pin: null, region: "", plan: "", track: null };
   for (const [k, key] of [["dataset", "datasetId"], ["layer", "layer"], ["model", "model"], ["sediment", "sediment"], ["region", "region"], ["plan", "plan"]]) {
     const v = h.get(k) || "";
     if (ID.test(v)) out[key] = v;
@@ -54,5 +62,7 @@ export function decodeState(hash, { minZoom = 0, maxZoom = 22 } = {}) {
   }
   const p = numbers(h.get("pin"), 2);
   if (p && Math.abs(p[0]) <= 90 && Math.abs(p[1]) <= 540) out.pin = { lat: p[0], lon: p[1] };
+  const t = String(h.get("track") || "").split(";").filter((x) => x !== "").map((x) => numbers(x, 2));
+  if (t.length >= 2 && t.length <= MAX_TRACK_WAYPOINTS && t.every((w) => w && Math.abs(w[1]) <= 90 && Math.abs(w[0]) <= 540)) out.track = t;
   return out;
 }

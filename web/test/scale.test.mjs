@@ -82,14 +82,16 @@ test("URL state round trip", () => {
     pin: { lat: -30.123456789, lon: -140.5 },
     region: "7",
     plan: "plan-3",
+    track: [[179.5, -20.123456789], [-179.5, -21]],
   };
   const h = encodeState(s);
   assert.match(h, /view=-29\.3,-143\.5,6/);
   const back = decodeState(`#${h}`);
-  assert.deepEqual(back, { ...s, view: { lat: -29.3, lon: -143.5, zoom: 6 }, pin: { lat: -30.12346, lon: -140.5 } });
+  assert.match(h, /track=179\.5,-20\.12346;-179\.5,-21/);
+  assert.deepEqual(back, { ...s, view: { lat: -29.3, lon: -143.5, zoom: 6 }, pin: { lat: -30.12346, lon: -140.5 }, track: [[179.5, -20.12346], [-179.5, -21]] });
   // An empty state writes nothing and reads back empty.
   assert.equal(encodeState({}), "");
-  assert.deepEqual(decodeState(""), { datasetId: "", layer: "", model: "", sediment: "", range: null, view: null, pin: null, region: "", plan: "" });
+  assert.deepEqual(decodeState(""), { datasetId: "", layer: "", model: "", sediment: "", range: null, view: null, pin: null, region: "", plan: "", track: null });
 });
 
 test("URL state: damaged parts are dropped, the rest kept", () => {
@@ -102,4 +104,8 @@ test("URL state: damaged parts are dropped, the rest kept", () => {
   assert.equal(d.region, "", "id with markup");
   assert.equal(decodeState("view=0,0,13", { maxZoom: 12 }).view, null, "zoom beyond the map's maximum");
   assert.equal(decodeState("view=0,0,2.5").view, null, "fractional zoom");
+  assert.equal(decodeState("track=10,95;11,0").track, null, "a waypoint beyond the pole");
+  assert.equal(decodeState("track=10,5").track, null, "one waypoint is no track");
+  const long = Array.from({ length: 101 }, (_, i) => `${i / 10},0`).join(";");
+  assert.equal(decodeState(`track=${long}`).track, null, "more waypoints than a link carries");
 });
