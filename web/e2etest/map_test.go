@@ -141,6 +141,23 @@ func TestPageColourRange(t *testing.T) {
 	b.waitReadyAfter(0)
 	b.waitFor("the page to restore its state", `document.body.dataset.restored === "true"`, 20*time.Second)
 
+	// The residual scale's zero colour against the map's background as the page draws it:
+	// WCAG 2.1 contrast ratio (L1 + 0.05)/(L2 + 0.05) with sRGB relative luminance (W3C WCAG
+	// 2.1, "contrast ratio" and "relative luminance" definitions), at least 3:1 (SC 1.4.11).
+	contrast := eval[float64](b, `(async () => {
+		const doc = await (await fetch("/api/colour-scales")).json();
+		const ramp = doc.ramps.find((r) => r.id === doc.bindings.find((x) => x.parameter === "residual_depth").ramp);
+		const zero = ramp.stops.find((s) => s.position === 0.5).colour;
+		const rgb = (c) => c.startsWith("#") ? [1, 3, 5].map((i) => parseInt(c.slice(i, i + 2), 16)) : c.match(/\d+/g).slice(0, 3).map(Number);
+		const lum = (c) => { const [r, g, b] = rgb(c).map((v) => { v /= 255; return v <= 0.04045 ? v / 12.92 : ((v + 0.055) / 1.055) ** 2.4; }); return 0.2126 * r + 0.7152 * g + 0.0722 * b; };
+		const bg = getComputedStyle(document.querySelector(".leaflet-container")).backgroundColor;
+		const [a, c] = [lum(zero), lum(bg)].sort((x, y) => y - x);
+		return (a + 0.05) / (c + 0.05);
+	})()`)
+	t.Logf("zero colour vs map background: %.2f:1", contrast)
+	if !(contrast >= 3) { // NaN fails too
+		t.Errorf("zero residual colour against the map background: contrast %.2f:1, want at least 3:1 (WCAG 2.1 SC 1.4.11)", contrast)
+	}
 	lo, hi := legendRange(b)
 	if lo != -1500 || hi != 1500 {
 		t.Errorf("default residual legend %g to %g, want the colour document's -1500 to 1500", lo, hi)
