@@ -89,6 +89,30 @@ func TestFigure(t *testing.T) {
 			t.Fatalf("only %d cells with values checked", checked)
 		}
 	})
+	t.Run("legend area has the scale's end colours", func(t *testing.T) {
+		// The colour bar stands right of the map over the map's height: some column there is
+		// the ramp's top colour just below the map's top edge and its bottom colour just above
+		// the bottom edge (the bar runs from the range's maximum at the top to its minimum).
+		var x0, y0, x1, y1 int
+		if _, err := fmt.Sscanf(r.Header.Get("Ridgeflank-Figure-Map"), "%d,%d,%d,%d", &x0, &y0, &x1, &y1); err != nil {
+			t.Fatal(err)
+		}
+		b, _ := colour.BindingFor("residual_depth")
+		ramp, _ := colour.RampByID(b.Ramp)
+		top, bottom := ramp.At(1), ramp.At(0)
+		found := -1
+		for x := x1 + 2; x < img.Bounds().Max.X && found < 0; x++ {
+			at := func(y int) color.NRGBA { return color.NRGBAModel.Convert(img.At(x, y)).(color.NRGBA) }
+			for d := 1; d <= 4 && found < 0; d++ {
+				if maxChannelDiff(at(y0+d), top) <= 6 && maxChannelDiff(at(y1-d), bottom) <= 6 {
+					found = x
+				}
+			}
+		}
+		if found < 0 {
+			t.Errorf("no column right of the map (x > %d) runs from the scale's top colour %v to its bottom colour %v: no colour bar", x1, top, bottom)
+		}
+	})
 	t.Run("svg", func(t *testing.T) {
 		s := e.get(base + "&f=svg&width-px=1200&dpi=120")
 		e.want(s, 200)
