@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"image/png"
+	"io"
 	"math"
 	"mime/multipart"
 	"net"
@@ -1051,4 +1052,29 @@ func TestSlowBodies(t *testing.T) {
 			t.Errorf("body cut short: %q, want 400", got)
 		}
 	})
+}
+
+// Without a configured public URL, links are absolute only for a trusted Host (loopback or
+// Config.TrustedHosts); a forged Host gets root-relative links, never its own address.
+func TestLinksTrustOnlyKnownHosts(t *testing.T) {
+	e := newEnv(t, "sqlite", Config{TrustedHosts: []string{"maps.example.org"}})
+	for _, c := range []struct{ host, want string }{
+		{"evil.example", `"href":"/api`},
+		{"maps.example.org:8080", `"href":"http://maps.example.org:8080/api`},
+		{"127.0.0.1:9", `"href":"http://127.0.0.1:9/api`},
+		{"localhost", `"href":"http://localhost/api`},
+		{"[::1]:80", `"href":"http://[::1]:80/api`},
+	} {
+		req, _ := http.NewRequest("GET", e.ts.URL+"/api/", nil)
+		req.Host = c.host
+		res, err := http.DefaultClient.Do(req)
+		if err != nil {
+			t.Fatal(err)
+		}
+		body, _ := io.ReadAll(res.Body)
+		res.Body.Close()
+		if !strings.Contains(string(body), c.want) || (c.host == "evil.example" && strings.Contains(string(body), "evil.example")) {
+			t.Errorf("Host %s: links %s…, want %s", c.host, trunc(body), c.want)
+		}
+	}
 }

@@ -3,6 +3,7 @@ package server
 import (
 	"bytes"
 	"encoding/json"
+	"net"
 	"net/http"
 	"strings"
 
@@ -47,11 +48,36 @@ func (s *server) baseURL(r *http.Request) string {
 	if s.deps.Config.PublicURL != "" {
 		return strings.TrimSuffix(s.deps.Config.PublicURL, "/")
 	}
+	if !s.trustedHost(r.Host) {
+		return "" // root-relative links: RFC 3986 §4.2 relative references resolve against the request
+	}
 	scheme := "http"
 	if r.TLS != nil {
 		scheme = "https"
 	}
 	return scheme + "://" + r.Host
+}
+
+// trustedHost reports whether a Host header may make absolute links: a loopback name or
+// address, or one of Config.TrustedHosts (compared without the port, case-insensitively).
+func (s *server) trustedHost(hostport string) bool {
+	host := hostport
+	if h, _, err := net.SplitHostPort(hostport); err == nil {
+		host = h
+	}
+	host = strings.ToLower(strings.Trim(host, "[]"))
+	if host == "localhost" {
+		return true
+	}
+	if ip := net.ParseIP(host); ip != nil && ip.IsLoopback() {
+		return true
+	}
+	for _, t := range s.deps.Config.TrustedHosts {
+		if strings.EqualFold(strings.TrimSpace(t), host) {
+			return true
+		}
+	}
+	return false
 }
 
 // decodeJSON reads a JSON body strictly (unknown fields are refused).

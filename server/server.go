@@ -96,9 +96,14 @@ type Config struct {
 	// ExportDir holds the files of export jobs (default: the system's
 	// temporary directory).
 	ExportDir string
-	// PublicURL is the externally visible base URL (for absolute links); empty
-	// means links are built from the request's Host.
+	// PublicURL is the externally visible base URL (for absolute links). When it is empty,
+	// links are built from the request's Host only when that host is trusted (loopback, or
+	// listed in TrustedHosts); from any other Host they are root-relative ("/api/…"), so a
+	// forged Host header cannot put another site's address into answers.
 	PublicURL string
+	// TrustedHosts are the host names (without port) whose Host header may make absolute links
+	// when PublicURL is empty.
+	TrustedHosts []string
 	// MemoryBudgetBytes bounds the memory kept between requests (decoded grid blocks and GDAL's
 	// block cache together; evaluate.Config.MemoryBudget); 0 means evaluate.DefaultMemoryBudget.
 	MemoryBudgetBytes int64

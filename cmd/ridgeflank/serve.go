@@ -76,7 +76,8 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	rate := fs.Int("rate-limit", 600, "API requests per minute per client IP (tiles: 4×); negative disables")
 	timeout := fs.Duration("request-timeout", server.DefaultLimits.RequestTimeout, "time limit of one API request")
 	shutdown := fs.Duration("shutdown-timeout", 20*time.Second, "grace period for requests and jobs at shutdown")
-	publicURL := fs.String("public-url", "", "externally visible base URL for links (default: from the request)")
+	publicURL := fs.String("public-url", "", "externally visible base URL for links (default: from the request's Host when it is loopback or a --trusted-hosts name, else root-relative links)")
+	trustedHosts := fs.String("trusted-hosts", "", "comma-separated host names whose Host header may make absolute links when --public-url is not set")
 	logFormat := fs.String("log-format", "text", "log format: text or json")
 	logLevel := fs.String("log-level", "info", "log level: debug, info, warn or error")
 	budgetText := fs.String("memory-budget", "512MiB", "memory kept between requests: decoded grid blocks and GDAL's block cache together (e.g. 512MiB, 2GB)")
@@ -115,18 +116,13 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	}
 	defer st.Close()
 
-	var origins []string
-	for _, o := range strings.Split(*cors, ",") {
-		if o = strings.TrimSpace(o); o != "" {
-			origins = append(origins, o)
-		}
-	}
+	origins := splitList(*cors)
 	deps := server.Deps{
 		Store: st, Logger: log, Version: version,
 		Limits: server.Limits{RequestTimeout: *timeout},
 		Config: server.Config{CORSOrigins: origins, RateLimitPerMinute: *rate, ReadAuth: *readAuth,
 			UploadDir: filepath.Join(loc.dataDir, "uploads"), ExportDir: filepath.Join(loc.dataDir, "exports"),
-			PublicURL: *publicURL, MemoryBudgetBytes: budget},
+			PublicURL: *publicURL, TrustedHosts: splitList(*trustedHosts), MemoryBudgetBytes: budget},
 	}
 	if web.HasPage() {
 		deps.Assets = web.Assets()
@@ -286,4 +282,15 @@ func parseBytes(s string) (int64, error) {
 		return 0, fmt.Errorf("too large")
 	}
 	return int64(v * m), nil
+}
+
+// splitList reads a comma-separated flag value: trimmed, empty items left out.
+func splitList(v string) []string {
+	var out []string
+	for _, s := range strings.Split(v, ",") {
+		if s = strings.TrimSpace(s); s != "" {
+			out = append(out, s)
+		}
+	}
+	return out
 }
