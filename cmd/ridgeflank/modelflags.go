@@ -103,6 +103,37 @@ func parseAges(list string) ([]float64, error) {
 	return ages, nil
 }
 
+// ageCurveFlags are the flags of the commands that answer a model's values at a list of ages
+// (predict, ridge-push): the model flags, --age and --format.
+type ageCurveFlags struct {
+	model  modelFlags
+	ages   *string
+	format *string
+}
+
+// define adds the flags to fs; example is the --age example in the help.
+func (a *ageCurveFlags) define(fs *flag.FlagSet, example string) {
+	a.model.define(fs)
+	a.ages = fs.String("age", "", "comma-separated seafloor ages in Ma, e.g. "+example+" (required)")
+	a.format = fs.String("format", "table", "output format: table, csv or json")
+}
+
+// resolve checks --format, reads --age and builds the model, after parsing.
+func (a *ageCurveFlags) resolve() ([]float64, thermal.Model, error) {
+	if err := checkFormat(*a.format); err != nil {
+		return nil, nil, err
+	}
+	ages, err := parseAges(*a.ages)
+	if err != nil {
+		return nil, nil, err
+	}
+	m, err := a.model.model()
+	if err != nil {
+		return nil, nil, err
+	}
+	return ages, m, nil
+}
+
 // checkFormat validates --format.
 func checkFormat(f string) error {
 	switch f {

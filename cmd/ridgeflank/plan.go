@@ -221,7 +221,7 @@ func readPlanFile(path string) ([]survey.Line, error) {
 }
 
 // planSource builds the plan a check or save is about: the stored plan --plan, or the lines
-// of FILE, with the settings flags applied.
+// of FILE, with the settings flags (and --name) applied.
 func planSource(ctx context.Context, svc *evaluate.Service, f *planFlags, set map[string]bool, args []string) (survey.Plan, error) {
 	var p survey.Plan
 	switch {
@@ -248,7 +248,20 @@ func planSource(ctx context.Context, svc *evaluate.Service, f *planFlags, set ma
 		return p, usagef("one plan FILE at a time, got %d arguments", len(args))
 	}
 	f.apply(set, &p.Settings)
+	if f.name != "" {
+		p.Name = f.name
+	}
 	return p, nil
+}
+
+// service opens the store the flags name and the application layer over it; close releases
+// the store.
+func (f *planFlags) service(ctx context.Context, stderr io.Writer) (svc *evaluate.Service, close func(), err error) {
+	st, err := f.loc.open(ctx, stderr, false)
+	if err != nil {
+		return nil, nil, err
+	}
+	return evaluate.New(evaluate.Config{Store: st, Version: version}), func() { st.Close() }, nil
 }
 
 func runPlanCheck(ctx context.Context, args []string, stdout, stderr io.Writer) error {
@@ -273,18 +286,14 @@ func runPlanCheck(ctx context.Context, args []string, stdout, stderr io.Writer) 
 			return usagef("--report %q: the report is written as .pdf or .png", f.report)
 		}
 	}
-	st, err := f.loc.open(ctx, stderr, false)
+	svc, done, err := f.service(ctx, stderr)
 	if err != nil {
 		return err
 	}
-	defer st.Close()
-	svc := evaluate.New(evaluate.Config{Store: st, Version: version})
+	defer done()
 	p, err := planSource(ctx, svc, &f, set, pos)
 	if err != nil {
 		return err
-	}
-	if f.name != "" {
-		p.Name = f.name
 	}
 	if p.Settings.Dataset == "" {
 		return usagef("say which dataset to check against with --dataset ID")
@@ -441,12 +450,11 @@ func runPlanList(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	if len(pos) > 0 {
 		return usagef("plan list takes no arguments")
 	}
-	st, err := f.loc.open(ctx, stderr, false)
+	svc, done, err := f.service(ctx, stderr)
 	if err != nil {
 		return err
 	}
-	defer st.Close()
-	svc := evaluate.New(evaluate.Config{Store: st, Version: version})
+	defer done()
 	ps, err := svc.ListPlans(ctx, store.Page{})
 	if err != nil {
 		return err
@@ -468,12 +476,11 @@ func runPlanShow(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	if len(pos) != 1 {
 		return usagef("plan show takes one plan id")
 	}
-	st, err := f.loc.open(ctx, stderr, false)
+	svc, done, err := f.service(ctx, stderr)
 	if err != nil {
 		return err
 	}
-	defer st.Close()
-	svc := evaluate.New(evaluate.Config{Store: st, Version: version})
+	defer done()
 	p, err := svc.GetPlan(ctx, pos[0])
 	if errors.Is(err, store.ErrNotFound) {
 		return usagef("there is no stored plan %q; 'ridgeflank plan list' lists them", pos[0])
@@ -496,18 +503,14 @@ func runPlanSave(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	if f.planID != "" {
 		return usagef("plan save reads a FILE; --plan is for plan check")
 	}
-	st, err := f.loc.open(ctx, stderr, false)
+	svc, done, err := f.service(ctx, stderr)
 	if err != nil {
 		return err
 	}
-	defer st.Close()
-	svc := evaluate.New(evaluate.Config{Store: st, Version: version})
+	defer done()
 	p, err := planSource(ctx, svc, &f, set, pos)
 	if err != nil {
 		return err
-	}
-	if f.name != "" {
-		p.Name = f.name
 	}
 	p.ID = f.id
 	out, err := svc.CreatePlan(ctx, p)

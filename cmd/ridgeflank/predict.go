@@ -55,24 +55,16 @@ type prediction struct {
 
 func runPredict(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	fs := newFlags(predictCmd)
-	var mf modelFlags
-	mf.define(fs)
-	ageList := fs.String("age", "", "comma-separated seafloor ages in Ma, e.g. 0,10,50,100 (required)")
-	format := fs.String("format", "table", "output format: table, csv or json")
+	var af ageCurveFlags
+	af.define(fs, "0,10,50,100")
 	if err := parseFlags(ctx, predictCmd, fs, args, stdout, false); err != nil {
 		return err
 	}
-	if err := checkFormat(*format); err != nil {
-		return err
-	}
-	ages, err := parseAges(*ageList)
+	ages, m, err := af.resolve()
 	if err != nil {
 		return err
 	}
-	m, err := mf.model()
-	if err != nil {
-		return err
-	}
+	format := af.format
 	depth, hf, thick, iso, rate, err := evaluate.Curve(ctx, m, "age", ages)
 	if err != nil {
 		return err
