@@ -457,6 +457,7 @@ type residualPlan struct {
 	push      *ridgePushTable
 	rate      *ageNodes    // subsidence-rate nodes (thermal.Table.SubsidenceRateNodes), for depth uncertainties
 	spread    *spreadTable // the depth uncertainty's table for the single age uncertainty, if any
+	sigGrid   *sigmaGrid   // the depth uncertainty's table over σ for an age-uncertainty grid, if any
 }
 
 // residualSource maps output rows to rows of one input grid.
@@ -743,10 +744,16 @@ func (p *residualPlan) block(w *residualWorker, r0, r1 int, dst *residualDst) {
 			}
 			return s[o : o+nx : o+nx]
 		}
+		sigDone := false
 		if dst.pred != nil || dst.hf != nil || dst.thick != nil || dst.d600 != nil || dst.corr != nil || dst.res != nil {
-			p.row(w, r, cut(dst.pred), cut(dst.hf), cut(dst.thick), cut(dst.d600), cut(dst.corr), cut(dst.res))
+			// the residual's uncertainty alone rides along the residual's hot loop where it can
+			var resSig []float32
+			if p.want&(outSigma|OutRidgePush) == OutResidualDepthSigma {
+				resSig = cut(dst.resSig)
+			}
+			sigDone = p.row(w, r, cut(dst.pred), cut(dst.hf), cut(dst.thick), cut(dst.d600), cut(dst.corr), cut(dst.res), resSig)
 		}
-		if p.want&(outSigma|OutRidgePush) != 0 {
+		if p.want&(outSigma|OutRidgePush) != 0 && !sigDone {
 			p.uncRow(w, r, cut(dst.predSig), cut(dst.hfSig), cut(dst.thickSig), cut(dst.resSig), cut(dst.push), cut(dst.res))
 		}
 	}
@@ -763,8 +770,10 @@ func subRow(s []float32, a, b int) []float32 {
 	return s[a:b:b]
 }
 
-// row computes one output row. Nil destination slices are not computed.
-func (p *residualPlan) row(w *residualWorker, r int, pred, hf, thick, d600, corr, res []float32) {
+// row computes one output row. Nil destination slices are not computed. resSig, if not nil, is
+// the residual's age uncertainty, computed in the same pass where the hot path allows (one σ with
+// its spreadTable, or an age-uncertainty grid); row reports whether it did (otherwise uncRow must).
+func (p *residualPlan) row(w *residualWorker, r int, pred, hf, thick, d600, corr, res, resSig []float32) (sigDone bool) {
 	nx := p.lat.NX
 	age := p.lat.Data[r*nx : (r+1)*nx]
 	var mask []bool
@@ -796,8 +805,16 @@ func (p *residualPlan) row(w *residualWorker, r int, pred, hf, thick, d600, corr
 	if res != nil && sed != nil && pred == nil && corr == nil && crust == nil && hf == nil && thick == nil && d600 == nil {
 		// The hot path (residual only, from age, observed depth and sediment) is one fused
 		// pass with no scratch, so it takes the whole row at once.
+		switch {
+		case resSig != nil && p.spread != nil && p.sigma.g == nil:
+			p.residualSigmaFused(res, resSig, age, obs, sed, nil)
+			return true
+		case resSig != nil && p.sigGrid != nil && p.sigma.g != nil:
+			p.residualSigmaFused(res, resSig, age, obs, sed, p.sigma.row(p, r, w.sigma))
+			return true
+		}
 		residualFusedChunk(res, age, obs, sed, p.sign, p.depthTab, p.sedTab)
-		return
+		return false
 	}
 	for c0 := 0; c0 < nx; c0 += residualChunk {
 		c1 := min(c0+residualChunk, nx)
@@ -808,6 +825,7 @@ func (p *residualPlan) row(w *residualWorker, r int, pred, hf, thick, d600, corr
 		p.chunk(w, subRow(age, c0, c1), subRow(obs, c0, c1), subRow(sed, c0, c1), subRow(crust, c0, c1), m,
 			subRow(pred, c0, c1), subRow(hf, c0, c1), subRow(thick, c0, c1), subRow(d600, c0, c1), subRow(corr, c0, c1), subRow(res, c0, c1))
 	}
+	return false
 }
 
 // chunk computes the outputs of up to residualChunk cells. Inputs obs, sed, crust are nil when

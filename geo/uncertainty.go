@@ -3,6 +3,7 @@ package geo
 import (
 	"math"
 	"sync"
+	"sync/atomic"
 
 	"gonum.org/v1/gonum/integrate/quad"
 
@@ -31,10 +32,12 @@ import (
 //     spreadPanels panels of spreadPoints points, each node weighted by the normal density
 //     and the weights normalised to sum to one.
 //
-// For a question's single σ the sampled depth uncertainty is tabulated over age once per model
-// and σ (spreadTable, within 1e-4 of the value plus 1 mm of the direct quadrature), so a grid
-// cell costs one node lookup on either branch; with an age-uncertainty grid every sampled cell
-// is integrated directly.
+// For a question's single σ the depth uncertainty is tabulated over age once per model and σ
+// (spreadTable: the sampled spread within 1e-4 of the value plus 1 mm of the direct quadrature,
+// switching to first order at the first age node at or above σ/SamplingRatio, within 1/256 of an
+// octave of it), so a grid cell costs one node lookup on either branch; with an age-uncertainty grid the sampled depth
+// uncertainty is tabulated over σ and age/σ (sigmaGrid, within 2e-4 of the value plus 5 mm of
+// the direct quadrature), so a sampled cell costs two row lookups.
 //
 // Heat flow grows like 1/√age, so where the distribution reaches age 0 its variance is
 // unbounded (the integral of 1/t diverges at t → 0): there the rule's finite value is a lower
@@ -288,18 +291,21 @@ func (p *residualPlan) uncRow(w *residualWorker, r int, predSig, hfSig, thickSig
 }
 
 // spreadTable is the predicted depth's uncertainty for one model and one single age uncertainty
-// σ on thermal's bit-indexed float32 age nodes (thermal.Float32Nodes), for the ages the
-// sampling branch covers: the float32 ages whose bits are below switchBits, the first with
-// σ ≤ SamplingRatio·age (the branch test of ageSpread, so each age takes the same branch as
-// before). A node interpolates the sampled spread linearly between its ends, whose values are
-// in turn interpolated linearly from sampledSpread at spreadIntervals+1 ages uniform over
-// [0, σ/SamplingRatio]. Ages from switchBits on take the first-order branch from the
-// subsidence-rate nodes, bit for bit as depthSpread; ages beyond the model's table, NaN and
-// negative ages take depthSpread. The interpolation differs from the direct quadrature by at
-// most spreadTableTol: 1e-4 of its value plus 1 mm (TestSpreadTableMatchesQuadrature, over σ
-// from 0.01 to 300 Ma and ages from 0 to the switch; largest seen 1.5e-5 of the value).
+// σ on thermal's bit-indexed float32 age nodes (thermal.Float32Nodes), over the whole age table
+// [0, thermal.TableMaxAgeMa), so a grid cell costs one node lookup whatever its age — the same
+// index as the depth's own node, which lets the residual's loop find both in one pass.
+//
+// Nodes below switchBits (the node boundary at or just above σ/SamplingRatio, within 1/256 of
+// an octave of it) take the sampling branch: a node interpolates the sampled spread linearly
+// between its ends, whose values are in turn interpolated linearly from sampledSpread at
+// spreadIntervals+1 ages uniform over [0, switch age]. Nodes from switchBits on take the first
+// order: |dd/dt|·σ, the subsidence-rate nodes scaled by σ (within 1e-6 of the value of
+// |rate|·σ computed per cell, float32 rounding). The sampled spread differs from the direct
+// quadrature by at most spreadTableTol: 1e-4 of its value plus 1 mm (TestSpreadTableMatchesQuadrature,
+// over σ from 0.01 to 300 Ma and ages from 0 to the switch; largest seen 1.5e-5 of the value).
+// Ages beyond the table, NaN and negative ages take ageSpread (depthSpread).
 type spreadTable struct {
-	nodes      []spreadNode
+	nodes      *[thermal.AgeNodeCount]spreadNode
 	switchBits uint32
 }
 
@@ -311,7 +317,7 @@ func (e spreadNode) at(bits uint32) float32 {
 	return e.v + float32(bits&(1<<thermal.Float32NodeShift-1))*e.d
 }
 
-// spreadIntervals is the number of uniform age intervals over [0, σ/SamplingRatio] at which the
+// spreadIntervals is the number of uniform age intervals over [0, switch age] at which the
 // spread is found by quadrature when a spreadTable is built (513 quadratures of 32 points).
 const spreadIntervals = 512
 
@@ -328,7 +334,7 @@ type spreadKey struct {
 }
 
 // spreadTableFor returns the cached spread table of model m (table tbl) for σ = sigmaMa > 0
-// (finite), built on first use (about a millisecond); at most maxSpreadTables (of up to 280 KiB)
+// (finite), built on first use (about a millisecond); at most maxSpreadTables (of 280 KiB)
 // are kept.
 func spreadTableFor(m thermal.Model, tbl *thermal.Table, sigmaMa float64) *spreadTable {
 	key := spreadKey{m.Params(), sigmaMa}
@@ -351,7 +357,21 @@ func spreadTableFor(m thermal.Model, tbl *thermal.Table, sigmaMa float64) *sprea
 }
 
 func newSpreadTable(tbl *thermal.Table, sigmaMa float64) *spreadTable {
-	end := sigmaMa / SamplingRatio
+	// the first float32 age with σ ≤ SamplingRatio·age (monotone in age; the bits of
+	// non-negative float32 values are ordered as the values), rounded up to a node boundary
+	lo, hi := uint32(0), uint32(0x7f800000) // +Inf is on the first-order side
+	for lo < hi {
+		mid := lo + (hi-lo)/2
+		if sigmaMa <= SamplingRatio*float64(math.Float32frombits(mid)) {
+			hi = mid
+		} else {
+			lo = mid + 1
+		}
+	}
+	const mask = 1<<thermal.Float32NodeShift - 1
+	n := min(int((lo+mask)>>thermal.Float32NodeShift), thermal.AgeNodeCount)
+	nodeStart := func(j int) float64 { return float64(math.Float32frombits(uint32(j) << thermal.Float32NodeShift)) }
+	end := nodeStart(n)
 	h := end / spreadIntervals
 	var coarse [spreadIntervals + 1]float64
 	for i := range coarse {
@@ -363,73 +383,63 @@ func newSpreadTable(tbl *thermal.Table, sigmaMa float64) *spreadTable {
 		f := x - float64(i)
 		return coarse[i] + f*(coarse[i+1]-coarse[i])
 	}
-	// the first float32 age on the first-order branch (σ ≤ SamplingRatio·age is monotone in
-	// age, and the bits of non-negative float32 values are ordered as the values)
-	lo, hi := uint32(0), uint32(0x7f800000) // +Inf is on the first-order side
-	for lo < hi {
-		mid := lo + (hi-lo)/2
-		if sigmaMa <= SamplingRatio*float64(math.Float32frombits(mid)) {
-			hi = mid
-		} else {
-			lo = mid + 1
-		}
-	}
-	n := min(int((lo+(1<<thermal.Float32NodeShift-1))>>thermal.Float32NodeShift), thermal.AgeNodeCount)
-	nodeStart := func(j int) float64 { return float64(math.Float32frombits(uint32(j) << thermal.Float32NodeShift)) }
-	t := &spreadTable{nodes: make([]spreadNode, n), switchBits: lo}
+	t := &spreadTable{nodes: new([thermal.AgeNodeCount]spreadNode), switchBits: uint32(n) << thermal.Float32NodeShift}
 	v0 := interp(0)
 	for j := range n {
 		v1 := interp(nodeStart(j + 1))
 		t.nodes[j] = spreadNode{float32(v0), float32((v1 - v0) / (1 << thermal.Float32NodeShift))}
 		v0 = v1
 	}
+	rate := tbl.SubsidenceRateNodes()
+	for j := n; j < thermal.AgeNodeCount; j++ {
+		b := uint32(j) << thermal.Float32NodeShift
+		r0 := math.Abs(float64(rate[j].At(b))) * sigmaMa
+		r1 := math.Abs(float64(rate[j].At(b|mask))) * sigmaMa
+		t.nodes[j] = spreadNode{float32(r0), float32((r1 - r0) / mask)}
+	}
 	return t
 }
 
 // depthSpreadRow writes the predicted depth's uncertainty at every age of the row for the
-// single σ = s of the question (p.spread built for it): one node lookup per cell on either
-// branch, depthSpread for the rest (see spreadTable). If res is not nil (the row's residual
-// depth, as long as age), dst is NaN where res is.
+// single σ = s of the question (p.spread built for it): one node lookup per cell, depthSpread
+// for ages outside the table. If res is not nil (the row's residual depth, as long as age), dst
+// is NaN where res is.
 func (p *residualPlan) depthSpreadRow(dst, age, res []float32, s float64) {
 	dst = dst[:len(age)]
 	if res != nil {
 		res = res[:len(age)]
 	}
-	samp := p.spread.nodes
-	sw := p.spread.switchBits
-	rate := p.rate
+	nodes := p.spread.nodes
 	nan := float32(math.NaN())
 	for i, ab := range float32Bits(age) {
-		if res != nil && res[i] != res[i] {
-			dst[i] = nan // no residual (land, no data): no lookup
+		if res != nil && res[i]-res[i] != 0 {
+			dst[i] = nan // no residual (land, no data; or infinite): no lookup
 			continue
 		}
-		j := uint(ab >> thermal.Float32NodeShift)
-		switch {
-		case ab < sw && j < uint(len(samp)):
-			dst[i] = samp[j].at(ab)
-		case ab >= sw && j < uint(len(rate)):
-			dst[i] = float32(math.Abs(float64(rate[j].At(ab))) * s)
-		case ab&^signBit32 > infBits32:
-			dst[i] = nan // NaN age
-		default:
+		if j := uint(ab >> thermal.Float32NodeShift); j < uint(len(nodes)) {
+			dst[i] = nodes[j].at(ab)
+		} else {
 			dst[i] = float32(p.depthSpread(age[i], s))
 		}
 	}
 }
 
 // depthSpread is the predicted depth's uncertainty at age a (float32, as the grids hold it) for
-// σ = s: ageSpread of the table's depth with the model's subsidence rate as derivative, the
-// first-order branch reading the rate from its float32 nodes (one lookup; the nodes resample
-// SubsidenceRateMPerMyr to about 1e-6 of its value, as thermal's heat-flow nodes do). For the
-// question's single σ the sampling branch reads p.spread instead (see spreadTable).
+// σ = s: for the question's single σ its spreadTable; for another σ (an age-uncertainty grid's)
+// the σ-bucket rows (sigmaGrid) on the sampling branch and the subsidence-rate nodes to first
+// order (one lookup; the nodes resample SubsidenceRateMPerMyr to about 1e-6 of its value, as
+// thermal's heat-flow nodes do); ageSpread of the table's depth with the model's subsidence rate
+// as derivative for everything else (ages beyond the table, NaN, negative).
 func (p *residualPlan) depthSpread(a float32, s float64) float64 {
 	af := float64(a)
 	if p.spread != nil && s == p.sigmaMa {
 		b := math.Float32bits(a)
-		if j := uint(b >> thermal.Float32NodeShift); b < p.spread.switchBits && j < uint(len(p.spread.nodes)) {
+		if j := uint(b >> thermal.Float32NodeShift); j < uint(len(p.spread.nodes)) {
 			return float64(p.spread.nodes[j].at(b))
 		}
+	}
+	if p.sigGrid != nil && s >= minTabulatedSigmaMa && s <= math.MaxFloat32 && af >= 0 && s > SamplingRatio*af {
+		return float64(p.sigGrid.at(a, float32(s)))
 	}
 	if s > 0 && s <= SamplingRatio*af {
 		b := math.Float32bits(a)
@@ -489,6 +499,9 @@ func (p *residualPlan) prepareUnc(in Inputs) error {
 			return err
 		}
 		p.sigma = s
+		if p.rate != nil {
+			p.sigGrid = newSigmaGrid(in.Model, p.tbl)
+		}
 		return nil
 	}
 	if math.IsNaN(in.AgeSigmaMa) {
@@ -511,3 +524,174 @@ func (p *residualPlan) prepareUnc(in Inputs) error {
 // AgeSigmaField names the single age uncertainty of a question in faults (the request's
 // parameter).
 const AgeSigmaField = "age-uncertainty-ma"
+
+// With an age-uncertainty grid every cell has its own σ, so the single-σ spreadTable does not
+// apply. The sampled depth uncertainty is then tabulated in two variables: σ by the top bits of
+// its float32 pattern (sigmaBucketBits buckets per octave, like thermal.Float32Nodes index ages)
+// and the relative age x = age/σ ∈ [0, 1/SamplingRatio] in spreadIntervals uniform intervals.
+// Each bucket's row holds sampledSpread at σ = the bucket's start; a cell interpolates linearly
+// in x within the rows of its bucket and the next, then linearly in the low bits of σ between
+// them (piecewise linear in σ within an octave). For a √age law the spread at fixed x grows like
+// √σ, which linear interpolation over steps of 1/32 of an octave misses by at most
+// (1/32)²/8 · 1/4 ≈ 3e-5 of the value; with the x interpolation (as spreadTable's, about 4e-5)
+// the table stays within 2e-4 of the value plus 5 mm of the direct quadrature
+// (TestSigmaGridMatchesQuadrature: largest seen 3e-5 of the value for σ up to 40 Ma). Rows are built on first use (513
+// quadratures each, tens of microseconds) and kept per model (at most maxSigmaRows).
+
+// minTabulatedSigmaMa is the smallest σ read from the σ-bucket rows; smaller ones (below any
+// dating method's resolution) are integrated directly.
+const minTabulatedSigmaMa = 1e-6
+
+// sigmaBucketBits is log2 of the number of σ buckets per octave.
+const sigmaBucketBits = 5
+
+// sigmaBucketShift drops the float32 mantissa bits below the bucket index.
+const sigmaBucketShift = 23 - sigmaBucketBits
+
+// sigmaBucketCount covers every finite positive float32 σ (and one more for the upper row).
+const sigmaBucketCount = 0x7f800000>>sigmaBucketShift + 1
+
+// maxSigmaRows bounds the cached rows over all models (4 KiB each).
+const maxSigmaRows = 4096
+
+// sigmaRow is the sampled depth uncertainty at x = i/spreadIntervals/SamplingRatio, i = 0..spreadIntervals.
+type sigmaRow [spreadIntervals + 1]float32
+
+var sigmaRows struct {
+	sync.Mutex
+	m map[sigmaRowKey]*sigmaRow
+}
+
+type sigmaRowKey struct {
+	p      thermal.Params
+	bucket uint32
+}
+
+// sigmaGrid is one plan's view of the σ-bucket rows of its model: a pointer per bucket, filled
+// from the shared cache on first use (safe for the plan's concurrent workers).
+type sigmaGrid struct {
+	params thermal.Params
+	tbl    *thermal.Table
+	rows   []atomic.Pointer[sigmaRow]
+}
+
+func newSigmaGrid(m thermal.Model, tbl *thermal.Table) *sigmaGrid {
+	return &sigmaGrid{params: m.Params(), tbl: tbl, rows: make([]atomic.Pointer[sigmaRow], sigmaBucketCount+1)}
+}
+
+// row returns the row of bucket k, building or fetching it on first use.
+func (g *sigmaGrid) row(k uint32) *sigmaRow {
+	if r := g.rows[k].Load(); r != nil {
+		return r
+	}
+	key := sigmaRowKey{g.params, k}
+	sigmaRows.Lock()
+	r, ok := sigmaRows.m[key]
+	sigmaRows.Unlock()
+	if !ok {
+		r = new(sigmaRow)
+		s := float64(math.Float32frombits(k << sigmaBucketShift))
+		for i := range r {
+			x := float64(i) / spreadIntervals / SamplingRatio
+			r[i] = float32(sampledSpread(g.tbl.DepthM, x*s, s))
+		}
+		sigmaRows.Lock()
+		if sigmaRows.m == nil {
+			sigmaRows.m = make(map[sigmaRowKey]*sigmaRow)
+		}
+		if len(sigmaRows.m) < maxSigmaRows {
+			sigmaRows.m[key] = r
+		}
+		sigmaRows.Unlock()
+	}
+	g.rows[k].Store(r)
+	return r
+}
+
+// at is the sampled depth uncertainty at age a for σ = s, for finite s > 0 and 0 ≤ a < s/SamplingRatio.
+func (g *sigmaGrid) at(a, s float32) float32 {
+	sb := math.Float32bits(s)
+	k := sb >> sigmaBucketShift
+	f := float32(sb&(1<<sigmaBucketShift-1)) * (1.0 / (1 << sigmaBucketShift))
+	lo, hi := g.row(k), g.row(k+1)
+	// x in units of the rows' intervals: a/s of the cell's own σ on both rows (the rows are
+	// functions of x, so the interpolation in σ is at fixed x)
+	x := a / s * (SamplingRatio * spreadIntervals)
+	i := int(x)
+	if i >= spreadIntervals {
+		i = spreadIntervals - 1
+	}
+	fx := x - float32(i)
+	vlo := lo[i] + fx*(lo[i+1]-lo[i])
+	vhi := hi[i] + fx*(hi[i+1]-hi[i])
+	return vlo + f*(vhi-vlo)
+}
+
+// residualSigmaFused is the residual's hot loop (residualFusedChunk) with the residual's age
+// uncertainty found in the same pass over the row: res as residualFusedChunk gives it, and
+// resSig NaN where res is, else the predicted depth's uncertainty at the cell's age, for the
+// question's single σ (sig nil: p.spread's node at the depth's own index, as depthSpreadRow)
+// or for the cell's own σ from the
+// age-uncertainty grid's row sig (the σ-bucket rows below the switch, the rate nodes above,
+// as depthSpread). Cells the loop leaves to the slow paths (values beyond a table, σ not
+// positive and finite) take depthSpread.
+func (p *residualPlan) residualSigmaFused(res, resSig, age, obs, sed, sig []float32) {
+	n := len(res)
+	if n == 0 {
+		return
+	}
+	res, resSig, age, obs, sed = res[:n], resSig[:n], age[:n], obs[:n], sed[:n]
+	// Two passes over the row, which stays in the L1 cache between them: the residual's own
+	// loop, then the uncertainty (one loop doing both holds more live values than there are
+	// registers, spills, and runs slower than the two).
+	residualFusedChunk(res, age, obs, sed, p.sign, p.depthTab, p.sedTab)
+	ab := float32Bits(age)[:n]
+	rs := resSig[:n]
+	nan := float32(math.NaN())
+	slow := false
+	if sig == nil {
+		un := p.spread.nodes
+		for i, r := range res {
+			b := ab[i]
+			var u float32
+			if j := uint(b >> thermal.Float32NodeShift); j < uint(len(un)) {
+				u = un[j].at(b)
+			} else {
+				u = nan
+				slow = true
+			}
+			rs[i] = u + (r - r) // NaN where the residual is NaN (or infinite), without a branch
+		}
+	} else {
+		sig = sig[:n]
+		rate, g := p.rate, p.sigGrid
+		for i, r := range res {
+			b, s := ab[i], sig[i]
+			var u float32
+			j := uint(b >> thermal.Float32NodeShift)
+			switch {
+			case float64(s) <= SamplingRatio*float64(age[i]) && s > 0 && j < uint(len(rate)):
+				// first order; the float32 product of float32 values is the float64 product
+				// rounded once, so this equals depthSpread's float64 arithmetic rounded to float32
+				u = math.Float32frombits(math.Float32bits(rate[j].At(b))&^signBit32) * s
+			case s >= minTabulatedSigmaMa && s <= math.MaxFloat32 && j < uint(len(rate)):
+				u = g.at(age[i], s) // sampled (age < σ/SamplingRatio), from the σ-bucket rows
+			default:
+				u = nan
+				slow = true
+			}
+			rs[i] = u + (r - r)
+		}
+	}
+	if slow {
+		for i, r := range res {
+			if r-r == 0 && rs[i] != rs[i] {
+				s := p.sigmaMa
+				if sig != nil {
+					s = float64(sig[i])
+				}
+				rs[i] = float32(p.depthSpread(age[i], s))
+			}
+		}
+	}
+}
