@@ -119,6 +119,15 @@ func TestHalfSpaceHeatFlow(t *testing.T) {
 // about 2,500–3,000 m; seafloor older than about 80 Ma lies near 5,500 m
 // (plate models; ±500 m); the lithosphere is about 100 km thick by 80 Ma
 // (±30 km).
+//
+// The temperature-dependent plate is held to the series plate models
+// instead, with its own tolerances: within 450 m of PSM from 0 to 200 Ma
+// and within 650 m of GDH1 from 0 to 100 Ma. Its laboratory properties make
+// it subside 8–16 % more per joule of heat lost than PSM's constants (see
+// tdepModel), i.e. up to about 0.45 km over PSM's 3.2 km by 100 Ma. GDH1's
+// thinner, hotter plate flattens earlier (the gap reaches 0.63 km at
+// 100 Ma and keeps growing), so against it the comparison stops at 100 Ma. MJP05 show their depth–age curve close to the observed depths
+// that PSM and GDH1 fit (from memory, not checked against the paper).
 func TestFactsOfTheTrade(t *testing.T) {
 	for _, id := range BuiltinIDs() {
 		m := mustBuiltin(t, id)
@@ -127,9 +136,17 @@ func TestFactsOfTheTrade(t *testing.T) {
 				t.Errorf("ridge depth %g m outside 2500–3000 m", d)
 			}
 			near(t, "thickness_km at 80 Ma", m.ThermalThicknessKm(80), 100, 30)
-			// The half-space keeps deepening: its known flaw. The temperature-dependent
-			// plate with α not falling with pressure subsides too far (see tdepModel).
-			if id != IDHalfSpace && id != IDPlateTDepMJP05 {
+			switch id {
+			case IDHalfSpace: // it keeps deepening: its known flaw
+			case IDPlateTDepMJP05:
+				psm, gdh1 := mustBuiltin(t, IDPSM), mustBuiltin(t, IDGDH1)
+				for age := 0.0; age <= 200; age += 10 {
+					near(t, fmt.Sprintf("depth_m at %g Ma vs PSM", age), m.DepthM(age), psm.DepthM(age), 450)
+					if age <= 100 {
+						near(t, fmt.Sprintf("depth_m at %g Ma vs GDH1", age), m.DepthM(age), gdh1.DepthM(age), 650)
+					}
+				}
+			default:
 				for _, age := range []float64{80, 100} {
 					near(t, fmt.Sprintf("depth_m at %g Ma", age), m.DepthM(age), 5500, 500)
 				}

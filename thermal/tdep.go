@@ -17,7 +17,9 @@ const KindPlateTDep = "plate-tdep"
 const IDPlateTDepMJP05 = "plate-tdep-mjp05"
 
 // Numerical settings of the temperature-dependent plate and its convergence
-// check. TestTDepConvergence halves the depth spacing and the time-step
+// check: numerical choices of this package, no published source. The scheme
+// is second order in space and time (TestTDepConvergence measures the
+// order). TestTDepConvergence halves the depth spacing and the time-step
 // factor together and requires depth and heat flow at every tabulated age
 // from 0.5 to 200 Ma to change by less than TDepDepthTolM and
 // TDepHeatFlowTolFrac: the solution on the default grid is converged to
@@ -57,6 +59,17 @@ type tdepProps struct {
 	// constRho holds the density at rho0 in the heat equation (the
 	// constant-property limit); otherwise ρ(T) = ρ0 exp(−∫_{0 °C}^{T} α dT).
 	constRho bool
+	// alphaP is α(T, P)/α(T, 0) at depth z (m) below the seafloor, the fall
+	// of expansivity with pressure; nil for none.
+	alphaP func(zM float64) float64
+}
+
+// pressureFactor is α(T, P(z))/α(T, 0) at depth zM (1 when alphaP is nil).
+func (pr *tdepProps) pressureFactor(zM float64) float64 {
+	if pr.alphaP == nil {
+		return 1
+	}
+	return pr.alphaP(zM)
 }
 
 // intAlpha is ∫_{t1}^{t2} α(T) dT (dimensionless), temperatures in °C.
@@ -73,31 +86,55 @@ func (pr *tdepProps) rho(tc float64) float64 {
 	return pr.rho0 * math.Exp(-pr.intAlpha(0, tc))
 }
 
+// contraction is the shortening per unit ridge-column thickness of material
+// at depth zM cooled from tm to tc, 1 − ρ(tm)/ρ(tc) = 1 − exp(−f(z) ∫_{tc}^{tm} α dT)
+// (mass conserved, the column shrinks only vertically; f the pressure factor);
+// in the constant-density (Boussinesq) limit the linear f ∫ α dT.
+func (pr *tdepProps) contraction(zM, tc, tm float64) float64 {
+	x := pr.pressureFactor(zM) * pr.intAlpha(tc, tm)
+	if pr.constRho {
+		return x
+	}
+	return -math.Expm1(-x)
+}
+
 // vc is the volumetric heat capacity ρ(T) cp(T) (J/m³/K).
 func (pr *tdepProps) vc(tc float64) float64 { return pr.rho(tc) * pr.cp(tc) }
 
 // mjp05Props is the olivine property set of McKenzie, Jackson & Priestley
 // (2005), "Thermal structure of oceanic and continental lithosphere", Earth
-// Planet. Sci. Lett. 233, 337–349. The coefficients below are from memory and
-// were not looked up while writing:
+// Planet. Sci. Lett. 233, 337–349 (MJP05), §2 (their equation numbers not
+// recalled). Every coefficient below is from memory and was not looked up
+// while writing; TestTDepMJP05Published checks spot values of each function
+// against handbook values.
 //
-//   - conductivity (their lattice plus radiative fit, from Hofmeister 1999
-//     and later measurements): k(T) = b/(1 + cT) + Σ_{m=0..3} d_m T_K^m with
-//     T in °C in the lattice term, b = 5.3 W/m/K, c = 0.0015 /°C,
-//     d = 1.753e-2, −1.0365e-4, 2.2451e-7, −3.4071e-11;
-//   - heat capacity: Berman & Aranovich (1996), Contrib. Mineral. Petrol.
-//     126, 1–24, cp = k0 + k1 T_K^{−1/2} + k3 T_K^{−3} (J/mol/K) for
-//     forsterite (233.18, −1801.6, −2.6794e8) and fayalite (252, −2013.7,
-//     −6.219e7), mixed as Fo89 (molar masses 140.69 and 203.78 g/mol);
-//   - expansivity: forsterite after Bouhifd et al. (1996), Geophys. Res.
-//     Lett. 23, 1143–1146, α = a0 + a1 T_K with a0 = 2.832e-5 /K,
-//     a1 = 0.758e-8 /K², integrated for the density ρ(T) with
-//     ρ0 = 3330 kg/m³ at 0 °C.
+//   - conductivity, MJP05's fit to the lattice (Hofmeister 1999, Science 283,
+//     1699–1706) plus radiative parts: k(T) = b/(1 + cT) + Σ_{m=0..3} d_m T_K^m,
+//     T in °C in the lattice term and T_K = T + 273.15 in the sum;
+//     b = 5.3 W/m/K, c = 0.0015 /°C, d0 = 1.753e-2 W/m/K,
+//     d1 = −1.0365e-4 W/m/K², d2 = 2.2451e-7 W/m/K³, d3 = −3.4071e-11 W/m/K⁴;
+//   - heat capacity, as MJP05 take it from Berman & Aranovich (1996),
+//     Contrib. Mineral. Petrol. 126, 1–24: cp = k0 + k1 T_K^{−1/2} + k3 T_K^{−3}
+//     (J/mol/K) with (k0, k1, k3) = (233.18, −1801.6, −2.6794e8) for
+//     forsterite and (252, −2013.7, −6.219e7) for fayalite, mixed as Fo89
+//     (olivine of 89 % forsterite, the usual mantle olivine; common
+//     practice) by mole and
+//     divided by the molar mass of the mixture (Mg2SiO4 140.69 g/mol, Fe2SiO4
+//     203.77 g/mol, from the standard atomic weights);
+//   - expansivity (volumetric), as MJP05 take it from Bouhifd et al. (1996),
+//     Geophys. Res. Lett. 23, 1143–1146, for forsterite: α = a0 + a1 T_K with
+//     a0 = 2.832e-5 /K and a1 = 0.758e-8 /K², T_K in kelvin (their fit spans
+//     room temperature to near melting, so it is in absolute temperature;
+//     taking T in °C instead would lower α by a1·273 = 2.1e-6 /K);
+//   - density ρ(T) = ρ0 exp(−∫_{0 °C}^{T} α dT) with ρ0 = 3330 kg/m³ at 0 °C
+//     (MJP05).
 //
-// The crust of their model (a layer of different properties) is not
-// included: the whole plate is olivine.
+// To these zero-pressure laboratory values the model adds the fall of the
+// expansivity with pressure (alphaPressureFactor), which MJP05 do not
+// include. The crust of their model (a layer of different properties) is
+// not included: the whole plate is olivine.
 func mjp05Props() *tdepProps {
-	const xFo, mFo, mFa = 0.89, 0.14069, 0.20378 // molar fraction, kg/mol
+	const xFo, mFo, mFa = 0.89, 0.14069, 0.20377 // molar fraction, kg/mol
 	mMix := xFo*mFo + (1-xFo)*mFa
 	return &tdepProps{
 		k: func(tc float64) float64 {
@@ -112,20 +149,48 @@ func mjp05Props() *tdepProps {
 			return (xFo*fo + (1-xFo)*fa) / mMix
 		},
 		a0: 2.832e-5, a1: 0.758e-8,
-		rho0: 3330,
+		rho0:   3330,
+		alphaP: alphaPressureFactor,
 	}
 }
 
+// Pressure dependence of the expansivity of olivine (all values from memory):
+// the Anderson–Grüneisen relation α(T, P) = α(T, 0) (V/V0)^δT with δT about
+// 5.5 for forsterite at mantle temperatures (Anderson, Isaak & Oda 1992, Rev.
+// Geophys. 30, 57–90), and the Murnaghan equation of state V/V0 =
+// (1 + K′P/K0)^(−1/K′) with K0 = 129 GPa and K′ ≈ 5 (forsterite; Kumazawa &
+// Anderson 1969, J. Geophys. Res. 74, 5961–5972, adiabatic values, K′
+// rounded; the factor changes by under 0.3 % for K′ from 4 to 6).
+// The pressure is lithostatic below the seafloor, P = ρ0 g z with ρ0 of the
+// olivine at 0 °C (3330 kg/m³); the water load (about 25–60 MPa) is
+// neglected. At the plate base (106 km, 3.5 GPa) α is about 13 % below its
+// zero-pressure value.
+const (
+	olivineAndersonGruneisen = 5.5
+	olivineBulkModulusPa     = 129e9
+	olivineBulkModulusDeriv  = 5.0
+	olivineDensity0KgM3      = 3330.0
+)
+
+// alphaPressureFactor is α(T, P(z))/α(T, 0) at depth zM (m) below the
+// seafloor (see the constants above).
+func alphaPressureFactor(zM float64) float64 {
+	p := olivineDensity0KgM3 * GravityMs2 * zM
+	return math.Pow(1+olivineBulkModulusDeriv*p/olivineBulkModulusPa, -olivineAndersonGruneisen/olivineBulkModulusDeriv)
+}
+
 // mjp05Params is the plate of McKenzie, Jackson & Priestley (2005): thickness
-// 106 km, mantle temperature 1315 °C, seafloor 0 °C (from memory). Conductivity,
-// heat capacity, expansivity and density are reported at the mantle
-// temperature (the model itself varies them with temperature). Sea water
-// 1030 kg/m³ and ridge depth 2500 m: common practice, no source.
+// 106 km and mantle potential temperature 1315 °C (MJP05's fit to depth and
+// heat flow, from memory), held at the plate base; seafloor 0 °C. The
+// conductivity, heat capacity, expansivity and density fields report the
+// properties at the mantle temperature and zero pressure (the model itself
+// varies them). Ridge depth 2500 m as in Parsons & Sclater (1977)'s
+// d = 2500 + 350 √t; sea water 1030 kg/m³: common practice, no source.
 func mjp05Params() Params {
 	pr := mjp05Props()
 	const tm = 1315.0
 	return Params{
-		ID: IDPlateTDepMJP05, Name: "Plate, temperature-dependent properties (MJP05 set; experimental: no pressure dependence or crust, subsides ~0.9 km too far at 100 Ma)", Kind: KindPlateTDep,
+		ID: IDPlateTDepMJP05, Name: "Plate, temperature-dependent properties (MJP05 set, olivine without crust)", Kind: KindPlateTDep,
 		PlateThicknessKm: 106, MantleTemperatureC: tm, SurfaceTemperatureC: 0,
 		ExpansivityPerK:   pr.a0 + pr.a1*(tm+273.15),
 		ConductivityWmK:   pr.k(tm),
@@ -148,15 +213,30 @@ func mjp05Params() Params {
 // iterate) until no temperature changes by more than tdepPicardTolK. Fluxes
 // use k at the mean temperature of each interval. Heat flow is k(Ts)·∂T/∂z
 // at the surface (second-order one-sided difference). Depth is from
-// isostasy with the integrated expansivity, referred to the mantle column:
+// isostasy, referred to the ridge column (all at Tm): each layer dz of the
+// ridge column keeps its mass and shrinks vertically to (ρm/ρ) dz, so
 //
-//	d(t) = dr + ρm/(ρm − ρw) ∫_0^a ∫_{T(z,t)}^{Tm} α(T') dT' dz,  ρm = ρ(Tm)
+//	d(t) = dr + ρm/(ρm − ρw) ∫_0^a [1 − exp(−f(z) ∫_{T(z,t)}^{Tm} α(T') dT')] dz,  ρm = ρ(Tm)
 //
-// which with constant α is the plate model's ρm α ∫(Tm − T) dz/(ρm − ρw).
-// Thermal contraction of the grid itself is neglected, and α does not fall
-// with pressure: with the MJP05 set the plate subsides about 3.9 km by
-// 100 Ma, some 0.6–0.9 km more than the series plate models (PSM, GDH1) and
-// than old seafloor is observed to lie (about 5.5 km; common practice).
+// with f(z) the fall of α with pressure (tdepProps.contraction); to first
+// order in α ΔT and with constant α and f = 1 it is the plate model's
+// ρm α ∫(Tm − T) dz/(ρm − ρw) (McKenzie 1967; Parsons & Sclater 1977), the
+// form used in the constant-property limit. The heat equation is solved on
+// the ridge column's depth grid (its contraction, at most 5 %, is neglected
+// there).
+//
+// Depth against the series plate models: with the MJP05 set the plate loses
+// as much heat as the PSM plate (within 2 % to 150 Ma) but subsides 8–16 %
+// more per joule lost. Subsidence per unit heat lost is ρm/(ρm − ρw)·α/(ρ cp):
+// PSM's constants give 1.17e-11 m³/J (GDH1's 1.14e-11), while the laboratory
+// olivine values give 1.35e-11 to 1.76e-11 m³/J between 1200 and 0 °C (α/(ρ cp)
+// 9.1e-12 to 1.19e-11 m³/J, and the hot ρm makes ρm/(ρm − ρw) 1.48 instead of
+// 1.43). The plate therefore lies about 0.2 km (10 Ma) to 0.4 km (100 Ma)
+// deeper than PSM, and up to about 0.8 km deeper than GDH1 by 150 Ma
+// (TestFactsOfTheTrade states the tolerances). Korenaga (2007), Earth Planet.
+// Sci. Lett. 257, 343–349, argues that the effective expansivity of the
+// lithosphere lies 15–30 % below laboratory values; the model applies no
+// such factor.
 //
 // The solution (profiles, depth and heat flow at tdepAgeNodes+1 ages uniform
 // in √age over 0..TableMaxAgeMa) is computed once, on first use (sync.Once;
@@ -249,7 +329,7 @@ func solveTDep(p Params, pr *tdepProps, nz int, eps float64, ages []float64) (*t
 		sol.baseQ = append(sol.baseQ, 1000*pr.k(tm)*baseGradient(z, T))
 		w := 0.0
 		for i := 0; i < nz; i++ {
-			w += (pr.intAlpha(T[i], tm) + pr.intAlpha(T[i+1], tm)) / 2 * (z[i+1] - z[i])
+			w += (pr.contraction(z[i], T[i], tm) + pr.contraction(z[i+1], T[i+1], tm)) / 2 * (z[i+1] - z[i])
 		}
 		sol.depth = append(sol.depth, p.RidgeDepthM+rhoM/(rhoM-p.WaterDensityKgM3)*w)
 	}
@@ -304,9 +384,11 @@ func solveTDep(p Params, pr *tdepProps, nz int, eps float64, ages []float64) (*t
 	t, dtPrev := 0.0, 0.0
 	for _, target := range ages {
 		for t < target {
-			dt := math.Max(eps*t, 1e-7)
+			dt := math.Max(eps*t, 1e-7) // first step 1e-7 Myr: numerical choice
 			if dtPrev > 0 {
-				dt = math.Min(dt, 2*dtPrev) // BDF2 is zero-stable for ratios below 1+√2
+				// Variable-step BDF2 is zero-stable for step ratios below
+				// 1+√2 (Grigorieff 1983, Numer. Math. 42, 359–377; from memory).
+				dt = math.Min(dt, 2*dtPrev)
 			}
 			if t+dt > target*(1-1e-12) {
 				dt = target - t

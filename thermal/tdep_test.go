@@ -58,11 +58,29 @@ func TestTDepConstantLimit(t *testing.T) {
 // heat flow by less than TDepHeatFlowTolFrac at every age from 0.5 to 200 Ma.
 // A coarse grid (a quarter of the intervals, four times the step) must fail
 // it, so the check can tell an unconverged solution.
+//
+// The order of convergence: the scheme is second order in space (centred
+// differences on a smoothly stretched grid) and in time (BDF2), so each
+// halving of both should cut the depth error fourfold. The observed order
+// log2(|d(h) − d(h/2)| / |d(h/2) − d(h/4)|) from the half, default and fine
+// grids must lie within 2 ± 0.3 at 5–200 Ma (the tolerance allows for the
+// Picard tolerance and the first backward-Euler step; heat flow, a
+// one-sided difference interpolated in √age, is too noisy at these error
+// levels for an order check and keeps the tolerance check above).
 func TestTDepConvergence(t *testing.T) {
 	p := mjp05Params()
 	ref := newTDep(p, mjp05Props(), tdepIntervals, tdepStepFactor)
 	fine := newTDep(p, mjp05Props(), 2*tdepIntervals, tdepStepFactor/2)
 	coarse := newTDep(p, mjp05Props(), tdepIntervals/4, 4*tdepStepFactor)
+	half := newTDep(p, mjp05Props(), tdepIntervals/2, 2*tdepStepFactor)
+	t.Run("order", func(t *testing.T) {
+		for _, age := range []float64{5, 20, 60, 100, 200} {
+			e1, e2 := math.Abs(half.DepthM(age)-ref.DepthM(age)), math.Abs(ref.DepthM(age)-fine.DepthM(age))
+			order := math.Log2(e1 / e2)
+			t.Logf("%g Ma: depth changes %.4f m, %.4f m: order %.2f", age, e1, e2, order)
+			near(t, fmt.Sprintf("observed order of depth at %g Ma", age), order, 2, 0.3)
+		}
+	})
 	worst := func(m *tdepModel) (dd, dq float64) {
 		for _, age := range []float64{0.5, 1, 2, 5, 10, 20, 40, 60, 80, 100, 150, 200} {
 			dd = math.Max(dd, math.Abs(m.DepthM(age)-fine.DepthM(age)))
@@ -186,6 +204,43 @@ func TestTDepMJP05Published(t *testing.T) {
 	}
 	near(t, "temperature_c at 53 km, 400 Ma vs steady state", m.TemperatureC(zMid/1000, 400), lo, 10)
 
+	// Steady-state isostatic depth from the same Kirchhoff geotherm, by an
+	// independent quadrature: each layer dz of the ridge column keeps its
+	// mass, so it shrinks by 1 − ρ(Tm)/ρ(T) = 1 − exp(−f(z) ∫_T^{Tm} α dT), and
+	// the water-loaded subsidence is ρm/(ρm − ρw) times the column's
+	// shortening (Turcotte & Schubert §4.23 with the exact density ratio).
+	// Tolerance 3 m: the model deepens by about 47 m from 200 to 300 Ma and
+	// 5 m from 300 to 400 Ma (its slowest mode decays about ninefold per
+	// 100 Myr), so at 400 Ma it lies under 1 m from the steady state; the
+	// rest allows for the two quadratures.
+	steadyT := func(z float64) float64 {
+		lo, hi := p.SurfaceTemperatureC, p.MantleTemperatureC
+		for range 60 {
+			mid := (lo + hi) / 2
+			if kint(p.SurfaceTemperatureC, mid) < total*z/a {
+				lo = mid
+			} else {
+				hi = mid
+			}
+		}
+		return (lo + hi) / 2
+	}
+	shorten := 0.0
+	const nz = 400
+	for i := 0; i <= nz; i++ {
+		z := a * float64(i) / nz
+		tc := steadyT(z)
+		k1, k2 := tc+273.15, p.MantleTemperatureC+273.15
+		ia := pr.a0*(k2-k1) + pr.a1/2*(k2*k2-k1*k1) // ∫ (a0 + a1 T_K) dT
+		w := 2.0
+		if i == 0 || i == nz {
+			w = 1
+		}
+		shorten += w * -math.Expm1(-alphaPressureFactor(z)*ia) * a / nz / 2
+	}
+	rm := p.MantleDensityKgM3
+	near(t, "depth_m at 400 Ma vs steady isostasy", m.DepthM(400), p.RidgeDepthM+rm/(rm-p.WaterDensityKgM3)*shorten, 3)
+
 	// Property spot values. Forsterite cp at 298.15 K is 118.6 J/mol/K
 	// (Robie & Hemingway 1995, USGS Bull. 2131, from memory; tolerance 2 %);
 	// olivine lattice conductivity near room temperature is about 5 W/m/K
@@ -237,21 +292,44 @@ func TestTDepBuiltin(t *testing.T) {
 }
 
 // BenchmarkTDepBuild is the one-time cost of the temperature-dependent plate:
-// its solution on a fresh model, and the lookup table built from it.
+// its solution on a fresh model.
 func BenchmarkTDepBuild(b *testing.B) {
 	p, pr := mjp05Params(), mjp05Props()
-	b.Run("solution", func(b *testing.B) {
-		b.ReportAllocs()
-		for b.Loop() {
-			newTDep(p, pr, tdepIntervals, tdepStepFactor).solution()
+	b.ReportAllocs()
+	for b.Loop() {
+		newTDep(p, pr, tdepIntervals, tdepStepFactor).solution()
+	}
+}
+
+// BenchmarkTdepTable is building the lookup table of the temperature-dependent
+// plate from its (already computed) solution, as TableFor does on first use.
+func BenchmarkTdepTable(b *testing.B) {
+	m := newTDep(mjp05Params(), mjp05Props(), tdepIntervals, tdepStepFactor)
+	m.solution()
+	b.ReportAllocs()
+	for b.Loop() {
+		_ = newTable(m)
+	}
+}
+
+// The fall of expansivity with pressure against the linearised
+// Anderson–Grüneisen relation α(P)/α(0) ≈ exp(−δT P/K0) (Anderson, Isaak &
+// Oda 1992, from memory), which the Murnaghan form matches to second order
+// in P/K0: within 1.5 % down to 110 km (3.6 GPa, (δT P/K0)²/2 ≈ 1 %);
+// exactly 1 at the seafloor; and falling with depth. The plate base of MJP05
+// (106 km) lies 10–15 % below zero pressure (δT ΔV/V with ΔV/V ≈ 2.6 % at
+// 3.5 GPa; from memory, tolerance the spread of δT 5–6).
+func TestTDepAlphaPressure(t *testing.T) {
+	near(t, "factor at the seafloor", alphaPressureFactor(0), 1, 0)
+	prev := 1.0
+	for z := 5e3; z <= 110e3; z += 5e3 {
+		f := alphaPressureFactor(z)
+		lin := math.Exp(-olivineAndersonGruneisen * olivineDensity0KgM3 * GravityMs2 * z / olivineBulkModulusPa)
+		near(t, fmt.Sprintf("factor at %g km vs exp(−δT P/K0)", z/1000), f, lin, 0.015)
+		if !(f < prev) {
+			t.Errorf("factor at %g km = %g, not below %g above it", z/1000, f, prev)
 		}
-	})
-	b.Run("table", func(b *testing.B) {
-		m := newTDep(p, pr, tdepIntervals, tdepStepFactor)
-		m.solution()
-		b.ReportAllocs()
-		for b.Loop() {
-			_ = newTable(m)
-		}
-	})
+		prev = f
+	}
+	near(t, "factor at 106 km", alphaPressureFactor(106e3), 0.875, 0.025)
 }
