@@ -32,6 +32,10 @@ type GridInputs struct {
 	Depth    RowReader // observed bathymetry, m, in DepthSense (optional)
 	Sediment RowReader // sediment thickness, m (optional)
 	Crust    RowReader // crustal thickness, km (optional)
+	// AgeUncertainty is the seafloor-age uncertainty, Ma, one standard deviation (optional):
+	// read by the *_uncertainty parameters unless the question gives one value
+	// (Options.AgeUncertaintyMa), which then holds for every cell, as for a stored dataset.
+	AgeUncertainty RowReader
 	// DepthSense is Depth's vertical sense (DepthPositiveDown or ElevationPositiveUp).
 	DepthSense geo.VerticalSense
 	// Workers is the number of goroutines computing a block; 0 means GOMAXPROCS.
@@ -48,6 +52,9 @@ func (s *Service) ResolveGrid(ctx context.Context, in GridInputs, o Options) (*Q
 		return nil, fault.New(fault.InvalidParameter, "parameter-name", "ask for exactly one parameter (one of %s)", joinIDs())
 	}
 	d := &Dataset{Row: store.Dataset{ID: in.Name}, HasDepth: in.Depth != nil, HasSediment: in.Sediment != nil}
+	if in.AgeUncertainty != nil {
+		d.AgeUncertaintyRef = GridRef{ID: in.Name + " age uncertainty", Role: RoleAgeUncertainty}
+	}
 	return s.Resolve(ctx, d, o)
 }
 
@@ -101,16 +108,18 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 	p := q.Params[0]
 	fl := newFlagger(q.Params)
 	want := q.outputs()
-	needCorr := fl.need&inCorr != 0 && in.Depth != nil && want&(geo.OutCorrectedDepth|geo.OutResidualDepth) != 0
+	needCorr := fl.need&inCorr != 0 && in.Depth != nil && want&(geo.OutCorrectedDepth|geo.OutResidualDepth|geo.OutResidualDepthSigma) != 0
 	readObs := in.Depth != nil && (fl.need&inObs != 0 || needCorr)
 	readSed := in.Sediment != nil && (fl.need&inSed != 0 || needCorr)
 	readCrust := in.Crust != nil && needCorr
-	comps := []*companion{nil, nil, nil}
+	readSigma := in.AgeUncertainty != nil && q.usesAgeUncertaintyGrid()
+	comps := []*companion{nil, nil, nil, nil}
 	for i, c := range []struct {
 		r    RowReader
 		use  bool
 		what string
-	}{{in.Depth, readObs, "observed depth"}, {in.Sediment, readSed, "sediment thickness"}, {in.Crust, readCrust, "crustal thickness"}} {
+	}{{in.Depth, readObs, "observed depth"}, {in.Sediment, readSed, "sediment thickness"}, {in.Crust, readCrust, "crustal thickness"},
+		{in.AgeUncertainty, readSigma, "age uncertainty"}} {
 		if !c.use {
 			continue
 		}
@@ -126,7 +135,7 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 	type loaded struct {
 		row0, rows int
 		age        []float32
-		comp       [3]*geo.Grid
+		comp       [4]*geo.Grid
 		err        error
 		set        int
 	}
@@ -135,7 +144,7 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 	defer cancel()
 	type inputSet struct {
 		age  []float32
-		comp [3][]float32
+		comp [4][]float32
 	}
 	sets := [2]*inputSet{{}, {}}
 	freeSets := make(chan int, 2)
@@ -159,8 +168,8 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 			set.age = grow(set.age, n*nx)
 			l := loaded{row0: r0, rows: n, age: set.age, set: si}
 			// The grids of a block are read concurrently (each reader is its own file); the
-			// first error in the order age, depth, sediment, crust is the block's.
-			var errs [4]error
+			// first error in the order age, depth, sediment, crust, age uncertainty is the block's.
+			var errs [5]error
 			var wg sync.WaitGroup
 			wg.Add(1)
 			go func() { defer wg.Done(); errs[0] = in.Age.ReadRows(r0, l.age) }()
@@ -276,6 +285,9 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 				if l.comp[2] != nil {
 					gin.Crust = l.comp[2]
 				}
+			}
+			if l.comp[3] != nil {
+				gin.AgeSigma = l.comp[3] // sampled like the companions, bilinear onto the age lattice
 			}
 			dst := &geo.Result{}
 			outGrid := func(d []float32) *geo.Grid { g := blk; g.Data = d; return &g }

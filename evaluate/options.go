@@ -162,11 +162,13 @@ func (q *Query) Predicts() bool {
 	return false
 }
 
-// HasPredictedDepth reports whether some parameter carries a predicted depth (and so the
-// navigation caution).
+// HasPredictedDepth reports whether some parameter carries a predicted depth or its
+// uncertainty (and so the navigation caution: a depth's model uncertainty is no measure of
+// how far a sounding would be from it either).
 func (q *Query) HasPredictedDepth() bool {
 	for _, p := range q.Params {
-		if p.ID == PPredictedDepth || p.ID == PResidualDepth || p.ID == PCorrectedDepth {
+		switch p.ID {
+		case PPredictedDepth, PResidualDepth, PCorrectedDepth, PPredictedDepthUncertainty, PResidualDepthUncertainty:
 			return true
 		}
 	}

@@ -64,6 +64,7 @@ func init() {
 // gridFlags are grid's flags.
 type gridFlags struct {
 	dataset, age, depth, sediment, crust     string
+	ageUnc                                   string
 	depthUnits, sedimentUnits, crustUnits    string
 	vertical, model, sedimentSet, param, out string
 	format, compress                         string
@@ -91,7 +92,8 @@ func runGrid(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	fs.StringVar(&f.model, "model", evaluate.DefaultModel, "cooling model: "+strings.Join(thermal.BuiltinIDs(), ", ")+", or a stored custom model id (needs the store)")
 	fs.StringVar(&f.sedimentSet, "sediment-set", evaluate.DefaultSediment, "compaction set of the sediment correction: "+strings.Join(thermal.CompactionNames(), ", "))
 	fs.IntVar(&f.workers, "workers", 0, "goroutines computing each block (default: the number of CPUs)")
-	fs.Float64Var(&f.ageSigmaMa, "age-uncertainty-ma", 0, "one seafloor-age uncertainty, Ma (one standard deviation), for every cell: needed by the *_uncertainty parameters")
+	fs.StringVar(&f.ageUnc, "age-uncertainty", "", "seafloor-age uncertainty grid file, Ma (one standard deviation): read by the *_uncertainty parameters")
+	fs.Float64Var(&f.ageSigmaMa, "age-uncertainty-ma", 0, "one seafloor-age uncertainty, Ma (one standard deviation), for every cell: for the *_uncertainty parameters without an age-uncertainty grid; given, it holds instead of the grid")
 	f.loc.define(fs)
 	if err := parseFlags(ctx, gridCmd, fs, args, stdout, false); err != nil {
 		return err
@@ -118,8 +120,8 @@ func (f *gridFlags) check() (string, error) {
 	if f.dataset == "" && f.age == "" {
 		return "", usagef("give the age grid with --age FILE, or a stored dataset with --dataset ID")
 	}
-	if f.dataset != "" && (f.age != "" || f.depth != "" || f.sediment != "" || f.crust != "") {
-		return "", usagef("give either --dataset or input files (--age, --depth, --sediment, --crust), not both")
+	if f.dataset != "" && (f.age != "" || f.depth != "" || f.sediment != "" || f.crust != "" || f.ageUnc != "") {
+		return "", usagef("give either --dataset or input files (--age, --depth, --sediment, --crust, --age-uncertainty), not both")
 	}
 	if f.depth == "" && (f.depthUnits != "" || f.vertical != "auto" && f.vertical != "") {
 		return "", usagef("--depth-units and --vertical describe the --depth file; give it")
@@ -211,20 +213,18 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 		}
 		gin.Name, gin.DepthSense = f.dataset, d.DepthSense
 		for _, ref := range d.Refs {
-			row, err := st.GetGrid(ctx, ref.ID)
-			if err != nil {
-				return fmt.Errorf("dataset %s: grid %s: %w", f.dataset, ref.ID, err)
-			}
-			path, err := st.Blobs().Path(row.Path)
+			in, err := openStoredGrid(ctx, st, f.dataset, ref)
 			if err != nil {
 				return err
 			}
-			opt := gdal.ReadOptions{Registration: map[store.Registration]string{store.CellCentre: "cell-centre", store.Node: "node"}[row.Registration]}
-			ds, err := gdal.Open(path, opt)
+			inputs = append(inputs, in)
+		}
+		if ref := d.AgeUncertaintyRef; ref.ID != "" {
+			in, err := openStoredGrid(ctx, st, f.dataset, ref)
 			if err != nil {
-				return fmt.Errorf("dataset %s: reading grid %s: %w", f.dataset, ref.ID, err)
+				return err
 			}
-			inputs = append(inputs, &gridInput{role: ref.Role, name: ref.ID, reader: ds, closer: ds.Close, ref: ref})
+			inputs = append(inputs, in)
 		}
 	} else {
 		gin.Name = filepath.Base(f.age)
@@ -243,6 +243,7 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 			{f.depth, evaluate.PObservedDepth, ingest.Request{Kind: kindDepth, Units: f.depthUnits, Vertical: vertical}},
 			{f.sediment, evaluate.PSedimentThickness, ingest.Request{Kind: store.KindSedimentThickness, Units: f.sedimentUnits}},
 			{f.crust, evaluate.RoleCrust, ingest.Request{Kind: store.KindCrustalThickness, Units: f.crustUnits}},
+			{f.ageUnc, evaluate.RoleAgeUncertainty, ingest.Request{Kind: store.KindAgeUncertainty}},
 		} {
 			if spec.path == "" {
 				continue
@@ -274,6 +275,8 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 			gin.Sediment = in.reader
 		case evaluate.RoleCrust:
 			gin.Crust = in.reader
+		case evaluate.RoleAgeUncertainty:
+			gin.AgeUncertainty = in.reader
 		}
 	}
 	gin.Workers = f.workers
@@ -372,9 +375,31 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 // gridProvenance is the metadata grid records: evaluate's provenance (software, model and its
 // parameters, sediment set, dataset and stored grids, caution) plus the parameter and the
 // input files by name (their content ids are added once read).
+// openStoredGrid opens the stored grid ref of dataset id for reading by rows.
+func openStoredGrid(ctx context.Context, st store.Store, id string, ref evaluate.GridRef) (*gridInput, error) {
+	row, err := st.GetGrid(ctx, ref.ID)
+	if err != nil {
+		return nil, fmt.Errorf("dataset %s: grid %s: %w", id, ref.ID, err)
+	}
+	path, err := st.Blobs().Path(row.Path)
+	if err != nil {
+		return nil, err
+	}
+	opt := gdal.ReadOptions{Registration: map[store.Registration]string{store.CellCentre: "cell-centre", store.Node: "node"}[row.Registration]}
+	ds, err := gdal.Open(path, opt)
+	if err != nil {
+		return nil, fmt.Errorf("dataset %s: reading grid %s: %w", id, ref.ID, err)
+	}
+	return &gridInput{role: ref.Role, name: ref.ID, reader: ds, closer: ds.Close, ref: ref}, nil
+}
+
 func gridProvenance(svc *evaluate.Service, q *evaluate.Query, f *gridFlags, inputs []*gridInput) map[string]string {
 	if f.dataset != "" {
 		for _, in := range inputs {
+			if in.ref.Role == evaluate.RoleAgeUncertainty {
+				q.Dataset.AgeUncertaintyRef = in.ref
+				continue
+			}
 			q.Dataset.Refs = append(q.Dataset.Refs, in.ref)
 		}
 	} else {

@@ -27,6 +27,7 @@ import (
 type gridFixture struct {
 	dataDir                  string
 	age, elevation, sediment string // demo files
+	ageUnc                   string // the demo age-uncertainty file
 	coarseSediment           string // gdalwarp -tr 0.35 of the sediment file
 	coarseDataset            string
 }
@@ -48,9 +49,11 @@ func newGridFixture(t *testing.T) gridFixture {
 			f.elevation = p
 		case demobasin.FilePrefix + "-sediment-thickness.tif":
 			f.sediment = p
+		case demobasin.FilePrefix + "-age-uncertainty.tif":
+			f.ageUnc = p
 		}
 	}
-	if f.age == "" || f.elevation == "" || f.sediment == "" {
+	if f.age == "" || f.elevation == "" || f.sediment == "" || f.ageUnc == "" {
 		t.Fatalf("demo files missing: %v", files)
 	}
 	f.coarseSediment = filepath.Join(dir, "sediment-coarse.tif")
@@ -137,13 +140,18 @@ func TestGridMatchesArea(t *testing.T) {
 		args    []string // the inputs given to grid
 	}
 	sources := []source{
-		{"demo files", demobasin.DatasetID, []string{"--age", f.age, "--depth", f.elevation, "--sediment", f.sediment}},
+		{"demo files", demobasin.DatasetID, []string{"--age", f.age, "--depth", f.elevation, "--sediment", f.sediment, "--age-uncertainty", f.ageUnc}},
 		{"demo dataset", demobasin.DatasetID, []string{"--dataset", demobasin.DatasetID, "--data", f.dataDir}},
 		{"coarse sediment file", f.coarseDataset, []string{"--age", f.age, "--depth", f.elevation, "--vertical", "elevation-positive-up", "--sediment", f.coarseSediment}},
 		{"coarse sediment dataset", f.coarseDataset, []string{"--dataset", f.coarseDataset, "--data", f.dataDir}},
 	}
 	for _, src := range sources {
-		for _, param := range []string{evaluate.PResidualDepth, evaluate.PPredictedDepth} {
+		params := []string{evaluate.PResidualDepth, evaluate.PPredictedDepth}
+		if src.dataset == demobasin.DatasetID {
+			// the age-uncertainty grid read block by block, as Area reads it whole
+			params = append(params, evaluate.PResidualDepthUncertainty)
+		}
+		for _, param := range params {
 			want := areaAnswer(t, f.dataDir, src.dataset, param)
 			for _, form := range []struct {
 				ext, name string
