@@ -15,8 +15,9 @@ import (
 )
 
 // Blobs stores grid files under content-addressed keys. GridFiles keeps them in a local
-// directory; an object store can implement the same interface later (Path would then return
-// a GDAL virtual path such as /vsis3/bucket/key).
+// directory; store/s3blob keeps them in an S3-compatible bucket, where Path returns a GDAL
+// virtual path (/vsis3/bucket/prefix/key) that GDAL reads with HTTP range requests.
+// storetest.RunBlobs is the contract every implementation passes.
 type Blobs interface {
 	// Hold takes a shared lease that keeps Sweep from removing anything until release is
 	// called. Hold it from before Put until the catalogue row is committed.
@@ -32,6 +33,9 @@ type Blobs interface {
 	Path(key string) (string, error)
 	// Delete removes a blob; deleting an absent blob is not an error.
 	Delete(ctx context.Context, key string) error
+	// List returns the keys of the stored blobs in ascending order (temporary files and
+	// the store's own bookkeeping are not listed).
+	List(ctx context.Context) ([]string, error)
 	// Sweep removes temporary files and blobs whose keys are not in the set returned by
 	// referenced, unless a lease is held (then it returns nil, nil and removes nothing).
 	// catalogueID names the catalogue the blobs belong to: a store records it on first sweep
@@ -241,6 +245,21 @@ func (g *GridFiles) Delete(ctx context.Context, key string) error {
 		return err
 	}
 	return syncDir(g.dir)
+}
+
+// List implements Blobs.
+func (g *GridFiles) List(ctx context.Context) ([]string, error) {
+	entries, err := os.ReadDir(g.dir)
+	if err != nil {
+		return nil, err
+	}
+	var keys []string
+	for _, e := range entries {
+		if g.IsKey(e.Name()) && e.Type().IsRegular() {
+			keys = append(keys, e.Name())
+		}
+	}
+	return keys, nil // os.ReadDir sorts by name
 }
 
 // Sweep implements Blobs.
