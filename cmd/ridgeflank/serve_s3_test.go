@@ -4,7 +4,9 @@ import (
 	"bufio"
 	"bytes"
 	"context"
+	"encoding/json"
 	"io"
+	"log/slog"
 	"net/http"
 	"os"
 	"path/filepath"
@@ -13,6 +15,9 @@ import (
 	"testing"
 	"time"
 
+	"ridgeflank/demobasin"
+	"ridgeflank/store"
+	"ridgeflank/store/pgtest"
 	"ridgeflank/store/s3blob/s3test"
 )
 
@@ -186,5 +191,97 @@ func TestGridStoreFlags(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(dir, "grids")); err == nil {
 		t.Log("grid directory created by a refused command")
+	}
+}
+
+// TestTwoReplicasOnePostGISOneBucket runs two servers on one PostGIS database and one bucket,
+// as the Kubernetes Deployment does: grids imported once are read by both (the start-up sweep
+// of the second keeps them), both answer alike, and a write through one is read through the
+// other. Skipped without a PostGIS server (see scripts/test-db.sh).
+func TestTwoReplicasOnePostGISOneBucket(t *testing.T) {
+	dbURL := pgtest.NewDB(t)
+	srv := s3test.Start(t, "shared-grids")
+	gridStore, osc := srv.Config("replicas")
+	ctx := context.Background()
+	st, err := store.Open(ctx, store.Config{DatabaseURL: dbURL, DataDir: t.TempDir(), GridStore: gridStore, ObjectStore: osc, Logger: slog.New(slog.DiscardHandler)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := demobasin.Generate(demobasin.Options{CellDeg: 0.25})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := demobasin.Install(ctx, st, b); err != nil {
+		t.Fatal(err)
+	}
+	grids, err := st.ListGrids(ctx, store.GridFilter{})
+	if err != nil || len(grids) < 3 {
+		t.Fatalf("installed grids %v, %v", grids, err)
+	}
+	st.Close()
+
+	env := map[string]string{"RIDGEFLANK_S3_ACCESS_KEY_ID": srv.AccessKeyID, "RIDGEFLANK_S3_SECRET_ACCESS_KEY": srv.SecretAccessKey, "DATABASE_URL": dbURL}
+	args := []string{"--grid-store", gridStore, "--s3-endpoint", srv.URL}
+	var outA, outB syncBuffer
+	a := startServeEnv(t, env, &outA, append(args, "--data", t.TempDir())...)
+	bb := startServeEnv(t, env, &outB, append(args, "--data", t.TempDir())...)
+
+	p := "/api/collections/quillon-basin-synthetic/position?coords=MULTIPOINT((-135%20-30),(-125%20-40))&parameter-name=residual_depth,observed_depth"
+	ca, ba := get(t, a+p)
+	cb, bbody := get(t, bb+p)
+	if ca != 200 || cb != 200 {
+		t.Fatalf("positions: %d %s / %d %s", ca, ba, cb, bbody)
+	}
+	ba, bbody = bytes.ReplaceAll(ba, []byte(a), nil), bytes.ReplaceAll(bbody, []byte(bb), nil)
+	if !bytes.Equal(ba, bbody) {
+		t.Fatalf("the replicas answer differently:\n%.400s\n%.400s", ba, bbody)
+	}
+	var cov struct {
+		Ranges map[string]struct{ Values []*float64 } `json:"ranges"`
+	}
+	if err := json.Unmarshal(ba, &cov); err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range []string{"observed_depth", "residual_depth"} {
+		if v := cov.Ranges[p].Values; len(v) != 2 || v[0] == nil || v[1] == nil {
+			t.Fatalf("%s: values %v; want two numbers read from the bucket", p, v)
+		}
+	}
+	var keys []string
+	for _, g := range grids {
+		keys = append(keys, g.Path)
+	}
+	for _, k := range keys {
+		if c, _ := get(t, srv.URL+"/shared-grids/replicas/"+k); c != 403 {
+			t.Fatalf("the test server answered %d to an unsigned request, want 403", c)
+		}
+	}
+	// A write through one replica (with the token the other printed, stored in the shared
+	// database) is read through the other.
+	tok := ""
+	for _, l := range strings.Split(outB.String(), "\n") {
+		if strings.HasPrefix(strings.TrimSpace(l), "rft_") {
+			tok = strings.TrimSpace(l)
+		}
+	}
+	body := `{"type":"Feature","geometry":{"type":"Polygon","coordinates":[[[-145,-30],[-144,-30],[-144,-29],[-145,-30]]]},"properties":{"name":"written through replica A"}}`
+	req, _ := http.NewRequest("POST", a+"/api/regions", strings.NewReader(body))
+	req.Header.Set("Content-Type", "application/geo+json")
+	req.Header.Set("Authorization", "Bearer "+tok)
+	resp, err := http.DefaultClient.Do(req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	resp.Body.Close()
+	if resp.StatusCode != 201 {
+		t.Fatalf("POST /api/regions through A with B's token: %d", resp.StatusCode)
+	}
+	if c, list := get(t, bb+"/api/regions"); c != 200 || !bytes.Contains(list, []byte("written through replica A")) {
+		t.Fatalf("replica B does not list the region written through A: %d %.300s", c, list)
+	}
+	for _, out := range []string{outA.String(), outB.String()} {
+		if strings.Contains(out, srv.SecretAccessKey) {
+			t.Errorf("a replica printed the object store's secret")
+		}
 	}
 }
