@@ -81,6 +81,9 @@ type ObjectStoreConfig struct {
 	// printed: Secret formats as "[redacted]".
 	AccessKeyID     string
 	SecretAccessKey Secret
+	// CreateBucket creates the bucket when it does not exist (for a fresh object store in a
+	// compose file or a test); otherwise a missing bucket is an error.
+	CreateBucket bool
 	// PartSizeBytes is the part size of multipart uploads; files larger than one part are
 	// uploaded in parts. Default (0) 64 MiB; at least 5 MiB (the S3 minimum).
 	PartSizeBytes int64

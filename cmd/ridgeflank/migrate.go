@@ -48,6 +48,7 @@ type dbLocationFlags struct {
 	gridStore   string
 	s3Endpoint  string
 	s3Region    string
+	s3Create    bool
 }
 
 // Environment variables that hold the object store's credentials (never flags: a command
@@ -64,6 +65,7 @@ func (f *dbLocationFlags) define(fs *flag.FlagSet) {
 	fs.StringVar(&f.gridStore, "grid-store", "", "keep grid files in an S3-compatible bucket instead of --grid-dir: s3://bucket/prefix (credentials from RIDGEFLANK_S3_ACCESS_KEY_ID and RIDGEFLANK_S3_SECRET_ACCESS_KEY, or AWS_ACCESS_KEY_ID and AWS_SECRET_ACCESS_KEY)")
 	fs.StringVar(&f.s3Endpoint, "s3-endpoint", "", "object store URL for --grid-store, e.g. http://127.0.0.1:8333 (default: AWS S3 of --s3-region)")
 	fs.StringVar(&f.s3Region, "s3-region", "us-east-1", "object store region for --grid-store")
+	fs.BoolVar(&f.s3Create, "s3-create-bucket", false, "create the --grid-store bucket if it does not exist")
 }
 
 // firstEnv returns the value of the first of names that is set and not empty.
@@ -92,7 +94,7 @@ func (f *dbLocationFlags) open(ctx context.Context, stderr io.Writer, noMigrate 
 			return nil, usagef("--grid-dir and --grid-store exclude each other")
 		}
 		cfg.ObjectStore = store.ObjectStoreConfig{
-			Endpoint: f.s3Endpoint, Region: f.s3Region,
+			Endpoint: f.s3Endpoint, Region: f.s3Region, CreateBucket: f.s3Create,
 			AccessKeyID:     firstEnv(ctx, envS3AccessKeyID),
 			SecretAccessKey: store.Secret(firstEnv(ctx, envS3SecretAccessKey)),
 		}

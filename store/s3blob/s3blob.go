@@ -133,10 +133,16 @@ func Open(ctx context.Context, gridStore string, cfg store.ObjectStoreConfig, lo
 	}
 	b := &Blobs{client: s3.New(opts), bucket: bucket, prefix: prefix, partSize: part, log: log}
 	if _, err := b.client.HeadBucket(ctx, &s3.HeadBucketInput{Bucket: aws.String(bucket)}); err != nil {
-		if statusOf(err) == 404 {
+		if statusOf(err) != 404 {
+			return nil, fmt.Errorf("object store: bucket %q: %w", bucket, err)
+		}
+		if !cfg.CreateBucket {
 			return nil, fmt.Errorf("%w: object store: bucket %q does not exist (create it first)", store.ErrInvalid, bucket)
 		}
-		return nil, fmt.Errorf("object store: bucket %q: %w", bucket, err)
+		if _, err := b.client.CreateBucket(ctx, &s3.CreateBucketInput{Bucket: aws.String(bucket)}); err != nil && statusOf(err) != 409 {
+			return nil, fmt.Errorf("object store: creating bucket %q: %w", bucket, err)
+		}
+		log.Info("grid store: bucket created", "bucket", bucket)
 	}
 	gdal.SetConfigOptions(gopts)
 	log.Info("grid store: object store bucket", "bucket", bucket, "prefix", prefix, "endpoint", cfg.Endpoint)

@@ -65,6 +65,26 @@ func TestThroughStoreOpen(t *testing.T) {
 	}
 }
 
+func TestCreateBucket(t *testing.T) {
+	srv := s3test.Start(t, "existing")
+	_, cfg := srv.Config("")
+	ctx := context.Background()
+	if _, err := s3blob.Open(ctx, "s3://fresh/g", cfg, slog.New(slog.DiscardHandler)); !errors.Is(err, store.ErrInvalid) {
+		t.Fatalf("Open of a missing bucket = %v; want ErrInvalid", err)
+	}
+	cfg.CreateBucket = true
+	b, err := s3blob.Open(ctx, "s3://fresh/g", cfg, slog.New(slog.DiscardHandler))
+	if err != nil {
+		t.Fatalf("Open with CreateBucket: %v", err)
+	}
+	if _, err := b.Put(ctx, "", func(p string) error { return os.WriteFile(p, []byte("abc"), 0o644) }); err != nil {
+		t.Fatalf("Put into the created bucket: %v", err)
+	}
+	if _, err := s3blob.Open(ctx, "s3://fresh/g", cfg, slog.New(slog.DiscardHandler)); err != nil {
+		t.Fatalf("second Open with CreateBucket (bucket exists): %v", err)
+	}
+}
+
 // TestMultipart uploads a file larger than one part: it arrives in parts, whole, and the
 // temporary file is gone.
 func TestMultipart(t *testing.T) {
