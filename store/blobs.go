@@ -368,3 +368,39 @@ func CopyFile(src string) func(tmpPath string) error {
 		return out.Close()
 	}
 }
+
+// SharedFiles is implemented by grid stores that several servers share (store/s3blob): a file
+// one server receives and another's job worker reads (an upload), or one server's job writes
+// and any server sends (an export), is kept there under a name such as "uploads/x.tif". Names
+// are one folder ("uploads" or "exports") and a file name of letters, digits, '.', '-' and
+// '_'. A store without it (the grid directory) keeps such files on the server's own disk.
+type SharedFiles interface {
+	// PutFile copies the local file src to name.
+	PutFile(ctx context.Context, name, src string) error
+	// GetFile copies name to the local path dst (ErrNotFound if absent).
+	GetFile(ctx context.Context, name, dst string) error
+	// OpenFile opens name for reading (ErrNotFound if absent).
+	OpenFile(ctx context.Context, name string) (io.ReadSeekCloser, error)
+	// RemoveFile removes name; removing an absent file is not an error.
+	RemoveFile(ctx context.Context, name string) error
+	// SweepFiles removes the files of folder last written more than olderThan ago.
+	SweepFiles(ctx context.Context, folder string, olderThan time.Duration) (removed int, err error)
+}
+
+// SharedFolders are the folders of SharedFiles.
+var SharedFolders = []string{"uploads", "exports"}
+
+// SharedFileName checks a SharedFiles name.
+func SharedFileName(name string) error {
+	folder, file, ok := strings.Cut(name, "/")
+	valid := ok && file != "" && len(file) <= 128 && file[0] != '.'
+	for _, c := range file {
+		if !(c >= 'a' && c <= 'z' || c >= 'A' && c <= 'Z' || c >= '0' && c <= '9' || c == '.' || c == '-' || c == '_') {
+			valid = false
+		}
+	}
+	if !valid || (folder != SharedFolders[0] && folder != SharedFolders[1]) {
+		return fmt.Errorf("%w: shared file name %q", ErrInvalid, name)
+	}
+	return nil
+}

@@ -150,6 +150,11 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	} else if n > 0 {
 		log.Info("removed old export files", "count", n)
 	}
+	if n, err := server.SweepShared(ctx, st); err != nil {
+		log.Warn("sweeping old uploads and exports in the grid store", "err", err)
+	} else if n > 0 {
+		log.Info("removed old uploads and exports from the grid store", "count", n)
+	}
 	if err := q.Migrate(ctx); err != nil {
 		return fmt.Errorf("job queue migrations: %w", err)
 	}

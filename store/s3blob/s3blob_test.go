@@ -179,3 +179,59 @@ func TestSecretNeverFormatted(t *testing.T) {
 		t.Fatal("Reveal lost the value")
 	}
 }
+
+// TestSharedFiles: uploads and exports kept beside the grid files, invisible to List and
+// never removed by a sweep of the grid files.
+func TestSharedFiles(t *testing.T) {
+	srv := s3test.Start(t, "shared")
+	b := open(t, srv, nil)
+	ctx := context.Background()
+	src := t.TempDir() + "/upload.nc"
+	if err := os.WriteFile(src, []byte("uploaded bytes"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	const name = "uploads/upload-1234.nc"
+	if err := b.PutFile(ctx, name, src); err != nil {
+		t.Fatal(err)
+	}
+	if keys, err := b.List(ctx); err != nil || len(keys) != 0 {
+		t.Fatalf("List = %v, %v; shared files are not grid files", keys, err)
+	}
+	if removed, err := b.Sweep(ctx, "cat_shared", func(context.Context) (map[string]bool, error) { return nil, nil }); err != nil || len(removed) != 0 {
+		t.Fatalf("grid sweep removed %v, %v", removed, err)
+	}
+	dst := t.TempDir() + "/copy.nc"
+	if err := b.GetFile(ctx, name, dst); err != nil {
+		t.Fatal(err)
+	}
+	if got, _ := os.ReadFile(dst); string(got) != "uploaded bytes" {
+		t.Fatalf("GetFile wrote %q", got)
+	}
+	f, err := b.OpenFile(ctx, name)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	buf.ReadFrom(f)
+	f.Close()
+	if buf.String() != "uploaded bytes" {
+		t.Fatalf("OpenFile read %q", buf.String())
+	}
+	if n, err := b.SweepFiles(ctx, "uploads", time.Hour); err != nil || n != 0 {
+		t.Fatalf("SweepFiles of a fresh file removed %d, %v", n, err)
+	}
+	if n, err := b.SweepFiles(ctx, "uploads", 0); err != nil || n != 1 {
+		t.Fatalf("SweepFiles(0) removed %d, %v; want 1", n, err)
+	}
+	if err := b.GetFile(ctx, name, dst); !errors.Is(err, store.ErrNotFound) {
+		t.Fatalf("GetFile after the sweep = %v; want ErrNotFound", err)
+	}
+	if err := b.RemoveFile(ctx, name); err != nil {
+		t.Fatalf("RemoveFile of an absent file: %v", err)
+	}
+	for _, bad := range []string{"uploads/../x", "grids/x.tif", "uploads/", "uploads/.hidden", "exports/a/b", "x"} {
+		if err := b.PutFile(ctx, bad, src); !errors.Is(err, store.ErrInvalid) {
+			t.Errorf("PutFile(%q) = %v; want ErrInvalid", bad, err)
+		}
+	}
+}
