@@ -122,4 +122,3 @@ func (b *Blobs) SweepFiles(ctx context.Context, folder string, olderThan time.Du
 	}
 	return n, nil
 }
-
