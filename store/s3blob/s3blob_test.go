@@ -235,3 +235,7 @@ func TestSharedFiles(t *testing.T) {
 		}
 	}
 }
+
+func openBlobs(url string, cfg store.ObjectStoreConfig) (*s3blob.Blobs, error) {
+	return s3blob.Open(context.Background(), url, cfg, slog.New(slog.DiscardHandler))
+}
