@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"net/http"
 	"net/url"
 	"os"
@@ -17,6 +18,7 @@ import (
 	"ridgeflank/evaluate"
 	"ridgeflank/fault"
 	"ridgeflank/jobs"
+	"ridgeflank/store"
 )
 
 // exportResult is recorded as the job's result.
@@ -70,12 +72,28 @@ func ExportWorker(deps Deps) func(ctx context.Context, a jobs.ExportArgs, progre
 		if err := json.Unmarshal(a.Request, &req); err != nil {
 			return nil, jobs.Permanent(err)
 		}
-		res, err := ev.Export(ctx, req, a.Path, func(f float64, msg string) { progress(f, msg) })
+		out := a.Path
+		sf, shared := deps.Store.Blobs().(store.SharedFiles)
+		if shared {
+			// Any server may be asked for the file: write it here, keep it in the grid store.
+			dir, err := os.MkdirTemp("", "ridgeflank-export-")
+			if err != nil {
+				return nil, err
+			}
+			defer os.RemoveAll(dir)
+			out = filepath.Join(dir, filepath.Base(a.Path))
+		}
+		res, err := ev.Export(ctx, req, out, func(f float64, msg string) { progress(f, msg) })
 		if _, ok := fault.As(err); ok {
 			return nil, jobs.Permanent(err)
 		}
 		if err != nil {
 			return nil, err
+		}
+		if shared {
+			if err := sf.PutFile(ctx, "exports/"+filepath.Base(a.Path), out); err != nil {
+				return nil, err
+			}
 		}
 		return res, nil
 	}
@@ -109,7 +127,12 @@ func (s *server) jobResult(w http.ResponseWriter, r *http.Request) error {
 	if err := json.Unmarshal(st.Result, &res); err != nil {
 		return err
 	}
-	f, err := os.Open(args.Path)
+	var f io.ReadSeekCloser
+	if sf, ok := s.deps.Store.Blobs().(store.SharedFiles); ok {
+		f, err = sf.OpenFile(r.Context(), "exports/"+filepath.Base(args.Path))
+	} else {
+		f, err = os.Open(args.Path)
+	}
 	if err != nil {
 		return problem(CodeNotFound, "the file of job %d is no longer kept", id)
 	}
@@ -128,6 +151,22 @@ func (s *server) jobResult(w http.ResponseWriter, r *http.Request) error {
 // ExportRetention is how long export files are kept (River forgets
 // completed jobs after 24 hours, after which nobody can ask for the file).
 const ExportRetention = 48 * time.Hour
+
+// SweepShared removes export files older than ExportRetention, and uploads older than a week
+// (their jobs have long failed), from a grid store shared by several servers; serve calls it
+// at start-up. A grid directory has no such files (nothing to do).
+func SweepShared(ctx context.Context, st store.Store) (removed int, err error) {
+	sf, ok := st.Blobs().(store.SharedFiles)
+	if !ok {
+		return 0, nil
+	}
+	n, err := sf.SweepFiles(ctx, "exports", ExportRetention)
+	if err != nil {
+		return n, err
+	}
+	m, err := sf.SweepFiles(ctx, "uploads", 7*24*time.Hour)
+	return n + m, err
+}
 
 // SweepExports removes export files older than ExportRetention from dir
 // (Config.ExportDir); serve calls it at start-up.

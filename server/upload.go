@@ -126,11 +126,28 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 	if err := uploadRequest(args).Check(); err != nil {
 		return err
 	}
+	// With a grid store shared by several servers, the job may run on another one: the upload
+	// goes there, and the job fetches it.
+	var sharedName string
+	if sf, ok := s.deps.Store.Blobs().(store.SharedFiles); ok {
+		sharedName = "uploads/" + filepath.Base(tmpPath)
+		if err := sf.PutFile(r.Context(), sharedName, tmpPath); err != nil {
+			return err
+		}
+		os.Remove(tmpPath)
+		tmpPath = ""
+		args.Path = sharedRef + sharedName
+		defer func() {
+			if sharedName != "" { // only reached on failure
+				_ = sf.RemoveFile(context.WithoutCancel(r.Context()), sharedName)
+			}
+		}()
+	}
 	id, err := s.deps.Jobs.EnqueueImport(r.Context(), args)
 	if err != nil {
 		return err
 	}
-	tmpPath = "" // the job owns the file now
+	tmpPath, sharedName = "", "" // the job owns the file now
 	st, err := s.deps.Jobs.Get(r.Context(), id)
 	if err != nil {
 		return err
@@ -141,6 +158,10 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 	body["upload_sha256"] = args.SHA256
 	return writeJSON(w, http.StatusAccepted, "", body)
 }
+
+// sharedRef marks an ImportArgs.Path that names a file of the grid store's store.SharedFiles
+// rather than a path on the server's disk.
+const sharedRef = "shared:"
 
 func safeExt(name string) string {
 	ext := strings.ToLower(filepath.Ext(name))
@@ -179,10 +200,35 @@ func ImportWorker(st store.Store, log *slog.Logger) func(ctx context.Context, a 
 		log = slog.New(slog.DiscardHandler)
 	}
 	return func(ctx context.Context, a jobs.ImportArgs, progress jobs.Progress) (any, error) {
+		remove := func() { os.Remove(a.Path) }
+		name, shared := strings.CutPrefix(a.Path, sharedRef)
+		if shared {
+			sf, ok := st.Blobs().(store.SharedFiles)
+			if !ok {
+				return nil, jobs.Permanent(fmt.Errorf("the upload %s is in a shared grid store this server does not use", name))
+			}
+			dir, err := os.MkdirTemp("", "ridgeflank-import-")
+			if err != nil {
+				return nil, err
+			}
+			defer os.RemoveAll(dir)
+			a.Path = filepath.Join(dir, filepath.Base(name))
+			if err := sf.GetFile(ctx, name, a.Path); err != nil {
+				if errors.Is(err, store.ErrNotFound) {
+					return nil, jobs.Permanent(fmt.Errorf("the uploaded file is gone: %w", err))
+				}
+				return nil, err
+			}
+			remove = func() {
+				if err := sf.RemoveFile(context.WithoutCancel(ctx), name); err != nil {
+					log.WarnContext(ctx, "removing an imported upload from the grid store", "name", name, "err", err)
+				}
+			}
+		}
 		res, err := ingest.Import(ctx, st, uploadRequest(a), progress)
 		if err != nil {
 			if _, ok := fault.As(err); ok {
-				os.Remove(a.Path)
+				remove()
 				return nil, jobs.Permanent(err)
 			}
 			if _, serr := os.Stat(a.Path); serr != nil {
@@ -190,7 +236,7 @@ func ImportWorker(st store.Store, log *slog.Logger) func(ctx context.Context, a 
 			}
 			return nil, err
 		}
-		os.Remove(a.Path)
+		remove()
 		g := res.Grid
 		log.InfoContext(ctx, "grid imported", "grid_id", g.ID, "created", res.Created, "cells", res.NX*res.NY)
 		notes := res.Notes

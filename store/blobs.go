@@ -15,8 +15,9 @@ import (
 )
 
 // Blobs stores grid files under content-addressed keys. GridFiles keeps them in a local
-// directory; an object store can implement the same interface later (Path would then return
-// a GDAL virtual path such as /vsis3/bucket/key).
+// directory; store/s3blob keeps them in an S3-compatible bucket, where Path returns a GDAL
+// virtual path (/vsis3/bucket/prefix/key) that GDAL reads with HTTP range requests.
+// storetest.RunBlobs is the contract every implementation passes.
 type Blobs interface {
 	// Hold takes a shared lease that keeps Sweep from removing anything until release is
 	// called. Hold it from before Put until the catalogue row is committed.
@@ -32,6 +33,9 @@ type Blobs interface {
 	Path(key string) (string, error)
 	// Delete removes a blob; deleting an absent blob is not an error.
 	Delete(ctx context.Context, key string) error
+	// List returns the keys of the stored blobs in ascending order (temporary files and
+	// the store's own bookkeeping are not listed).
+	List(ctx context.Context) ([]string, error)
 	// Sweep removes temporary files and blobs whose keys are not in the set returned by
 	// referenced, unless a lease is held (then it returns nil, nil and removes nothing).
 	// catalogueID names the catalogue the blobs belong to: a store records it on first sweep
@@ -243,6 +247,21 @@ func (g *GridFiles) Delete(ctx context.Context, key string) error {
 	return syncDir(g.dir)
 }
 
+// List implements Blobs.
+func (g *GridFiles) List(ctx context.Context) ([]string, error) {
+	entries, err := os.ReadDir(g.dir)
+	if err != nil {
+		return nil, err
+	}
+	var keys []string
+	for _, e := range entries {
+		if g.IsKey(e.Name()) && e.Type().IsRegular() {
+			keys = append(keys, e.Name())
+		}
+	}
+	return keys, nil // os.ReadDir sorts by name
+}
+
 // Sweep implements Blobs.
 func (g *GridFiles) Sweep(ctx context.Context, catalogueID string, referenced func(ctx context.Context) (map[string]bool, error)) ([]string, error) {
 	l, ok, err := tryLock(filepath.Join(g.dir, lockName), true)
@@ -348,4 +367,40 @@ func CopyFile(src string) func(tmpPath string) error {
 		}
 		return out.Close()
 	}
+}
+
+// SharedFiles is implemented by grid stores that several servers share (store/s3blob): a file
+// one server receives and another's job worker reads (an upload), or one server's job writes
+// and any server sends (an export), is kept there under a name such as "uploads/x.tif". Names
+// are one folder ("uploads" or "exports") and a file name of letters, digits, '.', '-' and
+// '_'. A store without it (the grid directory) keeps such files on the server's own disk.
+type SharedFiles interface {
+	// PutFile copies the local file src to name.
+	PutFile(ctx context.Context, name, src string) error
+	// GetFile copies name to the local path dst (ErrNotFound if absent).
+	GetFile(ctx context.Context, name, dst string) error
+	// OpenFile opens name for reading (ErrNotFound if absent).
+	OpenFile(ctx context.Context, name string) (io.ReadSeekCloser, error)
+	// RemoveFile removes name; removing an absent file is not an error.
+	RemoveFile(ctx context.Context, name string) error
+	// SweepFiles removes the files of folder last written more than olderThan ago.
+	SweepFiles(ctx context.Context, folder string, olderThan time.Duration) (removed int, err error)
+}
+
+// SharedFolders are the folders of SharedFiles.
+var SharedFolders = []string{"uploads", "exports"}
+
+// SharedFileName checks a SharedFiles name.
+func SharedFileName(name string) error {
+	folder, file, ok := strings.Cut(name, "/")
+	valid := ok && file != "" && len(file) <= 128 && file[0] != '.'
+	for _, c := range file {
+		if !(c >= 'a' && c <= 'z' || c >= 'A' && c <= 'Z' || c >= '0' && c <= '9' || c == '.' || c == '-' || c == '_') {
+			valid = false
+		}
+	}
+	if !valid || (folder != SharedFolders[0] && folder != SharedFolders[1]) {
+		return fmt.Errorf("%w: shared file name %q", ErrInvalid, name)
+	}
+	return nil
 }

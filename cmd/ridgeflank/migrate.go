@@ -11,6 +11,7 @@ import (
 
 	"ridgeflank/store"
 	_ "ridgeflank/store/postgis" // registers the PostGIS backend with store.Open
+	_ "ridgeflank/store/s3blob"  // registers the s3:// grid store with store.OpenBlobs
 	_ "ridgeflank/store/sqlite"  // registers the embedded SQLite backend with store.Open
 )
 
@@ -44,12 +45,37 @@ type dbLocationFlags struct {
 	databaseURL string
 	dataDir     string
 	gridDir     string
+	gridStore   string
+	s3Endpoint  string
+	s3Region    string
+	s3Create    bool
 }
+
+// Environment variables that hold the object store's credentials (never flags: a command
+// line is visible to every user of the host). The RIDGEFLANK_ names win over the AWS ones.
+var (
+	envS3AccessKeyID     = []string{"RIDGEFLANK_S3_ACCESS_KEY_ID", "AWS_ACCESS_KEY_ID"}
+	envS3SecretAccessKey = []string{"RIDGEFLANK_S3_SECRET_ACCESS_KEY", "AWS_SECRET_ACCESS_KEY"}
+)
 
 func (f *dbLocationFlags) define(fs *flag.FlagSet) {
 	fs.StringVar(&f.databaseURL, "database-url", "", "PostgreSQL/PostGIS URL (postgres://...); empty means the embedded SQLite store in --data")
 	fs.StringVar(&f.dataDir, "data", store.DefaultDataDir, "data directory (SQLite database and grid files)")
 	fs.StringVar(&f.gridDir, "grid-dir", "", "grid file directory (default: DATA/grids)")
+	fs.StringVar(&f.gridStore, "grid-store", "", "keep grid files in an S3-compatible bucket instead of --grid-dir: s3://bucket/prefix (credentials from RIDGEFLANK_S3_ACCESS_KEY_ID and RIDGEFLANK_S3_SECRET_ACCESS_KEY, or AWS_ACCESS_KEY_ID and AWS_SECRET_ACCESS_KEY)")
+	fs.StringVar(&f.s3Endpoint, "s3-endpoint", "", "object store URL for --grid-store, e.g. http://127.0.0.1:8333 (default: AWS S3 of --s3-region)")
+	fs.StringVar(&f.s3Region, "s3-region", "us-east-1", "object store region for --grid-store")
+	fs.BoolVar(&f.s3Create, "s3-create-bucket", false, "create the --grid-store bucket if it does not exist")
+}
+
+// firstEnv returns the value of the first of names that is set and not empty.
+func firstEnv(ctx context.Context, names []string) string {
+	for _, n := range names {
+		if v, ok := envLookup(ctx)(n); ok && v != "" {
+			return v
+		}
+	}
+	return ""
 }
 
 // open opens the store; warnings from the store (for example a grid directory it will not
@@ -59,8 +85,21 @@ func (f *dbLocationFlags) open(ctx context.Context, stderr io.Writer, noMigrate 
 		DatabaseURL:   f.databaseURL,
 		DataDir:       f.dataDir,
 		GridDir:       f.gridDir,
+		GridStore:     f.gridStore,
 		NoAutoMigrate: noMigrate,
 		Logger:        slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: slog.LevelWarn})),
+	}
+	if f.gridStore != "" {
+		if f.gridDir != "" {
+			return nil, usagef("--grid-dir and --grid-store exclude each other")
+		}
+		cfg.ObjectStore = store.ObjectStoreConfig{
+			Endpoint: f.s3Endpoint, Region: f.s3Region, CreateBucket: f.s3Create,
+			AccessKeyID:     firstEnv(ctx, envS3AccessKeyID),
+			SecretAccessKey: store.Secret(firstEnv(ctx, envS3SecretAccessKey)),
+		}
+	} else if f.s3Endpoint != "" {
+		return nil, usagef("--s3-endpoint needs --grid-store s3://bucket/prefix")
 	}
 	if noMigrate {
 		cfg.Logger = slog.New(slog.NewTextHandler(io.Discard, nil))

@@ -36,6 +36,12 @@ database of --database-url (also read from DATABASE_URL). Pending migrations are
 applied at start-up, and the durable job queue (grid imports, exports) lives in
 the same database, so a restart loses no accepted import.
 
+Grid files are kept in DIR/grids, or with --grid-store s3://bucket/prefix in a
+bucket of an S3-compatible object store (--s3-endpoint; credentials from
+RIDGEFLANK_S3_ACCESS_KEY_ID and RIDGEFLANK_S3_SECRET_ACCESS_KEY only), which GDAL
+reads in place. With PostGIS and a bucket the server keeps nothing of its own, so
+several can serve side by side (uploads and export files go to the bucket too).
+
 On first start with an empty embedded store the synthetic demo basin (Quillon
 Basin, SYNTHETIC) is loaded. When bound to a loopback address, an editor token is
 printed at start-up so the page on this machine can save regions; tokens printed
@@ -149,6 +155,11 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		log.Warn("sweeping old export files", "err", err)
 	} else if n > 0 {
 		log.Info("removed old export files", "count", n)
+	}
+	if n, err := server.SweepShared(ctx, st); err != nil {
+		log.Warn("sweeping old uploads and exports in the grid store", "err", err)
+	} else if n > 0 {
+		log.Info("removed old uploads and exports from the grid store", "count", n)
 	}
 	if err := q.Migrate(ctx); err != nil {
 		return fmt.Errorf("job queue migrations: %w", err)

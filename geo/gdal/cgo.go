@@ -46,6 +46,26 @@ func setConfigDefault(key, value string) {
 	C.CPLSetConfigOption(ck, cv)
 }
 
+// SetConfigOptions sets GDAL configuration options for the whole process (CPLSetConfigOption),
+// overriding environment variables of the same names; an empty value unsets an option. The
+// object store backend uses it to point /vsis3/ at its server and credentials, so nothing
+// has to be exported into the environment.
+func SetConfigOptions(opts map[string]string) {
+	ensureInit()
+	for k, v := range opts {
+		ck := C.CString(k)
+		var cv *C.char
+		if v != "" {
+			cv = C.CString(v)
+		}
+		C.CPLSetConfigOption(ck, cv)
+		C.free(unsafe.Pointer(ck))
+		if cv != nil {
+			C.free(unsafe.Pointer(cv))
+		}
+	}
+}
+
 // hdfMu serialises every call into the netCDF and HDF5 libraries (netCDF, BAG and HDF5
 // datasets): neither library is thread-safe as Debian builds them.
 var hdfMu sync.Mutex

@@ -30,7 +30,7 @@ func init() {
 // Store is the PostgreSQL/PostGIS store. It is safe for concurrent use.
 type Store struct {
 	pool  *pgxpool.Pool
-	blobs *store.GridFiles
+	blobs store.Blobs
 	log   *slog.Logger
 }
 
@@ -48,7 +48,7 @@ func Open(ctx context.Context, cfg store.Config) (*Store, error) {
 	if err != nil {
 		return nil, fmt.Errorf("%w: database URL: %v", store.ErrInvalid, err)
 	}
-	blobs, err := store.NewGridFiles(cfg.GridDir)
+	blobs, err := store.OpenBlobs(ctx, cfg)
 	if err != nil {
 		return nil, err
 	}

@@ -36,7 +36,7 @@ const BusyTimeout = 10 * time.Second
 type Store struct {
 	db    *sql.DB
 	path  string
-	blobs *store.GridFiles
+	blobs store.Blobs
 	log   *slog.Logger
 	// wmu serialises this process's write transactions (SQLite has one writer at a time;
 	// queuing here avoids busy-waiting). Other processes are handled by busy_timeout.
@@ -70,7 +70,7 @@ func Open(ctx context.Context, cfg store.Config) (*Store, error) {
 	if strings.ContainsAny(path, "?#") {
 		return nil, fmt.Errorf("%w: data directory path must not contain '?' or '#'", store.ErrInvalid)
 	}
-	blobs, err := store.NewGridFiles(cfg.GridDir)
+	blobs, err := store.OpenBlobs(ctx, cfg)
 	if err != nil {
 		return nil, err
 	}

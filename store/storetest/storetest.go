@@ -88,12 +88,17 @@ func sameTime(a, b time.Time) bool {
 	return a.Equal(b) && a.Location() == time.UTC && b.Location() == time.UTC
 }
 
-// gridDirFiles lists the content and temporary files of the grid directory.
+// gridDirFiles lists the content and temporary files of the grid directory, or the blobs of
+// another grid store (an object store keeps no temporary files).
 func gridDirFiles(t *testing.T, s store.Store) []string {
 	t.Helper()
 	gf, ok := s.Blobs().(*store.GridFiles)
 	if !ok {
-		t.Fatalf("Blobs() is %T, the suite inspects *store.GridFiles", s.Blobs())
+		keys, err := s.Blobs().List(ctxT(t))
+		if err != nil {
+			t.Fatalf("listing the grid store: %v", err)
+		}
+		return keys
 	}
 	entries, err := os.ReadDir(gf.Dir())
 	if err != nil {
@@ -111,8 +116,14 @@ func gridDirFiles(t *testing.T, s store.Store) []string {
 	return out
 }
 
-func gridDir(t *testing.T, s store.Store) string {
-	return s.Blobs().(*store.GridFiles).Dir()
+// gf returns the grid directory of a store that keeps its grid files in one.
+func gf(t *testing.T, s store.Store) *store.GridFiles {
+	t.Helper()
+	g, ok := s.Blobs().(*store.GridFiles)
+	if !ok {
+		t.Fatalf("Blobs() is %T, want the grid directory", s.Blobs())
+	}
+	return g
 }
 
 func ids[T any](items []T, id func(T) string) []string {
