@@ -77,6 +77,7 @@ func (s *server) accessLog(next http.Handler) http.Handler {
 			slogInt("bytes", ww.BytesWritten()),
 			slogDur("duration", time.Since(start)),
 			slogStr("remote", r.RemoteAddr),
+			slogStr("client", s.clientAddr(r)),
 		)
 	})
 }
@@ -143,11 +144,7 @@ func (s *server) rateLimit(mult int) func(http.Handler) http.Handler {
 		return func(next http.Handler) http.Handler { return next }
 	}
 	return httprate.LimitBy(n*mult, time.Minute, func(r *http.Request) (string, error) {
-		host, _, err := net.SplitHostPort(r.RemoteAddr)
-		if err != nil {
-			host = r.RemoteAddr
-		}
-		return httprate.CanonicalizeIP(host), nil
+		return httprate.CanonicalizeIP(s.clientAddr(r)), nil
 	}, httprate.WithLimitHandler(func(w http.ResponseWriter, r *http.Request) {
 		lim := int64(n * mult)
 		writeProblem(w, r, limitProblem(http.StatusTooManyRequests, "requests_per_minute", lim,

@@ -5,6 +5,7 @@ import (
 	"io/fs"
 	"log/slog"
 	"net/http"
+	"net/netip"
 	"time"
 
 	"github.com/go-chi/chi/v5"
@@ -104,6 +105,10 @@ type Config struct {
 	// TrustedHosts are the host names (without port) whose Host header may make absolute links
 	// when PublicURL is empty.
 	TrustedHosts []string
+	// TrustedProxies are the reverse proxies (addresses or prefixes) whose forwarding headers
+	// (X-Forwarded-For, Forwarded) name the client a request is accounted to (rate limits, the
+	// access log); see clientAddr. Empty: the TCP peer is the client, whatever the headers say.
+	TrustedProxies []netip.Prefix
 	// MemoryBudgetBytes bounds the memory kept between requests (decoded grid blocks and GDAL's
 	// block cache together; evaluate.Config.MemoryBudget); 0 means evaluate.DefaultMemoryBudget.
 	MemoryBudgetBytes int64

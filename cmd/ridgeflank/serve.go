@@ -84,11 +84,16 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	shutdown := fs.Duration("shutdown-timeout", 20*time.Second, "grace period for requests and jobs at shutdown")
 	publicURL := fs.String("public-url", "", "externally visible base URL for links (default: from the request's Host when it is loopback or a --trusted-hosts name, else root-relative links)")
 	trustedHosts := fs.String("trusted-hosts", "", "comma-separated host names whose Host header may make absolute links when --public-url is not set")
+	trustedProxies := fs.String("trusted-proxies", "", "comma-separated addresses or CIDR prefixes of reverse proxies whose X-Forwarded-For/Forwarded headers name the client (rate limits, access log); empty: the connection's peer is the client")
 	logFormat := fs.String("log-format", "text", "log format: text or json")
 	logLevel := fs.String("log-level", "info", "log level: debug, info, warn or error")
 	budgetText := fs.String("memory-budget", "512MiB", "memory kept between requests: decoded grid blocks and GDAL's block cache together (e.g. 512MiB, 2GB)")
 	if err := parseFlags(ctx, serveCmd, fs, args, stdout, false); err != nil {
 		return err
+	}
+	proxies, err := server.ParseTrustedProxies(splitList(*trustedProxies))
+	if err != nil {
+		return usagef("--trusted-proxies: %v", err)
 	}
 	budget, err := parseBytes(*budgetText)
 	if err != nil {
@@ -128,7 +133,7 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		Limits: server.Limits{RequestTimeout: *timeout},
 		Config: server.Config{CORSOrigins: origins, RateLimitPerMinute: *rate, ReadAuth: *readAuth,
 			UploadDir: filepath.Join(loc.dataDir, "uploads"), ExportDir: filepath.Join(loc.dataDir, "exports"),
-			PublicURL: *publicURL, TrustedHosts: splitList(*trustedHosts), MemoryBudgetBytes: budget},
+			PublicURL: *publicURL, TrustedHosts: splitList(*trustedHosts), TrustedProxies: proxies, MemoryBudgetBytes: budget},
 	}
 	if web.HasPage() {
 		deps.Assets = web.Assets()
