@@ -52,9 +52,9 @@ export function parseAgeSigma(text, max = null) {
   const raw = String(text ?? "").trim();
   if (raw === "") return null;
   const v = /^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?$/.test(raw) ? Number(raw.replace(",", ".")) : NaN;
-  const range = max ? `greater than 0 and at most ${max} Ma` : "greater than 0 Ma";
-  if (!Number.isFinite(v)) throw new Error(`Age uncertainty: "${raw}" is not a number; give one ${range}, or leave the field empty for the dataset's grid.`);
-  if (v <= 0 || (max && v > max)) throw new Error(`Age uncertainty: ${v} Ma is outside the range; give one ${range}, or leave the field empty for the dataset's grid.`);
+  const give = `give a number of Ma above 0${max ? ` and at most ${max}` : ""}, or leave the field empty for the dataset's grid`;
+  if (!Number.isFinite(v)) throw new Error(`Age uncertainty: "${raw}" is not a number: ${give}.`);
+  if (v <= 0 || (max && v > max)) throw new Error(`Age uncertainty: ${v} Ma is out of range: ${give}.`);
   return v;
 }
 

@@ -236,8 +236,8 @@ function showAgeSigmaHint() {
   $("age-sigma-hint").textContent = !state.collection
     ? ""
     : grid
-      ? `Empty: this dataset's age-uncertainty grid. A value${max} replaces the grid at every position, for the uncertainty layers, the read-out, the profile's ±1σ band, statistics and downloads; survey plan checks keep the grid.`
-      : `This dataset has no age-uncertainty grid: ${given ? "the value given is used" : "give a value"}${max} for the track profile's ±1σ band of predicted depth; survey plan checks do without.`;
+      ? `Empty: this dataset's age-uncertainty grid. A value${max} replaces the grid at every position: uncertainty layers, read-out, profile band, statistics and downloads. Survey plan checks keep the grid.`
+      : `This dataset has no age-uncertainty grid: ${given ? "the value given" : "give a value"}${max} for the track profile's ±1σ band of predicted depth. The uncertainty layers need a grid; survey plan checks do without.`;
 }
 $("dataset-select").addEventListener("change", (e) => messages.guard(() => chooseDataset(e.target.value, true)));
 $("opacity").addEventListener("input", (e) => data.setOpacity(Number(e.target.value)));

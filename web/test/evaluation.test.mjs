@@ -41,16 +41,16 @@ test("the field's value is checked before anything is sent", () => {
   assert.equal(parseAgeSigma(".5", max), 0.5);
   assert.equal(parseAgeSigma("1e1", max), 10);
   assert.equal(parseAgeSigma("100", max), 100, "the maximum itself is allowed (schema maximum is inclusive, JSON Schema 2020-12 §6.2.2)");
-  assert.throws(() => parseAgeSigma("100.01", max), /Age uncertainty: 100\.01 Ma is outside the range; give one greater than 0 and at most 100 Ma/);
-  assert.throws(() => parseAgeSigma("0", max), /outside the range/, "0 would mean the grid: the field is left empty for that");
-  assert.throws(() => parseAgeSigma("-1", max), /Age uncertainty: -1 Ma is outside the range/);
+  assert.throws(() => parseAgeSigma("100.01", max), /Age uncertainty: 100\.01 Ma is out of range: give a number of Ma above 0 and at most 100, or leave the field empty/);
+  assert.throws(() => parseAgeSigma("0", max), /out of range/, "0 would mean the grid: the field is left empty for that");
+  assert.throws(() => parseAgeSigma("-1", max), /Age uncertainty: -1 Ma is out of range/);
   assert.throws(() => parseAgeSigma("two", max), /"two" is not a number/);
   assert.throws(() => parseAgeSigma("2 Ma", max), /not a number/);
   assert.throws(() => parseAgeSigma("Infinity", max), /not a number/);
   assert.throws(() => parseAgeSigma("1,2,3", max), /not a number/);
   // Without a known maximum only the lower bound is the page's; the service checks the rest.
   assert.equal(parseAgeSigma("500", null), 500);
-  assert.throws(() => parseAgeSigma("0", null), /greater than 0 Ma/);
+  assert.throws(() => parseAgeSigma("0", null), /above 0, or leave/);
 });
 
 test("the uncertainty series are asked only when the service can answer them", () => {
