@@ -223,4 +223,24 @@ func TestPageAgeUncertainty(t *testing.T) {
 	b.do(5*time.Second, chromedp.ScrollIntoView(chromedp.CSS("#profile")))
 	b.shot("43-age-uncertainty-no-grid-value")
 	b.checkNoProblems()
+
+	// 5. Links: a value restores the field and reaches the first tiles; a value beyond the
+	// service's maximum shows its message and the grid is used.
+	for _, c := range []struct{ sigma, field, tiles, status string }{
+		{"1.5", "1.5", "1.5", ""},
+		{"500", "500", "", "Age uncertainty: 500 Ma is out of range"},
+	} {
+		b2 := newBrowser(t)
+		b2.do(30*time.Second, chromedp.Navigate(fmt.Sprintf("%s/#dataset=%s&layer=predicted_depth_uncertainty&sigma=%s", ts.URL, ts.DatasetID, c.sigma)))
+		b2.waitReadyAfter(0)
+		b2.waitFor("the page to restore its state", `document.body.dataset.restored === "true"`, 20*time.Second)
+		got := eval[[]string](b2, `[document.getElementById("age-sigma").value, document.getElementById("age-sigma-status").textContent]`)
+		if got[0] != c.field || !strings.HasPrefix(got[1], c.status) || (c.status == "") != (got[1] == "") {
+			t.Errorf("link sigma=%s: field %q, message %q; want %q, %q", c.sigma, got[0], got[1], c.field, c.status)
+		}
+		if q := tileQuery(b2).Get("age-uncertainty-ma"); q != c.tiles {
+			t.Errorf("link sigma=%s: tiles ask age-uncertainty-ma=%q, want %q", c.sigma, q, c.tiles)
+		}
+		b2.checkNoProblems()
+	}
 }
