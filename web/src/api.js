@@ -94,3 +94,14 @@ export function query(params) {
   const s = q.toString();
   return s ? `?${s}` : "";
 }
+
+let openapi = null;
+
+/** openapiDocument is the service's OpenAPI document, read once (forms and limits come from it). */
+export function openapiDocument() {
+  openapi ??= request("/api/openapi.json", { what: "Reading the service's description" }).catch((err) => {
+    openapi = null; // asked again next time
+    throw err;
+  });
+  return openapi;
+}

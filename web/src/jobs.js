@@ -6,7 +6,7 @@
 // service's OpenAPI document when it lists them; otherwise the fields are free
 // text and the service's answer (problem details) says what is wrong.
 
-import { request } from "./api.js";
+import { request, openapiDocument } from "./api.js";
 import * as messages from "./messages.js";
 
 const $ = (id) => document.getElementById(id);
@@ -73,7 +73,7 @@ export class JobsPanel {
    * field's description as its hint.
    */
   async loadUploadForm() {
-    const doc = await request("/api/openapi.json", { what: "Reading the service's form description" });
+    const doc = await openapiDocument();
     const fields = uploadFieldsOf(doc);
     const form = $("upload-form");
     for (const name of ["kind", "units", "vertical"]) {

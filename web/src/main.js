@@ -1,9 +1,9 @@
-// main.js: starts the page. Wires the map, the dataset/layer/model choices,
+// main.js: starts the page. Wires the map, the dataset/layer/model/age-uncertainty choices,
 // the legend, the read-out, regions, tracks, imports and the write token.
 
 import "./style.css";
 import L from "leaflet";
-import { request, query } from "./api.js";
+import { request, query, openapiDocument } from "./api.js";
 import { createMap, DataLayer, setReady } from "./mapview.js";
 import { Graticule } from "./graticule.js";
 import { LandLayer } from "./coastline.js";
@@ -13,6 +13,7 @@ import { fitRange, parseRange, rangeParam } from "./scalerange.js";
 import { loadAreaStats } from "./regionstats.js";
 import { renderLegend } from "./legend.js";
 import { parametersOf, parameterById } from "./parameters.js";
+import { evaluationParams, parseAgeSigma, ageSigmaMaxOf, hasAgeSigmaGrid } from "./evaluation.js";
 import { Readout } from "./readout.js";
 import { Drawer } from "./draw.js";
 import { RegionsPanel } from "./regions.js";
@@ -119,8 +120,9 @@ function redraw() {
   $("range-reset").disabled = !state.range;
   $("model-select").disabled = !state.datasetId;
   $("model-note").textContent = param?.modelDependent === false ? "This layer does not depend on the cooling model." : "";
+  showAgeSigmaHint();
   const bounds = collectionBounds(state.collection);
-  data.show(state.datasetId, state.layer, state.model, bounds, Number($("opacity").value), state.sediment, rangeParam(state.range));
+  data.show(state.datasetId, state.layer, evaluationParams(state), bounds, Number($("opacity").value), rangeParam(state.range));
   document.body.dataset.layer = state.layer;
   document.body.dataset.model = state.model;
   document.body.dataset.dataset = state.datasetId;
@@ -132,9 +134,9 @@ let started = false; // no drawing until the initial choices are loaded
 onChange((changed) => {
   if (!started) return;
   if (changed.includes("collection")) readout.buildTable();
-  if (changed.some((k) => ["datasetId", "layer", "model", "sediment", "collection", "range"].includes(k))) redraw();
+  if (changed.some((k) => ["datasetId", "layer", "model", "sediment", "ageUncertaintyMa", "collection", "range"].includes(k))) redraw();
   if (changed.includes("layer") && !changed.includes("collection")) regions.refresh();
-  if (["model", "sediment", "datasetId", "collection"].some((k) => changed.includes(k))) {
+  if (["model", "sediment", "ageUncertaintyMa", "datasetId", "collection"].some((k) => changed.includes(k))) {
     readout.refresh();
     regions.refresh();
     tracks.refresh();
@@ -186,7 +188,7 @@ $("range-fit").addEventListener("click", () =>
     $("range-status").textContent = "Fitting to the values in view…";
     document.body.dataset.fitting = "true";
     try {
-      const s = await loadAreaStats(state.datasetId, coords, state.layer, state.model, state.sediment);
+      const s = await loadAreaStats(state.datasetId, coords, state.layer, evaluationParams(state));
       const r = fitRange(s, { diverging: scale?.diverging, centre: scale?.centre });
       if (!r) {
         $("range-status").textContent = "No values of this layer are in view.";
@@ -202,6 +204,41 @@ $("range-fit").addEventListener("click", () =>
 );
 $("model-select").addEventListener("change", (e) => update({ model: e.target.value }));
 $("sediment-select").addEventListener("change", (e) => update({ sediment: e.target.value }));
+
+// ---- age uncertainty ---------------------------------------------------------
+// One seafloor-age uncertainty (Ma, 1σ) for every position in place of the dataset's
+// age-uncertainty grid (the service's age-uncertainty-ma); empty means the grid. The page checks
+// it against the service's maximum (from its OpenAPI document) and sends nothing while it is wrong.
+
+let ageSigmaMax = null; // the service's largest age uncertainty, Ma; null until known
+
+/** applyAgeSigma reads the field: a good value (or empty) becomes the state, a bad one a message. */
+function applyAgeSigma() {
+  const input = $("age-sigma");
+  try {
+    const v = parseAgeSigma(input.value, ageSigmaMax);
+    input.removeAttribute("aria-invalid");
+    $("age-sigma-status").textContent = "";
+    update({ ageUncertaintyMa: v });
+  } catch (err) {
+    input.setAttribute("aria-invalid", "true");
+    $("age-sigma-status").textContent = err.message;
+  }
+}
+$("age-sigma").addEventListener("change", applyAgeSigma);
+$("age-sigma").addEventListener("keydown", (e) => e.key === "Enter" && applyAgeSigma());
+
+/** showAgeSigmaHint says what the field does for the chosen dataset. */
+function showAgeSigmaHint() {
+  const grid = hasAgeSigmaGrid(state.collection);
+  const given = state.ageUncertaintyMa !== null;
+  const max = ageSigmaMax ? ` (above 0, at most ${ageSigmaMax} Ma)` : " (above 0)";
+  $("age-sigma-hint").textContent = !state.collection
+    ? ""
+    : grid
+      ? `Empty: this dataset's age-uncertainty grid. A value${max} replaces the grid at every position: uncertainty layers, read-out, profile band, statistics and downloads. Survey plan checks keep the grid.`
+      : `This dataset has no age-uncertainty grid: ${given ? "the value given" : "give a value"}${max} for the track profile's ±1σ band of predicted depth. The uncertainty layers need a grid; survey plan checks do without.`;
+}
 $("dataset-select").addEventListener("change", (e) => messages.guard(() => chooseDataset(e.target.value, true)));
 $("opacity").addEventListener("input", (e) => data.setOpacity(Number(e.target.value)));
 $("land-toggle").addEventListener("change", (e) => messages.guard(() => (e.target.checked ? land.show() : land.hide())));
@@ -284,7 +321,7 @@ function snapshotCanvas() {
   const param = parameterById(state.collection, state.layer);
   const scale = currentScale();
   return mapToCanvas(map, {
-    title: `${state.collection?.title || state.datasetId || "no dataset"} · ${param?.label || state.layer} · model ${state.model}${state.sediment ? ` · sediment ${state.sediment}` : ""}`,
+    title: `${state.collection?.title || state.datasetId || "no dataset"} · ${param?.label || state.layer} · model ${state.model}${state.sediment ? ` · sediment ${state.sediment}` : ""}${state.ageUncertaintyMa !== null ? ` · age uncertainty ${state.ageUncertaintyMa} Ma (1σ)` : ""}`,
     legendCanvas: $("legend").querySelector("canvas"),
     legendText: scale ? `${scale.min} to ${scale.max} ${scale.units}${scale.note ? ` (${scale.note})` : ""}` : "",
     caution: CAUTION,
@@ -309,8 +346,7 @@ async function saveFigure() {
   const q = query({
     bbox: [w, s, e, n].map((v) => v.toFixed(4)).join(","),
     "parameter-name": state.layer,
-    model: state.model,
-    sediment: state.sediment,
+    ...evaluationParams(state),
     f: "png",
     "width-px": 1600,
     dpi: 150,
@@ -336,8 +372,17 @@ window.ridgeflank = { map, state, tracks, plans, snapshotDataURL: () => snapshot
 
 // ---- start ---------------------------------------------------------------
 
+/** loadAgeSigmaLimit reads the service's largest age uncertainty and the link's value against it. */
+async function loadAgeSigmaLimit() {
+  ageSigmaMax = ageSigmaMaxOf(await openapiDocument().catch(() => null));
+  if (initial.ageUncertaintyMa === null) return;
+  $("age-sigma").value = String(initial.ageUncertaintyMa);
+  applyAgeSigma(); // a value beyond the maximum shows its message and is not used
+}
+
 async function start() {
   const land0 = $("land-toggle").checked ? land.show().catch(messages.error) : null;
+  await loadAgeSigmaLimit(); // before anything evaluates: a link's value reaches the first requests
   const [sc] = await Promise.all([loadColourScales().catch((e) => (messages.error(e), new Map())), messages.guard(loadCollections)]);
   scales = sc;
   if (sc.background) $("map").style.background = sc.background;

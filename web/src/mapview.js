@@ -50,7 +50,7 @@ export function createMap(id) {
 }
 
 /**
- * DataLayer owns the tile layer for one dataset/parameter/model triple and
+ * DataLayer owns the tile layer for one dataset, parameter and set of choices and
  * flips the ready marker while tiles load.
  */
 export class DataLayer {
@@ -60,33 +60,38 @@ export class DataLayer {
     this.key = "";
   }
 
-  static url(datasetId, parameter, model, sediment = "", range = "") {
+  /**
+   * url is the tile URL template of parameter in datasetId with the evaluating choices
+   * (evaluation.js's evaluationParams: model, sediment, age-uncertainty-ma; empty ones are left
+   * out) and range ("min,max" or "" for the scale's default).
+   */
+  static url(datasetId, parameter, choices = {}, range = "") {
     const q = new URLSearchParams();
-    if (model) q.set("model", model);
-    if (sediment) q.set("sediment", sediment);
+    for (const [k, v] of Object.entries(choices)) if (v !== undefined && v !== null && v !== "") q.set(k, String(v));
     if (range) q.set("range", range); // min,max: the service draws the tiles over this range
     return `/tiles/${encodeURIComponent(datasetId)}/${encodeURIComponent(parameter)}/{z}/{x}/{y}.png?${q}`;
   }
 
   /**
-   * show draws parameter for datasetId with model (and sediment compaction,
-   * "" for the service's default; range "min,max" or "" for the scale's default); bounds (L.LatLngBounds or
-   * null) limits tile requests to the dataset's extent. With no dataset the
-   * layer is removed and the page is marked ready (nothing to draw).
+   * show draws parameter for datasetId with the evaluating choices (see url; range "min,max"
+   * or "" for the scale's default); bounds (L.LatLngBounds or null) limits tile requests to the
+   * dataset's extent. With no dataset the layer is removed and the page is marked ready (nothing
+   * to draw).
    */
-  show(datasetId, parameter, model, bounds, opacity = 0.9, sediment = "", range = "") {
+  show(datasetId, parameter, choices, bounds, opacity = 0.9, range = "") {
     if (!datasetId || !parameter) {
       this.clear();
       setReady(true, "no-dataset");
       return;
     }
-    const key = `${datasetId}|${parameter}|${model}|${sediment}|${range}|${bounds ? bounds.toBBoxString() : ""}`;
+    const url = DataLayer.url(datasetId, parameter, choices, range);
+    const key = `${url}|${bounds ? bounds.toBBoxString() : ""}`;
     if (key === this.key && this.layer) return;
     this.clear();
     this.key = key;
     setReady(false);
     let started = 0;
-    const layer = L.tileLayer(DataLayer.url(datasetId, parameter, model, sediment, range), {
+    const layer = L.tileLayer(url, {
       bounds: bounds || undefined,
       opacity,
       maxNativeZoom: 12,

@@ -20,6 +20,7 @@ import { splitAtAntimeridian } from "./trackanswer.js";
 import { loadColourScales } from "./colourscales.js";
 import { fmt, fmtLatLon } from "./format.js";
 import { state } from "./state.js";
+import { evaluationParams } from "./evaluation.js";
 import * as messages from "./messages.js";
 
 const $ = (id) => document.getElementById(id);
@@ -107,7 +108,10 @@ export class PlansPanel {
     const form = $("plan-settings");
     const values = Object.fromEntries(SETTINGS.map((f) => [f.key, form.elements[f.key].value]));
     const mode = form.querySelector('input[name="swath-mode"]:checked')?.value || "angle";
-    return settingsFrom(values, mode, { dataset: state.datasetId, model: state.model, sediment: state.sediment });
+    // The plan's settings take the model and sediment law of the page's choices; survey plan
+    // settings have no single age uncertainty (a check uses the dataset's grid).
+    const { model, sediment } = evaluationParams(state);
+    return settingsFrom(values, mode, { dataset: state.datasetId, model, sediment });
   }
 
   fillSettings(s) {

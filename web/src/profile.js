@@ -8,8 +8,8 @@ import "uplot/dist/uPlot.min.css";
 
 /**
  * drawProfile draws p = {distanceKm, observed, corrected, predicted, bandLow,
- * bandHigh, residual, bandLabel, sigma, units, waypoints} into el (sigma: the
- * predicted depth's age uncertainty, m, drawn as a band of its own); units holds the
+ * bandHigh, residual, bandLabel, sigma, sigmaLabel, units, waypoints} into el (sigma: the
+ * predicted depth's age uncertainty, m, drawn as a band of its own, named by sigmaLabel); units holds the
  * display unit of each series as the service gave it, waypoints
  * [{name, distanceKm}] are marked by a line and their name. onHover(index|null)
  * follows the cursor. Returns the uPlot instance.
@@ -76,7 +76,7 @@ export function drawProfile(el, p, onHover) {
       ["Predicted depth", "#b3005f", "solid"],
       ...(p.waypoints?.length ? [["Waypoint (name from the track file)", "#003c43", "waypoint"]] : []),
       ...(hasBand ? [[`Band: ${p.bandLabel || "uncertainty"}`, "rgba(179,0,95,0.3)", "band"]] : []),
-      ...(hasSigma ? [["Band: predicted depth ±1σ from the seafloor-age uncertainty", "rgba(90,84,146,0.35)", "band"]] : []),
+      ...(hasSigma ? [[`Band: ${p.sigmaLabel || "predicted depth ±1σ from the seafloor-age uncertainty"}`, "rgba(90,84,146,0.35)", "band"]] : []),
       ["Residual, right axis (+ = shallower than the model)", "#c0650f", "solid"],
     ];
     for (const [label, colour, style] of items) {

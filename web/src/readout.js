@@ -10,6 +10,7 @@ import { parametersOf, unitText, digitsFor } from "./parameters.js";
 import { loadColourScales } from "./colourscales.js";
 import { fmt, fmtLatLon, fmtSigned, wrapLon } from "./format.js";
 import { state } from "./state.js";
+import { evaluationParams } from "./evaluation.js";
 import * as messages from "./messages.js";
 
 const HOVER_DELAY_MS = 250;
@@ -86,7 +87,7 @@ export class Readout {
     document.dispatchEvent(new Event("ridgeflank:urlstate"));
   }
 
-  /** refresh repeats the pinned query (after a model or dataset change). */
+  /** refresh repeats the pinned query (after a model, sediment, age-uncertainty or dataset change). */
   refresh() {
     if (this.pinned) this.lookup(this.pinned, "click");
   }
@@ -111,8 +112,7 @@ export class Readout {
         `/api/collections/${encodeURIComponent(state.datasetId)}/position${query({
           coords: `POINT(${lon.toFixed(6)} ${lat.toFixed(6)})`,
           "parameter-name": params.join(","),
-          model: state.model,
-          sediment: state.sediment,
+          ...evaluationParams(state),
         })}`,
         { what: "Reading values at this point", headers: { Accept: "application/vnd.cov+json, application/problem+json" } },
       );

@@ -12,6 +12,7 @@ import { polygonFromLatLngs, toWKT } from "./geometry.js";
 import { drawHistogram } from "./histogram.js";
 import { fmt, fmtSigned } from "./format.js";
 import { state } from "./state.js";
+import { evaluationParams } from "./evaluation.js";
 import { parametersOf, parameterById, unitText, digitsFor } from "./parameters.js";
 import * as messages from "./messages.js";
 import { loadRegionStats } from "./regionstats.js";
@@ -286,7 +287,7 @@ export class RegionsPanel {
     box.dataset.parameter = state.layer;
     const seq = (this.statsSeq = (this.statsSeq || 0) + 1);
     try {
-      const s = await loadRegionStats(state.datasetId, r, state.layer, state.model, state.sediment, param?.unit || "");
+      const s = await loadRegionStats(state.datasetId, r, state.layer, evaluationParams(state), param?.unit || "");
       if (seq !== this.statsSeq) return; // a newer question was asked meanwhile
       const unit = unitText(s.unit);
       const digits = digitsFor(NaN, s.p95 - s.p05);
@@ -342,7 +343,7 @@ export class RegionsPanel {
     const ids = state.models.map((m) => m.id || m.params?.id).filter(Boolean);
     const names = new Map(state.models.map((m) => [m.id || m.params?.id, m.name || m.id || m.params?.id]));
     const all = await Promise.all(
-      ids.map((id) => loadRegionStats(state.datasetId, r, param.id, id, state.sediment, param.unit || "").catch((err) => ({ error: err }))),
+      ids.map((id) => loadRegionStats(state.datasetId, r, param.id, { ...evaluationParams(state), model: id }, param.unit || "").catch((err) => ({ error: err }))),
     );
     if (seq !== this.statsSeq) return;
     const unit = unitText(param.unit);
@@ -398,7 +399,7 @@ export class RegionsPanel {
     for (const [label, f, ext] of formats) {
       const li = document.createElement("li");
       const a = document.createElement("a");
-      a.href = `${base}${query({ coords, "parameter-name": param, model: state.model, sediment: state.sediment, f })}`;
+      a.href = `${base}${query({ coords, "parameter-name": param, ...evaluationParams(state), f })}`;
       a.download = `${slug(r.name)}-${param}-${state.model}.${ext}`;
       a.textContent = label;
       a.dataset.format = f;

@@ -52,15 +52,15 @@ export function normaliseStats(s, unit = unitSuffixOf(s)) {
 }
 
 /**
- * loadRegionStats fetches the statistics of parameter over region r in datasetId with model;
+ * loadRegionStats fetches the statistics of parameter over region r in datasetId with the
+ * evaluating choices (evaluation.js's evaluationParams: model, sediment, age-uncertainty-ma);
  * unit is the parameter's unit symbol (from the collection) for the page's labels.
  */
-export async function loadRegionStats(datasetId, r, parameter, model, sediment = "", unit = "") {
+export async function loadRegionStats(datasetId, r, parameter, choices, unit = "") {
   const body = await request(
     `/api/collections/${encodeURIComponent(datasetId)}/locations/${encodeURIComponent(r.id)}/statistics${query({
       "parameter-name": parameter,
-      model,
-      sediment,
+      ...choices,
     })}`,
     { what: "Computing the region's statistics" },
   );
@@ -71,11 +71,11 @@ export async function loadRegionStats(datasetId, r, parameter, model, sediment =
 
 /**
  * loadAreaStats fetches the statistics of parameter over the polygon coords (WKT) in
- * datasetId with model, as "fit to view" uses them.
+ * datasetId with the evaluating choices (as loadRegionStats), as "fit to view" uses them.
  */
-export async function loadAreaStats(datasetId, coords, parameter, model, sediment = "") {
+export async function loadAreaStats(datasetId, coords, parameter, choices) {
   const body = await request(
-    `/api/collections/${encodeURIComponent(datasetId)}/statistics${query({ coords, "parameter-name": parameter, model, sediment })}`,
+    `/api/collections/${encodeURIComponent(datasetId)}/statistics${query({ coords, "parameter-name": parameter, ...choices })}`,
     { what: "Computing the statistics of the view" },
   );
   return normaliseStats(body?.statistics?.[parameter]);

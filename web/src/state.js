@@ -1,4 +1,5 @@
-// state.js: the page's shared selection (dataset, layer, model, colour range) with change
+// state.js: the page's shared selection (dataset, layer, model, sediment law, age uncertainty,
+// colour range) with change
 // notification, so modules stay independent of one another.
 
 const listeners = new Set();
@@ -9,6 +10,7 @@ export const state = {
   layer: "", // a parameter id of the collection
   model: "", // a model id from /api/models (default: the collection's ridgeflank:models.default)
   sediment: "", // a sediment compaction name from ridgeflank:models.sediment; "" = the service's default
+  ageUncertaintyMa: null, // one seafloor-age uncertainty (Ma, 1σ) in place of the dataset's grid; null = the grid
   range: null, // {min, max}: the layer's colour range chosen by the user; null = the scale's default
   models: [],
 };

@@ -16,6 +16,7 @@ import { drawProfile } from "./profile.js";
 import { fmt, fmtLatLon, fmtSigned } from "./format.js";
 import { unitText, digitsFor } from "./parameters.js";
 import { state, availableParameters } from "./state.js";
+import { evaluationParams, sigmaAskable, sigmaSource } from "./evaluation.js";
 import * as messages from "./messages.js";
 import { loadColourScales } from "./colourscales.js";
 import { trackMediaType, waypointsOf, splitAtAntimeridian } from "./trackanswer.js";
@@ -24,7 +25,9 @@ const $ = (id) => document.getElementById(id);
 
 // The series the profile chart draws (depths on the left axis, residual on
 // the right, age in the read-out); each is asked for only when the chosen
-// collection lists it.
+// collection lists it, except the predicted depth's age uncertainty (sigma), which the
+// service also answers for a dataset without an age-uncertainty grid when one value is
+// given (evaluation.js's sigmaAskable).
 const PROFILE_SERIES = { observed: "observed_depth", corrected: "corrected_depth", predicted: "predicted_depth", residual: "residual_depth", age: "seafloor_age", sigma: "predicted_depth_uncertainty" };
 
 export class TracksPanel {
@@ -90,10 +93,11 @@ export class TracksPanel {
     document.dispatchEvent(new Event("ridgeflank:urlstate")); // a drawn track goes into the link
   }
 
+  /** trajectory asks the service for params along the current track with the page's choices and model. */
   async trajectory(params, model) {
     const src = this.source;
     return request(
-      `/api/collections/${encodeURIComponent(state.datasetId)}/trajectory${query({ "parameter-name": params.join(","), model, sediment: state.sediment })}`,
+      `/api/collections/${encodeURIComponent(state.datasetId)}/trajectory${query({ "parameter-name": params.join(","), ...evaluationParams(state), model })}`,
       {
         method: "POST",
         body: src.body,
@@ -118,7 +122,8 @@ export class TracksPanel {
       return;
     }
     const offered = availableParameters() || [];
-    const params = Object.values(PROFILE_SERIES).filter((p) => offered.includes(p));
+    const withSigma = sigmaAskable(state.collection, state) && offered.includes(PROFILE_SERIES.predicted);
+    const params = Object.values(PROFILE_SERIES).filter((p) => offered.includes(p) || (p === PROFILE_SERIES.sigma && withSigma));
     try {
       const doc = await this.trajectory(params, state.model);
       const cov = coverages(doc)[0];
@@ -126,7 +131,7 @@ export class TracksPanel {
       const pos = positions(cov);
       const dist = (cov["ridgeflank:samples"] || doc["ridgeflank:samples"])?.distance_km;
       if (!Array.isArray(dist) || dist.length !== pos.length) throw new Error("The service's trajectory answer has no distance along the track for its samples.");
-      const p = { positions: pos, distanceKm: dist.map(Number), units: {}, bandLow: null, bandHigh: null, bandLabel: "" };
+      const p = { positions: pos, distanceKm: dist.map(Number), units: {}, bandLow: null, bandHigh: null, bandLabel: "", sigmaLabel: `predicted depth ±1σ from ${sigmaSource(state)}` };
       for (const [key, id] of Object.entries(PROFILE_SERIES)) {
         p[key] = rangeValues(cov, id);
         p.units[key] = unitText(parameterUnit(cov, id));
@@ -142,9 +147,11 @@ export class TracksPanel {
       box.dataset.waypoints = String(p.waypoints.length);
       const n = p.distanceKm.length;
       const withData = (p.observed || []).filter((v) => v !== null).length;
+      const noSigma = withSigma || !p.predicted ? "" : " This dataset has no age-uncertainty grid: give an age uncertainty (Ma, 1σ) in the Map panel for the predicted depth's ±1σ band.";
       $("profile-status").textContent = n
-        ? `${name}: ${n} samples over ${fmt(p.distanceKm[n - 1], 1, "km")} along the WGS84 geodesic${p.observed && withData < n ? `, ${n - withData} without observed depth` : ""}. Model ${state.model}.`
+        ? `${name}: ${n} samples over ${fmt(p.distanceKm[n - 1], 1, "km")} along the WGS84 geodesic${p.observed && withData < n ? `, ${n - withData} without observed depth` : ""}. Model ${state.model}.${noSigma}`
         : `${name}: the track has no samples inside the dataset.`;
+      box.dataset.sigma = withSigma ? evaluationParams(state)["age-uncertainty-ma"] || "grid" : "none";
     } catch (err) {
       box.dataset.state = "error";
       $("profile-status").textContent = err.message;
@@ -201,7 +208,7 @@ export class TracksPanel {
       li.textContent = `${w.name} · ${fmt(w.distanceKm, 1, "km")} · ${fmtLatLon(w.lat, w.lon)}`;
       list.append(li);
     }
-    const bands = [p.bandLabel, p.sigma?.some(Number.isFinite) ? "predicted depth ±1σ from the dataset's seafloor-age uncertainty" : ""].filter(Boolean);
+    const bands = [p.bandLabel, p.sigma?.some(Number.isFinite) ? p.sigmaLabel : ""].filter(Boolean);
     $("profile-band-note").textContent = bands.length
       ? `Shaded: ${bands.join("; ")}. Hover the chart to mark the sample on the map.`
       : "No uncertainty band is available. Hover the chart to mark the sample on the map.";

@@ -1,5 +1,5 @@
 // urlstate.js: the page's state in the URL's fragment, so a link restores what was on
-// screen: dataset, layer, model, sediment law, colour range, the view (centre and zoom), the
+// screen: dataset, layer, model, sediment law, age uncertainty, colour range, the view (centre and zoom), the
 // pinned point, the selected region, the open survey plan and a drawn track (its waypoints, at
 // most MAX_TRACK_WAYPOINTS). Pure functions, no DOM.
 
@@ -19,7 +19,7 @@ function numbers(text, n) {
 const round = (v, d = 5) => Number(v.toFixed(d));
 
 /**
- * encodeState writes s ({datasetId, layer, model, sediment, range: {min, max},
+ * encodeState writes s ({datasetId, layer, model, sediment, ageUncertaintyMa, range: {min, max},
  * view: {lat, lon, zoom}, pin: {lat, lon}, region, plan, track: [[lon, lat], …]}; any may be
  * missing) as the
  * fragment's query string (without "#").
@@ -30,6 +30,7 @@ export function encodeState(s) {
   if (s.layer) h.set("layer", s.layer);
   if (s.model) h.set("model", s.model);
   if (s.sediment) h.set("sediment", s.sediment);
+  if (Number.isFinite(s.ageUncertaintyMa) && s.ageUncertaintyMa > 0) h.set("sigma", String(s.ageUncertaintyMa));
   if (s.range && Number.isFinite(s.range.min) && Number.isFinite(s.range.max)) h.set("range", `${s.range.min},${s.range.max}`);
   if (s.view) h.set("view", `${round(s.view.lat)},${round(s.view.lon)},${s.view.zoom}`);
   if (s.pin) h.set("pin", `${round(s.pin.lat)},${round(s.pin.lon)}`);
@@ -44,16 +45,18 @@ export function encodeState(s) {
 /**
  * decodeState reads a fragment (with or without "#") back. Values that cannot be right
  * (latitude beyond ±90°, zoom outside minZoom..maxZoom, ids with unexpected characters, an
- * empty or reversed range) are left out, so a damaged link opens the page on its defaults
+ * empty or reversed range, an age uncertainty that is not a number above 0) are left out, so a damaged link opens the page on its defaults
  * for those parts only.
  */
 export function decodeState(hash, { minZoom = 0, maxZoom = 22 } = {}) {
   const h = new URLSearchParams(String(hash || "").replace(/^#/, ""));
-  const out = { datasetId: "", layer: "", model: "", sediment: "", range: null, view: null, pin: null, region: "", plan: "", track: null };
+  const out = { datasetId: "", layer: "", model: "", sediment: "", ageUncertaintyMa: null, range: null, view: null, pin: null, region: "", plan: "", track: null };
   for (const [k, key] of [["dataset", "datasetId"], ["layer", "layer"], ["model", "model"], ["sediment", "sediment"], ["region", "region"], ["plan", "plan"]]) {
     const v = h.get(k) || "";
     if (ID.test(v)) out[key] = v;
   }
+  const sigma = numbers(h.get("sigma"), 1);
+  if (sigma && sigma[0] > 0) out.ageUncertaintyMa = sigma[0]; // the page checks it against the service's maximum
   const r = numbers(h.get("range"), 2);
   if (r && r[0] < r[1]) out.range = { min: r[0], max: r[1] };
   const v = numbers(h.get("view"), 3);

@@ -77,6 +77,7 @@ test("URL state round trip", () => {
     layer: "residual_depth",
     model: "gdh1",
     sediment: "shale",
+    ageUncertaintyMa: 2.5,
     range: { min: -200, max: 200 },
     view: { lat: -29.300001, lon: -143.5, zoom: 6 },
     pin: { lat: -30.123456789, lon: -140.5 },
@@ -86,12 +87,13 @@ test("URL state round trip", () => {
   };
   const h = encodeState(s);
   assert.match(h, /view=-29\.3,-143\.5,6/);
+  assert.match(h, /(^|&)sigma=2\.5(&|$)/);
   const back = decodeState(`#${h}`);
   assert.match(h, /track=179\.5,-20\.12346;-179\.5,-21/);
   assert.deepEqual(back, { ...s, view: { lat: -29.3, lon: -143.5, zoom: 6 }, pin: { lat: -30.12346, lon: -140.5 }, track: [[179.5, -20.12346], [-179.5, -21]] });
   // An empty state writes nothing and reads back empty.
   assert.equal(encodeState({}), "");
-  assert.deepEqual(decodeState(""), { datasetId: "", layer: "", model: "", sediment: "", range: null, view: null, pin: null, region: "", plan: "", track: null });
+  assert.deepEqual(decodeState(""), { datasetId: "", layer: "", model: "", sediment: "", ageUncertaintyMa: null, range: null, view: null, pin: null, region: "", plan: "", track: null });
 });
 
 test("URL state: damaged parts are dropped, the rest kept", () => {
@@ -105,6 +107,15 @@ test("URL state: damaged parts are dropped, the rest kept", () => {
   assert.equal(decodeState("view=0,0,13", { maxZoom: 12 }).view, null, "zoom beyond the map's maximum");
   assert.equal(decodeState("view=0,0,2.5").view, null, "fractional zoom");
   assert.equal(decodeState("track=10,95;11,0").track, null, "a waypoint beyond the pole");
+  // The age uncertainty: a number above 0, else the dataset's grid (null).
+  assert.equal(decodeState("sigma=0").ageUncertaintyMa, null, "0 means the grid, written as no value");
+  assert.equal(decodeState("sigma=-1").ageUncertaintyMa, null, "negative");
+  assert.equal(decodeState("sigma=two").ageUncertaintyMa, null, "not a number");
+  assert.equal(decodeState("sigma=1,2").ageUncertaintyMa, null, "two numbers");
+  assert.equal(decodeState("sigma=").ageUncertaintyMa, null, "empty");
+  assert.equal(decodeState("sigma=0.75").ageUncertaintyMa, 0.75);
+  assert.equal(encodeState({ ageUncertaintyMa: null }), "", "the grid is the default and is not written");
+  assert.equal(encodeState({ ageUncertaintyMa: 0 }), "");
   assert.equal(decodeState("track=10,5").track, null, "one waypoint is no track");
   const long = Array.from({ length: 101 }, (_, i) => `${i / 10},0`).join(";");
   assert.equal(decodeState(`track=${long}`).track, null, "more waypoints than a link carries");
