@@ -55,7 +55,10 @@ func (s *Service) Tile(ctx context.Context, datasetID, parameter string, z, x, y
 		return nil, err
 	}
 	p, ok := ParameterByID(parameter)
-	if !ok || !d.answers(p) {
+	// an uncertainty parameter of a dataset without an age-uncertainty grid is answered when
+	// the question gives one age uncertainty (Resolve's rule)
+	given := ok && p.NeedsAgeUncertainty() && o.AgeUncertaintyMa > 0 && (!p.NeedsDepth || d.HasDepth)
+	if !ok || !d.answers(p) && !given {
 		return nil, fault.New(fault.UnknownParameter, "parameter", "dataset %q has no parameter %q", d.Row.ID, parameter)
 	}
 	o.Parameters = []string{parameter}
@@ -74,6 +77,10 @@ func (s *Service) Tile(ctx context.Context, datasetID, parameter string, z, x, y
 	}
 	if p.Predicted {
 		fmt.Fprintf(h, "%s|%s|", s.ModelRef(q.Model).ParamsSHA256, q.Sediment.Name)
+	}
+	if p.NeedsAgeUncertainty() {
+		// the single value given, else the grid read
+		fmt.Fprintf(h, "σ=%g|%s|", q.AgeSigmaMa, d.AgeUncertaintyRef.SHA256)
 	}
 	tag := `"` + hex.EncodeToString(h.Sum(nil))[:32] + `"`
 	return &TilePlan{Query: q, Param: p, Binding: b, ETag: tag, z: z, x: x, y: y, s: s}, nil

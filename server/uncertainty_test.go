@@ -37,5 +37,16 @@ func TestAgeUncertaintyParameter(t *testing.T) {
 		}
 		wantProblem(t, e.get(ds+"/position?coords="+url.QueryEscape("POINT(0.5 30.5)")+"&parameter-name=predicted_depth_uncertainty&age-uncertainty-ma=-3"), 400, CodeInvalidParameter)
 		wantProblem(t, e.get(ds+"/position?coords="+url.QueryEscape("POINT(0.5 30.5)")+"&parameter-name=predicted_depth_uncertainty"), 400, CodeUnknownParameter)
+
+		// The uncertainty layer of a dataset without an age-uncertainty grid, drawn for a given
+		// value (Resolve's rule, as every other query); its ETag follows the value.
+		tile := "/tiles/globe/predicted_depth_uncertainty/1/1/0.png"
+		wantProblem(t, e.get(tile), 400, CodeUnknownParameter)
+		t2, t3 := e.get(tile+"?age-uncertainty-ma=2"), e.get(tile+"?age-uncertainty-ma=3")
+		e.want(t2, 200)
+		e.want(t3, 200)
+		if t2.Header.Get("ETag") == "" || t2.Header.Get("ETag") == t3.Header.Get("ETag") {
+			t.Errorf("tiles for σ 2 and 3 Ma: ETags %q and %q, want different", t2.Header.Get("ETag"), t3.Header.Get("ETag"))
+		}
 	})
 }
