@@ -26,4 +26,3 @@ func NoSpace(err error) error {
 	}
 	return err
 }
-
