@@ -28,8 +28,10 @@ func unavailable(err *error) {
 //     timeout, authentication to a server that is starting up);
 //   - SQLSTATE class 08 (connection exception) or 57P01 admin_shutdown, 57P02 crash_shutdown,
 //     57P03 cannot_connect_now (PostgreSQL 15 manual, appendix A, "PostgreSQL Error Codes");
-//   - a connection lost in use (EOF, reset, broken pipe, other network errors, or pgconn's
+//   - a connection lost in use (EOF, reset, broken pipe, other network operations, or pgconn's
 //     "conn closed"), unless the request's own context ended first.
+//
+// Errors of the grid files (a full disk, a missing file) are not connection failures.
 func connectionFailure(err error) bool {
 	var ce *pgconn.ConnectError
 	if errors.As(err, &ce) {
@@ -43,11 +45,13 @@ func connectionFailure(err error) bool {
 		}
 		return strings.HasPrefix(pe.Code, "08")
 	}
-	if errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded) {
+	if errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded) || errors.Is(err, store.ErrInsufficientStorage) {
 		return false
 	}
-	var ne net.Error
-	if errors.As(err, &ne) {
+	// *net.OpError, not the net.Error interface: every syscall.Errno (ENOSPC from a grid file
+	// included) satisfies net.Error.
+	var oe *net.OpError
+	if errors.As(err, &oe) {
 		return true
 	}
 	for _, e := range []error{io.EOF, io.ErrUnexpectedEOF, syscall.ECONNRESET, syscall.ECONNREFUSED, syscall.EPIPE} {

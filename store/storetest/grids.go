@@ -290,6 +290,9 @@ func testGridImportFailure(t *testing.T, open Opener) {
 			return &os.PathError{Op: "write", Path: tmp, Err: syscall.ENOSPC}
 		})
 		wantErr(t, "ENOSPC", err, store.ErrInsufficientStorage)
+		if errors.Is(err, store.ErrUnavailable) {
+			t.Fatalf("a full disk reported as an unreachable database: %v", err)
+		}
 		nothingLeft(t)
 		_, err = s.CreateDataset(ctx, store.Dataset{ID: "on-full-disk", Name: "x", AgeGridID: g.ID})
 		if err == nil {
