@@ -102,6 +102,10 @@ type Config struct {
 	// grid blocks (raster.Cache) and GDAL's own block cache together (0: DefaultMemoryBudget).
 	// See BudgetShares for how it is divided.
 	MemoryBudget int64
+	// DatasetTTL is how long a loaded dataset is reused before the store is asked again (0:
+	// DatasetTTL, the package default). It bounds how long a change made through another
+	// instance of the service (another process on the same database) takes to show here.
+	DatasetTTL time.Duration
 }
 
 // DefaultMemoryBudget is the memory budget used when Config.MemoryBudget is 0: 512 MiB.
@@ -122,12 +126,13 @@ type Service struct {
 	version string
 	limits  Limits
 
-	budget    int64
-	blocks    *raster.Cache
-	files     fileSet
-	datasets  sync.Map // id -> cachedDataset
-	models    modelCache
-	modelRefs sync.Map // thermal.Params -> *ModelRef
+	budget     int64
+	datasetTTL time.Duration
+	blocks     *raster.Cache
+	files      fileSet
+	datasets   sync.Map // id -> cachedDataset
+	models     modelCache
+	modelRefs  sync.Map // thermal.Params -> *ModelRef
 }
 
 // New returns a Service over cfg.Store.
@@ -139,9 +144,13 @@ func New(cfg Config) *Service {
 	if cfg.MemoryBudget <= 0 {
 		cfg.MemoryBudget = DefaultMemoryBudget
 	}
+	if cfg.DatasetTTL <= 0 {
+		cfg.DatasetTTL = DatasetTTL
+	}
 	blocks, gdalCache := BudgetShares(cfg.MemoryBudget)
 	gdal.SetCacheBytes(gdalCache)
-	return &Service{st: cfg.Store, version: cfg.Version, limits: l, budget: cfg.MemoryBudget, blocks: raster.NewCache(blocks),
+	return &Service{st: cfg.Store, version: cfg.Version, limits: l, budget: cfg.MemoryBudget, datasetTTL: cfg.DatasetTTL,
+		blocks: raster.NewCache(blocks),
 		files:  fileSet{m: map[string]*list.Element{}, ll: list.New()},
 		models: modelCache{m: map[thermal.Params]thermal.Model{}}}
 }
@@ -279,9 +288,9 @@ func (d *Dataset) answers(p Parameter) bool {
 // HasAgeUncertainty reports whether the dataset has an age-uncertainty grid.
 func (d *Dataset) HasAgeUncertainty() bool { return d.AgeUncertaintyRef.ID != "" }
 
-// DatasetTTL is how long a loaded dataset (its row and grid rows; grid values are cached by
-// content hash separately) is reused without asking the store again. Forget drops them at once;
-// changes made by other processes show after at most this long.
+// DatasetTTL is the default of Config.DatasetTTL: how long a loaded dataset (its row and grid
+// rows; grid values are cached by content hash separately) is reused without asking the store
+// again. Forget drops them at once; changes made by other processes show after at most this long.
 const DatasetTTL = 5 * time.Second
 
 type cachedDataset struct {
@@ -292,10 +301,10 @@ type cachedDataset struct {
 // Forget drops every cached dataset; call it after any write to datasets or grids.
 func (s *Service) Forget() { s.datasets.Clear() }
 
-// Dataset returns the dataset id with its grid files open (cached for DatasetTTL).
+// Dataset returns the dataset id with its grid files open (cached for Config.DatasetTTL).
 func (s *Service) Dataset(ctx context.Context, id string) (*Dataset, error) {
 	if v, ok := s.datasets.Load(id); ok {
-		if c := v.(cachedDataset); time.Since(c.at) < DatasetTTL {
+		if c := v.(cachedDataset); time.Since(c.at) < s.datasetTTL {
 			return c.d, nil
 		}
 	}

@@ -82,30 +82,10 @@ func (s *server) healthz(w http.ResponseWriter, r *http.Request) error {
 }
 
 func (s *server) readyz(w http.ResponseWriter, r *http.Request) error {
-	checks := map[string]string{}
+	ok, checks := s.readyState(r.Context())
 	status := "ready"
-	if s.deps.Store == nil {
-		checks["store"] = "not configured"
+	if !ok {
 		status = "not ready"
-	} else if err := s.deps.Store.Ping(r.Context()); err != nil {
-		checks["store"] = "unreachable: " + err.Error()
-		status = "not ready"
-	} else if ok, err := s.deps.Store.MigrationsApplied(r.Context()); err != nil || !ok {
-		checks["store"] = "migrations not applied"
-		if err != nil {
-			checks["store"] += ": " + err.Error()
-		}
-		status = "not ready"
-	} else {
-		checks["store"] = "ok (" + s.deps.Store.Backend() + ")"
-	}
-	if s.deps.Jobs != nil {
-		if err := s.deps.Jobs.Ready(r.Context()); err != nil {
-			checks["jobs"] = err.Error()
-			status = "not ready"
-		} else {
-			checks["jobs"] = "ok"
-		}
 	}
 	code := http.StatusOK
 	if status != "ready" {

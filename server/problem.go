@@ -5,10 +5,14 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"math"
 	"net/http"
 	"sort"
+	"strconv"
+	"time"
 
 	"ridgeflank/fault"
+	"ridgeflank/store"
 )
 
 // ProblemTypeBase prefixes every problem type URI. Type URIs are relative
@@ -37,6 +41,9 @@ type Problem struct {
 	InvalidParams []InvalidParam `json:"invalid-params,omitempty"`
 
 	cause error
+	// retryAfter, when positive, is sent as the Retry-After header (RFC 9110 §10.2.3), in
+	// whole seconds.
+	retryAfter time.Duration
 }
 
 func (p *Problem) Error() string {
@@ -87,6 +94,8 @@ const (
 	CodeRateLimited        = "rate-limited"
 	CodeTimeout            = "timeout"
 	CodeUnavailable        = "unavailable"
+	CodeStoreUnavailable   = "store-unavailable"
+	CodeInsufficientSpace  = "insufficient-storage"
 	CodeInternal           = "internal"
 	CodeInvalidModelParams = "invalid-model-parameters"
 	CodeInvalidGrid        = "invalid-grid"
@@ -122,6 +131,8 @@ func init() {
 		{Code: CodeRateLimited, Status: 429, Title: "Too many requests"},
 		{Code: CodeTimeout, Status: 503, Title: "Request took too long"},
 		{Code: CodeUnavailable, Status: 503, Title: "Service unavailable"},
+		{Code: CodeStoreUnavailable, Status: 503, Title: "Database unreachable for now; retry after the Retry-After delay"},
+		{Code: CodeInsufficientSpace, Status: 507, Title: "Not enough free space to store the grid"},
 		{Code: CodeInternal, Status: 500, Title: "Internal error"},
 		{Code: CodeInvalidModelParams, Status: 422, Title: "Invalid model parameters"},
 		{Code: CodeInvalidGrid, Status: 422, Title: "Grid file not usable"},
@@ -159,6 +170,9 @@ func (p *Problem) withStatus(s int) *Problem { p.Status = s; return p }
 // withParam names the parameter at fault.
 func (p *Problem) withParam(name string) *Problem { p.Parameter = name; return p }
 
+// withRetryAfter asks the client to wait d before retrying (the Retry-After header).
+func (p *Problem) withRetryAfter(d time.Duration) *Problem { p.retryAfter = d; return p }
+
 // withCause keeps the underlying error for errors.Is/As and logs.
 func (p *Problem) withCause(err error) *Problem { p.cause = err; return p }
 
@@ -189,6 +203,9 @@ func writeProblem(w http.ResponseWriter, r *http.Request, p *Problem) {
 	}
 	h.Set("Content-Type", "application/problem+json")
 	h.Set("Cache-Control", "no-store")
+	if p.retryAfter > 0 {
+		h.Set("Retry-After", strconv.Itoa(int(math.Ceil(p.retryAfter.Seconds()))))
+	}
 	w.WriteHeader(p.Status)
 	_ = json.NewEncoder(w).Encode(p)
 }
@@ -205,6 +222,11 @@ func asProblem(err error) *Problem {
 	if errors.As(err, &mbe) {
 		return limitProblem(http.StatusRequestEntityTooLarge, "max_body_bytes", mbe.Limit,
 			"the request body is larger than %d bytes", mbe.Limit).withCause(err)
+	}
+	// An unreachable database or a full disk is said as such even when a layer in between
+	// wrapped it, or a deadline ran out while waiting for it.
+	if errors.Is(err, store.ErrUnavailable) || errors.Is(err, store.ErrInsufficientStorage) {
+		return mapDomainError(err)
 	}
 	if f, ok := fault.As(err); ok {
 		return faultProblem(f)

@@ -112,7 +112,16 @@ type Config struct {
 	// MemoryBudgetBytes bounds the memory kept between requests (decoded grid blocks and GDAL's
 	// block cache together; evaluate.Config.MemoryBudget); 0 means evaluate.DefaultMemoryBudget.
 	MemoryBudgetBytes int64
+	// MinFreeGridBytes is the free space the grid directory must keep: below it /readyz answers
+	// not ready (naming the shortfall) and grid uploads answer 507. 0 means
+	// DefaultMinFreeGridBytes; negative disables the check.
+	MinFreeGridBytes int64
 }
+
+// DefaultMinFreeGridBytes is Config.MinFreeGridBytes when it is 0: 256 MiB, room for the
+// largest single import of a global 1′ grid as a COG with its overviews, with a margin (common
+// practice, no source).
+const DefaultMinFreeGridBytes int64 = 256 << 20
 
 // Deps are everything the handlers need; New keeps no global state.
 type Deps struct {
@@ -127,6 +136,9 @@ type Deps struct {
 	// Evaluate answers the dataset questions; nil means one built from Store, Version and
 	// Limits. Share one between the handler and the export worker to share its caches.
 	Evaluate *evaluate.Service
+	// FreeBytes returns the free space of the file system holding a directory; nil means
+	// store.FreeBytes (statfs). Tests give their own.
+	FreeBytes func(dir string) (int64, error)
 }
 
 // server carries the dependencies shared by the handlers.
@@ -136,6 +148,7 @@ type server struct {
 	limits  Limits
 	metrics *metrics
 	ev      *evaluate.Service
+	ready   readiness
 }
 
 // New builds the HTTP handler: the EDR API under /api, tiles under /tiles,
@@ -156,6 +169,12 @@ func newServer(deps Deps) *server {
 	}
 	if deps.Config.RateLimitPerMinute == 0 {
 		deps.Config.RateLimitPerMinute = 600
+	}
+	if deps.Config.MinFreeGridBytes == 0 {
+		deps.Config.MinFreeGridBytes = DefaultMinFreeGridBytes
+	}
+	if deps.FreeBytes == nil {
+		deps.FreeBytes = store.FreeBytes
 	}
 	s := &server{
 		deps:   deps,

@@ -32,6 +32,13 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 	if s.deps.Jobs == nil {
 		return problem(CodeUnavailable, "this server runs no job queue, so it cannot import grids")
 	}
+	// A grid directory below its reserve takes no more grids: refused before any byte is
+	// stored, and so is an upload that would take it below (when the body's length is known).
+	if g, checked := s.gridSpace(); checked && g.err == nil && (g.low() || r.ContentLength > g.free-g.reserve) {
+		p := problem(CodeInsufficientSpace, "%s; %s; nothing was stored", g, uploadNeed(r.ContentLength))
+		p.Limit, p.LimitName = &g.reserve, "min_free_grid_bytes"
+		return p
+	}
 	mt, _, err := mime.ParseMediaType(r.Header.Get("Content-Type"))
 	if err != nil || mt != "multipart/form-data" {
 		return problem(CodeUnsupportedMedia, "upload grids as multipart/form-data with a \"file\" part")
@@ -74,7 +81,7 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 			}
 			f, err := os.CreateTemp(dir, "upload-*"+safeExt(part.FileName()))
 			if err != nil {
-				return err
+				return store.NoSpace(err)
 			}
 			tmpPath = f.Name()
 			h := sha256.New()
@@ -87,7 +94,7 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 				return badBodyRead(err) // the client's body, not our disk
 			}
 			if err != nil {
-				return err
+				return store.NoSpace(err) // a full upload directory answers 507
 			}
 			args.Path, args.Bytes, args.SHA256 = tmpPath, n, hex.EncodeToString(h.Sum(nil))
 			args.Filename = filepath.Base(part.FileName())
@@ -162,6 +169,14 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 // sharedRef marks an ImportArgs.Path that names a file of the grid store's store.SharedFiles
 // rather than a path on the server's disk.
 const sharedRef = "shared:"
+
+// uploadNeed says what an upload of n bytes (-1: unknown) needs.
+func uploadNeed(n int64) string {
+	if n < 0 {
+		return "free space first"
+	}
+	return fmt.Sprintf("this upload needs %s more", mib(n))
+}
 
 func safeExt(name string) string {
 	ext := strings.ToLower(filepath.Ext(name))

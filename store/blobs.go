@@ -25,7 +25,8 @@ type Blobs interface {
 	// Put stores a file written by write at the temporary path it is given. The file is
 	// fsynced, hashed (SHA-256) and renamed to its key; the directory is fsynced. If sha256Hex is
 	// set and a blob with that hash exists, write is not called; if the written file's hash
-	// differs from sha256Hex, Put fails with ErrInvalid. If write fails, nothing is left behind.
+	// differs from sha256Hex, Put fails with ErrInvalid. If write fails, nothing is left behind;
+	// a full file system (ENOSPC, EDQUOT) is ErrInsufficientStorage.
 	Put(ctx context.Context, sha256Hex string, write func(tmpPath string) error) (BlobInfo, error)
 	// Open opens a blob for reading (ErrNotFound if absent).
 	Open(ctx context.Context, key string) (io.ReadSeekCloser, error)
@@ -152,12 +153,12 @@ func (g *GridFiles) Put(ctx context.Context, sha256Hex string, write func(tmpPat
 	}
 	if err := write(tmp); err != nil {
 		cleanup()
-		return BlobInfo{}, fmt.Errorf("writing grid file: %w", err)
+		return BlobInfo{}, fmt.Errorf("writing grid file: %w", NoSpace(err))
 	}
 	sum, size, err := syncAndHash(tmp)
 	if err != nil {
 		cleanup()
-		return BlobInfo{}, fmt.Errorf("grid file: %w", err)
+		return BlobInfo{}, fmt.Errorf("grid file: %w", NoSpace(err))
 	}
 	if sha256Hex != "" && sum != sha256Hex {
 		cleanup()
@@ -177,7 +178,7 @@ func (g *GridFiles) Put(ctx context.Context, sha256Hex string, write func(tmpPat
 	}
 	if err := os.Rename(tmp, final); err != nil {
 		cleanup()
-		return BlobInfo{}, fmt.Errorf("grid file: %w", err)
+		return BlobInfo{}, fmt.Errorf("grid file: %w", NoSpace(err))
 	}
 	cleanup() // side files only; tmp itself is gone
 	if err := syncDir(g.dir); err != nil {

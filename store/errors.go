@@ -16,6 +16,13 @@ var (
 	ErrInvalid = errors.New("invalid")
 	// ErrUnauthorized: an API token that is unknown or revoked.
 	ErrUnauthorized = errors.New("unauthorized")
+	// ErrUnavailable: the database cannot be reached now (refused or lost connections, the
+	// server shutting down or starting up, a connection not made within the connect timeout).
+	// Nothing was written; the same call may succeed later.
+	ErrUnavailable = errors.New("store unavailable")
+	// ErrInsufficientStorage: the grid directory has too little free space for a write (ENOSPC,
+	// or less free space than the configured reserve). Nothing was stored.
+	ErrInsufficientStorage = errors.New("insufficient storage")
 )
 
 // chainedError is a sentinel that also matches a more general sentinel.

@@ -52,6 +52,12 @@ blocks of the stored grids and GDAL's own block cache together. Grids of any
 size are read in windows at the overview level a request needs, so resident
 memory stays near the budget whatever the number and size of grids.
 
+--min-free-grid-space (default 256MiB; 0 disables) is the free space the grid
+directory keeps: below it /readyz answers not ready with the reason, and grid
+uploads answer 507. While the database cannot be reached, /readyz answers not
+ready and requests that need it answer 503 with Retry-After; both recover by
+themselves when it is back.
+
 Predicted depths are model estimates, not for navigation.
 
 SIGINT or SIGTERM shut the server down gracefully: requests in flight finish
@@ -88,12 +94,20 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	logFormat := fs.String("log-format", "text", "log format: text or json")
 	logLevel := fs.String("log-level", "info", "log level: debug, info, warn or error")
 	budgetText := fs.String("memory-budget", "512MiB", "memory kept between requests: decoded grid blocks and GDAL's block cache together (e.g. 512MiB, 2GB)")
+	minFreeText := fs.String("min-free-grid-space", "256MiB", "free space the grid directory keeps: below it /readyz is not ready and uploads answer 507 (0 disables)")
 	if err := parseFlags(ctx, serveCmd, fs, args, stdout, false); err != nil {
 		return err
 	}
 	proxies, err := server.ParseTrustedProxies(splitList(*trustedProxies))
 	if err != nil {
 		return usagef("--trusted-proxies: %v", err)
+	}
+	minFree, err := parseBytes(*minFreeText)
+	if err != nil {
+		return usagef("--min-free-grid-space %q: %v", *minFreeText, err)
+	}
+	if minFree == 0 {
+		minFree = -1 // disabled (0 in server.Config means the default)
 	}
 	budget, err := parseBytes(*budgetText)
 	if err != nil {
@@ -133,7 +147,8 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		Limits: server.Limits{RequestTimeout: *timeout},
 		Config: server.Config{CORSOrigins: origins, RateLimitPerMinute: *rate, ReadAuth: *readAuth,
 			UploadDir: filepath.Join(loc.dataDir, "uploads"), ExportDir: filepath.Join(loc.dataDir, "exports"),
-			PublicURL: *publicURL, TrustedHosts: splitList(*trustedHosts), TrustedProxies: proxies, MemoryBudgetBytes: budget},
+			PublicURL: *publicURL, TrustedHosts: splitList(*trustedHosts), TrustedProxies: proxies, MemoryBudgetBytes: budget,
+			MinFreeGridBytes: minFree},
 	}
 	if web.HasPage() {
 		deps.Assets = web.Assets()

@@ -84,3 +84,39 @@ func TestNewDBIsEmptyWithPostGIS(t *testing.T) {
 		t.Fatalf("new database: postgis extension %d, other tables %d; want 1 and 0", postgis, tables)
 	}
 }
+
+// A private cluster answers, stops (connections then fail) and starts again with its data.
+func TestClusterStopStart(t *testing.T) {
+	c := NewCluster(t)
+	ctx := context.Background()
+	conn, err := connect(ctx, c.URL())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := conn.Exec(ctx, `CREATE TABLE kept (v int); INSERT INTO kept VALUES (42)`); err != nil {
+		t.Fatal(err)
+	}
+	conn.Close(ctx)
+	if err := c.Stop(); err != nil {
+		t.Fatal(err)
+	}
+	if c, err := connect(ctx, c.URL()); err == nil {
+		c.Close(ctx)
+		t.Fatal("connected to a stopped cluster")
+	}
+	if err := c.Start(); err != nil {
+		t.Fatal(err)
+	}
+	conn, err = connect(ctx, c.URL())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer conn.Close(ctx)
+	var v, postgis int
+	if err := conn.QueryRow(ctx, `SELECT v, (SELECT count(*) FROM pg_extension WHERE extname = 'postgis') FROM kept`).Scan(&v, &postgis); err != nil {
+		t.Fatal(err)
+	}
+	if v != 42 || postgis != 1 {
+		t.Fatalf("after restart: kept %d, postgis %d; want 42 and 1", v, postgis)
+	}
+}

@@ -46,11 +46,12 @@ func checkDatasetGrids(ctx context.Context, tx pgx.Tx, d store.Dataset) error {
 }
 
 // CreateDataset implements store.Store.
-func (s *Store) CreateDataset(ctx context.Context, d store.Dataset) (store.Dataset, error) {
+func (s *Store) CreateDataset(ctx context.Context, d store.Dataset) (_ store.Dataset, err error) {
+	defer unavailable(&err)
 	if err := d.PrepareCreate(); err != nil {
 		return store.Dataset{}, err
 	}
-	err := pgx.BeginFunc(ctx, s.pool, func(tx pgx.Tx) error {
+	err = pgx.BeginFunc(ctx, s.pool, func(tx pgx.Tx) error {
 		if err := checkDatasetGrids(ctx, tx, d); err != nil {
 			return err
 		}
@@ -66,7 +67,8 @@ func (s *Store) CreateDataset(ctx context.Context, d store.Dataset) (store.Datas
 }
 
 // GetDataset implements store.Store.
-func (s *Store) GetDataset(ctx context.Context, id string) (store.Dataset, error) {
+func (s *Store) GetDataset(ctx context.Context, id string) (_ store.Dataset, err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("dataset", id); err != nil {
 		return store.Dataset{}, err
 	}
@@ -74,12 +76,14 @@ func (s *Store) GetDataset(ctx context.Context, id string) (store.Dataset, error
 }
 
 // ListDatasets implements store.Store.
-func (s *Store) ListDatasets(ctx context.Context, p store.Page) ([]store.Dataset, error) {
+func (s *Store) ListDatasets(ctx context.Context, p store.Page) (_ []store.Dataset, err error) {
+	defer unavailable(&err)
 	return listPage(ctx, s, scanDataset, "datasets", `SELECT `+datasetCols+` FROM datasets ORDER BY created_at, id LIMIT $1 OFFSET $2`, p)
 }
 
 // UpdateDataset implements store.Store.
-func (s *Store) UpdateDataset(ctx context.Context, d store.Dataset) (store.Dataset, error) {
+func (s *Store) UpdateDataset(ctx context.Context, d store.Dataset) (_ store.Dataset, err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("dataset", d.ID); err != nil {
 		return store.Dataset{}, err
 	}
@@ -87,7 +91,7 @@ func (s *Store) UpdateDataset(ctx context.Context, d store.Dataset) (store.Datas
 		return store.Dataset{}, err
 	}
 	expected := d.Version
-	err := pgx.BeginFunc(ctx, s.pool, func(tx pgx.Tx) error {
+	err = pgx.BeginFunc(ctx, s.pool, func(tx pgx.Tx) error {
 		if err := checkDatasetGrids(ctx, tx, d); err != nil {
 			return err
 		}
@@ -109,7 +113,8 @@ func (s *Store) UpdateDataset(ctx context.Context, d store.Dataset) (store.Datas
 }
 
 // DeleteDataset implements store.Store.
-func (s *Store) DeleteDataset(ctx context.Context, id string, expectedVersion int64) error {
+func (s *Store) DeleteDataset(ctx context.Context, id string, expectedVersion int64) (err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("dataset", id); err != nil {
 		return err
 	}

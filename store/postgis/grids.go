@@ -29,7 +29,8 @@ func scanGrid(row pgx.Row) (store.Grid, error) {
 }
 
 // ImportGrid implements store.Store.
-func (s *Store) ImportGrid(ctx context.Context, g store.Grid, write func(tmpPath string) error) (store.Grid, bool, error) {
+func (s *Store) ImportGrid(ctx context.Context, g store.Grid, write func(tmpPath string) error) (_ store.Grid, _ bool, err error) {
+	defer unavailable(&err)
 	return gridimport.Import(ctx, s.blobs, s.importCatalogue(), g, write)
 }
 
@@ -50,7 +51,8 @@ func (s *Store) insertGrid(ctx context.Context, g store.Grid) (store.Grid, error
 }
 
 // GetGrid implements store.Store.
-func (s *Store) GetGrid(ctx context.Context, id string) (store.Grid, error) {
+func (s *Store) GetGrid(ctx context.Context, id string) (_ store.Grid, err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("grid", id); err != nil {
 		return store.Grid{}, err
 	}
@@ -58,7 +60,8 @@ func (s *Store) GetGrid(ctx context.Context, id string) (store.Grid, error) {
 }
 
 // GetGridByHash implements store.Store.
-func (s *Store) GetGridByHash(ctx context.Context, sha256Hex string) (store.Grid, error) {
+func (s *Store) GetGridByHash(ctx context.Context, sha256Hex string) (_ store.Grid, err error) {
+	defer unavailable(&err)
 	g, err := scanGrid(s.pool.QueryRow(ctx, `SELECT `+gridCols+` FROM grids WHERE content_hash = $1`, sha256Hex))
 	if errors.Is(err, pgx.ErrNoRows) {
 		return store.Grid{}, fmt.Errorf("grid with content %s: %w", sha256Hex, store.ErrNotFound)
@@ -67,7 +70,8 @@ func (s *Store) GetGridByHash(ctx context.Context, sha256Hex string) (store.Grid
 }
 
 // ListGrids implements store.Store.
-func (s *Store) ListGrids(ctx context.Context, f store.GridFilter) ([]store.Grid, error) {
+func (s *Store) ListGrids(ctx context.Context, f store.GridFilter) (_ []store.Grid, err error) {
+	defer unavailable(&err)
 	boxes, err := f.Prepare()
 	if err != nil {
 		return nil, err
@@ -90,12 +94,13 @@ func (s *Store) ListGrids(ctx context.Context, f store.GridFilter) ([]store.Grid
 }
 
 // DeleteGrid implements store.Store.
-func (s *Store) DeleteGrid(ctx context.Context, id string) error {
+func (s *Store) DeleteGrid(ctx context.Context, id string) (err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("grid", id); err != nil {
 		return err
 	}
 	var path string
-	err := s.pool.QueryRow(ctx, `DELETE FROM grids WHERE id = $1 RETURNING path`, id).Scan(&path)
+	err = s.pool.QueryRow(ctx, `DELETE FROM grids WHERE id = $1 RETURNING path`, id).Scan(&path)
 	if errors.Is(err, pgx.ErrNoRows) {
 		return notFound("grid", id)
 	}

@@ -25,11 +25,12 @@ func scanModel(row pgx.Row) (store.Model, error) {
 }
 
 // CreateModel implements store.Store.
-func (s *Store) CreateModel(ctx context.Context, m store.Model) (store.Model, error) {
+func (s *Store) CreateModel(ctx context.Context, m store.Model) (_ store.Model, err error) {
+	defer unavailable(&err)
 	if err := m.PrepareCreate(); err != nil {
 		return store.Model{}, err
 	}
-	_, err := s.pool.Exec(ctx, `INSERT INTO custom_models (id, name, description, params, created_at, updated_at, version)
+	_, err = s.pool.Exec(ctx, `INSERT INTO custom_models (id, name, description, params, created_at, updated_at, version)
 		VALUES ($1, $2, $3, $4::text::json, $5, $6, $7)`,
 		m.ID, m.Name, m.Description, string(m.Params), m.CreatedAt, m.UpdatedAt, m.Version)
 	if err != nil {
@@ -39,7 +40,8 @@ func (s *Store) CreateModel(ctx context.Context, m store.Model) (store.Model, er
 }
 
 // GetModel implements store.Store.
-func (s *Store) GetModel(ctx context.Context, id string) (store.Model, error) {
+func (s *Store) GetModel(ctx context.Context, id string) (_ store.Model, err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("model", id); err != nil {
 		return store.Model{}, err
 	}
@@ -47,12 +49,14 @@ func (s *Store) GetModel(ctx context.Context, id string) (store.Model, error) {
 }
 
 // ListModels implements store.Store.
-func (s *Store) ListModels(ctx context.Context, p store.Page) ([]store.Model, error) {
+func (s *Store) ListModels(ctx context.Context, p store.Page) (_ []store.Model, err error) {
+	defer unavailable(&err)
 	return listPage(ctx, s, scanModel, "models", `SELECT `+modelCols+` FROM custom_models ORDER BY created_at, id LIMIT $1 OFFSET $2`, p)
 }
 
 // UpdateModel implements store.Store.
-func (s *Store) UpdateModel(ctx context.Context, m store.Model) (store.Model, error) {
+func (s *Store) UpdateModel(ctx context.Context, m store.Model) (_ store.Model, err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("model", m.ID); err != nil {
 		return store.Model{}, err
 	}
@@ -60,7 +64,7 @@ func (s *Store) UpdateModel(ctx context.Context, m store.Model) (store.Model, er
 		return store.Model{}, err
 	}
 	expected := m.Version
-	err := s.pool.QueryRow(ctx, `UPDATE custom_models SET name = $2, description = $3, params = $4::text::json, updated_at = $5,
+	err = s.pool.QueryRow(ctx, `UPDATE custom_models SET name = $2, description = $3, params = $4::text::json, updated_at = $5,
 		version = version + 1 WHERE id = $1 AND version = $6 RETURNING created_at, version`,
 		m.ID, m.Name, m.Description, string(m.Params), m.UpdatedAt, expected).Scan(&m.CreatedAt, &m.Version)
 	if errors.Is(err, pgx.ErrNoRows) {
@@ -74,7 +78,8 @@ func (s *Store) UpdateModel(ctx context.Context, m store.Model) (store.Model, er
 }
 
 // DeleteModel implements store.Store.
-func (s *Store) DeleteModel(ctx context.Context, id string, expectedVersion int64) error {
+func (s *Store) DeleteModel(ctx context.Context, id string, expectedVersion int64) (err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("model", id); err != nil {
 		return err
 	}

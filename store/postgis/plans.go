@@ -41,7 +41,8 @@ func planColumns(p store.Plan) (string, string, error) {
 }
 
 // CreatePlan implements store.Store.
-func (s *Store) CreatePlan(ctx context.Context, p store.Plan) (store.Plan, error) {
+func (s *Store) CreatePlan(ctx context.Context, p store.Plan) (_ store.Plan, err error) {
+	defer unavailable(&err)
 	if err := p.PrepareCreate(); err != nil {
 		return store.Plan{}, err
 	}
@@ -59,7 +60,8 @@ func (s *Store) CreatePlan(ctx context.Context, p store.Plan) (store.Plan, error
 }
 
 // GetPlan implements store.Store.
-func (s *Store) GetPlan(ctx context.Context, id string) (store.Plan, error) {
+func (s *Store) GetPlan(ctx context.Context, id string) (_ store.Plan, err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("plan", id); err != nil {
 		return store.Plan{}, err
 	}
@@ -67,12 +69,14 @@ func (s *Store) GetPlan(ctx context.Context, id string) (store.Plan, error) {
 }
 
 // ListPlans implements store.Store.
-func (s *Store) ListPlans(ctx context.Context, p store.Page) ([]store.Plan, error) {
+func (s *Store) ListPlans(ctx context.Context, p store.Page) (_ []store.Plan, err error) {
+	defer unavailable(&err)
 	return listPage(ctx, s, scanPlan, "plans", `SELECT `+planCols+` FROM plans ORDER BY created_at, id LIMIT $1 OFFSET $2`, p)
 }
 
 // UpdatePlan implements store.Store.
-func (s *Store) UpdatePlan(ctx context.Context, p store.Plan) (store.Plan, error) {
+func (s *Store) UpdatePlan(ctx context.Context, p store.Plan) (_ store.Plan, err error) {
+	defer unavailable(&err)
 	if err := p.PrepareUpdate(); err != nil {
 		return store.Plan{}, err
 	}
@@ -96,7 +100,8 @@ func (s *Store) UpdatePlan(ctx context.Context, p store.Plan) (store.Plan, error
 }
 
 // DeletePlan implements store.Store.
-func (s *Store) DeletePlan(ctx context.Context, id string, expectedVersion int64) error {
+func (s *Store) DeletePlan(ctx context.Context, id string, expectedVersion int64) (err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("plan", id); err != nil {
 		return err
 	}

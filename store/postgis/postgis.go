@@ -8,6 +8,7 @@ import (
 	"log/slog"
 	"path/filepath"
 	"strings"
+	"time"
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
@@ -27,6 +28,11 @@ func init() {
 	})
 }
 
+// DefaultConnectTimeout bounds the making of one connection when the database URL has no
+// connect_timeout: long enough for a server across a data centre, short enough that requests
+// fail fast while the database is down (common practice, no source).
+const DefaultConnectTimeout = 5 * time.Second
+
 // Store is the PostgreSQL/PostGIS store. It is safe for concurrent use.
 type Store struct {
 	pool  *pgxpool.Pool
@@ -39,7 +45,12 @@ var _ store.Store = (*Store)(nil)
 // Open connects to cfg.DatabaseURL, applies pending migrations unless cfg.NoAutoMigrate
 // (holding an advisory lock, so concurrent start-ups are safe), and sweeps the grid directory
 // cfg.GridDir (default DataDir/grids).
-func Open(ctx context.Context, cfg store.Config) (*Store, error) {
+//
+// A connection that cannot be made within the URL's connect_timeout (DefaultConnectTimeout when
+// the URL sets none) fails with store.ErrUnavailable, and so does every method while the
+// database cannot be reached; a request's context bounds the wait for a pooled connection.
+func Open(ctx context.Context, cfg store.Config) (_ *Store, err error) {
+	defer unavailable(&err)
 	cfg = cfg.WithDefaults()
 	if cfg.DatabaseURL == "" {
 		return nil, fmt.Errorf("%w: postgis store needs a database URL", store.ErrInvalid)
@@ -47,6 +58,9 @@ func Open(ctx context.Context, cfg store.Config) (*Store, error) {
 	pcfg, err := pgxpool.ParseConfig(cfg.DatabaseURL)
 	if err != nil {
 		return nil, fmt.Errorf("%w: database URL: %v", store.ErrInvalid, err)
+	}
+	if pcfg.ConnConfig.ConnectTimeout <= 0 {
+		pcfg.ConnConfig.ConnectTimeout = DefaultConnectTimeout
 	}
 	blobs, err := store.OpenBlobs(ctx, cfg)
 	if err != nil {
@@ -80,7 +94,8 @@ func (s *Store) Close() error {
 }
 
 // Ping implements store.Store.
-func (s *Store) Ping(ctx context.Context) error {
+func (s *Store) Ping(ctx context.Context) (err error) {
+	defer unavailable(&err)
 	if err := s.pool.Ping(ctx); err != nil {
 		return fmt.Errorf("postgis store: %w", err)
 	}
@@ -99,9 +114,10 @@ func (s *Store) withProvider(fn func(p *goose.Provider) error) error {
 }
 
 // Migrate implements store.Store.
-func (s *Store) Migrate(ctx context.Context) ([]string, error) {
+func (s *Store) Migrate(ctx context.Context) (_ []string, err error) {
+	defer unavailable(&err)
 	var names []string
-	err := s.withProvider(func(p *goose.Provider) error {
+	err = s.withProvider(func(p *goose.Provider) error {
 		res, err := p.Up(ctx)
 		for _, r := range res {
 			if r.Error == nil {
@@ -117,9 +133,10 @@ func (s *Store) Migrate(ctx context.Context) ([]string, error) {
 }
 
 // MigrationsApplied implements store.Store.
-func (s *Store) MigrationsApplied(ctx context.Context) (bool, error) {
+func (s *Store) MigrationsApplied(ctx context.Context) (_ bool, err error) {
+	defer unavailable(&err)
 	var pending bool
-	err := s.withProvider(func(p *goose.Provider) error {
+	err = s.withProvider(func(p *goose.Provider) error {
 		var err error
 		pending, err = p.HasPending(ctx)
 		return err
@@ -131,9 +148,10 @@ func (s *Store) MigrationsApplied(ctx context.Context) (bool, error) {
 }
 
 // MigrationStatus implements store.Store.
-func (s *Store) MigrationStatus(ctx context.Context) ([]store.MigrationStatus, error) {
+func (s *Store) MigrationStatus(ctx context.Context) (_ []store.MigrationStatus, err error) {
+	defer unavailable(&err)
 	var out []store.MigrationStatus
-	err := s.withProvider(func(p *goose.Provider) error {
+	err = s.withProvider(func(p *goose.Provider) error {
 		st, err := p.Status(ctx)
 		if err != nil {
 			return err
@@ -155,7 +173,8 @@ func (s *Store) MigrationStatus(ctx context.Context) ([]store.MigrationStatus, e
 }
 
 // Sweep implements store.Store.
-func (s *Store) Sweep(ctx context.Context) ([]string, error) {
+func (s *Store) Sweep(ctx context.Context) (_ []string, err error) {
+	defer unavailable(&err)
 	var id string
 	if err := s.pool.QueryRow(ctx, `SELECT value FROM store_meta WHERE key = 'catalogue_id'`).Scan(&id); err != nil {
 		return nil, fmt.Errorf("postgis store: catalogue id: %w", err)

@@ -31,7 +31,8 @@ func scanRegion(row pgx.Row) (store.Region, error) {
 }
 
 // CreateRegion implements store.Store.
-func (s *Store) CreateRegion(ctx context.Context, r store.Region) (store.Region, error) {
+func (s *Store) CreateRegion(ctx context.Context, r store.Region) (_ store.Region, err error) {
+	defer unavailable(&err)
 	if err := r.PrepareCreate(); err != nil {
 		return store.Region{}, err
 	}
@@ -49,7 +50,8 @@ func (s *Store) CreateRegion(ctx context.Context, r store.Region) (store.Region,
 }
 
 // GetRegion implements store.Store.
-func (s *Store) GetRegion(ctx context.Context, id string) (store.Region, error) {
+func (s *Store) GetRegion(ctx context.Context, id string) (_ store.Region, err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("region", id); err != nil {
 		return store.Region{}, err
 	}
@@ -58,7 +60,8 @@ func (s *Store) GetRegion(ctx context.Context, id string) (store.Region, error) 
 
 // UpdateRegion implements store.Store. The conditional UPDATE is atomic: of several writers
 // holding the same version, the first to commit wins and the others match no row.
-func (s *Store) UpdateRegion(ctx context.Context, r store.Region) (store.Region, error) {
+func (s *Store) UpdateRegion(ctx context.Context, r store.Region) (_ store.Region, err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("region", r.ID); err != nil {
 		return store.Region{}, err
 	}
@@ -85,7 +88,8 @@ func (s *Store) UpdateRegion(ctx context.Context, r store.Region) (store.Region,
 }
 
 // DeleteRegion implements store.Store.
-func (s *Store) DeleteRegion(ctx context.Context, id string, expectedVersion int64) error {
+func (s *Store) DeleteRegion(ctx context.Context, id string, expectedVersion int64) (err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("region", id); err != nil {
 		return err
 	}
@@ -104,7 +108,8 @@ func (s *Store) deleteVersioned(ctx context.Context, table, what, id string, exp
 }
 
 // ListRegions implements store.Store; all filtering runs in the database.
-func (s *Store) ListRegions(ctx context.Context, f store.RegionFilter) ([]store.Region, error) {
+func (s *Store) ListRegions(ctx context.Context, f store.RegionFilter) (_ []store.Region, err error) {
+	defer unavailable(&err)
 	boxes, err := f.Prepare()
 	if err != nil {
 		return nil, err

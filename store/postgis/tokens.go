@@ -34,7 +34,8 @@ func scanToken(row pgx.Row) (store.Token, error) {
 }
 
 // CreateToken implements store.Store.
-func (s *Store) CreateToken(ctx context.Context, name string, role store.Role) (store.Token, string, error) {
+func (s *Store) CreateToken(ctx context.Context, name string, role store.Role) (_ store.Token, _ string, err error) {
+	defer unavailable(&err)
 	t, plain, hash, err := store.NewToken(name, role)
 	if err != nil {
 		return store.Token{}, "", err
@@ -48,7 +49,8 @@ func (s *Store) CreateToken(ctx context.Context, name string, role store.Role) (
 }
 
 // ListTokens implements store.Store.
-func (s *Store) ListTokens(ctx context.Context) ([]store.Token, error) {
+func (s *Store) ListTokens(ctx context.Context) (_ []store.Token, err error) {
+	defer unavailable(&err)
 	rows, err := s.pool.Query(ctx, `SELECT `+tokenCols+` FROM api_tokens ORDER BY created_at, id`)
 	if err != nil {
 		return nil, fmt.Errorf("listing tokens: %w", err)
@@ -57,7 +59,8 @@ func (s *Store) ListTokens(ctx context.Context) ([]store.Token, error) {
 }
 
 // RevokeToken implements store.Store. Revoking a revoked token keeps the first revocation time.
-func (s *Store) RevokeToken(ctx context.Context, id string) error {
+func (s *Store) RevokeToken(ctx context.Context, id string) (err error) {
+	defer unavailable(&err)
 	tag, err := s.pool.Exec(ctx, `UPDATE api_tokens SET revoked_at = coalesce(revoked_at, $1) WHERE id = $2`, store.Now(), id)
 	if err != nil {
 		return fmt.Errorf("revoking token: %w", err)
@@ -69,7 +72,8 @@ func (s *Store) RevokeToken(ctx context.Context, id string) error {
 }
 
 // Authenticate implements store.Store.
-func (s *Store) Authenticate(ctx context.Context, plaintext string) (store.Token, error) {
+func (s *Store) Authenticate(ctx context.Context, plaintext string) (_ store.Token, err error) {
+	defer unavailable(&err)
 	if plaintext == "" {
 		return store.Token{}, fmt.Errorf("%w: no token", store.ErrUnauthorized)
 	}

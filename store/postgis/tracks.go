@@ -31,7 +31,8 @@ func scanTrack(row pgx.Row) (store.Track, error) {
 }
 
 // CreateTrack implements store.Store.
-func (s *Store) CreateTrack(ctx context.Context, t store.Track) (store.Track, error) {
+func (s *Store) CreateTrack(ctx context.Context, t store.Track) (_ store.Track, err error) {
+	defer unavailable(&err)
 	if err := t.PrepareCreate(); err != nil {
 		return store.Track{}, err
 	}
@@ -49,7 +50,8 @@ func (s *Store) CreateTrack(ctx context.Context, t store.Track) (store.Track, er
 }
 
 // GetTrack implements store.Store.
-func (s *Store) GetTrack(ctx context.Context, id string) (store.Track, error) {
+func (s *Store) GetTrack(ctx context.Context, id string) (_ store.Track, err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("track", id); err != nil {
 		return store.Track{}, err
 	}
@@ -57,12 +59,14 @@ func (s *Store) GetTrack(ctx context.Context, id string) (store.Track, error) {
 }
 
 // ListTracks implements store.Store.
-func (s *Store) ListTracks(ctx context.Context, p store.Page) ([]store.Track, error) {
+func (s *Store) ListTracks(ctx context.Context, p store.Page) (_ []store.Track, err error) {
+	defer unavailable(&err)
 	return listPage(ctx, s, scanTrack, "tracks", `SELECT `+trackCols+` FROM tracks ORDER BY created_at, id LIMIT $1 OFFSET $2`, p)
 }
 
 // UpdateTrack implements store.Store.
-func (s *Store) UpdateTrack(ctx context.Context, t store.Track) (store.Track, error) {
+func (s *Store) UpdateTrack(ctx context.Context, t store.Track) (_ store.Track, err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("track", t.ID); err != nil {
 		return store.Track{}, err
 	}
@@ -89,7 +93,8 @@ func (s *Store) UpdateTrack(ctx context.Context, t store.Track) (store.Track, er
 }
 
 // DeleteTrack implements store.Store.
-func (s *Store) DeleteTrack(ctx context.Context, id string, expectedVersion int64) error {
+func (s *Store) DeleteTrack(ctx context.Context, id string, expectedVersion int64) (err error) {
+	defer unavailable(&err)
 	if err := store.LookupID("track", id); err != nil {
 		return err
 	}

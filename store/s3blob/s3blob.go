@@ -288,7 +288,7 @@ func (b *Blobs) Put(ctx context.Context, sha256Hex string, write func(tmpPath st
 	defer os.RemoveAll(dir) // the file and any side files a writer left
 	tmp := filepath.Join(dir, "grid"+gridFileExt)
 	if err := write(tmp); err != nil {
-		return store.BlobInfo{}, fmt.Errorf("writing grid file: %w", err)
+		return store.BlobInfo{}, fmt.Errorf("writing grid file: %w", store.NoSpace(err))
 	}
 	f, err := os.Open(tmp)
 	if errors.Is(err, os.ErrNotExist) {

@@ -236,6 +236,13 @@ func mapErr(err error) error {
 		case sqlite3.SQLITE_CONSTRAINT_CHECK, sqlite3.SQLITE_CONSTRAINT_NOTNULL:
 			return fmt.Errorf("%w: %v", store.ErrInvalid, err)
 		}
+		switch code & 0xff {
+		case sqlite3.SQLITE_BUSY, sqlite3.SQLITE_LOCKED:
+			// Another process held the write lock for longer than BusyTimeout.
+			return fmt.Errorf("%w: the database stayed locked for %v: %w", store.ErrUnavailable, BusyTimeout, err)
+		case sqlite3.SQLITE_FULL:
+			return fmt.Errorf("%w: %w", store.ErrInsufficientStorage, err)
+		}
 	}
 	return err
 }

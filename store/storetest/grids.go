@@ -12,6 +12,7 @@ import (
 	"slices"
 	"strings"
 	"sync"
+	"syscall"
 	"testing"
 	"time"
 
@@ -274,6 +275,32 @@ func testGridImportFailure(t *testing.T, open Opener) {
 			t.Fatalf("got %v, want the writer's error", err)
 		}
 		nothingLeft(t)
+	})
+	t.Run("disk full mid-write", func(t *testing.T) {
+		// write(2) fails with ENOSPC once the file system is full (POSIX.1-2017, write()).
+		g := ageMeta("full disk")
+		g.ID = "full-disk-age"
+		_, _, err := s.ImportGrid(ctx, g, func(tmp string) error {
+			f, err := os.Create(tmp)
+			if err != nil {
+				return err
+			}
+			defer f.Close()
+			f.Write([]byte("the first blocks of a COG"))
+			return &os.PathError{Op: "write", Path: tmp, Err: syscall.ENOSPC}
+		})
+		wantErr(t, "ENOSPC", err, store.ErrInsufficientStorage)
+		if errors.Is(err, store.ErrUnavailable) {
+			t.Fatalf("a full disk reported as an unreachable database: %v", err)
+		}
+		nothingLeft(t)
+		_, err = s.CreateDataset(ctx, store.Dataset{ID: "on-full-disk", Name: "x", AgeGridID: g.ID})
+		if err == nil {
+			t.Fatal("a dataset was created on a grid whose write failed")
+		}
+		if ds := must[[]store.Dataset](t, "ListDatasets")(s.ListDatasets(ctx, store.Page{})); len(ds) != 0 {
+			t.Fatalf("%d datasets stored", len(ds))
+		}
 	})
 	t.Run("writer writes nothing", func(t *testing.T) {
 		_, _, err := s.ImportGrid(ctx, ageMeta("empty"), func(string) error { return nil })
