@@ -12,6 +12,7 @@ GO_TEST_FLAGS ?= -timeout 30m -p 2
 SCALE_SIZES ?= 1m,15s
 # Pinned analysers, run through the Go module proxy with `go run` (nothing added to go.mod).
 STATICCHECK ?= honnef.co/go/tools/cmd/staticcheck@v0.8.2
+GOVULNCHECK ?= golang.org/x/vuln/cmd/govulncheck@v1.9.0
 DEADCODE ?= golang.org/x/tools/cmd/deadcode@v0.45.0
 # Database drivers the HTTP package must not link (job types live in jobs, the drivers in jobs/queue and store/*).
 SERVER_FORBIDDEN_DEPS := riverpgxv5|riversqlite|modernc.org/sqlite|jackc/pgx
@@ -36,7 +37,7 @@ build: deps-build web ## build bin/ridgeflank
 run: build ## build and serve on the embedded store in ./data (demo basin loaded on first start)
 	$(BIN) serve --addr $(ADDR) --data $(DATA)
 
-lint: ## fail on gofmt differences, go vet, staticcheck, an untidy go.mod, or a database driver linked into server
+lint: ## fail on gofmt differences, go vet, staticcheck, an untidy go.mod, a database driver linked into server, or a known vulnerability (govulncheck, where its database is reachable)
 	@out=$$(gofmt -l $$(git ls-files '*.go' 2>/dev/null || find . -name '*.go' -not -path './web/node_modules/*')); \
 	  if [ -n "$$out" ]; then echo "gofmt would change:"; echo "$$out"; exit 1; fi
 	$(GO) vet ./...
@@ -44,6 +45,9 @@ lint: ## fail on gofmt differences, go vet, staticcheck, an untidy go.mod, or a 
 	$(GO) run $(STATICCHECK) ./...
 	@out=$$($(GO) list -deps ./server | grep -E '$(SERVER_FORBIDDEN_DEPS)'); \
 	  if [ -n "$$out" ]; then echo "server links database drivers it must not:"; echo "$$out"; exit 1; fi
+	@if curl -fsS -m 10 -o /dev/null https://vuln.go.dev/index/db.json 2>/dev/null; then \
+	  $(GO) run $(GOVULNCHECK) ./...; \
+	else echo "lint: govulncheck skipped: its vulnerability database (vuln.go.dev) cannot be reached from this machine"; fi
 
 deadcode: ## list functions the ridgeflank binary never reaches (a report; lint does not fail on it)
 	$(GO) run $(DEADCODE) ./cmd/ridgeflank
