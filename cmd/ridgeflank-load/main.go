@@ -71,6 +71,8 @@ type runResult struct {
 	RSSGrowthMiB    float64      `json:"rss_growth_mib"`
 	RSSBoundMiB     float64      `json:"rss_growth_bound_mib"`
 	RSSFlag         bool         `json:"rss_growth_beyond_bound"`
+	ServerCPUPerReq float64      `json:"server_cpu_us_per_request"`  // mixed run: the server's user + system CPU time per request
+	PositionCPU     float64      `json:"server_cpu_us_per_position"` // position-only rounds
 	PositionReqPerS float64      `json:"position_only_req_per_s"`
 	BareReqPerS     float64      `json:"bare_chi_req_per_s"`
 	Ratio           float64      `json:"position_to_bare_ratio"`
@@ -318,14 +320,18 @@ func drive(ctx context.Context, c config, rr *runResult, base, token string, pid
 	if pid > 0 {
 		rr.RSSBeforeKiB, _ = procStatus(pid, "VmRSS")
 	}
+	cpu0 := procCPU(pid)
 	mixed(ctx, c, rr, cl)
+	if cpu := procCPU(pid) - cpu0; pid > 0 && rr.Requests > 0 {
+		rr.ServerCPUPerReq = float64(cpu.Microseconds()) / float64(rr.Requests)
+	}
 	if pid > 0 {
 		rr.RSSAfterKiB, _ = procStatus(pid, "VmRSS")
 		rr.HWMKiB, _ = procStatus(pid, "VmHWM")
 		rr.RSSGrowthMiB = float64(rr.RSSAfterKiB-rr.RSSBeforeKiB) / 1024
 		rr.RSSFlag = rr.RSSGrowthMiB > c.maxRSSGrowthMiB
 	}
-	ratio(ctx, c, rr, cl)
+	ratio(ctx, c, rr, cl, pid)
 }
 
 // mixed runs c.workers clients over the mix until the time or the count runs out.
@@ -386,7 +392,7 @@ func bareChi() (base string, stop func(), err error) {
 
 // ratio drives position queries alone against ridgeflank and the same requests against the bare
 // chi server, in alternating rounds (so a machine shared with other work slows both alike).
-func ratio(ctx context.Context, c config, rr *runResult, cl *client) {
+func ratio(ctx context.Context, c config, rr *runResult, cl *client, pid int) {
 	bareBase, stop, err := bareChi()
 	if err != nil {
 		rr.Failures = append(rr.Failures, "bare chi server: "+err.Error())
@@ -394,12 +400,14 @@ func ratio(ctx context.Context, c config, rr *runResult, cl *client) {
 	}
 	defer stop()
 	bare := &client{base: bareBase, http: newHTTPClient(c.workers), timeout: c.timeout}
-	const rounds = 3
+	const rounds = 6
 	slice := c.ratioDuration / rounds
 	var nPos, nBare int
-	var tPos, tBare time.Duration
+	var tPos, tBare, cpuPos time.Duration
 	for r := range rounds {
+		cpu0 := procCPU(pid)
 		n, d, errs := closedLoop(ctx, cl, c.workers, slice, uint64(100+r))
+		cpuPos += procCPU(pid) - cpu0
 		nPos, tPos = nPos+n, tPos+d
 		if errs != "" {
 			rr.Failures = append(rr.Failures, "position-only run: "+errs)
@@ -412,6 +420,9 @@ func ratio(ctx context.Context, c config, rr *runResult, cl *client) {
 		}
 	}
 	rr.PositionReqPerS = float64(nPos) / tPos.Seconds()
+	if pid > 0 && nPos > 0 {
+		rr.PositionCPU = float64(cpuPos.Microseconds()) / float64(nPos)
+	}
 	rr.BareReqPerS = float64(nBare) / tBare.Seconds()
 	if rr.BareReqPerS > 0 {
 		rr.Ratio = rr.PositionReqPerS / rr.BareReqPerS
@@ -463,6 +474,31 @@ func procStatus(pid int, field string) (int64, error) {
 	return 0, fmt.Errorf("no %s in /proc/%d/status", field, pid)
 }
 
+// procCPU is the user + system CPU time of process pid so far (0 when pid is 0 or unreadable),
+// from fields 14 and 15 of /proc/PID/stat, in clock ticks of 1/100 s (USER_HZ on Linux).
+func procCPU(pid int) time.Duration {
+	if pid <= 0 {
+		return 0
+	}
+	raw, err := os.ReadFile(fmt.Sprintf("/proc/%d/stat", pid))
+	if err != nil {
+		return 0
+	}
+	// The command name (field 2) is in parentheses and may hold spaces: count from after it.
+	s := string(raw)
+	i := strings.LastIndexByte(s, ')')
+	if i < 0 {
+		return 0
+	}
+	f := strings.Fields(s[i+1:]) // f[0] is field 3 (state)
+	if len(f) < 13 {
+		return 0
+	}
+	ut, _ := strconv.ParseInt(f[11], 10, 64)
+	st, _ := strconv.ParseInt(f[12], 10, 64)
+	return time.Duration(ut+st) * 10 * time.Millisecond
+}
+
 func cpuModel() string {
 	raw, _ := os.ReadFile("/proc/cpuinfo")
 	for _, l := range strings.Split(string(raw), "\n") {
@@ -476,7 +512,7 @@ func cpuModel() string {
 // ---- output ----
 
 func printRun(w *os.File, rr *runResult) {
-	fmt.Fprintf(w, "\n== %s (%s): %d requests in %.1f s, %.0f req/s, %d errors\n", rr.Store, rr.Target, rr.Requests, rr.Seconds, rr.ReqPerS, rr.Errors)
+	fmt.Fprintf(w, "\n== %s (%s): %d requests in %.1f s, %.0f req/s, %d errors; server CPU %.0f µs per request\n", rr.Store, rr.Target, rr.Requests, rr.Seconds, rr.ReqPerS, rr.Errors, rr.ServerCPUPerReq)
 	fmt.Fprintf(w, "%-24s %7s %8s %8s %9s %6s %6s %6s\n", "kind", "count", "req/s", "p50 ms", "p99 ms", "4xx", "429", "errors")
 	for _, k := range rr.Kinds {
 		fmt.Fprintf(w, "%-24s %7d %8.1f %8.2f %9.2f %6d %6d %6d\n", k.Kind, k.Count, k.RatePerS, k.P50Ms, k.P99Ms, k.Refused, k.Limited, k.Errors)
@@ -493,7 +529,7 @@ func printRun(w *os.File, rr *runResult) {
 			float64(rr.RSSBeforeKiB)/1024, float64(rr.RSSAfterKiB)/1024, rr.RSSGrowthMiB, flag, rr.RSSBoundMiB, float64(rr.HWMKiB)/1024)
 	}
 	if rr.BareReqPerS > 0 {
-		fmt.Fprintf(w, "position only %.0f req/s, bare chi %.0f req/s: ratio %.2f (goal ≥ 0.5)\n", rr.PositionReqPerS, rr.BareReqPerS, rr.Ratio)
+		fmt.Fprintf(w, "position only %.0f req/s (server CPU %.0f µs each), bare chi %.0f req/s: ratio %.2f (goal ≥ 0.5)\n", rr.PositionReqPerS, rr.PositionCPU, rr.BareReqPerS, rr.Ratio)
 	}
 	for _, f := range rr.Failures {
 		fmt.Fprintf(w, "FAILED: %s\n", f)
@@ -530,7 +566,7 @@ func (rep *report) markdown() string {
 		rep.Date, rep.Workers, rep.Duration, parameter, rep.Cores, rep.CPU)
 	for _, rr := range rep.Runs {
 		fmt.Fprintf(&b, "### Load test: %s\n\n", rr.Store)
-		fmt.Fprintf(&b, "%d requests in %.1f s: **%.0f requests/s**, %d unintended answers.\n\n", rr.Requests, rr.Seconds, rr.ReqPerS, rr.Errors)
+		fmt.Fprintf(&b, "%d requests in %.1f s: **%.0f requests/s**, %d unintended answers; the server's CPU time (user + system) %.0f µs per request.\n\n", rr.Requests, rr.Seconds, rr.ReqPerS, rr.Errors, rr.ServerCPUPerReq)
 		b.WriteString("| kind | requests | req/s | p50 ms | p99 ms | intended 4xx | 429 | errors |\n| --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: |\n")
 		for _, k := range rr.Kinds {
 			fmt.Fprintf(&b, "| %s | %d | %.1f | %.2f | %.2f | %d | %d | %d |\n", k.Kind, k.Count, k.RatePerS, k.P50Ms, k.P99Ms, k.Refused, k.Limited, k.Errors)
@@ -549,8 +585,8 @@ func (rep *report) markdown() string {
 			if rr.Ratio < 0.5 {
 				verdict = "**not met**"
 			}
-			fmt.Fprintf(&b, "Position queries alone: %.0f req/s; a bare chi handler answering a fixed tiny JSON, same client settings, in alternating rounds: %.0f req/s; **ratio %.2f** (goal ≥ 0.5: %s).\n\n",
-				rr.PositionReqPerS, rr.BareReqPerS, rr.Ratio, verdict)
+			fmt.Fprintf(&b, "Position queries alone: %.0f req/s (server CPU %.0f µs each); a bare chi handler answering a fixed tiny JSON, same client settings, in alternating rounds: %.0f req/s; **ratio %.2f** (goal ≥ 0.5: %s).\n\n",
+				rr.PositionReqPerS, rr.PositionCPU, rr.BareReqPerS, rr.Ratio, verdict)
 		}
 		for _, f := range rr.Failures {
 			fmt.Fprintf(&b, "- failed: %s\n", strings.ReplaceAll(f, "|", "\\|"))
