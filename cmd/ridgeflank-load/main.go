@@ -13,7 +13,8 @@
 //     first: position queries, tiles at zoom 3, 5, 7 and 9, area exports (COG, netCDF-CF, CSV),
 //     trajectories, statistics of stored regions, region writes (store and delete, with the
 //     token) and requests the server must refuse (bad input: 400; a write without token: 401),
-//  4. reads VmRSS again and flags growth beyond -max-rss-growth,
+//  4. reads VmRSS again and flags growth beyond -max-rss-growth; the server's CPU time (user +
+//     system, /proc/PID/stat) over the run gives its CPU time per request,
 //  5. measures position queries alone against a bare chi handler answering a fixed tiny JSON,
 //     served in this process on another loopback port and driven by the same client settings,
 //     alternating rounds of each; the ratio is ridgeflank's rate ÷ the bare rate.
