@@ -23,7 +23,9 @@ func TestCachedProvenanceHeader(t *testing.T) {
 		func(p *Provenance) { p.Dataset = "e" },
 		func(p *Provenance) { p.Grids = []evaluate.GridRef{{ID: "g1", Role: "depth", SHA256: "11"}} },
 		func(p *Provenance) { p.Grids = []evaluate.GridRef{{ID: "g1", Role: "age", SHA256: "12"}} },
-		func(p *Provenance) { p.Grids = append(p.Grids, evaluate.GridRef{ID: "g2", Role: "depth", SHA256: "22"}) },
+		func(p *Provenance) {
+			p.Grids = append(p.Grids, evaluate.GridRef{ID: "g2", Role: "depth", SHA256: "22"})
+		},
 		func(p *Provenance) { p.Label = "" },
 	}
 	seen := map[string]bool{}
