@@ -17,7 +17,7 @@ DEADCODE ?= golang.org/x/tools/cmd/deadcode@v0.45.0
 # Database drivers the HTTP package must not link (job types live in jobs, the drivers in jobs/queue and store/*).
 SERVER_FORBIDDEN_DEPS := riverpgxv5|riversqlite|modernc.org/sqlite|jackc/pgx
 
-.PHONY: help run build web deps-build deps-test test test-web test-go lint deadcode fmt bench bench-scale clean
+.PHONY: help run build web deps-build deps-test test test-web test-go lint deadcode fmt bench bench-all bench-scale loadtest clean
 
 help: ## list the targets
 	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sort | awk -F ':.*## ' '{printf "  %-11s %s\n", $$1, $$2}'
@@ -62,8 +62,14 @@ test-go: ## run every Go test on SQLite and PostGIS (brings up the test database
 	@set -a; eval "$$(scripts/test-db.sh)"; set +a; \
 	  RIDGEFLANK_SCREENSHOTS=$(CURDIR)/build/screenshots $(GO) test $(GO_TEST_FLAGS) ./...
 
-bench: deps-build web ## run the Go benchmarks (figures for the closing notes)
+bench: build ## run the chosen Go benchmarks and the load test; write docs/benchmarks.md (a few minutes)
+	scripts/bench.sh
+
+bench-all: deps-build web ## run every Go benchmark (long; no report)
 	$(GO) test -run '^$$' -bench . -benchmem ./...
+
+loadtest: build ## serve bin/ridgeflank on 127.0.0.1 (embedded store, then PostGIS) and load it for 20 s each
+	scripts/loadtest.sh $(LOADTEST_FLAGS)
 
 bench-scale: build ## measure import and serving at global sizes (SCALE_SIZES=1m,15s) on SYNTHETIC grids; writes build/scale/report.md
 	SCALE_SIZES=$(SCALE_SIZES) BIN=$(BIN) scripts/bench-scale.sh

@@ -2,7 +2,7 @@ package evaluate
 
 import (
 	"context"
-
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -105,7 +105,8 @@ func tileAddrs() [][3]int {
 }
 
 // BenchmarkTileResidual renders residual-depth tiles at zoom 0–10 on the 3′ globe: warm (the
-// blocks cached) and cold (a new service, so an empty cache, for every tile). Peer in the same
+// blocks cached; all zooms in turn, then zoom 0, 3, 6, 8 and 10 one at a time) and cold (a new
+// service, so an empty cache, for every tile). Peer in the same
 // run: the same tiles' age windows read cold without any computation (raster.File.Scan).
 func BenchmarkTileResidual(b *testing.B) {
 	ctx := context.Background()
@@ -131,6 +132,22 @@ func BenchmarkTileResidual(b *testing.B) {
 			}
 		}
 	})
+	// One zoom at a time, warm: the same tile again (its blocks cached by the loop above).
+	for _, z := range []int{0, 3, 6, 8, 10} {
+		a := tileAddrs()[z]
+		b.Run(fmt.Sprintf("warm-z%d", z), func(b *testing.B) {
+			b.ReportAllocs()
+			for i := 0; i < b.N; i++ {
+				tp, err := warm.Tile(ctx, "globe3m", PResidualDepth, a[0], a[1], a[2], Options{})
+				if err != nil {
+					b.Fatal(err)
+				}
+				if _, _, err := tp.Render(ctx); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+	}
 	b.Run("cold", func(b *testing.B) {
 		b.ReportAllocs()
 		addrs := tileAddrs()

@@ -3,6 +3,7 @@ package server
 import (
 	"bytes"
 	"encoding/json"
+	"sync"
 
 	"ridgeflank/evaluate"
 	"ridgeflank/geo"
@@ -171,15 +172,27 @@ var crs84 = []covReferencing{{
 func covParameters(ps []evaluate.Parameter) map[string]covParameter {
 	out := make(map[string]covParameter, len(ps))
 	for _, p := range ps {
-		out[p.ID] = covParameter{
-			Type:             "Parameter",
-			Description:      covI18n{"en": p.Description},
-			ObservedProperty: covObservedProperty{ID: p.ID, Label: covI18n{"en": p.Label}},
-			Unit:             covUnit{Label: covI18n{"en": p.UnitLabel}, Symbol: covSymbol{Value: p.Unit, Type: "http://www.opengis.net/def/uom/UCUM/"}},
-			Field:            evaluate.FieldName(p),
-		}
+		out[p.ID] = covParameterOf(p)
 	}
 	return out
+}
+
+// covParams holds each parameter's description, made once (its maps are only read afterwards).
+var covParams sync.Map // evaluate.Parameter → covParameter
+
+func covParameterOf(p evaluate.Parameter) covParameter {
+	if v, ok := covParams.Load(p); ok {
+		return v.(covParameter)
+	}
+	c := covParameter{
+		Type:             "Parameter",
+		Description:      covI18n{"en": p.Description},
+		ObservedProperty: covObservedProperty{ID: p.ID, Label: covI18n{"en": p.Label}},
+		Unit:             covUnit{Label: covI18n{"en": p.UnitLabel}, Symbol: covSymbol{Value: p.Unit, Type: "http://www.opengis.net/def/uom/UCUM/"}},
+		Field:            evaluate.FieldName(p),
+	}
+	covParams.Store(p, c)
+	return c
 }
 
 func f64(v float64) *float64 { return &v }

@@ -7,6 +7,7 @@ import (
 	"hash/crc32"
 	"net/http"
 	"strings"
+	"sync"
 
 	"ridgeflank/evaluate"
 	"ridgeflank/thermal"
@@ -27,6 +28,14 @@ func (s *server) provenance(m thermal.Model) Provenance { return s.ev.Provenance
 // setProvenance puts the provenance in response headers (for formats with no place of their
 // own for it: CSV, PNG, and as a duplicate for all others).
 func setProvenance(w http.ResponseWriter, p Provenance) {
+	w.Header().Set("Ridgeflank-Provenance", cachedProvenanceHeader(p))
+	if p.Caution != "" {
+		w.Header().Set("Ridgeflank-Caution", p.Caution)
+	}
+}
+
+// provenanceHeader is the value of the Ridgeflank-Provenance header for p.
+func provenanceHeader(p Provenance) string {
 	var parts []string
 	parts = append(parts, fmt.Sprintf("software=%q", p.Software))
 	if p.Model != nil {
@@ -44,10 +53,53 @@ func setProvenance(w http.ResponseWriter, p Provenance) {
 	if p.Label != "" {
 		parts = append(parts, fmt.Sprintf("label=%q", p.Label))
 	}
-	w.Header().Set("Ridgeflank-Provenance", strings.Join(parts, ", "))
-	if p.Caution != "" {
-		w.Header().Set("Ridgeflank-Caution", p.Caution)
+	return strings.Join(parts, ", ")
+}
+
+// provHeaders caches provenanceHeader by its inputs: quoting the header cost a position query
+// more than its arithmetic, and answers share a handful of provenances (model × dataset ×
+// sediment law). When it holds provHeadersMax values it is emptied and refilled.
+var provHeaders = struct {
+	sync.RWMutex
+	m map[string]string
+}{m: map[string]string{}}
+
+const provHeadersMax = 1024
+
+// cachedProvenanceHeader is provenanceHeader(p), from the cache when p's header fields were seen
+// before.
+func cachedProvenanceHeader(p Provenance) string {
+	var k strings.Builder
+	add := func(s string) { k.WriteString(s); k.WriteByte(0) }
+	add(p.Software)
+	if p.Model != nil {
+		add("model")
+		add(p.Model.ID)
+		add(p.Model.ParamsSHA256)
 	}
+	add(p.Sediment)
+	add(p.Dataset)
+	for _, g := range p.Grids {
+		add(g.Role)
+		add(g.ID)
+		add(g.SHA256)
+	}
+	add(p.Label)
+	key := k.String()
+	provHeaders.RLock()
+	h, ok := provHeaders.m[key]
+	provHeaders.RUnlock()
+	if ok {
+		return h
+	}
+	h = provenanceHeader(p)
+	provHeaders.Lock()
+	if len(provHeaders.m) >= provHeadersMax {
+		provHeaders.m = map[string]string{}
+	}
+	provHeaders.m[key] = h
+	provHeaders.Unlock()
+	return h
 }
 
 // withPNGCaution returns the PNG file raw with a tEXt chunk under the

@@ -6,6 +6,7 @@ import (
 	"net"
 	"net/http"
 	"strings"
+	"sync"
 
 	"ridgeflank/numjson"
 )
@@ -18,10 +19,19 @@ func roundSig(v float64) float64 { return numjson.Round(v) }
 
 func floats(v []float64) []jsonFloat { return numjson.Floats(v) }
 
+// jsonBuffers are writeJSON's buffers, reused (up to 1 MiB kept each: larger answers are rare).
+var jsonBuffers = sync.Pool{New: func() any { return new(bytes.Buffer) }}
+
 // writeJSON writes v with the given media type and status.
 func writeJSON(w http.ResponseWriter, status int, mediaType string, v any) error {
-	var buf bytes.Buffer
-	enc := json.NewEncoder(&buf)
+	buf := jsonBuffers.Get().(*bytes.Buffer)
+	defer func() {
+		if buf.Cap() <= 1<<20 {
+			buf.Reset()
+			jsonBuffers.Put(buf)
+		}
+	}()
+	enc := json.NewEncoder(buf)
 	enc.SetEscapeHTML(false)
 	if err := enc.Encode(v); err != nil {
 		return err
