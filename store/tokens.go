@@ -63,7 +63,11 @@ func NewTokenSecret() (plaintext, sha256Hex string) {
 }
 
 // HashToken is the stored form of a token secret: SHA-256 (FIPS 180-4) in lower-case hex.
-// A fast unsalted hash is adequate because secrets carry 256 random bits.
+// A fast unsalted hash is adequate because secrets carry 256 random bits. Authentication looks
+// a token up by this hash, so no comparison ever runs on the secret itself: the time an index
+// lookup takes can tell at most about leading bits of a SHA-256 image, which give nothing about
+// a secret or another token's secret (preimage resistance), the property a constant-time
+// comparison of secrets would provide.
 func HashToken(plaintext string) string {
 	h := sha256.Sum256([]byte(plaintext))
 	return hex.EncodeToString(h[:])
