@@ -349,10 +349,11 @@ func TestQuadratureMean(t *testing.T) {
 // output stream for one σ (5 streams against 4), one more input and one more output for a σ
 // grid (6 against 4), a floor of 1.25 and 1.5 where the pass is bound by memory.
 //
-// Measured on a shared 2-core machine under a load average of 10–17 (-benchtime 200x -cpu 1,
-// two runs each, wall-clock ratios vary by ±0.3 between runs there): one σ 1.40–1.69 (the
-// uncertainty's own loop costs 0.4 of the residual's in CPU profile samples), a σ grid
-// 2.0–2.3 (4.1 before the σ-bucket rows, with every young cell integrated directly).
+// Measured on a shared 2-core machine (AMD EPYC, load average about 11 from other work;
+// -benchtime 200x -cpu 1, three runs each): one σ 1.46–1.57 (σ 2 Ma: 1.46–1.48; 0.5 Ma:
+// 1.52–1.57), residual 2.4–3.8 ns per cell; a σ grid 2.04–2.08 (4.1 before the σ-bucket rows,
+// with every young cell integrated directly). Under a load average of 15–20 the ratios spread
+// by ±0.3.
 func BenchmarkAgeUncertainty(b *testing.B) {
 	m, err := thermal.Builtin("gdh1")
 	if err != nil {
