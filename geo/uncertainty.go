@@ -658,7 +658,7 @@ func (p *residualPlan) residualSigmaFused(res, resSig, age, obs, sed, sig []floa
 				u = un[j].at(b)
 			} else {
 				u = nan
-				slow = true
+				slow = slow || r-r == 0 // beyond the table with a residual: depthSpread below
 			}
 			rs[i] = u + (r - r) // NaN where the residual is NaN (or infinite), without a branch
 		}
@@ -678,7 +678,7 @@ func (p *residualPlan) residualSigmaFused(res, resSig, age, obs, sed, sig []floa
 				u = g.at(age[i], s) // sampled (age < σ/SamplingRatio), from the σ-bucket rows
 			default:
 				u = nan
-				slow = true
+				slow = slow || r-r == 0 // σ or age outside the tables, with a residual: depthSpread below
 			}
 			rs[i] = u + (r - r)
 		}
