@@ -187,6 +187,10 @@ func (s *server) h(fn handlerFunc) http.HandlerFunc {
 		if p.Status >= 500 {
 			s.log.ErrorContext(r.Context(), "request failed", "request_id", requestID(r.Context()),
 				"method", r.Method, "path", r.URL.Path, "err", err)
+		} else if d := store.DetailOf(err); d != "" {
+			// The database's own words (constraint names, SQL) go to the log, never the answer.
+			s.log.InfoContext(r.Context(), "request refused by the store", "request_id", requestID(r.Context()),
+				"method", r.Method, "path", r.URL.Path, "status", p.Status, "detail", d)
 		}
 		if ww, ok := w.(interface{ Status() int }); ok && ww.Status() != 0 {
 			// The response has started: nothing sane can be written any more.
