@@ -4,6 +4,9 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"path"
+	"regexp"
+	"strings"
 	"time"
 
 	"ridgeflank/fault"
@@ -185,3 +188,36 @@ type Fault struct {
 	Field   string     `json:"field,omitempty"`
 	Message string     `json:"message"`
 }
+
+// absPath finds absolute file paths in a message: a '/' at the start or after a space, quote,
+// bracket, '=' or ',' up to the next space, quote, bracket, ',' or ':'. GDAL's virtual file
+// system names (/vsis3/bucket/key) are paths too.
+var absPath = regexp.MustCompile(`(^|[\s"'(\[=,])(/[^\s"'()\[\],:]+)`)
+
+// ScrubPaths rewrites the server paths in a job's message before it is stored or answered:
+// each key of names (a known path, such as an upload's file on disk) becomes its value (the
+// client's name of it), and any other absolute path its last element, so no answer tells the
+// server's directory layout.
+func ScrubPaths(msg string, names map[string]string) string {
+	for p, n := range names {
+		if p != "" {
+			msg = strings.ReplaceAll(msg, p, n)
+		}
+	}
+	return absPath.ReplaceAllStringFunc(msg, func(m string) string {
+		i := strings.IndexByte(m, '/')
+		return m[:i] + path.Base(m[i:])
+	})
+}
+
+// ScrubbedError is an error whose message had its server paths rewritten (ScrubPaths); it
+// unwraps to the original, so errors.Is and IsPermanent still see the cause.
+type ScrubbedError struct {
+	Msg string
+	Err error
+}
+
+func (e *ScrubbedError) Error() string { return e.Msg }
+
+// Unwrap returns the original error.
+func (e *ScrubbedError) Unwrap() error { return e.Err }
