@@ -228,6 +228,9 @@ func (s *server) writeArea(w http.ResponseWriter, format outFormat, covType stri
 	prov := s.ev.Provenance(res.Query)
 	setProvenance(w, prov)
 	setAnswerHeaders(w, res.Flags, res.Region.Repairs)
+	if res.ResolutionNote != "" {
+		w.Header().Set("Ridgeflank-Resolution-Note", res.ResolutionNote)
+	}
 	ps := res.Query.Params
 	switch format {
 	case fmtCSV:
@@ -252,6 +255,9 @@ func (s *server) writeArea(w http.ResponseWriter, format outFormat, covType stri
 	c.Caution = prov.Caution
 	c.Flags = res.Flags
 	c.Repairs = res.Region.Repairs
+	if res.ResolutionNote != "" {
+		c.Resolution = &resolutionUsed{XDeg: res.Lattice.DX, YDeg: res.Lattice.DY, Note: res.ResolutionNote}
+	}
 	if stats != nil {
 		c.Stats = map[string]unitStats{}
 		for i, p := range ps {
@@ -359,6 +365,9 @@ func (s *server) location(w http.ResponseWriter, r *http.Request) error {
 		w.Header().Set("Content-Type", media)
 		w.Header().Set("Content-Disposition", `attachment; filename="`+evaluate.FileName(res.Query, rg.ID, ext)+`"`)
 		setProvenance(w, s.ev.Provenance(res.Query))
+		if res.ResolutionNote != "" {
+			w.Header().Set("Ridgeflank-Resolution-Note", res.ResolutionNote)
+		}
 		_, err = w.Write(raw)
 		return err
 	}

@@ -167,7 +167,7 @@ func (s *server) corsMiddleware() func(http.Handler) http.Handler {
 		AllowedOrigins:   s.deps.Config.CORSOrigins,
 		AllowedMethods:   []string{"GET", "HEAD", "POST", "PUT", "DELETE", "OPTIONS"},
 		AllowedHeaders:   []string{"Accept", "Authorization", "Content-Type", "If-Match", "If-None-Match", "X-Request-ID"},
-		ExposedHeaders:   []string{"ETag", "Location", "X-Request-ID", "Ridgeflank-Provenance", "Ridgeflank-Caution", "Ridgeflank-Colour-Scale", "Ridgeflank-Flag", "Ridgeflank-Repair"},
+		ExposedHeaders:   []string{"ETag", "Location", "X-Request-ID", "Ridgeflank-Provenance", "Ridgeflank-Caution", "Ridgeflank-Colour-Scale", "Ridgeflank-Flag", "Ridgeflank-Repair", "Ridgeflank-Resolution-Note"},
 		AllowCredentials: false,
 		MaxAge:           600,
 	})
