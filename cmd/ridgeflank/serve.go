@@ -153,6 +153,41 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	if err := q.Migrate(ctx); err != nil {
 		return fmt.Errorf("job queue migrations: %w", err)
 	}
+	// Uploads no import job names: at start on the embedded store (one process, nothing being
+	// streamed yet) whatever their age, else and then periodically those older than
+	// server.UploadSweepAge.
+	sweepUploads := func(minAge time.Duration) {
+		inUse, err := q.ImportPaths(ctx)
+		if err != nil {
+			log.Warn("listing import jobs for the upload sweep", "err", err)
+			return
+		}
+		if n, err := server.SweepUploads(deps.Config.UploadDir, inUse, minAge); err != nil {
+			log.Warn("sweeping abandoned uploads", "err", err)
+		} else if n > 0 {
+			log.Info("removed abandoned uploads", "count", n)
+		}
+	}
+	if st.Backend() == store.BackendSQLite {
+		sweepUploads(0)
+	} else {
+		sweepUploads(server.UploadSweepAge)
+	}
+	go func() {
+		tick := time.NewTicker(server.UploadSweepAge / 4)
+		defer tick.Stop()
+		for {
+			select {
+			case <-ctx.Done():
+				return
+			case <-tick.C:
+				sweepUploads(server.UploadSweepAge)
+				if _, err := server.SweepExports(deps.Config.ExportDir); err != nil {
+					log.Warn("sweeping old export files", "err", err)
+				}
+			}
+		}
+	}()
 
 	if !*noDemo && st.Backend() == store.BackendSQLite {
 		if err := loadDemoIfEmpty(ctx, st, stdout); err != nil {
@@ -177,6 +212,7 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	srv := &http.Server{
 		Handler:           server.New(deps),
 		ReadHeaderTimeout: 10 * time.Second,
+		MaxHeaderBytes:    server.HardMaxHeaderBytes, // server.MaxHeaderBytes is answered as problem+json below it
 		IdleTimeout:       2 * time.Minute,
 		BaseContext:       func(net.Listener) context.Context { return context.WithoutCancel(ctx) },
 	}

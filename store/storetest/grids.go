@@ -349,7 +349,15 @@ func testGridCrash(t *testing.T, open Opener) {
 	if err := os.WriteFile(tmp, []byte("half"), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	if files := gridDirFiles(t, s); len(files) != 3 {
+	// GDAL's side files of a COG being written when the process died (name.ovr.tmp).
+	// and geo/gdal's atomic write of the temporary file (found by jobs/queue's kill test).
+	for _, side := range []string{tmp + ".ovr.tmp", filepath.Join(gridDir(t, s), "0123abcd.tif.msk.ovr.tmp"),
+		filepath.Join(gridDir(t, s), "..tmp-interrupted.tif.tmp-1234-1.tif")} {
+		if err := os.WriteFile(side, []byte("half"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if files := gridDirFiles(t, s); len(files) != 6 {
 		t.Fatalf("set-up: grid directory holds %v", files)
 	}
 	// Reopen without closing (the first handle is abandoned, as after a kill).
