@@ -471,3 +471,18 @@ func areaLevel(f *raster.File, fx, fy int) (lvl, k int) {
 }
 
 func isEmptyWindow(err error) bool { return errors.Is(err, geo.ErrEmptyWindow) }
+
+// AreaCells estimates the work of an area question before it is asked: the cells read at the
+// level Area would read (the cost the HTTP layer weighs concurrent requests and rate limits
+// by). Bad resolutions are the fault Area would answer.
+func (s *Service) AreaCells(ctx context.Context, datasetID string, r geo.PreparedRegion, resX, resY float64) (int64, error) {
+	d, err := s.Dataset(ctx, datasetID)
+	if err != nil {
+		return 0, err
+	}
+	plan, err := planArea(d, r.Bound, resX, resY)
+	if err != nil {
+		return 0, err
+	}
+	return plan.readCells(), nil
+}

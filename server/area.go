@@ -182,6 +182,15 @@ func (s *server) area(w http.ResponseWriter, r *http.Request) error {
 		return err
 	}
 	resX, resY, format, covType, o := q.resX, q.resY, q.format, q.covType, q.options
+	cells, err := s.ev.AreaCells(r.Context(), id, region, resX, resY)
+	if err != nil {
+		return err
+	}
+	release, err := s.admitHeavy(w, r, cells)
+	if err != nil {
+		return err
+	}
+	defer release()
 	if format == fmtCOG || format == fmtNetCDF {
 		req := evaluate.ExportRequest{Dataset: id, Options: o, Coords: coords, ResX: resX, ResY: resY, Format: evaluate.FormatCOG,
 			Filename: evaluate.ExportFileName(id, "area", o, "tif")}

@@ -9,6 +9,7 @@ import (
 
 	"github.com/go-chi/chi/v5"
 	"github.com/go-chi/chi/v5/middleware"
+	"github.com/go-chi/httprate"
 	"github.com/prometheus/client_golang/prometheus"
 
 	"ridgeflank/evaluate"
@@ -34,6 +35,13 @@ type Limits struct {
 	// stalls or trickles slower is answered 408 and its connection closed.
 	BodyIdleTimeout       time.Duration
 	BodyMinBytesPerSecond int64
+	// MaxConcurrentCells bounds the cells read by all area answers in flight together; a
+	// request that finds no room within HeavyWait is answered 503 with Retry-After.
+	MaxConcurrentCells int64
+	HeavyWait          time.Duration
+	// CellsPerRequest: an area answer counts as one request per this many cells read (at
+	// least one) against the client's requests per minute.
+	CellsPerRequest int64
 }
 
 // DefaultLimits are the limits used when Deps.Limits leaves a field zero.
@@ -49,6 +57,12 @@ var DefaultLimits = Limits{
 	// a client holding connections open does not (common practice, no source).
 	BodyIdleTimeout:       10 * time.Second,
 	BodyMinBytesPerSecond: 16 << 10,
+	// One largest area question (max_input_cells) at a time, or several smaller ones: the
+	// machine class we target has 2 cores (common practice, no source).
+	MaxConcurrentCells: 20_000_000,
+	HeavyWait:          2 * time.Second,
+	// 600 requests a minute then allow 7.5 questions of 20 M cells a minute.
+	CellsPerRequest: 250_000,
 }
 
 func (l Limits) withDefaults() Limits {
@@ -77,6 +91,9 @@ func (l Limits) withDefaults() Limits {
 	set64(&l.BodyMinBytesPerSecond, d.BodyMinBytesPerSecond)
 	setD(&l.UploadTimeout, d.UploadTimeout)
 	set(&l.SyncExportCells, d.SyncExportCells)
+	set64(&l.MaxConcurrentCells, d.MaxConcurrentCells)
+	setD(&l.HeavyWait, d.HeavyWait)
+	set64(&l.CellsPerRequest, d.CellsPerRequest)
 	return l
 }
 
@@ -131,6 +148,10 @@ type server struct {
 	limits  Limits
 	metrics *metrics
 	ev      *evaluate.Service
+	// gate weighs area answers in flight by the cells they read; apiCounter is the API rate
+	// limiter's counter (nil when rates are not limited), charged by heavy requests' cost.
+	gate       *costGate
+	apiCounter httprate.LimitCounter
 }
 
 // New builds the HTTP handler: the EDR API under /api, tiles under /tiles,
@@ -162,6 +183,7 @@ func newServer(deps Deps) *server {
 		s.ev = NewEvaluate(deps)
 	}
 	s.metrics = newMetrics(deps.Registry)
+	s.gate = newCostGate(s.limits.MaxConcurrentCells)
 	return s
 }
 
@@ -203,7 +225,7 @@ func (s *server) h(fn handlerFunc) http.HandlerFunc {
 
 func (s *server) routes() http.Handler {
 	r := chi.NewRouter()
-	r.Use(s.requestIDMiddleware, s.accessLog, s.recoverer, s.metrics.middleware, securityHeaders, s.bodyPace, middleware.GetHead)
+	r.Use(s.requestIDMiddleware, s.accessLog, s.recoverer, s.metrics.middleware, securityHeaders, headerLimit, s.bodyPace, middleware.GetHead)
 	if len(s.deps.Config.CORSOrigins) > 0 {
 		r.Use(s.corsMiddleware())
 	}
