@@ -2,11 +2,18 @@ package server
 
 import (
 	"bytes"
+	"context"
+	"encoding/json"
 	"fmt"
+	"io"
 	"mime/multipart"
+	"net/http"
+	"net/http/httptest"
 	"os"
+	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 
 	"ridgeflank/demobasin"
 )
@@ -120,5 +127,141 @@ func TestAreaStatesResolutionUsed(t *testing.T) {
 	e.want(r, 200)
 	if n := r.Header.Get("Ridgeflank-Resolution-Note"); n != "" || r.json(t)["ridgeflank:resolution"] != nil {
 		t.Errorf("a whole multiple got a note %q", n)
+	}
+}
+
+// Area answers are weighed by the cells they read: over the concurrent-cells cap a request is
+// answered 503 with Retry-After (a problem naming max_concurrent_cells), and each counts one
+// request per CellsPerRequest cells against its client's requests per minute.
+func TestHeavyRequestsWeighedByCells(t *testing.T) {
+	e := newEnv(t, "sqlite", Config{})
+	const perMinute, perRequest = 20, 100
+	srv := newServer(Deps{Store: e.st, Version: "test", Config: Config{RateLimitPerMinute: perMinute},
+		Limits: Limits{MaxConcurrentCells: 1_000_000, HeavyWait: 50 * time.Millisecond, CellsPerRequest: perRequest}})
+	h := srv.routes()
+	lon, lat := demobasin.SwellCentreLon, demobasin.SwellCentreLat
+	path := "/api/collections/" + e.dataset + fmt.Sprintf("/area?bbox=%g,%g,%g,%g&parameter-name=seafloor_age", lon-0.5, lat-0.5, lon+0.5, lat+0.5)
+	call := func(client string) *httptest.ResponseRecorder {
+		req := httptest.NewRequest("GET", path, nil)
+		req.RemoteAddr = client + ":1234"
+		rec := httptest.NewRecorder()
+		h.ServeHTTP(rec, req)
+		return rec
+	}
+	// Full: another request holds every cell.
+	if err := srv.gate.sem.Acquire(context.Background(), srv.gate.max); err != nil {
+		t.Fatal(err)
+	}
+	rec := call("192.0.2.1")
+	var p map[string]any
+	json.Unmarshal(rec.Body.Bytes(), &p)
+	if rec.Code != 503 || rec.Header().Get("Retry-After") == "" || p["limit_name"] != "max_concurrent_cells" || rec.Header().Get("Content-Type") != "application/problem+json" {
+		t.Fatalf("gate full: %d Retry-After=%q %v", rec.Code, rec.Header().Get("Retry-After"), p)
+	}
+	srv.gate.sem.Release(srv.gate.max)
+
+	// Rates: the question reads `cells`, so it counts cells/perRequest requests.
+	_, region, err := srv.areaParam(httptest.NewRequest("GET", path, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	cells, err := srv.ev.AreaCells(context.Background(), e.dataset, region, 0, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	units := max(cells/perRequest, 1)
+	if units < 2 {
+		t.Fatalf("set-up: %d cells count as %d requests; the test needs a heavier question", cells, units)
+	}
+	accepted := 0
+	for i := 0; i < perMinute+1; i++ {
+		rec := call("192.0.2.2")
+		if rec.Code == 429 {
+			break
+		}
+		if rec.Code != 200 {
+			t.Fatalf("request %d: %d %s", i, rec.Code, rec.Body)
+		}
+		accepted++
+	}
+	// The limiter admits a request while count+1 ≤ limit; each accepted one adds min(units, limit).
+	want := int((perMinute-1)/min(units, perMinute)) + 1
+	if accepted != want {
+		t.Errorf("%d area questions of %d cells accepted in a minute, want %d (each counts %d of %d requests)", accepted, cells, want, units, perMinute)
+	}
+	// Another client is not charged.
+	if rec := call("192.0.2.3"); rec.Code != 200 {
+		t.Errorf("another client: %d", rec.Code)
+	}
+}
+
+// The upload sweep removes abandoned uploads only: never a file an import job names, never a
+// fresh one (it may be streaming) unless asked with no minimum age, never other files.
+func TestSweepUploads(t *testing.T) {
+	dir := t.TempDir()
+	write := func(name string, age time.Duration) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte("x"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		old := time.Now().Add(-age)
+		if err := os.Chtimes(p, old, old); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	queued := write("upload-queued.tif", 3*UploadSweepAge)
+	write("upload-abandoned.tif", 2*UploadSweepAge)
+	write("upload-streaming.tif", time.Minute)
+	write("notes.txt", 3*UploadSweepAge)
+	left := func() []string {
+		ents, _ := os.ReadDir(dir)
+		var out []string
+		for _, e := range ents {
+			out = append(out, e.Name())
+		}
+		return out
+	}
+	n, err := SweepUploads(dir, map[string]bool{queued: true}, UploadSweepAge)
+	if err != nil || n != 1 || strings.Join(left(), ",") != "notes.txt,upload-queued.tif,upload-streaming.tif" {
+		t.Fatalf("periodic sweep removed %d (%v), left %v", n, err, left())
+	}
+	n, err = SweepUploads(dir, map[string]bool{"/elsewhere/spelt/" + filepath.Base(queued): true}, 0)
+	if err != nil || n != 1 || strings.Join(left(), ",") != "notes.txt,upload-queued.tif" {
+		t.Fatalf("start sweep removed %d (%v), left %v", n, err, left())
+	}
+}
+
+// Header fields over MaxHeaderBytes are answered 431 problem+json naming the limit; over the
+// hard limit Go's server answers its own plain-text 431 (as the README says: net/http writes
+// it before any handler runs).
+func TestHeaderLimit(t *testing.T) {
+	ts := httptest.NewUnstartedServer(New(Deps{Config: Config{RateLimitPerMinute: -1}}))
+	ts.Config.MaxHeaderBytes = HardMaxHeaderBytes
+	ts.Start()
+	defer ts.Close()
+	get := func(size int) (*http.Response, []byte) {
+		req, _ := http.NewRequest("GET", ts.URL+"/api/conformance", nil)
+		req.Header.Set("X-Padding", strings.Repeat("a", size))
+		resp, err := http.DefaultClient.Do(req)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer resp.Body.Close()
+		b, _ := io.ReadAll(resp.Body)
+		return resp, b
+	}
+	if resp, _ := get(1000); resp.StatusCode != 200 {
+		t.Fatalf("small header: %d", resp.StatusCode)
+	}
+	resp, b := get(MaxHeaderBytes + 1)
+	var p map[string]any
+	json.Unmarshal(b, &p)
+	if resp.StatusCode != 431 || resp.Header.Get("Content-Type") != "application/problem+json" || p["limit_name"] != "max_header_bytes" || num(t, p["limit"]) != MaxHeaderBytes {
+		t.Errorf("header over the limit: %d %s %s", resp.StatusCode, resp.Header.Get("Content-Type"), b)
+	}
+	resp, _ = get(HardMaxHeaderBytes + 8192)
+	if resp.StatusCode != 431 || strings.Contains(resp.Header.Get("Content-Type"), "problem") {
+		t.Errorf("over the hard limit: %d %s (the README says Go answers this one itself)", resp.StatusCode, resp.Header.Get("Content-Type"))
 	}
 }
