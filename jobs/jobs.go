@@ -6,6 +6,7 @@ import (
 	"errors"
 	"path"
 	"regexp"
+	"sort"
 	"strings"
 	"time"
 
@@ -189,20 +190,26 @@ type Fault struct {
 	Message string     `json:"message"`
 }
 
-// absPath finds absolute file paths in a message: a '/' at the start or after a space, quote,
-// bracket, '=' or ',' up to the next space, quote, bracket, ',' or ':'. GDAL's virtual file
+// absPath finds absolute file paths in a message: a '/' at the start or after a space, quote
+// (GDAL quotes paths `so'), bracket, '=' or ',' up to the next space, quote, bracket, ',' or ':'. GDAL's virtual file
 // system names (/vsis3/bucket/key) are paths too.
-var absPath = regexp.MustCompile(`(^|[\s"'(\[=,])(/[^\s"'()\[\],:]+)`)
+var absPath = regexp.MustCompile("(^|[\\s\"'`(\\[=,])(/[^\\s\"'`()\\[\\],:]+)")
 
 // ScrubPaths rewrites the server paths in a job's message before it is stored or answered:
 // each key of names (a known path, such as an upload's file on disk) becomes its value (the
 // client's name of it), and any other absolute path its last element, so no answer tells the
 // server's directory layout.
 func ScrubPaths(msg string, names map[string]string) string {
-	for p, n := range names {
+	// Longest first: a whole path before its last element.
+	keys := make([]string, 0, len(names))
+	for p := range names {
 		if p != "" {
-			msg = strings.ReplaceAll(msg, p, n)
+			keys = append(keys, p)
 		}
+	}
+	sort.Slice(keys, func(i, j int) bool { return len(keys[i]) > len(keys[j]) })
+	for _, p := range keys {
+		msg = strings.ReplaceAll(msg, p, names[p])
 	}
 	return absPath.ReplaceAllStringFunc(msg, func(m string) string {
 		i := strings.IndexByte(m, '/')

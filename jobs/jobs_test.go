@@ -60,3 +60,15 @@ func TestScrubPaths(t *testing.T) {
 		t.Errorf("scrubbed error %q permanent=%v", s.Error(), IsPermanent(s))
 	}
 }
+
+// A whole known path is replaced before its last element, and GDAL's `quoted' paths are found.
+func TestScrubPathsOrder(t *testing.T) {
+	names := map[string]string{"/d/uploads/upload-9.txt": "notes.txt", "upload-9.txt": "notes.txt"}
+	in := "upload-9.txt is not a readable grid: `/d/uploads/upload-9.txt' not recognized; `/other/x.tif' neither"
+	want := "notes.txt is not a readable grid: `notes.txt' not recognized; `x.tif' neither"
+	for i := 0; i < 20; i++ { // map order varies
+		if got := ScrubPaths(in, names); got != want {
+			t.Fatalf("ScrubPaths = %q, want %q", got, want)
+		}
+	}
+}
