@@ -43,6 +43,9 @@ type Options struct {
 	Workers int
 	// PollInterval is how often idle workers look for jobs (0: 1 s).
 	PollInterval time.Duration
+	// HeartbeatEvery and OwnerGone tune the liveness of processes sharing a PostGIS queue (0:
+	// DefaultHeartbeatEvery, DefaultOwnerGone); see heartbeat.go.
+	HeartbeatEvery, OwnerGone time.Duration
 }
 
 // Queue is a durable job queue.
@@ -90,6 +93,7 @@ func Open(ctx context.Context, st store.Store, h jobs.Handlers, o Options) (*Que
 		if err != nil {
 			return nil, err
 		}
+		q.impl.(*riverQueue[pgx.Tx]).beats = pgBeats{pool: pool}
 	default:
 		return nil, fmt.Errorf("job queue: no queue for a %s store", st.Backend())
 	}
@@ -109,14 +113,28 @@ type riverQueue[TTx any] struct {
 	// starts was left by a process that died, and is rescued at once (rescueOrphans).
 	single bool
 	log    *slog.Logger
+	// beats, on a shared (PostGIS) queue, keeps the processes' signs of life: jobs of a gone
+	// process are rescued at once (heartbeat.go). id is this process's River client id.
+	beats       heartbeats
+	id          string
+	every, gone time.Duration
+	stopBeats   func()
 }
 
 func newQueue[TTx any](driver riverdriver.Driver[TTx], pollOnly bool, h jobs.Handlers, o Options, ping func(context.Context) error) (*Queue, error) {
 	if o.Logger == nil {
 		o.Logger = slog.New(slog.DiscardHandler)
 	}
-	rq := &riverQueue[TTx]{driver: driver, pinger: ping, runJobs: o.Workers >= 0, single: pollOnly, log: o.Logger}
+	rq := &riverQueue[TTx]{driver: driver, pinger: ping, runJobs: o.Workers >= 0, single: pollOnly, log: o.Logger,
+		id: clientID(), every: o.HeartbeatEvery, gone: o.OwnerGone}
+	if rq.every <= 0 {
+		rq.every = DefaultHeartbeatEvery
+	}
+	if rq.gone <= 0 {
+		rq.gone = DefaultOwnerGone
+	}
 	cfg := &river.Config{
+		ID:                   rq.id,
 		Logger:               o.Logger,
 		JobTimeout:           jobs.JobTimeout,
 		RescueStuckJobsAfter: jobs.RescueAfter,
@@ -234,8 +252,13 @@ func (q *riverQueue[TTx]) migrate(ctx context.Context) error {
 	if err != nil {
 		return err
 	}
-	_, err = m.Migrate(ctx, rivermigrate.DirectionUp, nil)
-	return err
+	if _, err = m.Migrate(ctx, rivermigrate.DirectionUp, nil); err != nil {
+		return err
+	}
+	if q.beats != nil {
+		return q.beats.migrate(ctx)
+	}
+	return nil
 }
 
 func (q *riverQueue[TTx]) start(ctx context.Context) error {
@@ -243,7 +266,7 @@ func (q *riverQueue[TTx]) start(ctx context.Context) error {
 		return nil
 	}
 	if q.single {
-		n, err := q.rescueOrphans(ctx)
+		n, err := q.rescueOrphans(ctx, nil)
 		if err != nil {
 			return fmt.Errorf("rescuing jobs left running: %w", err)
 		}
@@ -251,17 +274,68 @@ func (q *riverQueue[TTx]) start(ctx context.Context) error {
 			q.log.Info("jobs left running by a stopped process put back in the queue or failed", "count", n)
 		}
 	}
+	if q.beats != nil {
+		if err := q.beatAndRescue(ctx); err != nil {
+			return fmt.Errorf("job queue heartbeat: %w", err)
+		}
+		bctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
+		done := make(chan struct{})
+		q.stopBeats = func() { cancel(); <-done }
+		go func() {
+			defer close(done)
+			t := time.NewTicker(q.every)
+			defer t.Stop()
+			for {
+				select {
+				case <-bctx.Done():
+					return
+				case <-t.C:
+					if err := q.beatAndRescue(bctx); err != nil && bctx.Err() == nil {
+						q.log.Warn("job queue heartbeat", "err", err)
+					}
+				}
+			}
+		}()
+	}
 	return q.client.Start(ctx)
+}
+
+// beatAndRescue records this process's sign of life and rescues the running jobs whose
+// process has given none for q.gone.
+func (q *riverQueue[TTx]) beatAndRescue(ctx context.Context) error {
+	if err := q.beats.beat(ctx, q.id); err != nil {
+		return err
+	}
+	seen, err := q.beats.seen(ctx)
+	if err != nil {
+		return err
+	}
+	// This process's own beat, just written, is the database's present.
+	now, ok := seen[q.id]
+	if !ok {
+		return nil
+	}
+	n, err := q.rescueOrphans(ctx, func(j *rivertype.JobRow) bool {
+		if len(j.AttemptedBy) == 0 {
+			return false
+		}
+		at, ok := seen[j.AttemptedBy[len(j.AttemptedBy)-1]]
+		return ok && now.Sub(at) > q.gone
+	})
+	if n > 0 {
+		q.log.Info("jobs left running by a process that stopped giving signs of life put back in the queue or failed", "count", n)
+	}
+	return err
 }
 
 // OrphanMessage is the error recorded on a job whose process stopped while running it.
 const OrphanMessage = "the process running this job stopped before it finished"
 
-// rescueOrphans puts every job left "running" back in the queue at once (or fails it when its
-// attempts are used up), as River's rescuer would after jobs.RescueAfter. Only for the embedded
-// store, before the workers start: no other process can be running them. The error recorded
-// is OrphanMessage.
-func (q *riverQueue[TTx]) rescueOrphans(ctx context.Context) (int, error) {
+// rescueOrphans puts the jobs left "running" (all of them, or those gone says are) back in the
+// queue at once (or fails them when their attempts are used up), as River's rescuer would after
+// jobs.RescueAfter. With gone nil only for the embedded store before the workers start: no
+// other process can be running them. The error recorded is OrphanMessage.
+func (q *riverQueue[TTx]) rescueOrphans(ctx context.Context, gone func(*rivertype.JobRow) bool) (int, error) {
 	now := time.Now().UTC()
 	p := riverdriver.JobRescueManyParams{StuckHorizon: now.Add(time.Minute)}
 	// At most Workers jobs run at once per process, so a few are left; 10,000 is generous.
@@ -270,6 +344,9 @@ func (q *riverQueue[TTx]) rescueOrphans(ctx context.Context) (int, error) {
 		return 0, err
 	}
 	for _, job := range res.Jobs {
+		if gone != nil && !gone(job) {
+			continue
+		}
 		errData, err := json.Marshal(rivertype.AttemptError{At: now, Attempt: max(job.Attempt, 0), Error: OrphanMessage})
 		if err != nil {
 			return 0, err
@@ -296,6 +373,11 @@ func (q *riverQueue[TTx]) rescueOrphans(ctx context.Context) (int, error) {
 func (q *riverQueue[TTx]) stop(ctx context.Context) error {
 	if !q.runJobs {
 		return nil
+	}
+	if q.stopBeats != nil {
+		q.stopBeats()
+		q.stopBeats = nil
+		defer func() { _ = q.beats.forget(context.WithoutCancel(ctx), q.id) }()
 	}
 	err := q.client.Stop(ctx)
 	if errors.Is(err, context.DeadlineExceeded) || errors.Is(err, context.Canceled) {
