@@ -190,11 +190,20 @@ func uploadRequest(a jobs.ImportArgs) ingest.Request {
 // implausible values, id conflict) fails the job for good with the fault recorded; other
 // failures are retried.
 func ImportWorker(st store.Store, log *slog.Logger) func(ctx context.Context, a jobs.ImportArgs, progress jobs.Progress) (any, error) {
+	return ImportWorkerMaxCells(st, log, 0)
+}
+
+// ImportWorkerMaxCells is ImportWorker refusing files that declare more than maxCells cells
+// (ingest.Request.MaxCells; 0: ingest.DefaultMaxImportCells), the serve --max-import-cells
+// setting.
+func ImportWorkerMaxCells(st store.Store, log *slog.Logger, maxCells int64) func(ctx context.Context, a jobs.ImportArgs, progress jobs.Progress) (any, error) {
 	if log == nil {
 		log = slog.New(slog.DiscardHandler)
 	}
 	return func(ctx context.Context, a jobs.ImportArgs, progress jobs.Progress) (any, error) {
-		res, err := ingest.Import(ctx, st, uploadRequest(a), progress)
+		req := uploadRequest(a)
+		req.MaxCells = maxCells
+		res, err := ingest.Import(ctx, st, req, progress)
 		if err != nil {
 			if _, ok := fault.As(err); ok {
 				os.Remove(a.Path)

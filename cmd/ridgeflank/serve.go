@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"ridgeflank/demobasin"
+	"ridgeflank/ingest"
 	"ridgeflank/jobs"
 	"ridgeflank/jobs/queue"
 	"ridgeflank/server"
@@ -80,6 +81,7 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	trustedHosts := fs.String("trusted-hosts", "", "comma-separated host names whose Host header may make absolute links when --public-url is not set")
 	logFormat := fs.String("log-format", "text", "log format: text or json")
 	logLevel := fs.String("log-level", "info", "log level: debug, info, warn or error")
+	maxImportCells := fs.Int64("max-import-cells", ingest.DefaultMaxImportCells, "largest grid an import accepts, in cells declared by the file (checked before reading)")
 	budgetText := fs.String("memory-budget", "512MiB", "memory kept between requests: decoded grid blocks and GDAL's block cache together (e.g. 512MiB, 2GB)")
 	if err := parseFlags(ctx, serveCmd, fs, args, stdout, false); err != nil {
 		return err
@@ -138,7 +140,7 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	log.Info("memory budget", "bytes", budget)
 
 	// The durable job queue, in the store's database.
-	handlers := jobs.Handlers{Import: server.ImportWorker(st, log), Export: server.ExportWorker(deps), Calibrate: server.CalibrationWorker(deps), Statistics: server.StatisticsWorker(deps)}
+	handlers := jobs.Handlers{Import: server.ImportWorkerMaxCells(st, log, *maxImportCells), Export: server.ExportWorker(deps), Calibrate: server.CalibrationWorker(deps), Statistics: server.StatisticsWorker(deps)}
 	qopts := queue.Options{Logger: log.With("component", "jobs")}
 	q, err := queue.Open(ctx, st, handlers, qopts)
 	if err != nil {
