@@ -472,17 +472,19 @@ func areaLevel(f *raster.File, fx, fy int) (lvl, k int) {
 
 func isEmptyWindow(err error) bool { return errors.Is(err, geo.ErrEmptyWindow) }
 
-// AreaCells estimates the work of an area question before it is asked: the cells read at the
-// level Area would read (the cost the HTTP layer weighs concurrent requests and rate limits
-// by). Bad resolutions are the fault Area would answer.
-func (s *Service) AreaCells(ctx context.Context, datasetID string, r geo.PreparedRegion, resX, resY float64) (int64, error) {
-	d, err := s.Dataset(ctx, datasetID)
+// AreaCost estimates the work and memory of an area question before it is asked: the cells
+// read at the level Area would read times the parameters answered (each cell of each parameter
+// is a value computed, held and encoded; about 12 bytes each in a CSV answer, measured). The
+// HTTP layer weighs concurrent requests and rate limits by it. Bad options or resolutions are
+// the fault Area would answer.
+func (s *Service) AreaCost(ctx context.Context, datasetID string, o Options, r geo.PreparedRegion, resX, resY float64) (int64, error) {
+	q, err := s.load(ctx, datasetID, o)
 	if err != nil {
 		return 0, err
 	}
-	plan, err := planArea(d, r.Bound, resX, resY)
+	plan, err := planArea(q.Dataset, r.Bound, resX, resY)
 	if err != nil {
 		return 0, err
 	}
-	return plan.readCells(), nil
+	return plan.readCells() * int64(max(1, len(q.Params))), nil
 }

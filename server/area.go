@@ -182,11 +182,11 @@ func (s *server) area(w http.ResponseWriter, r *http.Request) error {
 		return err
 	}
 	resX, resY, format, covType, o := q.resX, q.resY, q.format, q.covType, q.options
-	cells, err := s.ev.AreaCells(r.Context(), id, region, resX, resY)
+	values, err := s.ev.AreaCost(r.Context(), id, o, region, resX, resY)
 	if err != nil {
 		return err
 	}
-	release, err := s.admitHeavy(w, r, cells)
+	release, err := s.admitHeavy(w, r, values)
 	if err != nil {
 		return err
 	}

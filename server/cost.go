@@ -11,17 +11,18 @@ import (
 	"golang.org/x/sync/semaphore"
 )
 
-// Heavy requests (area answers) are weighed by the cells they read, twice:
+// Heavy requests (area answers) are weighed by their values: the cells they read times the
+// parameters they answer (evaluate.Service.AreaCost), twice:
 //
-//   - at once: all requests in flight together may read at most Limits.MaxConcurrentCells
-//     cells (a weighted semaphore; a request larger than the cap waits for the server to be
+//   - at once: all requests in flight together may hold at most Limits.MaxConcurrentValues
+//     values (a weighted semaphore; a request larger than the cap waits for the server to be
 //     idle). A request that finds no room within Limits.HeavyWait is answered 503 with
-//     Retry-After, a problem naming max_concurrent_cells.
+//     Retry-After, a problem naming max_concurrent_values.
 //   - per minute: a request counts against the client's requests per minute as one request
-//     per Limits.CellsPerRequest cells read (at least one), so a client within its request
+//     per Limits.ValuesPerRequest values (at least one), so a client within its request
 //     count cannot keep both cores busy with the largest questions.
 
-// costGate is the semaphore of the cells read by requests in flight.
+// costGate is the semaphore of the values of the requests in flight.
 type costGate struct {
 	sem *semaphore.Weighted
 	max int64
@@ -29,9 +30,9 @@ type costGate struct {
 
 func newCostGate(max int64) *costGate { return &costGate{sem: semaphore.NewWeighted(max), max: max} }
 
-// admit waits up to wait for room for cells; release must be called when the work is done.
-func (g *costGate) admit(ctx context.Context, cells int64, wait time.Duration) (release func(), err error) {
-	w := min(max(cells, 1), g.max)
+// admit waits up to wait for room for values; release must be called when the work is done.
+func (g *costGate) admit(ctx context.Context, values int64, wait time.Duration) (release func(), err error) {
+	w := min(max(values, 1), g.max)
 	c, cancel := context.WithTimeout(ctx, wait)
 	defer cancel()
 	if err := g.sem.Acquire(c, w); err != nil {
@@ -40,31 +41,31 @@ func (g *costGate) admit(ctx context.Context, cells int64, wait time.Duration) (
 	return func() { g.sem.Release(w) }, nil
 }
 
-// admitHeavy admits a request reading cells, charges the client's rate by its cost, and
-// answers the problem to return when there is no room.
-func (s *server) admitHeavy(w http.ResponseWriter, r *http.Request, cells int64) (func(), error) {
-	s.charge(r, cells)
-	release, err := s.gate.admit(r.Context(), cells, s.limits.HeavyWait)
+// admitHeavy admits a request of values (cells × parameters), charges the client's rate by
+// them, and answers the problem to return when there is no room.
+func (s *server) admitHeavy(w http.ResponseWriter, r *http.Request, values int64) (func(), error) {
+	s.charge(r, values)
+	release, err := s.gate.admit(r.Context(), values, s.limits.HeavyWait)
 	if err != nil {
 		if r.Context().Err() != nil {
 			return nil, r.Context().Err()
 		}
 		retry := max(1, int(s.limits.HeavyWait.Seconds()))
 		w.Header().Set("Retry-After", strconv.Itoa(retry))
-		return nil, limitProblem(http.StatusServiceUnavailable, "max_concurrent_cells", s.limits.MaxConcurrentCells,
-			"the server is answering other large questions (at most %d cells read at once); retry after %d s or ask for a coarser resolution",
-			s.limits.MaxConcurrentCells, retry).withCode(CodeUnavailable)
+		return nil, limitProblem(http.StatusServiceUnavailable, "max_concurrent_values", s.limits.MaxConcurrentValues,
+			"the server is answering other large questions (at most %d values, cells × parameters, at once); retry after %d s, or ask for fewer parameters or a coarser resolution",
+			s.limits.MaxConcurrentValues, retry).withCode(CodeUnavailable)
 	}
 	return release, nil
 }
 
-// charge counts a request reading cells as cells/CellsPerRequest requests (the rate limiter
+// charge counts a request of values as values/ValuesPerRequest requests (the rate limiter
 // already counted one) against its client's requests per minute.
-func (s *server) charge(r *http.Request, cells int64) {
+func (s *server) charge(r *http.Request, values int64) {
 	if s.apiCounter == nil {
 		return
 	}
-	extra := cells/s.limits.CellsPerRequest - 1
+	extra := values/s.limits.ValuesPerRequest - 1
 	if extra <= 0 {
 		return
 	}

@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"ridgeflank/demobasin"
+	"ridgeflank/evaluate"
 )
 
 // The non-file fields of an upload are bounded in number and in total size: a form of many
@@ -130,52 +131,58 @@ func TestAreaStatesResolutionUsed(t *testing.T) {
 	}
 }
 
-// Area answers are weighed by the cells they read: over the concurrent-cells cap a request is
-// answered 503 with Retry-After (a problem naming max_concurrent_cells), and each counts one
-// request per CellsPerRequest cells against its client's requests per minute.
-func TestHeavyRequestsWeighedByCells(t *testing.T) {
+// Area answers are weighed by their values (cells read × parameters): over the concurrent cap a
+// request is answered 503 with Retry-After (a problem naming max_concurrent_values), and each
+// counts one request per ValuesPerRequest values against its client's requests per minute.
+func TestHeavyRequestsWeighedByValues(t *testing.T) {
 	e := newEnv(t, "sqlite", Config{})
 	const perMinute, perRequest = 20, 100
 	srv := newServer(Deps{Store: e.st, Version: "test", Config: Config{RateLimitPerMinute: perMinute},
-		Limits: Limits{MaxConcurrentCells: 1_000_000, HeavyWait: 50 * time.Millisecond, CellsPerRequest: perRequest}})
+		Limits: Limits{MaxConcurrentValues: 1_000_000, HeavyWait: 50 * time.Millisecond, ValuesPerRequest: perRequest}})
 	h := srv.routes()
 	lon, lat := demobasin.SwellCentreLon, demobasin.SwellCentreLat
-	path := "/api/collections/" + e.dataset + fmt.Sprintf("/area?bbox=%g,%g,%g,%g&parameter-name=seafloor_age", lon-0.5, lat-0.5, lon+0.5, lat+0.5)
-	call := func(client string) *httptest.ResponseRecorder {
+	bbox := fmt.Sprintf("%g,%g,%g,%g", lon-0.5, lat-0.5, lon+0.5, lat+0.5)
+	path := "/api/collections/" + e.dataset + "/area?bbox=" + bbox + "&parameter-name=seafloor_age"
+	call := func(client, path string) *httptest.ResponseRecorder {
 		req := httptest.NewRequest("GET", path, nil)
 		req.RemoteAddr = client + ":1234"
 		rec := httptest.NewRecorder()
 		h.ServeHTTP(rec, req)
 		return rec
 	}
-	// Full: another request holds every cell.
+	// Full: another request holds every value.
 	if err := srv.gate.sem.Acquire(context.Background(), srv.gate.max); err != nil {
 		t.Fatal(err)
 	}
-	rec := call("192.0.2.1")
+	rec := call("192.0.2.1", path)
 	var p map[string]any
 	json.Unmarshal(rec.Body.Bytes(), &p)
-	if rec.Code != 503 || rec.Header().Get("Retry-After") == "" || p["limit_name"] != "max_concurrent_cells" || rec.Header().Get("Content-Type") != "application/problem+json" {
+	if rec.Code != 503 || rec.Header().Get("Retry-After") == "" || p["limit_name"] != "max_concurrent_values" || rec.Header().Get("Content-Type") != "application/problem+json" {
 		t.Fatalf("gate full: %d Retry-After=%q %v", rec.Code, rec.Header().Get("Retry-After"), p)
 	}
 	srv.gate.sem.Release(srv.gate.max)
 
-	// Rates: the question reads `cells`, so it counts cells/perRequest requests.
+	// The cost is cells × parameters: two parameters cost twice one.
 	_, region, err := srv.areaParam(httptest.NewRequest("GET", path, nil))
 	if err != nil {
 		t.Fatal(err)
 	}
-	cells, err := srv.ev.AreaCells(context.Background(), e.dataset, region, 0, 0)
+	one, err := srv.ev.AreaCost(context.Background(), e.dataset, evaluate.Options{Parameters: []string{"seafloor_age"}}, region, 0, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
-	units := max(cells/perRequest, 1)
+	two, err := srv.ev.AreaCost(context.Background(), e.dataset, evaluate.Options{Parameters: []string{"seafloor_age", "heat_flow"}}, region, 0, 0)
+	if err != nil || two != 2*one {
+		t.Fatalf("cost of two parameters %d (%v), of one %d", two, err, one)
+	}
+	// Rates: the question costs `one` values, so it counts one/perRequest requests.
+	units := max(one/perRequest, 1)
 	if units < 2 {
-		t.Fatalf("set-up: %d cells count as %d requests; the test needs a heavier question", cells, units)
+		t.Fatalf("set-up: %d values count as %d requests; the test needs a heavier question", one, units)
 	}
 	accepted := 0
 	for i := 0; i < perMinute+1; i++ {
-		rec := call("192.0.2.2")
+		rec := call("192.0.2.2", path)
 		if rec.Code == 429 {
 			break
 		}
@@ -187,10 +194,10 @@ func TestHeavyRequestsWeighedByCells(t *testing.T) {
 	// The limiter admits a request while count+1 ≤ limit; each accepted one adds min(units, limit).
 	want := int((perMinute-1)/min(units, perMinute)) + 1
 	if accepted != want {
-		t.Errorf("%d area questions of %d cells accepted in a minute, want %d (each counts %d of %d requests)", accepted, cells, want, units, perMinute)
+		t.Errorf("%d area questions of %d values accepted in a minute, want %d (each counts %d of %d requests)", accepted, one, want, units, perMinute)
 	}
 	// Another client is not charged.
-	if rec := call("192.0.2.3"); rec.Code != 200 {
+	if rec := call("192.0.2.3", path); rec.Code != 200 {
 		t.Errorf("another client: %d", rec.Code)
 	}
 }

@@ -153,7 +153,7 @@ func (s *server) rateLimit(mult int) func(http.Handler) http.Handler {
 	}, httprate.WithLimitCounter(counter), httprate.WithLimitHandler(func(w http.ResponseWriter, r *http.Request) {
 		lim := int64(n * mult)
 		writeProblem(w, r, limitProblem(http.StatusTooManyRequests, "requests_per_minute", lim,
-			"more than %d requests per minute from this address (a large area question counts one per %d cells read)", lim, s.limits.CellsPerRequest).withCode(CodeRateLimited))
+			"more than %d requests per minute from this address (an area question counts one per %d values, cells × parameters)", lim, s.limits.ValuesPerRequest).withCode(CodeRateLimited))
 	}))
 }
 

@@ -35,13 +35,14 @@ type Limits struct {
 	// stalls or trickles slower is answered 408 and its connection closed.
 	BodyIdleTimeout       time.Duration
 	BodyMinBytesPerSecond int64
-	// MaxConcurrentCells bounds the cells read by all area answers in flight together; a
-	// request that finds no room within HeavyWait is answered 503 with Retry-After.
-	MaxConcurrentCells int64
-	HeavyWait          time.Duration
-	// CellsPerRequest: an area answer counts as one request per this many cells read (at
-	// least one) against the client's requests per minute.
-	CellsPerRequest int64
+	// MaxConcurrentValues bounds the values (cells read × parameters answered) of all area
+	// answers in flight together; a request that finds no room within HeavyWait is answered
+	// 503 with Retry-After.
+	MaxConcurrentValues int64
+	HeavyWait           time.Duration
+	// ValuesPerRequest: an area answer counts as one request per this many values (at least
+	// one) against the client's requests per minute.
+	ValuesPerRequest int64
 }
 
 // DefaultLimits are the limits used when Deps.Limits leaves a field zero.
@@ -57,12 +58,14 @@ var DefaultLimits = Limits{
 	// a client holding connections open does not (common practice, no source).
 	BodyIdleTimeout:       10 * time.Second,
 	BodyMinBytesPerSecond: 16 << 10,
-	// One largest area question (max_input_cells) at a time, or several smaller ones: the
-	// machine class we target has 2 cores (common practice, no source).
-	MaxConcurrentCells: 20_000_000,
-	HeavyWait:          2 * time.Second,
-	// 600 requests a minute then allow 7.5 questions of 20 M cells a minute.
-	CellsPerRequest: 250_000,
+	// About 12 bytes per value are held while an answer is made (measured: 64 concurrent CSV
+	// answers of the demo basin's 300,000 cells × 14 parameters, 1.8 GB): 32 M values keep
+	// answers in flight near 0.4 GB; a larger single question runs alone.
+	MaxConcurrentValues: 32_000_000,
+	HeavyWait:           2 * time.Second,
+	// 600 requests a minute then allow 37 answers of the demo basin's 14 parameters a minute,
+	// and 600 of one parameter (common practice, no source).
+	ValuesPerRequest: 250_000,
 }
 
 func (l Limits) withDefaults() Limits {
@@ -91,9 +94,9 @@ func (l Limits) withDefaults() Limits {
 	set64(&l.BodyMinBytesPerSecond, d.BodyMinBytesPerSecond)
 	setD(&l.UploadTimeout, d.UploadTimeout)
 	set(&l.SyncExportCells, d.SyncExportCells)
-	set64(&l.MaxConcurrentCells, d.MaxConcurrentCells)
+	set64(&l.MaxConcurrentValues, d.MaxConcurrentValues)
 	setD(&l.HeavyWait, d.HeavyWait)
-	set64(&l.CellsPerRequest, d.CellsPerRequest)
+	set64(&l.ValuesPerRequest, d.ValuesPerRequest)
 	return l
 }
 
@@ -148,7 +151,7 @@ type server struct {
 	limits  Limits
 	metrics *metrics
 	ev      *evaluate.Service
-	// gate weighs area answers in flight by the cells they read; apiCounter is the API rate
+	// gate weighs area answers in flight by their values; apiCounter is the API rate
 	// limiter's counter (nil when rates are not limited), charged by heavy requests' cost.
 	gate       *costGate
 	apiCounter httprate.LimitCounter
@@ -183,7 +186,7 @@ func newServer(deps Deps) *server {
 		s.ev = NewEvaluate(deps)
 	}
 	s.metrics = newMetrics(deps.Registry)
-	s.gate = newCostGate(s.limits.MaxConcurrentCells)
+	s.gate = newCostGate(s.limits.MaxConcurrentValues)
 	return s
 }
 
