@@ -107,15 +107,27 @@ func FormatNumber(v float64) string { return numjson.CSV(v) }
 
 // CheckModel validates a custom parameter set: every bad field is named, in one
 // fault.InvalidModel whose Field is the first and whose Invalid lists them all.
-func CheckModel(p thermal.Params) error {
+//
+// decodeErr is what thermal.DecodeParams said of the JSON the parameters came from (nil when
+// they came from elsewhere): its problems are listed first, beside Validate's.
+func CheckModel(p thermal.Params, decodeErr ...error) error {
+	var all thermal.ParamErrors
+	for _, e := range decodeErr {
+		var pe thermal.ParamErrors
+		if errors.As(e, &pe) {
+			all = append(all, pe...)
+		}
+	}
 	err := p.Validate()
-	if err == nil {
+	if err == nil && len(all) == 0 {
 		return nil
 	}
-	var all thermal.ParamErrors
-	if !errors.As(err, &all) || len(all) == 0 {
+	var vs thermal.ParamErrors
+	if err != nil && !errors.As(err, &vs) {
 		return fault.New(fault.InvalidModel, "", "%v%w", err, quiet(err))
 	}
+	all = append(all, vs...)
+	err = all
 	f := fault.New(fault.InvalidModel, all[0].Field, "%v%w", err, quiet(err))
 	for _, e := range all {
 		f.Invalid = append(f.Invalid, fault.Invalid{Field: e.Field, Reason: e.Msg})

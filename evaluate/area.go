@@ -3,7 +3,9 @@ package evaluate
 import (
 	"context"
 	"errors"
+	"fmt"
 	"math"
+	"strings"
 
 	"github.com/paulmach/orb"
 
@@ -22,6 +24,10 @@ type AreaResult struct {
 	Mask    geo.Mask    // cells of Lattice inside the region
 	Flags   []Flag      // values refused as physically impossible, by cause
 	Stats   []geo.Stats // area-weighted statistics per parameter (Region answers only)
+	// ResolutionNote says how the lattice's spacing differs from the asked resolution (finer
+	// than the grid, or not a whole multiple of its spacing); empty when it is the one asked
+	// or none was asked. The spacing used is Lattice.DX, Lattice.DY.
+	ResolutionNote string
 }
 
 // Area evaluates o's parameters over region r on the age grid's lattice inside r.Bound,
@@ -150,7 +156,30 @@ func (s *Service) area(ctx context.Context, q *Query, r geo.PreparedRegion, resX
 		return nil, fault.New(fault.NoData, "coords", "no cell centre of dataset %q lies inside the area; try a larger area or a finer resolution", d.Row.ID)
 	}
 	res.Flags = fl.flags()
+	res.ResolutionNote = resolutionNote(&age, plan, resX, resY)
 	return res, nil
+}
+
+// resolutionNote states the resolution an area answer was given at when it is not the one
+// asked: a resolution finer than the age grid's spacing is answered at that spacing (no
+// values are invented between cells), and any other at the nearest whole multiple of it.
+func resolutionNote(age *geo.Grid, p areaPlan, resX, resY float64) string {
+	var notes []string
+	for _, a := range []struct {
+		name      string
+		asked, dx float64
+		f         int
+	}{{"resolution-x", resX, age.DX, p.k * p.rx}, {"resolution-y", resY, age.DY, p.k * p.ry}} {
+		used := a.dx * float64(a.f)
+		switch {
+		case a.asked <= 0 || math.Abs(used-a.asked) <= 1e-9*a.asked:
+		case a.asked < a.dx:
+			notes = append(notes, fmt.Sprintf("%s=%g degrees is finer than the grid's spacing; answered at %g degrees (the grid's own)", a.name, a.asked, used))
+		default:
+			notes = append(notes, fmt.Sprintf("%s=%g degrees is not a whole multiple of the grid's spacing %g degrees; answered at %g degrees", a.name, a.asked, a.dx, used))
+		}
+	}
+	return strings.Join(notes, "; ")
 }
 
 // evalWindow evaluates q's parameters on the plan's lattice over the window of bound (all of
@@ -442,3 +471,20 @@ func areaLevel(f *raster.File, fx, fy int) (lvl, k int) {
 }
 
 func isEmptyWindow(err error) bool { return errors.Is(err, geo.ErrEmptyWindow) }
+
+// AreaCost estimates the work and memory of an area question before it is asked: the cells
+// read at the level Area would read times the parameters answered (each cell of each parameter
+// is a value computed, held and encoded; about 12 bytes each in a CSV answer, measured). The
+// HTTP layer weighs concurrent requests and rate limits by it. Bad options or resolutions are
+// the fault Area would answer.
+func (s *Service) AreaCost(ctx context.Context, datasetID string, o Options, r geo.PreparedRegion, resX, resY float64) (int64, error) {
+	q, err := s.load(ctx, datasetID, o)
+	if err != nil {
+		return 0, err
+	}
+	plan, err := planArea(q.Dataset, r.Bound, resX, resY)
+	if err != nil {
+		return 0, err
+	}
+	return plan.readCells() * int64(max(1, len(q.Params))), nil
+}

@@ -50,6 +50,38 @@ type Request struct {
 	// Name, Provenance and Licence go to the catalogue row only; Name defaults to the file's
 	// base name, Provenance to "imported from FILE" and the file's source attribute.
 	Name, Provenance, Licence string
+	// MaxCells bounds the cells the file may declare (0: DefaultMaxImportCells).
+	MaxCells int64
+}
+
+// Import limits, checked on the file's declared size before any value is read. A small file
+// can declare a huge grid (a sparse or highly compressed GeoTIFF): its cells are counted from
+// the header, and its blocks must fit in memory because GDAL decodes whole blocks.
+const (
+	// DefaultMaxImportCells is the most cells a grid file may declare: a global grid at 15″
+	// (86,400 × 43,200 = 3.7 G cells) fits (common practice, no source).
+	DefaultMaxImportCells int64 = 4_000_000_000
+	// MaxBlockBytes is the largest block (block width × height × bytes per cell) a file may
+	// store: a tiled or striped file's blocks are a few hundred KiB; one block of a 16000 ×
+	// 16000 float grid (1 GiB) is refused, as GDAL would hold all of it to read any cell.
+	MaxBlockBytes int64 = 256 << 20
+)
+
+// checkDeclaredSize refuses a file whose header declares more cells than max, or blocks
+// larger than MaxBlockBytes, before anything is read.
+func checkDeclaredSize(name string, d *gdal.Dataset, g *geo.Grid, max int64) error {
+	if max <= 0 {
+		max = DefaultMaxImportCells
+	}
+	if cells := int64(g.NX) * int64(g.NY); cells > max {
+		return fault.Over("max_import_cells", max, cells, "file",
+			"%s declares %d × %d = %d cells; the limit is %d", name, g.NX, g.NY, cells, max)
+	}
+	if b := d.BlockBytes(); b > MaxBlockBytes {
+		return fault.Over("max_block_bytes", MaxBlockBytes, b, "file",
+			"%s stores its values in blocks of %d bytes, each read whole; the limit is %d bytes: rewrite it tiled (for example as a COG)", name, b, MaxBlockBytes)
+	}
+	return nil
 }
 
 // Result is a finished import.
@@ -168,6 +200,9 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 	defer d.Close()
 	g, meta := d.Header(), d.Meta()
 	g.West, g.North, g.DX, g.DY = snap(g.West), snap(g.North), snap(g.DX), snap(g.DY)
+	if err := checkDeclaredSize(name, d, &g, r.MaxCells); err != nil {
+		return Result{}, err
+	}
 	var res Result
 
 	factor, unit, convertedFrom, notes, err := resolveUnits(r, meta.Units)

@@ -65,6 +65,9 @@ func OpenReader(ctx context.Context, r Request, progress func(fraction float64))
 		d.Close()
 		return nil, err
 	}
+	if err := checkDeclaredSize(name, d, &g, r.MaxCells); err != nil {
+		return fail(err)
+	}
 	var notes []string
 	rd.factor, rd.unit, rd.converted, notes, err = resolveUnits(r, meta.Units)
 	rd.notes = append(rd.notes, notes...)

@@ -4,6 +4,10 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"path"
+	"regexp"
+	"sort"
+	"strings"
 	"time"
 
 	"ridgeflank/fault"
@@ -185,3 +189,42 @@ type Fault struct {
 	Field   string     `json:"field,omitempty"`
 	Message string     `json:"message"`
 }
+
+// absPath finds absolute file paths in a message: a '/' at the start or after a space, quote
+// (GDAL quotes paths `so'), bracket, '=' or ',' up to the next space, quote, bracket, ',' or ':'. GDAL's virtual file
+// system names (/vsis3/bucket/key) are paths too.
+var absPath = regexp.MustCompile("(^|[\\s\"'`(\\[=,])(/[^\\s\"'`()\\[\\],:]+)")
+
+// ScrubPaths rewrites the server paths in a job's message before it is stored or answered:
+// each key of names (a known path, such as an upload's file on disk) becomes its value (the
+// client's name of it), and any other absolute path its last element, so no answer tells the
+// server's directory layout.
+func ScrubPaths(msg string, names map[string]string) string {
+	// Longest first: a whole path before its last element.
+	keys := make([]string, 0, len(names))
+	for p := range names {
+		if p != "" {
+			keys = append(keys, p)
+		}
+	}
+	sort.Slice(keys, func(i, j int) bool { return len(keys[i]) > len(keys[j]) })
+	for _, p := range keys {
+		msg = strings.ReplaceAll(msg, p, names[p])
+	}
+	return absPath.ReplaceAllStringFunc(msg, func(m string) string {
+		i := strings.IndexByte(m, '/')
+		return m[:i] + path.Base(m[i:])
+	})
+}
+
+// ScrubbedError is an error whose message had its server paths rewritten (ScrubPaths); it
+// unwraps to the original, so errors.Is and IsPermanent still see the cause.
+type ScrubbedError struct {
+	Msg string
+	Err error
+}
+
+func (e *ScrubbedError) Error() string { return e.Msg }
+
+// Unwrap returns the original error.
+func (e *ScrubbedError) Unwrap() error { return e.Err }

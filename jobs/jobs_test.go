@@ -38,3 +38,37 @@ func TestPermanent(t *testing.T) {
 		t.Errorf("message = %q, want the cause's %q", got, base.Error())
 	}
 }
+
+// Messages stored or answered for a job carry no server path: a known path reads as the name
+// the client gave, any other absolute path as its last element.
+func TestScrubPaths(t *testing.T) {
+	names := map[string]string{"/srv/data/uploads/upload-123.tif": "survey.tif"}
+	for _, c := range []struct{ in, want string }{
+		{`open /srv/data/uploads/upload-123.tif: not a readable grid`, `open survey.tif: not a readable grid`},
+		{`writing "/srv/data/grids/ab12.tif.ovr.tmp": disk full`, `writing "ab12.tif.ovr.tmp": disk full`},
+		{`GDAL: /vsis3/bucket/grids/x.tif (path=/tmp/a/b.tif)`, `GDAL: x.tif (path=b.tif)`},
+		{`units m/s and km/h are not paths`, `units m/s and km/h are not paths`},
+		{`/root/x: at the start`, `x: at the start`},
+	} {
+		if got := ScrubPaths(c.in, names); got != c.want {
+			t.Errorf("ScrubPaths(%q) = %q, want %q", c.in, got, c.want)
+		}
+	}
+	err := Permanent(errors.New("open /srv/x/y.tif"))
+	s := &ScrubbedError{Msg: ScrubPaths(err.Error(), nil), Err: err}
+	if s.Error() != "open y.tif" || !IsPermanent(s) {
+		t.Errorf("scrubbed error %q permanent=%v", s.Error(), IsPermanent(s))
+	}
+}
+
+// A whole known path is replaced before its last element, and GDAL's `quoted' paths are found.
+func TestScrubPathsOrder(t *testing.T) {
+	names := map[string]string{"/d/uploads/upload-9.txt": "notes.txt", "upload-9.txt": "notes.txt"}
+	in := "upload-9.txt is not a readable grid: `/d/uploads/upload-9.txt' not recognized; `/other/x.tif' neither"
+	want := "notes.txt is not a readable grid: `notes.txt' not recognized; `x.tif' neither"
+	for i := 0; i < 20; i++ { // map order varies
+		if got := ScrubPaths(in, names); got != want {
+			t.Fatalf("ScrubPaths = %q, want %q", got, want)
+		}
+	}
+}

@@ -182,6 +182,15 @@ func (s *server) area(w http.ResponseWriter, r *http.Request) error {
 		return err
 	}
 	resX, resY, format, covType, o := q.resX, q.resY, q.format, q.covType, q.options
+	values, err := s.ev.AreaCost(r.Context(), id, o, region, resX, resY)
+	if err != nil {
+		return err
+	}
+	release, err := s.admitHeavy(w, r, values)
+	if err != nil {
+		return err
+	}
+	defer release()
 	if format == fmtCOG || format == fmtNetCDF {
 		req := evaluate.ExportRequest{Dataset: id, Options: o, Coords: coords, ResX: resX, ResY: resY, Format: evaluate.FormatCOG,
 			Filename: evaluate.ExportFileName(id, "area", o, "tif")}
@@ -228,6 +237,9 @@ func (s *server) writeArea(w http.ResponseWriter, format outFormat, covType stri
 	prov := s.ev.Provenance(res.Query)
 	setProvenance(w, prov)
 	setAnswerHeaders(w, res.Flags, res.Region.Repairs)
+	if res.ResolutionNote != "" {
+		w.Header().Set("Ridgeflank-Resolution-Note", res.ResolutionNote)
+	}
 	ps := res.Query.Params
 	switch format {
 	case fmtCSV:
@@ -252,6 +264,9 @@ func (s *server) writeArea(w http.ResponseWriter, format outFormat, covType stri
 	c.Caution = prov.Caution
 	c.Flags = res.Flags
 	c.Repairs = res.Region.Repairs
+	if res.ResolutionNote != "" {
+		c.Resolution = &resolutionUsed{XDeg: res.Lattice.DX, YDeg: res.Lattice.DY, Note: res.ResolutionNote}
+	}
 	if stats != nil {
 		c.Stats = map[string]unitStats{}
 		for i, p := range ps {
@@ -359,6 +374,9 @@ func (s *server) location(w http.ResponseWriter, r *http.Request) error {
 		w.Header().Set("Content-Type", media)
 		w.Header().Set("Content-Disposition", `attachment; filename="`+evaluate.FileName(res.Query, rg.ID, ext)+`"`)
 		setProvenance(w, s.ev.Provenance(res.Query))
+		if res.ResolutionNote != "" {
+			w.Header().Set("Ridgeflank-Resolution-Note", res.ResolutionNote)
+		}
 		_, err = w.Write(raw)
 		return err
 	}

@@ -89,6 +89,16 @@ type coverage struct {
 	Repairs []string `json:"ridgeflank:repairs,omitempty"`
 	// Waypoints are a trajectory's waypoints with their names and distance along the track.
 	Waypoints []evaluate.WaypointAt `json:"ridgeflank:waypoints,omitempty"`
+	// Resolution states the spacing an area answer was given at when it is not the one asked.
+	Resolution *resolutionUsed `json:"ridgeflank:resolution,omitempty"`
+}
+
+// resolutionUsed is the CoverageJSON member ridgeflank:resolution: the spacing used and why it
+// differs from the one asked (evaluate.AreaResult.ResolutionNote).
+type resolutionUsed struct {
+	XDeg float64 `json:"x_deg"`
+	YDeg float64 `json:"y_deg"`
+	Note string  `json:"note"`
 }
 
 // unitStats is geo.Stats as the API writes it (CoverageJSON member

@@ -192,3 +192,41 @@ func SweepExports(dir string) (removed int, err error) {
 	}
 	return removed, nil
 }
+
+// UploadSweepAge is how long an upload file no import job names is kept before a sweep removes
+// it: a file being streamed is newer (its modification time follows the writes), and one whose
+// job was just queued is named by it.
+const UploadSweepAge = time.Hour
+
+// SweepUploads removes the upload files ("upload-*") in dir that inUse does not hold and that
+// were last modified at least minAge ago: uploads whose request or import died with its
+// process. Files of queued, retrying or running imports are in inUse and kept.
+func SweepUploads(dir string, inUse map[string]bool, minAge time.Duration) (removed int, err error) {
+	entries, err := os.ReadDir(dir)
+	if errors.Is(err, os.ErrNotExist) {
+		return 0, nil
+	}
+	if err != nil {
+		return 0, err
+	}
+	// By file name: the names are random, and a job may have stored the directory otherwise
+	// spelt (relative, or through a link).
+	used := map[string]bool{}
+	for p := range inUse {
+		used[filepath.Base(p)] = true
+	}
+	for _, en := range entries {
+		p := filepath.Join(dir, en.Name())
+		if en.IsDir() || !strings.HasPrefix(en.Name(), "upload-") || used[en.Name()] {
+			continue
+		}
+		info, err := en.Info()
+		if err != nil || time.Since(info.ModTime()) < minAge {
+			continue
+		}
+		if os.Remove(p) == nil {
+			removed++
+		}
+	}
+	return removed, nil
+}

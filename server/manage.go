@@ -446,6 +446,10 @@ func (s *server) createDataset(w http.ResponseWriter, r *http.Request) error {
 		if errors.Is(err, store.ErrNotFound) || errors.Is(err, store.ErrInvalid) {
 			return problem(CodeInvalidParameter, "%v", err).withCause(err).withStatus(http.StatusUnprocessableEntity)
 		}
+		if errors.Is(err, store.ErrConflict) && in.ID != "" && store.DetailOf(err) != "" {
+			// The database's constraint text stays in the log (h logs the detail).
+			return problem(CodeConflict, "a dataset with id %q already exists", in.ID).withParam("id").withCause(err)
+		}
 		return err
 	}
 	w.Header().Set("Location", s.baseURL(r)+"/api/datasets/"+d.ID)

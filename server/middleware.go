@@ -137,18 +137,24 @@ func (s *server) bodyLimit(n int64) func(http.Handler) http.Handler {
 	}
 }
 
-// rateLimit allows RateLimitPerMinute×mult requests per client IP per minute.
+// rateLimit allows RateLimitPerMinute×mult requests per client IP per minute. The API's
+// limiter (mult 1) keeps its counter in s.apiCounter, which charge adds the cost of heavy
+// requests to (windows aligned to the wall clock's minutes, as charge computes them).
 func (s *server) rateLimit(mult int) func(http.Handler) http.Handler {
 	n := s.deps.Config.RateLimitPerMinute
 	if n < 0 {
 		return func(next http.Handler) http.Handler { return next }
 	}
+	counter := httprate.NewLocalLimitCounter(time.Minute)
+	if mult == 1 {
+		s.apiCounter = counter
+	}
 	return httprate.LimitBy(n*mult, time.Minute, func(r *http.Request) (string, error) {
-		return httprate.CanonicalizeIP(s.clientAddr(r)), nil
-	}, httprate.WithLimitHandler(func(w http.ResponseWriter, r *http.Request) {
+		return s.clientKey(r), nil
+	}, httprate.WithLimitCounter(counter), httprate.WithLimitHandler(func(w http.ResponseWriter, r *http.Request) {
 		lim := int64(n * mult)
 		writeProblem(w, r, limitProblem(http.StatusTooManyRequests, "requests_per_minute", lim,
-			"more than %d requests per minute from this address", lim).withCode(CodeRateLimited))
+			"more than %d requests per minute from this address (an area question counts one per %d values, cells × parameters)", lim, s.limits.ValuesPerRequest).withCode(CodeRateLimited))
 	}))
 }
 
@@ -164,7 +170,7 @@ func (s *server) corsMiddleware() func(http.Handler) http.Handler {
 		AllowedOrigins:   s.deps.Config.CORSOrigins,
 		AllowedMethods:   []string{"GET", "HEAD", "POST", "PUT", "DELETE", "OPTIONS"},
 		AllowedHeaders:   []string{"Accept", "Authorization", "Content-Type", "If-Match", "If-None-Match", "X-Request-ID"},
-		ExposedHeaders:   []string{"ETag", "Location", "X-Request-ID", "Ridgeflank-Provenance", "Ridgeflank-Caution", "Ridgeflank-Colour-Scale", "Ridgeflank-Flag", "Ridgeflank-Repair"},
+		ExposedHeaders:   []string{"ETag", "Location", "X-Request-ID", "Ridgeflank-Provenance", "Ridgeflank-Caution", "Ridgeflank-Colour-Scale", "Ridgeflank-Flag", "Ridgeflank-Repair", "Ridgeflank-Resolution-Note"},
 		AllowCredentials: false,
 		MaxAge:           600,
 	})
@@ -271,4 +277,33 @@ func (b *pacedBody) Close() error { return b.rc.Close() }
 func isTimeout(err error) bool {
 	var ne net.Error
 	return errors.As(err, &ne) && ne.Timeout()
+}
+
+// Header limits. Go's server refuses a request whose header block exceeds
+// http.Server.MaxHeaderBytes (plus its 4 KiB allowance) itself, answering a plain-text 431
+// before any handler runs (net/http writes it from the connection; no hook reaches it). So the
+// documented limit is MaxHeaderBytes, well below that hard limit, checked here and answered as
+// problem+json; only a header block over HardMaxHeaderBytes gets Go's own answer.
+const (
+	MaxHeaderBytes     = 64 << 10
+	HardMaxHeaderBytes = 1 << 20 // http.Server.MaxHeaderBytes (serve sets it)
+)
+
+// headerLimit answers 431 problem+json for a request whose header fields (names, values and
+// the request line) exceed MaxHeaderBytes.
+func headerLimit(next http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		n := len(r.Method) + len(r.RequestURI) + len(r.Proto) + 4
+		for k, vs := range r.Header {
+			for _, v := range vs {
+				n += len(k) + len(v) + 4 // ": " and CRLF
+			}
+		}
+		if n > MaxHeaderBytes {
+			writeProblem(w, r, limitProblem(http.StatusRequestHeaderFieldsTooLarge, "max_header_bytes", MaxHeaderBytes,
+				"the request's header fields are %d bytes; the limit is %d", n, MaxHeaderBytes))
+			return
+		}
+		next.ServeHTTP(w, r)
+	})
 }

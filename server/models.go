@@ -1,6 +1,8 @@
 package server
 
 import (
+	"encoding/json"
+	"errors"
 	"fmt"
 	"math"
 	"net/http"
@@ -78,9 +80,14 @@ func (s *server) getModel(w http.ResponseWriter, r *http.Request) error {
 // createModel stores a custom parameter set (thermal.Params as JSON). Its id
 // must not collide with a built-in model.
 func (s *server) createModel(w http.ResponseWriter, r *http.Request) error {
-	var p thermal.Params
-	if err := decodeJSON(r, &p); err != nil {
+	var raw json.RawMessage
+	if err := decodeJSON(r, &raw); err != nil {
 		return err
+	}
+	// An optional field given as 0 is refused, not taken for absent (thermal.DecodeParams).
+	p, decodeErr := thermal.DecodeParams(raw)
+	if decodeErr != nil && !errors.Is(decodeErr, thermal.ErrInvalidParams) {
+		return problem(CodeBadRequest, "the JSON body could not be read: %v", decodeErr).withCause(decodeErr)
 	}
 	p.ID = strings.TrimSpace(p.ID)
 	if !validID(p.ID) {
@@ -89,7 +96,7 @@ func (s *server) createModel(w http.ResponseWriter, r *http.Request) error {
 	if isBuiltin(p.ID) {
 		return problem(CodeConflict, "%q is a built-in model id", p.ID)
 	}
-	if err := evaluate.CheckModel(p); err != nil {
+	if err := evaluate.CheckModel(p, decodeErr); err != nil {
 		return err
 	}
 	if err := s.saveCustomModel(r.Context(), p); err != nil {

@@ -20,8 +20,16 @@ import (
 	"ridgeflank/store"
 )
 
-// maxFormFieldBytes bounds each non-file multipart field.
-const maxFormFieldBytes = 4096
+// Limits of the non-file fields of a grid upload (the form has ten known fields, each a
+// short text; common practice, no source). The file part is bounded by MaxUploadBytes only.
+const (
+	// maxFormFieldBytes bounds each non-file multipart field.
+	maxFormFieldBytes = 4096
+	// maxFormFields bounds the number of non-file fields.
+	maxFormFields = 32
+	// maxFormFieldsBytes bounds the non-file fields together (names and values).
+	maxFormFieldsBytes = 64 << 10
+)
 
 // uploadGrid streams a multipart upload (field "file" plus fields kind and
 // optional id, name, units, vertical (older name vertical_sense),
@@ -57,6 +65,7 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 	args := jobs.ImportArgs{}
 	fields := map[string]string{}
 	var tmpPath string
+	nFields, fieldBytes := 0, 0
 	defer func() {
 		if tmpPath != "" {
 			os.Remove(tmpPath) // only reached on failure: success clears tmpPath
@@ -100,12 +109,18 @@ func (s *server) uploadGrid(w http.ResponseWriter, r *http.Request) error {
 			args.Filename = filepath.Base(part.FileName())
 			continue
 		}
+		if nFields++; nFields > maxFormFields {
+			return limitProblem(http.StatusRequestEntityTooLarge, "max_form_fields", maxFormFields, "the form has more than %d fields besides \"file\"", maxFormFields)
+		}
 		v, err := io.ReadAll(io.LimitReader(part, maxFormFieldBytes+1))
 		if err != nil {
 			return badBodyRead(err)
 		}
 		if len(v) > maxFormFieldBytes {
 			return limitProblem(http.StatusRequestEntityTooLarge, "max_form_field_bytes", maxFormFieldBytes, "form field %q is longer than %d bytes", name, maxFormFieldBytes)
+		}
+		if fieldBytes += len(name) + len(v); fieldBytes > maxFormFieldsBytes {
+			return limitProblem(http.StatusRequestEntityTooLarge, "max_form_fields_bytes", maxFormFieldsBytes, "the form's fields besides \"file\" are longer than %d bytes together", maxFormFieldsBytes)
 		}
 		fields[name] = strings.TrimSpace(string(v))
 	}
@@ -211,6 +226,13 @@ func uploadRequest(a jobs.ImportArgs) ingest.Request {
 // implausible values, id conflict) fails the job for good with the fault recorded; other
 // failures are retried.
 func ImportWorker(st store.Store, log *slog.Logger) func(ctx context.Context, a jobs.ImportArgs, progress jobs.Progress) (any, error) {
+	return ImportWorkerMaxCells(st, log, 0)
+}
+
+// ImportWorkerMaxCells is ImportWorker refusing files that declare more than maxCells cells
+// (ingest.Request.MaxCells; 0: ingest.DefaultMaxImportCells), the serve --max-import-cells
+// setting.
+func ImportWorkerMaxCells(st store.Store, log *slog.Logger, maxCells int64) func(ctx context.Context, a jobs.ImportArgs, progress jobs.Progress) (any, error) {
 	if log == nil {
 		log = slog.New(slog.DiscardHandler)
 	}
@@ -240,7 +262,9 @@ func ImportWorker(st store.Store, log *slog.Logger) func(ctx context.Context, a 
 				}
 			}
 		}
-		res, err := ingest.Import(ctx, st, uploadRequest(a), progress)
+		req := uploadRequest(a)
+		req.MaxCells = maxCells
+		res, err := ingest.Import(ctx, st, req, progress)
 		if err != nil {
 			if _, ok := fault.As(err); ok {
 				remove()

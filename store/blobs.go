@@ -284,7 +284,10 @@ func (g *GridFiles) Sweep(ctx context.Context, catalogueID string, referenced fu
 	var keys []string
 	for _, e := range entries {
 		name := e.Name()
-		if strings.HasPrefix(name, tmpPrefix) && e.Type().IsRegular() {
+		// The temporary names writers make of a temporary file (geo/gdal's atomic write:
+		// "..tmp-x.tif.tmp-PID-N.tif") and GDAL's side files of a COG being written
+		// (name.ovr.tmp, name.msk.ovr.tmp) go too: the lock says no import is writing.
+		if (strings.HasPrefix(name, tmpPrefix) || strings.HasPrefix(name, "."+tmpPrefix) || strings.HasSuffix(name, ".ovr.tmp")) && e.Type().IsRegular() {
 			if err := os.Remove(filepath.Join(g.dir, name)); err != nil && !errors.Is(err, fs.ErrNotExist) {
 				return removed, err
 			}

@@ -33,3 +33,29 @@ type chainedError struct {
 
 func (e *chainedError) Error() string { return e.msg }
 func (e *chainedError) Unwrap() error { return e.parent }
+
+// dbError is a sentinel error with a clean message for answers and the database's own text
+// (constraint names, SQL) kept aside for the log: Error() never shows the detail.
+type dbError struct {
+	sentinel error
+	msg      string
+	detail   error
+}
+
+func (e *dbError) Error() string   { return e.sentinel.Error() + ": " + e.msg }
+func (e *dbError) Unwrap() []error { return []error{e.sentinel, e.detail} }
+
+// WithDetail wraps sentinel (ErrConflict, ErrInvalid…) with a message fit for answers, keeping
+// the database's error detail only for DetailOf (the log). errors.Is finds both.
+func WithDetail(sentinel error, msg string, detail error) error {
+	return &dbError{sentinel: sentinel, msg: msg, detail: detail}
+}
+
+// DetailOf returns the database detail err carries (see WithDetail), or "".
+func DetailOf(err error) string {
+	var d *dbError
+	if errors.As(err, &d) && d.detail != nil {
+		return d.detail.Error()
+	}
+	return ""
+}

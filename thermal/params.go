@@ -1,6 +1,8 @@
 package thermal
 
 import (
+	"bytes"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
@@ -359,4 +361,42 @@ func NewModel(p Params) (Model, error) {
 	default:
 		return newPlate(p), nil
 	}
+}
+
+// DecodeParams reads a parameter set from JSON (unknown fields refused) and tells an absent
+// optional field from one given as 0: diffusivity_m2_s and heat_capacity_j_kg_k may be left out
+// (the other is then used, see Params), but a 0 given for either is a value outside its range
+// and is refused as Validate refuses every out-of-range value (a ParamErrors naming the field).
+// It does not call Validate.
+func DecodeParams(data []byte) (Params, error) {
+	var in struct {
+		Params
+		DiffusivityM2s   *float64 `json:"diffusivity_m2_s"`
+		HeatCapacityJkgK *float64 `json:"heat_capacity_j_kg_k"`
+	}
+	dec := json.NewDecoder(bytes.NewReader(data))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(&in); err != nil {
+		return Params{}, err
+	}
+	p := in.Params
+	var errs ParamErrors
+	for _, f := range []struct {
+		r paramRange
+		v *float64
+		t *float64
+	}{{rangeDiffusivity, in.DiffusivityM2s, &p.DiffusivityM2s}, {rangeHeatCap, in.HeatCapacityJkgK, &p.HeatCapacityJkgK}} {
+		if f.v == nil {
+			continue
+		}
+		*f.t = *f.v
+		if *f.v == 0 {
+			errs = append(errs, &ParamError{Field: f.r.field, Value: 0, Msg: fmt.Sprintf(
+				"%s = 0 is outside the allowed range %g to %g %s (leave the field out to have it derived)", f.r.field, f.r.min, f.r.max, f.r.unit)})
+		}
+	}
+	if len(errs) > 0 {
+		return p, errs
+	}
+	return p, nil
 }

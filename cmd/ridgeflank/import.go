@@ -66,6 +66,7 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	registration := fs.String("registration", "", "override the file's registration: cell-centre or node")
 	provenance := fs.String("provenance", "", "where the data come from (default: the file name and its source attribute)")
 	licence := fs.String("licence", "", "licence of the data")
+	maxCells := fs.Int64("max-import-cells", ingest.DefaultMaxImportCells, "largest grid accepted, in cells declared by the file (checked before reading)")
 	var loc dbLocationFlags
 	loc.define(fs)
 	if err := parseFlags(ctx, importCmd, fs, args, stdout, true); err != nil {
@@ -77,6 +78,7 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	req := ingest.Request{
 		Path: fs.Arg(0), Variable: *variable, Kind: store.GridKind(*kind), Units: *units, Vertical: *vertical,
 		Registration: *registration, ID: *id, Name: *name, Provenance: *provenance, Licence: *licence,
+		MaxCells: *maxCells,
 	}
 	if err := req.Check(); err != nil {
 		return err

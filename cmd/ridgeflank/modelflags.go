@@ -56,11 +56,13 @@ func (m *modelFlags) model() (thermal.Model, error) {
 	if buf.Len() > maxParamsKB*1024 {
 		return nil, usagef("the parameter file %s is larger than %d KB", m.paramsPath, maxParamsKB)
 	}
-	dec := json.NewDecoder(&buf)
-	dec.DisallowUnknownFields()
-	var p thermal.Params
-	if err := dec.Decode(&p); err != nil {
+	// An optional field given as 0 is refused, not taken for absent (the API's rule).
+	p, err := thermal.DecodeParams(buf.Bytes())
+	if err != nil && !errors.Is(err, thermal.ErrInvalidParams) {
 		return nil, usagef("the parameter file %s is not valid parameter JSON: %v", m.paramsPath, err)
+	}
+	if err != nil {
+		return nil, usagef("the parameter file %s: %v", m.paramsPath, err)
 	}
 	mod, err := thermal.NewModel(p)
 	if err != nil {

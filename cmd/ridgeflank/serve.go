@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"ridgeflank/demobasin"
+	"ridgeflank/ingest"
 	"ridgeflank/jobs"
 	"ridgeflank/jobs/queue"
 	"ridgeflank/server"
@@ -93,6 +94,7 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	trustedProxies := fs.String("trusted-proxies", "", "comma-separated addresses or CIDR prefixes of reverse proxies whose X-Forwarded-For/Forwarded headers name the client (rate limits, access log); empty: the connection's peer is the client")
 	logFormat := fs.String("log-format", "text", "log format: text or json")
 	logLevel := fs.String("log-level", "info", "log level: debug, info, warn or error")
+	maxImportCells := fs.Int64("max-import-cells", ingest.DefaultMaxImportCells, "largest grid an import accepts, in cells declared by the file (checked before reading)")
 	budgetText := fs.String("memory-budget", "512MiB", "memory kept between requests: decoded grid blocks and GDAL's block cache together (e.g. 512MiB, 2GB)")
 	minFreeText := fs.String("min-free-grid-space", "256MiB", "free space the grid directory keeps: below it /readyz is not ready and uploads answer 507 (0 disables)")
 	if err := parseFlags(ctx, serveCmd, fs, args, stdout, false); err != nil {
@@ -164,7 +166,7 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	log.Info("memory budget", "bytes", budget)
 
 	// The durable job queue, in the store's database.
-	handlers := jobs.Handlers{Import: server.ImportWorker(st, log), Export: server.ExportWorker(deps), Calibrate: server.CalibrationWorker(deps), Statistics: server.StatisticsWorker(deps)}
+	handlers := jobs.Handlers{Import: server.ImportWorkerMaxCells(st, log, *maxImportCells), Export: server.ExportWorker(deps), Calibrate: server.CalibrationWorker(deps), Statistics: server.StatisticsWorker(deps)}
 	qopts := queue.Options{Logger: log.With("component", "jobs")}
 	q, err := queue.Open(ctx, st, handlers, qopts)
 	if err != nil {
@@ -184,6 +186,41 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	if err := q.Migrate(ctx); err != nil {
 		return fmt.Errorf("job queue migrations: %w", err)
 	}
+	// Uploads no import job names: at start on the embedded store (one process, nothing being
+	// streamed yet) whatever their age, else and then periodically those older than
+	// server.UploadSweepAge.
+	sweepUploads := func(minAge time.Duration) {
+		inUse, err := q.ImportPaths(ctx)
+		if err != nil {
+			log.Warn("listing import jobs for the upload sweep", "err", err)
+			return
+		}
+		if n, err := server.SweepUploads(deps.Config.UploadDir, inUse, minAge); err != nil {
+			log.Warn("sweeping abandoned uploads", "err", err)
+		} else if n > 0 {
+			log.Info("removed abandoned uploads", "count", n)
+		}
+	}
+	if st.Backend() == store.BackendSQLite {
+		sweepUploads(0)
+	} else {
+		sweepUploads(server.UploadSweepAge)
+	}
+	go func() {
+		tick := time.NewTicker(server.UploadSweepAge / 4)
+		defer tick.Stop()
+		for {
+			select {
+			case <-ctx.Done():
+				return
+			case <-tick.C:
+				sweepUploads(server.UploadSweepAge)
+				if _, err := server.SweepExports(deps.Config.ExportDir); err != nil {
+					log.Warn("sweeping old export files", "err", err)
+				}
+			}
+		}
+	}()
 
 	if !*noDemo && st.Backend() == store.BackendSQLite {
 		if err := loadDemoIfEmpty(ctx, st, stdout); err != nil {
@@ -208,6 +245,7 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	srv := &http.Server{
 		Handler:           server.New(deps),
 		ReadHeaderTimeout: 10 * time.Second,
+		MaxHeaderBytes:    server.HardMaxHeaderBytes, // server.MaxHeaderBytes is answered as problem+json below it
 		IdleTimeout:       2 * time.Minute,
 		BaseContext:       func(net.Listener) context.Context { return context.WithoutCancel(ctx) },
 	}

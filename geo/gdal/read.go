@@ -703,3 +703,20 @@ func (d *Dataset) closeRaw(h C.GDALDatasetH) error {
 	C.rf_close(h, &e)
 	return cErr(&e, "close grid "+d.path)
 }
+
+// BlockBytes is the size in bytes of one block of the band as stored (block width × height ×
+// bytes per cell, GDALGetBlockSize): GDAL decodes whole blocks, so reading any cell of a file
+// whose blocks are huge (one compressed 16000 × 16000 strip) needs that much memory, whatever
+// its cache size (a block larger than the cache is still held while it is read).
+func (d *Dataset) BlockBytes() int64 {
+	d.lock()
+	defer d.unlock()
+	band := C.GDALGetRasterBand(d.h, C.int(d.band))
+	if band == nil {
+		return 0
+	}
+	var bx, by C.int
+	C.GDALGetBlockSize(band, &bx, &by)
+	size := C.GDALGetDataTypeSizeBytes(C.GDALGetRasterDataType(band))
+	return int64(bx) * int64(by) * int64(size)
+}

@@ -205,11 +205,11 @@ func mapErr(err error) error {
 	if errors.As(err, &pe) {
 		switch pe.Code {
 		case "23505": // unique_violation
-			return fmt.Errorf("%w: already exists (%s)", store.ErrConflict, pe.Message)
+			return store.WithDetail(store.ErrConflict, "already exists", err)
 		case "23503": // foreign_key_violation
-			return fmt.Errorf("%w: still referenced or refers to a missing row (%s)", store.ErrConflict, pe.Message)
+			return store.WithDetail(store.ErrConflict, "still referenced or refers to a missing row", err)
 		case "23514", "23502", "22P02": // check, not null, invalid text representation
-			return fmt.Errorf("%w: %s", store.ErrInvalid, pe.Message)
+			return store.WithDetail(store.ErrInvalid, "a value breaks a rule of the store", err)
 		}
 	}
 	return err

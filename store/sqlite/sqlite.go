@@ -230,11 +230,11 @@ func mapErr(err error) error {
 		}
 		switch code {
 		case sqlite3.SQLITE_CONSTRAINT_PRIMARYKEY, sqlite3.SQLITE_CONSTRAINT_UNIQUE:
-			return fmt.Errorf("%w: already exists (%v)", store.ErrConflict, err)
+			return store.WithDetail(store.ErrConflict, "already exists", err)
 		case sqlite3.SQLITE_CONSTRAINT_FOREIGNKEY:
-			return fmt.Errorf("%w: still referenced or refers to a missing row (%v)", store.ErrConflict, err)
+			return store.WithDetail(store.ErrConflict, "still referenced or refers to a missing row", err)
 		case sqlite3.SQLITE_CONSTRAINT_CHECK, sqlite3.SQLITE_CONSTRAINT_NOTNULL:
-			return fmt.Errorf("%w: %v", store.ErrInvalid, err)
+			return store.WithDetail(store.ErrInvalid, "a value breaks a rule of the store", err)
 		}
 		switch code & 0xff {
 		case sqlite3.SQLITE_BUSY, sqlite3.SQLITE_LOCKED:

@@ -378,11 +378,18 @@ func testGridCrash(t *testing.T, open Opener) {
 	}
 	setUp := 2
 	if _, local := s.Blobs().(*store.GridFiles); local {
-		tmp := filepath.Join(gf(t, s).Dir(), ".tmp-interrupted.tif")
-		if err := os.WriteFile(tmp, []byte("half"), 0o644); err != nil {
-			t.Fatal(err)
+		dir := gf(t, s).Dir()
+		tmp := filepath.Join(dir, ".tmp-interrupted.tif")
+		// an interrupted write, GDAL's side files of a COG being written when the process died
+		// (name.ovr.tmp), and geo/gdal's atomic write's temporary file (found by jobs/queue's
+		// kill test)
+		for _, side := range []string{tmp, tmp + ".ovr.tmp", filepath.Join(dir, "0123abcd.tif.msk.ovr.tmp"),
+			filepath.Join(dir, "..tmp-interrupted.tif.tmp-1234-1.tif")} {
+			if err := os.WriteFile(side, []byte("half"), 0o644); err != nil {
+				t.Fatal(err)
+			}
+			setUp++
 		}
-		setUp++
 	}
 	if files := gridDirFiles(t, s); len(files) != setUp {
 		t.Fatalf("set-up: grid directory holds %v", files)
