@@ -67,10 +67,12 @@ type Params struct {
 	// ConductivityWmK is the thermal conductivity k (W/m/K).
 	ConductivityWmK float64 `json:"conductivity_w_m_k"`
 	// DiffusivityM2s is the thermal diffusivity κ (m²/s); 0 to derive it from
-	// the heat capacity.
-	DiffusivityM2s float64 `json:"diffusivity_m2_s"`
-	// HeatCapacityJkgK is the specific heat capacity cp (J/kg/K).
-	HeatCapacityJkgK float64 `json:"heat_capacity_j_kg_k"`
+	// the heat capacity (0 is left out of JSON, and a 0 given in JSON is refused by
+	// DecodeParams, so a parameter set written out reads back as it was).
+	DiffusivityM2s float64 `json:"diffusivity_m2_s,omitempty"`
+	// HeatCapacityJkgK is the specific heat capacity cp (J/kg/K); 0 (not given) is left
+	// out of JSON like DiffusivityM2s.
+	HeatCapacityJkgK float64 `json:"heat_capacity_j_kg_k,omitempty"`
 	// MantleDensityKgM3 is the mantle density ρm at the mantle temperature (kg/m³).
 	MantleDensityKgM3 float64 `json:"mantle_density_kg_m3"`
 	// WaterDensityKgM3 is the density of sea water ρw (kg/m³).

@@ -1,6 +1,7 @@
 package thermal
 
 import (
+	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
@@ -91,5 +92,37 @@ func TestThermalThicknessDefinition(t *testing.T) {
 				t.Errorf("T = %g is 0.9 Tm, not Ts + 0.9 (Tm − Ts)", got)
 			}
 		})
+	}
+}
+
+// A parameter set written as JSON reads back through DecodeParams unchanged, for every
+// built-in model and for one whose diffusivity is derived from its heat capacity (the
+// written form leaves the derived value out; a 0 written would be refused as given).
+func TestParamsJSONRoundTrip(t *testing.T) {
+	var sets []Params
+	for _, id := range BuiltinIDs() {
+		m, err := Builtin(id)
+		if err != nil {
+			t.Fatal(err)
+		}
+		sets = append(sets, m.Params())
+	}
+	m, _ := Builtin(IDGDH1)
+	derived := m.Params()
+	derived.ID, derived.DiffusivityM2s = "derived-kappa", 0
+	sets = append(sets, derived)
+	for _, p := range sets {
+		raw, err := json.Marshal(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		got, err := DecodeParams(raw)
+		if err != nil {
+			t.Errorf("%s: its own JSON is refused: %v\n%s", p.ID, err, raw)
+			continue
+		}
+		if got != p {
+			t.Errorf("%s: read back %+v, wrote %+v", p.ID, got, p)
+		}
 	}
 }
