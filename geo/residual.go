@@ -1043,37 +1043,15 @@ type sedKey struct {
 	rm, rw float64
 }
 
-var sedTables struct {
-	sync.Mutex
-	m map[sedKey]*sedTable
-}
-
 // maxSedTables bounds the cache of sediment correctors (one per law and pair of densities,
 // about 300 KiB each with their node tables): at most about 10 MiB.
 const maxSedTables = 32
 
+var sedTables = newTableCache[sedKey, *sedTable](maxSedTables)
+
 // sedTableFor returns the (cached) sediment table of a compaction law and densities.
 func sedTableFor(c thermal.Compaction, rm, rw float64) (*sedTable, error) {
-	key := sedKey{c, rm, rw}
-	sedTables.Lock()
-	t, ok := sedTables.m[key]
-	sedTables.Unlock()
-	if ok {
-		return t, nil
-	}
-	t, err := newSedTable(c, rm, rw)
-	if err != nil {
-		return nil, err
-	}
-	sedTables.Lock()
-	if sedTables.m == nil {
-		sedTables.m = make(map[sedKey]*sedTable)
-	}
-	if len(sedTables.m) < maxSedTables {
-		sedTables.m[key] = t
-	}
-	sedTables.Unlock()
-	return t, nil
+	return sedTables.get(sedKey{c, rm, rw}, func() (*sedTable, error) { return newSedTable(c, rm, rw) })
 }
 
 // newSedTable builds the sediment corrector of a compaction law and densities and its node

@@ -135,40 +135,23 @@ type ridgePushTable struct {
 
 const ridgePushIntervals = 512
 
-var ridgePushTables struct {
-	sync.Mutex
-	m map[thermal.Params]*ridgePushTable
-}
+var ridgePushTables = newTableCache[thermal.Params, *ridgePushTable](thermal.MaxCachedTables)
 
 // ridgePushTableFor returns the cached table of m (built on first use: 513 evaluations of
 // thermal.RidgePushNPerM, a few tens of milliseconds for a plate model; at most
 // thermal.MaxCachedTables are kept).
 func ridgePushTableFor(m thermal.Model) *ridgePushTable {
-	key := m.Params()
-	ridgePushTables.Lock()
-	t, ok := ridgePushTables.m[key]
-	ridgePushTables.Unlock()
-	if ok {
+	return ridgePushTables.must(m.Params(), func() *ridgePushTable {
+		smax := math.Sqrt(thermal.TableMaxAgeMa)
+		t := &ridgePushTable{m: m, invH: ridgePushIntervals / smax, y: make([]float64, ridgePushIntervals+1)}
+		for i := range t.y {
+			s := smax * float64(i) / ridgePushIntervals
+			t.y[i] = thermal.RidgePushNPerM(m, s*s)
+		}
 		return t
-	}
-	smax := math.Sqrt(thermal.TableMaxAgeMa)
-	t = &ridgePushTable{m: m, invH: ridgePushIntervals / smax, y: make([]float64, ridgePushIntervals+1)}
-	for i := range t.y {
-		s := smax * float64(i) / ridgePushIntervals
-		t.y[i] = thermal.RidgePushNPerM(m, s*s)
-	}
-	ridgePushTables.Lock()
-	if ridgePushTables.m == nil {
-		ridgePushTables.m = make(map[thermal.Params]*ridgePushTable)
-	}
-	if len(ridgePushTables.m) < thermal.MaxCachedTables {
-		ridgePushTables.m[key] = t
-	}
-	ridgePushTables.Unlock()
-	return t
+	})
 }
 
-// at is the ridge push (N/m) at ageMa: NaN for NaN or negative ages.
 func (t *ridgePushTable) at(ageMa float64) float64 {
 	if !(ageMa >= 0) {
 		return math.NaN()
@@ -323,10 +306,7 @@ const spreadIntervals = 512
 
 const maxSpreadTables = 32
 
-var spreadTables struct {
-	sync.Mutex
-	m map[spreadKey]*spreadTable
-}
+var spreadTables = newTableCache[spreadKey, *spreadTable](maxSpreadTables)
 
 type spreadKey struct {
 	p     thermal.Params
@@ -337,23 +317,7 @@ type spreadKey struct {
 // (finite), built on first use (about a millisecond); at most maxSpreadTables (of 280 KiB)
 // are kept.
 func spreadTableFor(m thermal.Model, tbl *thermal.Table, sigmaMa float64) *spreadTable {
-	key := spreadKey{m.Params(), sigmaMa}
-	spreadTables.Lock()
-	t, ok := spreadTables.m[key]
-	spreadTables.Unlock()
-	if ok {
-		return t
-	}
-	t = newSpreadTable(tbl, sigmaMa)
-	spreadTables.Lock()
-	if spreadTables.m == nil {
-		spreadTables.m = make(map[spreadKey]*spreadTable)
-	}
-	if len(spreadTables.m) < maxSpreadTables {
-		spreadTables.m[key] = t
-	}
-	spreadTables.Unlock()
-	return t
+	return spreadTables.must(spreadKey{m.Params(), sigmaMa}, func() *spreadTable { return newSpreadTable(tbl, sigmaMa) })
 }
 
 func newSpreadTable(tbl *thermal.Table, sigmaMa float64) *spreadTable {
@@ -557,10 +521,7 @@ const maxSigmaRows = 4096
 // sigmaRow is the sampled depth uncertainty at x = i/spreadIntervals/SamplingRatio, i = 0..spreadIntervals.
 type sigmaRow [spreadIntervals + 1]float32
 
-var sigmaRows struct {
-	sync.Mutex
-	m map[sigmaRowKey]*sigmaRow
-}
+var sigmaRows = newTableCache[sigmaRowKey, *sigmaRow](maxSigmaRows)
 
 type sigmaRowKey struct {
 	p      thermal.Params
@@ -584,26 +545,15 @@ func (g *sigmaGrid) row(k uint32) *sigmaRow {
 	if r := g.rows[k].Load(); r != nil {
 		return r
 	}
-	key := sigmaRowKey{g.params, k}
-	sigmaRows.Lock()
-	r, ok := sigmaRows.m[key]
-	sigmaRows.Unlock()
-	if !ok {
-		r = new(sigmaRow)
+	r := sigmaRows.must(sigmaRowKey{g.params, k}, func() *sigmaRow {
+		r := new(sigmaRow)
 		s := float64(math.Float32frombits(k << sigmaBucketShift))
 		for i := range r {
 			x := float64(i) / spreadIntervals / SamplingRatio
 			r[i] = float32(sampledSpread(g.tbl.DepthM, x*s, s))
 		}
-		sigmaRows.Lock()
-		if sigmaRows.m == nil {
-			sigmaRows.m = make(map[sigmaRowKey]*sigmaRow)
-		}
-		if len(sigmaRows.m) < maxSigmaRows {
-			sigmaRows.m[key] = r
-		}
-		sigmaRows.Unlock()
-	}
+		return r
+	})
 	g.rows[k].Store(r)
 	return r
 }
