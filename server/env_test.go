@@ -85,27 +85,7 @@ func newEnvLimits(t testing.TB, backend string, cfg Config, limits Limits) *env 
 		cfg.RateLimitPerMinute = -1
 	}
 	deps := Deps{Store: e.st, Version: "test", Config: cfg, Assets: testAssets(), Limits: limits}
-	h := jobs.Handlers{Import: ImportWorker(e.st, nil), Export: ExportWorker(deps), Calibrate: CalibrationWorker(deps), Statistics: StatisticsWorker(deps)}
-	e.q, err = queue.Open(ctx, e.st, h, queue.Options{Workers: 1, PollInterval: 100 * time.Millisecond})
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { e.q.Close() })
-	if err := e.q.Migrate(ctx); err != nil {
-		t.Fatal(err)
-	}
-	if err := e.q.Start(ctx); err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() {
-		c, cancel := context.WithTimeout(context.Background(), 5*time.Second)
-		defer cancel()
-		_ = e.q.Stop(c)
-	})
-	deps.Jobs = e.q
-	e.handler = New(deps)
-	e.ts = httptest.NewServer(e.handler)
-	t.Cleanup(e.ts.Close)
+	e.serve(t, deps, 1)
 	return e
 }
 
@@ -320,3 +300,33 @@ func checkProblem(t testing.TB, raw []byte, status int) {
 }
 
 func nopLogger() *slog.Logger { return slog.New(slog.DiscardHandler) }
+
+// serve starts e's job queue on deps.Store with the service's workers (workers at a time;
+// 0 runs none, for a replica that only takes requests) and e's handler and test server on
+// deps, all stopped when the test ends.
+func (e *env) serve(t testing.TB, deps Deps, workers int) {
+	t.Helper()
+	ctx := context.Background()
+	h := jobs.Handlers{Import: ImportWorker(deps.Store, nil), Export: ExportWorker(deps), Calibrate: CalibrationWorker(deps), Statistics: StatisticsWorker(deps)}
+	q, err := queue.Open(ctx, deps.Store, h, queue.Options{Workers: workers, PollInterval: 100 * time.Millisecond})
+	if err != nil {
+		t.Fatal(err)
+	}
+	e.q = q
+	t.Cleanup(func() { q.Close() })
+	if err := q.Migrate(ctx); err != nil {
+		t.Fatal(err)
+	}
+	if err := q.Start(ctx); err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() {
+		c, cancel := context.WithTimeout(context.Background(), 5*time.Second)
+		defer cancel()
+		_ = q.Stop(c)
+	})
+	deps.Jobs = q
+	e.handler = New(deps)
+	e.ts = httptest.NewServer(e.handler)
+	t.Cleanup(e.ts.Close)
+}

@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"log/slog"
 	"mime/multipart"
-	"net/http/httptest"
 	"net/url"
 	"os"
 	"path/filepath"
@@ -17,8 +16,6 @@ import (
 	"ridgeflank/evaluate"
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
-	"ridgeflank/jobs"
-	"ridgeflank/jobs/queue"
 	"ridgeflank/store"
 	"ridgeflank/store/pgtest"
 )
@@ -38,26 +35,7 @@ func instance(t *testing.T, dbURL, dataDir, editor string, datasetTTL time.Durat
 	deps := Deps{Store: st, Version: "test", Assets: testAssets(),
 		Config: Config{RateLimitPerMinute: -1, UploadDir: filepath.Join(own, "uploads"), ExportDir: filepath.Join(own, "exports")}}
 	deps.Evaluate = evaluate.New(evaluate.Config{Store: st, Version: deps.Version, DatasetTTL: datasetTTL})
-	h := jobs.Handlers{Import: ImportWorker(st, nil), Export: ExportWorker(deps), Calibrate: CalibrationWorker(deps), Statistics: StatisticsWorker(deps)}
-	if e.q, err = queue.Open(ctx, st, h, queue.Options{Workers: 1, PollInterval: 100 * time.Millisecond}); err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { e.q.Close() })
-	if err := e.q.Migrate(ctx); err != nil {
-		t.Fatal(err)
-	}
-	if err := e.q.Start(ctx); err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() {
-		c, cancel := context.WithTimeout(context.Background(), 5*time.Second)
-		defer cancel()
-		_ = e.q.Stop(c)
-	})
-	deps.Jobs = e.q
-	e.handler = New(deps)
-	e.ts = httptest.NewServer(e.handler)
-	t.Cleanup(e.ts.Close)
+	e.serve(t, deps, 1)
 	return e
 }
 

@@ -4,17 +4,13 @@ import (
 	"bytes"
 	"context"
 	"mime/multipart"
-	"net/http/httptest"
 	"os"
 	"path/filepath"
 	"testing"
-	"time"
 
 	"ridgeflank/demobasin"
 	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
-	"ridgeflank/jobs"
-	"ridgeflank/jobs/queue"
 	"ridgeflank/store"
 	"ridgeflank/store/pgtest"
 	_ "ridgeflank/store/s3blob" // the s3:// grid store
@@ -37,27 +33,7 @@ func newReplica(t *testing.T, cfg store.Config, workers int, limits Limits) (*en
 	e := &env{t: t, backend: st.Backend(), st: st, dataset: demobasin.DatasetID}
 	c := Config{UploadDir: filepath.Join(dir, "uploads"), ExportDir: filepath.Join(dir, "exports"), RateLimitPerMinute: -1}
 	deps := Deps{Store: st, Version: "test", Config: c, Assets: testAssets(), Limits: limits}
-	h := jobs.Handlers{Import: ImportWorker(st, nil), Export: ExportWorker(deps), Calibrate: CalibrationWorker(deps), Statistics: StatisticsWorker(deps)}
-	e.q, err = queue.Open(ctx, st, h, queue.Options{Workers: workers, PollInterval: 100 * time.Millisecond})
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { e.q.Close() })
-	if err := e.q.Migrate(ctx); err != nil {
-		t.Fatal(err)
-	}
-	if err := e.q.Start(ctx); err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() {
-		c, cancel := context.WithTimeout(context.Background(), 5*time.Second)
-		defer cancel()
-		_ = e.q.Stop(c)
-	})
-	deps.Jobs = e.q
-	e.handler = New(deps)
-	e.ts = httptest.NewServer(e.handler)
-	t.Cleanup(e.ts.Close)
+	e.serve(t, deps, workers)
 	return e, dir
 }
 
