@@ -443,6 +443,48 @@ func TestGridResample(t *testing.T) {
 			t.Errorf("got %d nodes %v", r.NX, r.Data)
 		}
 	})
+	t.Run("cell-centre blocks equal the weighted sums term by term", func(t *testing.T) {
+		// Σ w·v / Σ w over each 3×4 block with w the row's zone area (as above), summed row by
+		// row and cell by cell in reading order: the same float64 operations as the definition,
+		// so the same float32 answer, bit for bit, with NaN cells and a dropped partial block.
+		g := NewGrid(11, 13, -179.5, 80.5, 1, 1, CellCentre)
+		for i := range g.Data {
+			g.Data[i] = float32(math.Sin(float64(i)*0.37) * 1000)
+			if i%7 == 3 {
+				g.Data[i] = nan
+			}
+		}
+		r, err := g.Resample(3, 4)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if r.NX != 3 || r.NY != 3 {
+			t.Fatalf("shape %d×%d, want 3×3", r.NX, r.NY)
+		}
+		for R := range r.NY {
+			for C := range r.NX {
+				var sv, sw float64
+				for k := range 4 {
+					row := R*4 + k
+					lat := g.Lat(row)
+					w := math.Sin(math.Min(90, lat+0.5)*math.Pi/180) - math.Sin(math.Max(-90, lat-0.5)*math.Pi/180)
+					for j := range 3 {
+						if v := g.At(C*3+j, row); !isNaN32(v) {
+							sv += w * float64(v)
+							sw += w
+						}
+					}
+				}
+				want := float32(math.NaN())
+				if sw > 0 {
+					want = float32(sv / sw)
+				}
+				if got := r.At(C, R); math.Float32bits(got) != math.Float32bits(want) && !(isNaN32(got) && isNaN32(want)) {
+					t.Errorf("block (%d, %d): %v, want %v", C, R, got, want)
+				}
+			}
+		}
+	})
 	t.Run("spacing must be a whole multiple", func(t *testing.T) {
 		g := NewGrid(4, 4, 0.5, 3.5, 1, 1, CellCentre)
 		if _, err := g.Resample(1.5, 2); err == nil {
