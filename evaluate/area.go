@@ -213,7 +213,7 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 	if scan {
 		read |= roleScan
 	}
-	v, err := s.window(ctx, d, bound, plan.lvl, read)
+	v, coarsened, err := s.windowMean(ctx, d, bound, plan.lvl, read, plan.rx, plan.ry)
 	if err != nil {
 		if isEmptyWindow(err) {
 			b := age.Bounds()
@@ -223,6 +223,9 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 		return nil, err
 	}
 	rx, ry := plan.rx, plan.ry
+	if coarsened {
+		rx, ry = 1, 1 // read as block means already
+	}
 	coarsen := func(g *geo.Grid) (*geo.Grid, error) {
 		if rx > 1 || ry > 1 {
 			return g.Resample(float64(rx)*g.DX, float64(ry)*g.DY)

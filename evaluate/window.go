@@ -32,18 +32,35 @@ const (
 // level, with a margin of two of its cells so bilinear sampling at the window's edge has its
 // neighbours. This is the one place where a question chooses what to read.
 func (s *Service) window(ctx context.Context, d *Dataset, b orb.Bound, lvl int, want roles) (*Dataset, error) {
+	v, _, err := s.windowMean(ctx, d, b, lvl, want, 1, 1)
+	return v, err
+}
+
+// windowMean is window with the age grid and the grids on its lattice coarsened by whole
+// factors fx × fy as they are read (raster.File.WindowMean: geo.Grid.Resample's block means,
+// without holding the full-resolution window), when the age level is cell-centre registered;
+// coarsened reports whether it was (otherwise the grids are window's, for the caller to
+// Resample). Grids on other lattices are read as window reads them.
+func (s *Service) windowMean(ctx context.Context, d *Dataset, b orb.Bound, lvl int, want roles, fx, fy int) (_ *Dataset, coarsened bool, _ error) {
 	v := *d
 	v.Age, v.Depth, v.Sediment, v.Crust, v.AgeUncertainty = nil, nil, nil, nil, nil
 	age := d.Files.Age
+	coarsened = (fx > 1 || fy > 1) && lvl < len(age.Levels()) && age.Levels()[lvl].Grid.Registration == geo.CellCentre
 	read := func(f *raster.File, b orb.Bound, l int) (*geo.Grid, error) {
 		if want&roleScan != 0 {
 			return f.Scan(ctx, b, l)
 		}
 		return f.Window(ctx, b, l)
 	}
-	ag, err := read(age, b, lvl)
+	readAge := func(f *raster.File) (*geo.Grid, error) {
+		if coarsened {
+			return f.WindowMean(ctx, b, lvl, fx, fy, want&roleScan == 0)
+		}
+		return read(f, b, lvl)
+	}
+	ag, err := readAge(age)
 	if err != nil {
-		return nil, err
+		return nil, false, err
 	}
 	v.Age = ag
 	spacing := math.Max(age.Levels()[lvl].Grid.DX, age.Levels()[lvl].Grid.DY)
@@ -52,7 +69,7 @@ func (s *Service) window(ctx context.Context, d *Dataset, b orb.Bound, lvl int, 
 			return nil, nil
 		}
 		if sameFile(age, f) && lvl < len(f.Levels()) {
-			return read(f, b, lvl)
+			return readAge(f)
 		}
 		l := f.LevelFor(spacing, false)
 		g := f.Levels()[l].Grid
@@ -80,10 +97,10 @@ func (s *Service) window(ctx context.Context, d *Dataset, b orb.Bound, lvl int, 
 			continue
 		}
 		if *c.dst, err = companion(c.f); err != nil {
-			return nil, err
+			return nil, false, err
 		}
 	}
-	return &v, nil
+	return &v, coarsened, nil
 }
 
 // sameFile reports whether b's levels coincide with a's: the same full-resolution lattice and

@@ -761,32 +761,29 @@ func (g *Grid) Resample(dx, dy float64) (*Grid, error) {
 	if fx == 1 && fy == 1 {
 		return g.Clone(), nil
 	}
-	period := 0
-	if g.Registration == Node {
-		period = g.periodCols()
-		if period > 0 && period%fx != 0 {
-			period = 0 // cannot wrap evenly: treat as regional
+	if g.Registration == CellCentre {
+		m, err := NewBlockMean(g, fx, fy)
+		if err != nil {
+			return nil, err
 		}
+		m.AddRows(0, g.Data)
+		return m.Result(), nil
+	}
+	period := g.periodCols()
+	if period > 0 && period%fx != 0 {
+		period = 0 // cannot wrap evenly: treat as regional
 	}
 	colTaps := gridBlockTaps(g.NX, fx, g.Registration, period)
 	rowTaps := gridBlockTaps(g.NY, fy, g.Registration, 0)
 	if len(colTaps) == 0 || len(rowTaps) == 0 {
 		return nil, fault.New(fault.InvalidParameter, "resolution", "resample spacing %g×%g degrees is coarser than the whole %d×%d grid", dx, dy, g.NX, g.NY)
 	}
-	west, north := g.West, g.North
-	if g.Registration == CellCentre {
-		west += float64(fx-1) * g.DX / 2
-		north -= float64(fy-1) * g.DY / 2
-	}
-	out := &Grid{NX: len(colTaps), NY: len(rowTaps), West: west, North: north,
+	out := &Grid{NX: len(colTaps), NY: len(rowTaps), West: g.West, North: g.North,
 		DX: float64(fx) * g.DX, DY: float64(fy) * g.DY, Registration: g.Registration}
 	out.Data = make([]float32, out.NX*out.NY)
 	rowW := make([]float64, g.NY)
 	for r := range rowW {
-		lat := g.Lat(r)
-		n := math.Min(90, lat+g.DY/2) * math.Pi / 180
-		s := math.Max(-90, lat-g.DY/2) * math.Pi / 180
-		rowW[r] = math.Sin(n) - math.Sin(s)
+		rowW[r] = zoneWeight(g.Lat(r), g.DY)
 	}
 	accV := make([]float64, out.NX)
 	accW := make([]float64, out.NX)
@@ -796,22 +793,6 @@ func (g *Grid) Resample(dx, dy float64) (*Grid, error) {
 		for _, rtap := range rt {
 			wr := rtap.w * rowW[rtap.i]
 			src := g.Data[rtap.i*g.NX : (rtap.i+1)*g.NX]
-			if g.Registration == CellCentre {
-				// Blocks of fx whole cells of weight 1 (gridBlockTaps): the same sums in the
-				// same order, without reading the taps (w = wr·1 = wr exactly).
-				blk := src[:out.NX*fx]
-				for C := range out.NX {
-					v4, w4 := accV[C], accW[C]
-					for _, v := range blk[C*fx : C*fx+fx] {
-						if !isNaN32(v) {
-							v4 += wr * float64(v)
-							w4 += wr
-						}
-					}
-					accV[C], accW[C] = v4, w4
-				}
-				continue
-			}
 			for C, ct := range colTaps {
 				for _, ctap := range ct {
 					if v := src[ctap.i]; !isNaN32(v) {
@@ -822,14 +803,100 @@ func (g *Grid) Resample(dx, dy float64) (*Grid, error) {
 				}
 			}
 		}
-		dst := out.Data[R*out.NX : (R+1)*out.NX]
-		for C := range dst {
-			if accW[C] > 0 {
-				dst[C] = float32(accV[C] / accW[C])
-			} else {
-				dst[C] = float32(math.NaN())
-			}
-		}
+		meanRow(out.Data[R*out.NX:(R+1)*out.NX], accV, accW)
 	}
 	return out, nil
 }
+
+// zoneWeight is the area weight of a row of cells at latitude lat, dy degrees tall: the
+// spherical zone's sin(north edge) − sin(south edge), clipped at the poles.
+func zoneWeight(lat, dy float64) float64 {
+	n := math.Min(90, lat+dy/2) * math.Pi / 180
+	s := math.Max(-90, lat-dy/2) * math.Pi / 180
+	return math.Sin(n) - math.Sin(s)
+}
+
+// meanRow writes accV/accW per cell (NaN where no valid sample had weight).
+func meanRow(dst []float32, accV, accW []float64) {
+	for C := range dst {
+		if accW[C] > 0 {
+			dst[C] = float32(accV[C] / accW[C])
+		} else {
+			dst[C] = float32(math.NaN())
+		}
+	}
+}
+
+// BlockMean coarsens a cell-centre grid by whole factors fx × fy as Resample does (blocks of
+// fx × fy cells aligned on the north-west corner, a partial block at the east or south edge
+// dropped, each value the mean of the block's valid cells weighted by their rows' zone areas),
+// taking the input a few rows at a time, so a caller reading a large window band by band never
+// holds it whole. Resample of a cell-centre grid is NewBlockMean, one AddRows, Result.
+type BlockMean struct {
+	in         Grid // the input's lattice (Data nil)
+	fx, fy     int
+	out        *Grid
+	accV, accW []float64
+	row        int // the next output row to finish
+}
+
+// NewBlockMean starts the block means of a cell-centre grid with the lattice of in (its Data
+// is not read).
+func NewBlockMean(in *Grid, fx, fy int) (*BlockMean, error) {
+	if in.Registration != CellCentre || fx < 1 || fy < 1 {
+		return nil, gridErr("block means need a cell-centre grid and whole factors ≥ 1")
+	}
+	nx, ny := in.NX/fx, in.NY/fy
+	if nx == 0 || ny == 0 {
+		return nil, fault.New(fault.InvalidParameter, "resolution", "resample spacing %g×%g degrees is coarser than the whole %d×%d grid",
+			float64(fx)*in.DX, float64(fy)*in.DY, in.NX, in.NY)
+	}
+	h := *in
+	h.Data = nil
+	out := &Grid{NX: nx, NY: ny, West: in.West + float64(fx-1)*in.DX/2, North: in.North - float64(fy-1)*in.DY/2,
+		DX: float64(fx) * in.DX, DY: float64(fy) * in.DY, Registration: CellCentre}
+	out.Data = make([]float32, nx*ny)
+	nan := float32(math.NaN())
+	for i := range out.Data {
+		out.Data[i] = nan
+	}
+	return &BlockMean{in: h, fx: fx, fy: fy, out: out, accV: make([]float64, nx), accW: make([]float64, nx)}, nil
+}
+
+// AddRows adds input rows row0, row0+1, … (data holds whole rows of the input's width). Rows
+// must come in order, each exactly once, and each call must start at the first row of an
+// output row (row0 a multiple of fy) and hold whole output rows, except that the last call may
+// end anywhere (rows of a partial block at the south edge are dropped).
+func (m *BlockMean) AddRows(row0 int, data []float32) {
+	nx, fx, fy := m.in.NX, m.fx, m.fy
+	rows := len(data) / nx
+	for k := 0; k < rows; k++ {
+		r := row0 + k
+		R := r / fy
+		if R >= m.out.NY {
+			break
+		}
+		if r%fy == 0 {
+			clear(m.accV)
+			clear(m.accW)
+		}
+		wr := zoneWeight(m.in.Lat(r), m.in.DY)
+		src := data[k*nx : k*nx+m.out.NX*fx]
+		for C := range m.out.NX {
+			v4, w4 := m.accV[C], m.accW[C]
+			for _, v := range src[C*fx : C*fx+fx] {
+				if !isNaN32(v) {
+					v4 += wr * float64(v)
+					w4 += wr
+				}
+			}
+			m.accV[C], m.accW[C] = v4, w4
+		}
+		if r%fy == fy-1 {
+			meanRow(m.out.Data[R*m.out.NX:(R+1)*m.out.NX], m.accV, m.accW)
+		}
+	}
+}
+
+// Result is the coarsened grid (an output row whose input rows were not all given is NaN).
+func (m *BlockMean) Result() *Grid { return m.out }

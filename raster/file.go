@@ -132,6 +132,45 @@ func (f *File) window(ctx context.Context, b orb.Bound, level int, keep bool) (*
 	return &out, nil
 }
 
+// WindowMean is Window(ctx, b, level) coarsened by whole factors fx × fy with geo.BlockMean
+// (Resample's block means, bit for bit), read band by band into one reused buffer so the
+// full-resolution window is never held: its memory is the answer plus about one block row of
+// the window. keep is Window's (true) or Scan's (false) use of the cache. The level must be
+// cell-centre registered (Window and geo.Grid.Resample serve node grids).
+func (f *File) WindowMean(ctx context.Context, b orb.Bound, level, fx, fy int, keep bool) (*geo.Grid, error) {
+	if level < 0 || level >= len(f.levels) {
+		return nil, fmt.Errorf("raster: no level %d in %s", level, f.path)
+	}
+	lv := f.levels[level].Grid
+	sp, err := lv.WindowSpec(b)
+	if err != nil {
+		return nil, err
+	}
+	m, err := geo.NewBlockMean(&sp.Out, fx, fy)
+	if err != nil {
+		return nil, err
+	}
+	// bands of whole output rows, about one block row of the level tall
+	rows := max(fy, BlockSize/fy*fy)
+	buf := make([]float32, sp.Out.NX*min(rows, sp.Out.NY))
+	for r := 0; r < sp.Out.NY; r += rows {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		n := min(rows, sp.Out.NY-r)
+		band := sp.Out
+		band.NY, band.North = n, sp.Out.North-float64(r)*sp.Out.DY
+		band.Data = buf[:band.NX*n]
+		bsp := sp
+		bsp.Out, bsp.Row0 = band, sp.Row0+r
+		if err := f.fill(ctx, &band, level, bsp, keep); err != nil {
+			return nil, err
+		}
+		m.AddRows(r, band.Data)
+	}
+	return m.Result(), nil
+}
+
 // Rows calls fn with successive bands of about rowsPerBand rows of the window of bound b at
 // level (each band a *geo.Grid whose North is its first row's latitude), north to south. Blocks
 // it reads are not kept in the cache unless they already were, so a scan larger than the budget

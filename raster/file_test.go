@@ -118,6 +118,17 @@ func TestWindowEqualsInMemory(t *testing.T) {
 				if row != want.NY {
 					t.Fatalf("bands covered %d rows, want %d", row, want.NY)
 				}
+				// block means read band by band equal Resample of the whole window, bit for bit
+				for _, fxy := range [][2]int{{3, 3}, {2, 5}, {7, 1}} {
+					wantM, werr := want.Resample(float64(fxy[0])*want.DX, float64(fxy[1])*want.DY)
+					gotM, gerr := f.WindowMean(context.Background(), b, 0, fxy[0], fxy[1], true)
+					if (werr == nil) != (gerr == nil) {
+						t.Fatalf("block means %v: Resample error %v, WindowMean error %v", fxy, werr, gerr)
+					}
+					if werr == nil {
+						sameGrid(t, fmt.Sprintf("block means %v", fxy), gotM, wantM)
+					}
+				}
 			})
 		}
 	}
