@@ -16,8 +16,11 @@ GOVULNCHECK ?= golang.org/x/vuln/cmd/govulncheck@v1.9.0
 DEADCODE ?= golang.org/x/tools/cmd/deadcode@v0.45.0
 # Database drivers the HTTP package must not link (job types live in jobs, the drivers in jobs/queue and store/*).
 SERVER_FORBIDDEN_DEPS := riverpgxv5|riversqlite|modernc.org/sqlite|jackc/pgx
+# Packages holding fuzz targets (func FuzzXxx); the targets themselves are listed with go test -list.
+FUZZ_PKGS ?= ./geo ./ingest ./raster ./server ./thermal
+FUZZTIME ?= 30s
 
-.PHONY: help run build web deps-build deps-test test test-web test-go lint deadcode fmt bench bench-all bench-scale loadtest clean
+.PHONY: help run build web deps-build deps-test test test-web test-go lint fuzz fuzz-short deadcode fmt bench bench-all bench-scale loadtest clean
 
 help: ## list the targets
 	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sort | awk -F ':.*## ' '{printf "  %-11s %s\n", $$1, $$2}'
@@ -49,10 +52,21 @@ lint: ## fail on gofmt differences, go vet, staticcheck, an untidy go.mod, a dat
 	  $(GO) run $(GOVULNCHECK) ./...; \
 	else echo "lint: govulncheck skipped: its vulnerability database (vuln.go.dev) cannot be reached from this machine"; fi
 
+fuzz: deps-build ## run every fuzz target for FUZZTIME each (default 30s)
+	@set -e; for pkg in $(FUZZ_PKGS); do \
+	  for t in $$($(GO) test -list '^Fuzz' $$pkg | grep '^Fuzz'); do \
+	    echo "== $$pkg $$t for $(FUZZTIME)"; \
+	    $(GO) test $$pkg -run '^$$' -fuzz "^$$t\$$" -fuzztime $(FUZZTIME); \
+	  done; \
+	done
+
+fuzz-short: ## run every fuzz target for 3s each (part of make test)
+	@$(MAKE) --no-print-directory fuzz FUZZTIME=3s
+
 deadcode: ## list functions the ridgeflank binary never reaches (a report; lint does not fail on it)
 	$(GO) run $(DEADCODE) ./cmd/ridgeflank
 
-test: deps-test web lint test-web test-go ## install test dependencies, bring up PostGIS, run every test
+test: deps-test web lint fuzz-short test-web test-go ## install test dependencies, bring up PostGIS, run every test
 
 test-web: ## run the page's unit tests (npm test)
 	@cd web && npm test --silent
