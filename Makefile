@@ -19,6 +19,8 @@ SERVER_FORBIDDEN_DEPS := riverpgxv5|riversqlite|modernc.org/sqlite|jackc/pgx
 # Packages holding fuzz targets (func FuzzXxx); the targets themselves are listed with go test -list.
 FUZZ_PKGS ?= ./geo ./ingest ./raster ./server ./thermal
 FUZZTIME ?= 30s
+# How long go test minimises each new interesting input (its default, 60s, would eat a short pass).
+FUZZMINIMIZETIME ?= 5s
 
 .PHONY: help run build web deps-build deps-test test test-web test-go lint fuzz fuzz-short deadcode fmt bench bench-all bench-scale loadtest clean
 
@@ -56,12 +58,12 @@ fuzz: deps-build ## run every fuzz target for FUZZTIME each (default 30s)
 	@set -e; for pkg in $(FUZZ_PKGS); do \
 	  for t in $$($(GO) test -list '^Fuzz' $$pkg | grep '^Fuzz'); do \
 	    echo "== $$pkg $$t for $(FUZZTIME)"; \
-	    $(GO) test $$pkg -run '^$$' -fuzz "^$$t\$$" -fuzztime $(FUZZTIME); \
+	    $(GO) test $$pkg -run '^$$' -fuzz "^$$t\$$" -fuzztime $(FUZZTIME) -fuzzminimizetime $(FUZZMINIMIZETIME); \
 	  done; \
 	done
 
 fuzz-short: ## run every fuzz target for 3s each (part of make test)
-	@$(MAKE) --no-print-directory fuzz FUZZTIME=3s
+	@$(MAKE) --no-print-directory fuzz FUZZTIME=3s FUZZMINIMIZETIME=1s
 
 deadcode: ## list functions the ridgeflank binary never reaches (a report; lint does not fail on it)
 	$(GO) run $(DEADCODE) ./cmd/ridgeflank

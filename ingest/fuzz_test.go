@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"testing"
+	"time"
 
 	"ridgeflank/fault"
 	"ridgeflank/geo"
@@ -53,6 +54,12 @@ func FuzzOpenReader(f *testing.F) {
 		if ext%2 == 1 {
 			name = "grid.nc"
 		}
+		start := time.Now()
+		defer func() {
+			if el := time.Since(start); el > 20*time.Second {
+				t.Errorf("reading this %d-byte file took %v", len(data), el)
+			}
+		}()
 		p := filepath.Join(t.TempDir(), name)
 		if err := os.WriteFile(p, data, 0o644); err != nil {
 			t.Fatal(err)
