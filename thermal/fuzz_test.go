@@ -31,7 +31,7 @@ func FuzzParamsValidate(f *testing.F) {
 	// Edges of the documented ranges, and values no range allows.
 	f.Add("plate", 20.0, 2000.0, 50.0, 6e-5, 1.0, 3e-6, 0.0, 2800.0, 1100.0, 0.0)
 	f.Add("plate", 300.0, 800.0, -5.0, 1e-5, 10.0, 1e-7, 0.0, 3600.0, 950.0, 6000.0)
-	f.Add("halfspace", -0.0, 1300.0, 0.0, 3e-5, 3.3, 0.0, 500.0, 3300.0, 1000.0, 2500.0)
+	f.Add("halfspace", math.Copysign(0, -1), 1300.0, 0.0, 3e-5, 3.3, 0.0, 500.0, 3300.0, 1000.0, 2500.0)
 	f.Add("halfspace", 0.0, math.NaN(), 0.0, 3e-5, 3.3, 1e-6, 0.0, 3300.0, 1000.0, 2500.0)
 	f.Add("plate", 1e308, math.Inf(1), 5e-324, -3e-5, 0.0, 0.0, 0.0, 0.0, 0.0, -1.0)
 	f.Add("Plate", 100.0, 1300.0, 0.0, 3e-5, 3.3, 1e-6, 1000.0, 3300.0, 1000.0, 2500.0)
