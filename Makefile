@@ -55,10 +55,15 @@ lint: ## fail on gofmt differences, go vet, staticcheck, an untidy go.mod, a dat
 	else echo "lint: govulncheck skipped: its vulnerability database (vuln.go.dev) cannot be reached from this machine"; fi
 
 fuzz: deps-build ## run every fuzz target for FUZZTIME each (default 30s)
-	@set -e; for pkg in $(FUZZ_PKGS); do \
-	  for t in $$($(GO) test -list '^Fuzz' $$pkg | grep '^Fuzz'); do \
+	@set -e; mkdir -p build/fuzz; cache=$$($(GO) env GOCACHE)/fuzz; \
+	for pkg in $(FUZZ_PKGS); do \
+	  bin=$(CURDIR)/build/fuzz/$$(basename $$pkg).test; \
+	  $(GO) test -c -fuzz . -o $$bin $$pkg; \
+	  dir=$$($(GO) list -f '{{.Dir}}' $$pkg); path=$$($(GO) list $$pkg); \
+	  for t in $$(cd $$dir && $$bin -test.list '^Fuzz'); do \
 	    echo "== $$pkg $$t for $(FUZZTIME)"; \
-	    $(GO) test $$pkg -run '^$$' -fuzz "^$$t\$$" -fuzztime $(FUZZTIME) -fuzzminimizetime $(FUZZMINIMIZETIME); \
+	    (cd $$dir && $$bin -test.run '^$$' -test.fuzz "^$$t\$$" -test.fuzztime $(FUZZTIME) \
+	      -test.fuzzminimizetime $(FUZZMINIMIZETIME) -test.fuzzcachedir $$cache/$$path); \
 	  done; \
 	done
 
