@@ -16,8 +16,13 @@ GOVULNCHECK ?= golang.org/x/vuln/cmd/govulncheck@v1.9.0
 DEADCODE ?= golang.org/x/tools/cmd/deadcode@v0.45.0
 # Database drivers the HTTP package must not link (job types live in jobs, the drivers in jobs/queue and store/*).
 SERVER_FORBIDDEN_DEPS := riverpgxv5|riversqlite|modernc.org/sqlite|jackc/pgx
+# Packages holding fuzz targets (func FuzzXxx); the targets themselves are listed with go test -list.
+FUZZ_PKGS ?= ./geo ./ingest ./raster ./server ./thermal
+FUZZTIME ?= 30s
+# How long go test minimises each new interesting input (its default, 60s, would eat a short pass).
+FUZZMINIMIZETIME ?= 5s
 
-.PHONY: help run build web deps-build deps-test test test-web test-go lint deadcode fmt bench bench-all bench-scale loadtest clean
+.PHONY: help run build web deps-build deps-test test test-web test-go lint fuzz fuzz-short deadcode fmt bench bench-all bench-scale loadtest clean
 
 help: ## list the targets
 	@grep -E '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | sort | awk -F ':.*## ' '{printf "  %-11s %s\n", $$1, $$2}'
@@ -49,10 +54,26 @@ lint: ## fail on gofmt differences, go vet, staticcheck, an untidy go.mod, a dat
 	  $(GO) run $(GOVULNCHECK) ./...; \
 	else echo "lint: govulncheck skipped: its vulnerability database (vuln.go.dev) cannot be reached from this machine"; fi
 
+fuzz: deps-build ## run every fuzz target for FUZZTIME each (default 30s)
+	@set -e; mkdir -p build/fuzz; cache=$$($(GO) env GOCACHE)/fuzz; \
+	for pkg in $(FUZZ_PKGS); do \
+	  bin=$(CURDIR)/build/fuzz/$$(basename $$pkg).test; \
+	  $(GO) test -c -fuzz . -o $$bin $$pkg; \
+	  dir=$$($(GO) list -f '{{.Dir}}' $$pkg); path=$$($(GO) list $$pkg); \
+	  for t in $$(cd $$dir && $$bin -test.list '^Fuzz'); do \
+	    echo "== $$pkg $$t for $(FUZZTIME)"; \
+	    (cd $$dir && $$bin -test.run '^$$' -test.fuzz "^$$t\$$" -test.fuzztime $(FUZZTIME) \
+	      -test.fuzzminimizetime $(FUZZMINIMIZETIME) -test.fuzzcachedir $$cache/$$path); \
+	  done; \
+	done
+
+fuzz-short: ## run every fuzz target for 3s each (part of make test)
+	@$(MAKE) --no-print-directory fuzz FUZZTIME=3s FUZZMINIMIZETIME=1s
+
 deadcode: ## list functions the ridgeflank binary never reaches (a report; lint does not fail on it)
 	$(GO) run $(DEADCODE) ./cmd/ridgeflank
 
-test: deps-test web lint test-web test-go ## install test dependencies, bring up PostGIS, run every test
+test: deps-test web lint fuzz-short test-web test-go ## install test dependencies, bring up PostGIS, run every test
 
 test-web: ## run the page's unit tests (npm test)
 	@cd web && npm test --silent

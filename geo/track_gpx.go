@@ -99,6 +99,10 @@ func parseGPX(data []byte, maxPoints, maxWaypoints int) ([3][]Track, error) {
 			stack = append(stack, se.Name.Local)
 			continue
 		}
+		if len(stack) == 0 { // an element after </gpx>: a second root, not well-formed XML
+			line, _ := d.InputPos()
+			return groups, trackErr("GPX line %d: <%s> after the end of <gpx> (a document has one root element)", line, se.Name.Local)
+		}
 		parent := stack[len(stack)-1]
 		var which int
 		switch se.Name.Local {

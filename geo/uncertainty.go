@@ -342,7 +342,14 @@ func newSpreadTable(tbl *thermal.Table, sigmaMa float64) *spreadTable {
 		coarse[i] = sampledSpread(tbl.DepthM, float64(i)*h, sigmaMa)
 	}
 	interp := func(a float64) float64 {
+		// For σ below about 1e-300 Ma, h underflows (to 0 for the smallest σ, making a/h NaN or
+		// +Inf) and float32 node ages lie far beyond end: x is clamped to twice the intervals,
+		// which normal σ never reaches (the last node starts within 2^-8 of its age past end).
 		x := a / h
+		if !(x >= 0) {
+			x = 0
+		}
+		x = min(x, 2*spreadIntervals)
 		i := min(int(x), spreadIntervals-1)
 		f := x - float64(i)
 		return coarse[i] + f*(coarse[i+1]-coarse[i])

@@ -243,6 +243,25 @@ func TestAgeSpreadRefused(t *testing.T) {
 	}
 }
 
+// The smallest positive σ values (5e-324 Ma, the least float64, made the spread table's
+// interval width underflow to 0 and panic): the depth uncertainty is finite and, by the first
+// order rule |∂d/∂t|·σ, at most 1e-6 m (∂d/∂t is below 1e3 m/Myr beyond 0.1 Ma, from memory).
+func TestAgeSpreadTinySigma(t *testing.T) {
+	m := resModel(t, "gdh1")
+	age := resFill(4, 4, 0, 4, 1, CellCentre, resAge)
+	for _, s := range []float64{5e-324, 1e-310, 1e-300, 1e-40} {
+		r, err := Evaluate(context.Background(), Inputs{Age: age, Model: m, AgeSigmaMa: s}, OutPredictedDepthSigma)
+		if err != nil {
+			t.Fatalf("σ %g: %v", s, err)
+		}
+		for i, v := range r.PredictedDepthSigmaM.Data {
+			if !(math.Abs(float64(v)) <= 1e-6) && !math.IsNaN(float64(age.Data[i])) {
+				t.Errorf("σ %g: depth uncertainty %v m at age %v Ma", s, v, age.Data[i])
+			}
+		}
+	}
+}
+
 // Across the antimeridian: an output lattice in 0..360 longitudes (170°E to 170°W) with the age
 // uncertainty on a global −180..180 grid, σ = 2 + sin(lon) (continuous across ±180°). Each cell's
 // uncertainty is ageSpread at the σ of its true position (bilinear sampling of sin on 0.25°

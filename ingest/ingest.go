@@ -199,7 +199,9 @@ func Import(ctx context.Context, st store.Store, r Request, progress func(fracti
 	}
 	defer d.Close()
 	g, meta := d.Header(), d.Meta()
-	g.West, g.North, g.DX, g.DY = snap(g.West), snap(g.North), snap(g.DX), snap(g.DY)
+	if err := snapLattice(name, &g); err != nil {
+		return Result{}, err
+	}
 	if err := checkDeclaredSize(name, d, &g, r.MaxCells); err != nil {
 		return Result{}, err
 	}
@@ -427,6 +429,21 @@ const latticeScale = 1e9
 
 // snap rounds x to the nearest multiple of 1/latticeScale (the double nearest that decimal).
 func snap(x float64) float64 { return math.Round(x*latticeScale) / latticeScale }
+
+// snapLattice snaps g's origin and spacing (snap) and refuses, as a fault.InvalidGrid about the
+// file, a lattice that is not finite or whose spacing snaps to nothing (below 1/latticeScale).
+func snapLattice(name string, g *geo.Grid) error {
+	g.West, g.North, g.DX, g.DY = snap(g.West), snap(g.North), snap(g.DX), snap(g.DY)
+	for _, v := range []float64{g.West, g.North, g.DX, g.DY} {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return fault.New(fault.InvalidGrid, "file", "%s is not a readable grid: its georeferencing is not finite", name)
+		}
+	}
+	if !(g.DX > 0 && g.DY > 0) {
+		return fault.New(fault.InvalidGrid, "file", "%s is not a readable grid: its cell spacing is below %g°", name, 1/latticeScale)
+	}
+	return nil
+}
 
 // prepare converts a block to the stored unit in place and gives every no-data cell the same
 // NaN bit pattern (so equal grids give equal files and digests).

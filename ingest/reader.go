@@ -59,7 +59,10 @@ func OpenReader(ctx context.Context, r Request, progress func(fraction float64))
 		return nil, readFault(name, err)
 	}
 	g, meta := d.Header(), d.Meta()
-	g.West, g.North, g.DX, g.DY = snap(g.West), snap(g.North), snap(g.DX), snap(g.DY)
+	if err := snapLattice(name, &g); err != nil {
+		d.Close()
+		return nil, err
+	}
 	rd := &Reader{d: d, name: name, header: g, kind: r.Kind, dig: newDigest()}
 	fail := func(err error) (*Reader, error) {
 		d.Close()

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"net/http"
 	"slices"
 	"strconv"
@@ -236,13 +237,16 @@ func parseBBox(v string) (orb.Bound, error) {
 	var n [4]float64
 	for i, p := range parts {
 		f, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
-		if err != nil {
+		if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
 			return orb.Bound{}, problem(CodeInvalidParameter, "bbox=%q: %q is not a number", v, p).withParam("bbox")
 		}
 		n[i] = f
 	}
 	if n[1] > n[3] || n[1] < -90 || n[3] > 90 {
 		return orb.Bound{}, problem(CodeInvalidParameter, "bbox=%q: need −90 ≤ south ≤ north ≤ 90", v).withParam("bbox")
+	}
+	if n[0] < -180 || n[0] > 360 || n[2] < -180 || n[2] > 360 {
+		return orb.Bound{}, problem(CodeInvalidParameter, "bbox=%q: longitudes must lie within −180..360", v).withParam("bbox")
 	}
 	return orb.Bound{Min: orb.Point{n[0], n[1]}, Max: orb.Point{n[2], n[3]}}, nil
 }

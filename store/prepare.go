@@ -119,10 +119,14 @@ func (f GridFilter) Prepare() ([]orb.Bound, error) {
 	return splitOptionalBBox(f.BBox)
 }
 
-// Prepare checks f (page and query geometry) and returns its box split at the antimeridian
-// (SplitBBox), or nil when f has no box.
+// Prepare checks f (page, tag and query geometry) and returns its box split at the
+// antimeridian (SplitBBox), or nil when f has no box. A tag no region can carry (not UTF-8, a
+// NUL, longer than MaxTagLen) is ErrInvalid on every backend (PostgreSQL refuses such text).
 func (f RegionFilter) Prepare() ([]orb.Bound, error) {
 	if err := f.Page.Validate(); err != nil {
+		return nil, err
+	}
+	if err := checkText("tag", f.Tag, MaxTagLen, false); err != nil {
 		return nil, err
 	}
 	boxes, err := splitOptionalBBox(f.BBox)

@@ -404,7 +404,8 @@ func (d *Dataset) setup(opt ReadOptions, forced *geo.Registration, warn string) 
 	if math.Abs(gt[2])*float64(ny) > 1e-9*math.Abs(gt[1]) || math.Abs(gt[4])*float64(nx) > 1e-9*math.Abs(gt[5]) {
 		return fmt.Errorf("read grid %s: %w (geotransform %v)", d.path, ErrRotated, gt)
 	}
-	if gt[1] <= 0 || gt[5] == 0 {
+	if !(gt[1] > 0) || gt[5] == 0 || math.IsInf(gt[1], 0) || math.IsNaN(gt[5]) || math.IsInf(gt[5], 0) ||
+		math.IsNaN(gt[0]) || math.IsInf(gt[0], 0) || math.IsNaN(gt[3]) || math.IsInf(gt[3], 0) {
 		return fmt.Errorf("read grid %s: unsupported geotransform %v (columns must run west to east)", d.path, gt)
 	}
 	if info.crs_kind == 1 {

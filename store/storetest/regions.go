@@ -6,6 +6,7 @@ import (
 	"math"
 	"reflect"
 	"slices"
+	"strings"
 	"sync"
 	"testing"
 
@@ -239,6 +240,12 @@ func testRegionQueries(t *testing.T, open Opener) {
 				t.Fatalf("got %v, want %v", gotIDs, c.want)
 			}
 		})
+	}
+	// A tag no region can carry (invalid UTF-8, a NUL: PostgreSQL refuses such text) is
+	// refused as invalid on every backend, not a database error.
+	for _, tag := range []string{"\xff", "polar\x00", strings.Repeat("t", store.MaxTagLen+1)} {
+		_, err := s.ListRegions(ctx, store.RegionFilter{Tag: tag})
+		wantErr(t, fmt.Sprintf("ListRegions(tag %.20q)", tag), err, store.ErrInvalid)
 	}
 }
 
