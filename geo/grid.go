@@ -837,7 +837,6 @@ type BlockMean struct {
 	fx, fy     int
 	out        *Grid
 	accV, accW []float64
-	row        int // the next output row to finish
 }
 
 // NewBlockMean starts the block means of a cell-centre grid with the lattice of in (its Data
