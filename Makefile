@@ -19,8 +19,10 @@ SERVER_FORBIDDEN_DEPS := riverpgxv5|riversqlite|modernc.org/sqlite|jackc/pgx
 # Packages holding fuzz targets (func FuzzXxx); the targets themselves are listed with go test -list.
 FUZZ_PKGS ?= ./geo ./ingest ./raster ./server ./thermal
 FUZZTIME ?= 30s
-# How long go test minimises each new interesting input (its default, 60s, would eat a short pass).
-FUZZMINIMIZETIME ?= 5s
+# How many runs go test may spend minimising each new interesting input (a count, not a time: a
+# time limit hit while minimising a slow target, such as the GDAL readers, fails the run with
+# "context deadline exceeded"; its default, 60s, would also eat a short pass).
+FUZZMINIMIZETIME ?= 200x
 
 .PHONY: help run build web deps-build deps-test test test-web test-go lint fuzz fuzz-short deadcode fmt bench bench-all bench-scale loadtest clean
 
@@ -68,7 +70,7 @@ fuzz: deps-build ## run every fuzz target for FUZZTIME each (default 30s)
 	done
 
 fuzz-short: ## run every fuzz target for 3s each (part of make test)
-	@$(MAKE) --no-print-directory fuzz FUZZTIME=3s FUZZMINIMIZETIME=1s
+	@$(MAKE) --no-print-directory fuzz FUZZTIME=3s FUZZMINIMIZETIME=20x
 
 deadcode: ## list functions the ridgeflank binary never reaches (a report; lint does not fail on it)
 	$(GO) run $(DEADCODE) ./cmd/ridgeflank
