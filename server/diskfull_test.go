@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"io"
 	"mime/multipart"
@@ -13,42 +12,14 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
-	"sync"
 	"sync/atomic"
 	"syscall"
 	"testing"
 	"time"
 
-	"ridgeflank/jobs"
 	"ridgeflank/store"
 	"ridgeflank/store/storetest"
 )
-
-// recordingJobs is a JobQueue that only counts the imports queued.
-type recordingJobs struct {
-	mu      sync.Mutex
-	imports []jobs.ImportArgs
-}
-
-func (q *recordingJobs) EnqueueImport(_ context.Context, a jobs.ImportArgs) (int64, error) {
-	q.mu.Lock()
-	defer q.mu.Unlock()
-	q.imports = append(q.imports, a)
-	return int64(len(q.imports)), nil
-}
-func (q *recordingJobs) EnqueueExport(context.Context, jobs.ExportArgs) (int64, error) {
-	return 0, errors.New("not in this test")
-}
-func (q *recordingJobs) EnqueueCalibration(context.Context, jobs.CalibrationArgs) (int64, error) {
-	return 0, errors.New("not in this test")
-}
-func (q *recordingJobs) EnqueueStatistics(context.Context, jobs.StatisticsArgs) (int64, error) {
-	return 0, errors.New("not in this test")
-}
-func (q *recordingJobs) Get(_ context.Context, id int64) (jobs.Status, error) {
-	return jobs.Status{ID: id, Kind: "import", State: "available", CreatedAt: time.Now()}, nil
-}
-func (q *recordingJobs) Ready(context.Context) error { return nil }
 
 func (q *recordingJobs) queued() int {
 	q.mu.Lock()

@@ -29,34 +29,34 @@ import (
 // httptest recorder. Every answer must be the documented success or a 4xx problem+json, never
 // a 5xx, and a refused upload leaves no file behind.
 
-// fuzzJobs is a JobQueue that records imports without running them (the fuzzer checks the
-// form handling, not the import pipeline, which FuzzOpenReader and the ingest tests cover).
-type fuzzJobs struct {
+// recordingJobs is a JobQueue that records imports without running them (for tests of the
+// upload handling, not of the import pipeline, which FuzzOpenReader and the ingest tests cover).
+type recordingJobs struct {
 	mu      sync.Mutex
 	imports []jobs.ImportArgs
 }
 
-func (q *fuzzJobs) EnqueueImport(_ context.Context, a jobs.ImportArgs) (int64, error) {
+func (q *recordingJobs) EnqueueImport(_ context.Context, a jobs.ImportArgs) (int64, error) {
 	q.mu.Lock()
 	defer q.mu.Unlock()
 	q.imports = append(q.imports, a)
 	return int64(len(q.imports)), nil
 }
-func (q *fuzzJobs) EnqueueExport(context.Context, jobs.ExportArgs) (int64, error) {
+func (q *recordingJobs) EnqueueExport(context.Context, jobs.ExportArgs) (int64, error) {
 	return 0, errors.New("not in this test")
 }
-func (q *fuzzJobs) EnqueueCalibration(context.Context, jobs.CalibrationArgs) (int64, error) {
+func (q *recordingJobs) EnqueueCalibration(context.Context, jobs.CalibrationArgs) (int64, error) {
 	return 0, errors.New("not in this test")
 }
-func (q *fuzzJobs) EnqueueStatistics(context.Context, jobs.StatisticsArgs) (int64, error) {
+func (q *recordingJobs) EnqueueStatistics(context.Context, jobs.StatisticsArgs) (int64, error) {
 	return 0, errors.New("not in this test")
 }
-func (q *fuzzJobs) Get(_ context.Context, id int64) (jobs.Status, error) {
+func (q *recordingJobs) Get(_ context.Context, id int64) (jobs.Status, error) {
 	return jobs.Status{ID: id, Kind: "import", State: jobs.StateQueued, MaxAttempt: 1, CreatedAt: time.Now()}, nil
 }
-func (q *fuzzJobs) Ready(context.Context) error { return nil }
+func (q *recordingJobs) Ready(context.Context) error { return nil }
 
-func (q *fuzzJobs) take() []jobs.ImportArgs {
+func (q *recordingJobs) take() []jobs.ImportArgs {
 	q.mu.Lock()
 	defer q.mu.Unlock()
 	out := q.imports
@@ -69,7 +69,7 @@ type fuzzServer struct {
 	h         http.Handler
 	token     string
 	uploadDir string
-	jobs      *fuzzJobs
+	jobs      *recordingJobs
 }
 
 func newFuzzServer(f *testing.F, limits Limits) *fuzzServer {
@@ -79,7 +79,7 @@ func newFuzzServer(f *testing.F, limits Limits) *fuzzServer {
 	if err != nil {
 		f.Fatal(err)
 	}
-	fs := &fuzzServer{token: tok, uploadDir: filepath.Join(dir, "uploads"), jobs: &fuzzJobs{}}
+	fs := &fuzzServer{token: tok, uploadDir: filepath.Join(dir, "uploads"), jobs: &recordingJobs{}}
 	fs.h = New(Deps{Store: st, Version: "test", Limits: limits, Jobs: fs.jobs,
 		Config: Config{UploadDir: fs.uploadDir, ExportDir: filepath.Join(dir, "exports"), RateLimitPerMinute: -1}})
 	return fs

@@ -391,12 +391,17 @@ func (b *Blobs) Open(ctx context.Context, key string) (io.ReadSeekCloser, error)
 	if err != nil {
 		return nil, err
 	}
+	return b.openObject(ctx, object, "grid file "+key)
+}
+
+// openObject opens object for ranged reads, or answers store.ErrNotFound naming what.
+func (b *Blobs) openObject(ctx context.Context, object, what string) (io.ReadSeekCloser, error) {
 	size, ok, err := b.head(ctx, object)
 	if err != nil {
 		return nil, err
 	}
 	if !ok {
-		return nil, fmt.Errorf("grid file %s: %w", key, store.ErrNotFound)
+		return nil, fmt.Errorf("%s: %w", what, store.ErrNotFound)
 	}
 	return &reader{ctx: ctx, b: b, object: object, size: size}, nil
 }

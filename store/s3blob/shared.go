@@ -78,14 +78,7 @@ func (b *Blobs) OpenFile(ctx context.Context, name string) (io.ReadSeekCloser, e
 	if err != nil {
 		return nil, err
 	}
-	size, ok, err := b.head(ctx, object)
-	if err != nil {
-		return nil, err
-	}
-	if !ok {
-		return nil, fmt.Errorf("shared file %s: %w", name, store.ErrNotFound)
-	}
-	return &reader{ctx: ctx, b: b, object: object, size: size}, nil
+	return b.openObject(ctx, object, "shared file "+name)
 }
 
 // RemoveFile implements store.SharedFiles.
