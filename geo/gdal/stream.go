@@ -12,7 +12,6 @@ import (
 	"fmt"
 	"math"
 	"os"
-	"path/filepath"
 	"time"
 	"unsafe"
 
@@ -79,6 +78,7 @@ type COGStream struct {
 	rows      int
 	stage     C.GDALDatasetH
 	stagePath string
+	lock      *os.File // held while the staging file is in use (SweepStaging)
 	tile      *C.float
 	next      int
 	compress  string
@@ -109,7 +109,12 @@ func NewCOGStream(header geo.Grid, opt StreamOptions) (*COGStream, error) {
 	}
 	stagePath := f.Name()
 	f.Close()
-	s := &COGStream{header: header, rows: rows, stagePath: stagePath, compress: opt.Compress}
+	lock, err := lockStage(stagePath)
+	if err != nil {
+		os.Remove(stagePath)
+		return nil, fmt.Errorf("write grid: locking the staging file: %w", err)
+	}
+	s := &COGStream{header: header, rows: rows, stagePath: stagePath, lock: lock, compress: opt.Compress}
 	gt := geoTransform(&header)
 	cp := C.CString(stagePath)
 	defer C.free(unsafe.Pointer(cp))
@@ -122,7 +127,7 @@ func NewCOGStream(header geo.Grid, opt StreamOptions) (*COGStream, error) {
 	var e C.rf_err
 	s.stage = C.rf_stage_create(cp, C.int(header.NX), C.int(header.NY), stageTileX, C.int(rows), &gt[0], copts, &e)
 	if s.stage == nil {
-		os.Remove(stagePath)
+		s.Close()
 		if err := cErr(&e, "write grid: staging file"); err != nil {
 			return nil, err
 		}
@@ -237,13 +242,12 @@ func (s *COGStream) Close() error {
 		s.tile = nil
 	}
 	if s.stagePath != "" {
-		os.Remove(s.stagePath)
-		if side, _ := filepath.Glob(s.stagePath + ".*"); len(side) > 0 {
-			for _, f := range side {
-				os.Remove(f)
-			}
-		}
+		removeStage(s.stagePath)
 		s.stagePath = ""
+	}
+	if s.lock != nil {
+		s.lock.Close()
+		s.lock = nil
 	}
 	return err
 }
