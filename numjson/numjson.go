@@ -32,6 +32,9 @@ type Float float64
 // MarshalJSON implements json.Marshaler.
 func (f Float) MarshalJSON() ([]byte, error) { return appendFloat(nil, float64(f)), nil }
 
+// AppendFloat appends v as Float encodes it.
+func AppendFloat(b []byte, v float64) []byte { return appendFloat(b, v) }
+
 func appendFloat(b []byte, v float64) []byte {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return append(b, "null"...)

@@ -104,7 +104,7 @@ func (s *server) collection(w http.ResponseWriter, r *http.Request) error {
 // ---- area ----
 
 func parseResolution(r *http.Request, name string) (float64, error) {
-	v := r.URL.Query().Get(name)
+	v := queryOf(r).Get(name)
 	if v == "" {
 		return 0, nil
 	}
@@ -147,8 +147,8 @@ func parseAreaQuery(r *http.Request) (areaQuery, error) {
 // areaParam reads and prepares the polygon of coords= (WKT, longitude first) or bbox=
 // (west,south,east,north), the one rule of the area and statistics queries.
 func (s *server) areaParam(r *http.Request) (string, geo.PreparedRegion, error) {
-	coords := strings.TrimSpace(r.URL.Query().Get("coords"))
-	if bb := r.URL.Query().Get("bbox"); bb != "" {
+	coords := strings.TrimSpace(queryOf(r).Get("coords"))
+	if bb := queryOf(r).Get("bbox"); bb != "" {
 		if coords != "" {
 			return "", geo.PreparedRegion{}, problem(CodeInvalidParameter, "give coords or bbox, not both").withParam("bbox")
 		}

@@ -34,7 +34,7 @@ func bearer(r *http.Request) (string, bool) {
 	h := r.Header.Get("Authorization")
 	if h == "" {
 		if r.Method == http.MethodGet || r.Method == http.MethodHead {
-			if t := r.URL.Query().Get("access_token"); t != "" {
+			if t := queryOf(r).Get("access_token"); t != "" {
 				return t, true
 			}
 		}

@@ -129,7 +129,7 @@ func (s *server) calibrationFromPath(r *http.Request) (*evaluate.Calibration, er
 
 // getCalibration answers a succeeded calibration as JSON, or its plot with f=png or f=svg.
 func (s *server) getCalibration(w http.ResponseWriter, r *http.Request) error {
-	f := strings.ToLower(r.URL.Query().Get("f"))
+	f := strings.ToLower(queryOf(r).Get("f"))
 	switch f {
 	case "", "json", "application/json":
 	case evaluate.PlotPNG, evaluate.PlotSVG:

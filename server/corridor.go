@@ -23,7 +23,7 @@ var corridorWidthUnits = map[string]float64{"km": 1, "m": 0.001, "nmi": 1.852}
 // corridor-height and height-units are refused, not ignored. evaluate.Service.Corridor samples
 // and evaluates.
 func (s *server) corridor(w http.ResponseWriter, r *http.Request) error {
-	q := r.URL.Query()
+	q := queryOf(r)
 	for _, name := range []string{"corridor-height", "height-units"} {
 		if q.Get(name) != "" {
 			return problem(CodeInvalidParameter, "%s does not apply: the collections are two-dimensional (no vertical axis); leave it out", name).withParam(name)

@@ -38,6 +38,29 @@ type covParameter struct {
 	Unit             covUnit             `json:"unit"`
 	// Field is the parameter's name, with its unit, in CSV columns and GeoJSON properties.
 	Field string `json:"ridgeflank:field,omitempty"`
+	// encoded is the JSON of the fields above, made once by covParameterOf (every answer
+	// repeats a parameter's description).
+	encoded []byte
+}
+
+// MarshalJSON writes p's fields, from the encoding made by covParameterOf when there is one.
+func (p covParameter) MarshalJSON() ([]byte, error) {
+	if p.encoded != nil {
+		return p.encoded, nil
+	}
+	type plain covParameter
+	return marshalNoEscape(plain(p))
+}
+
+// marshalNoEscape is json.Marshal without HTML escaping, as writeJSON writes.
+func marshalNoEscape(v any) ([]byte, error) {
+	var b bytes.Buffer
+	enc := json.NewEncoder(&b)
+	enc.SetEscapeHTML(false)
+	if err := enc.Encode(v); err != nil {
+		return nil, err
+	}
+	return bytes.TrimSuffix(b.Bytes(), []byte("\n")), nil
 }
 
 type covRefSystem struct {
@@ -201,6 +224,7 @@ func covParameterOf(p evaluate.Parameter) covParameter {
 		Unit:             covUnit{Label: covI18n{"en": p.UnitLabel}, Symbol: covSymbol{Value: p.Unit, Type: "http://www.opengis.net/def/uom/UCUM/"}},
 		Field:            evaluate.FieldName(p),
 	}
+	c.encoded, _ = c.MarshalJSON()
 	covParams.Store(p, c)
 	return c
 }

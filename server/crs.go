@@ -28,7 +28,7 @@ var crs84Names = map[string]bool{
 // through carry Content-Crs (OGC API – Features Part 2 header) naming CRS84.
 func (s *server) checkCRS(next http.Handler) http.Handler {
 	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
-		if v, ok := r.URL.Query()["crs"]; ok {
+		if v, ok := queryOf(r)["crs"]; ok {
 			c := strings.ToLower(strings.TrimSpace(strings.Join(v, ",")))
 			if !crs84Names[c] {
 				msg := "crs=%q: this collection answers in OGC CRS84 only (" + CRS84 + ", longitude first); omit crs or give that URI"

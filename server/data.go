@@ -25,7 +25,7 @@ const (
 // queryOptions reads model=, sediment= and parameter-name= into evaluate.Options (checked by
 // the evaluate service).
 func queryOptions(r *http.Request) evaluate.Options {
-	q := r.URL.Query()
+	q := queryOf(r)
 	o := evaluate.Options{Model: strings.TrimSpace(q.Get("model")), Sediment: q.Get("sediment")}
 	if v := strings.TrimSpace(q.Get("age-uncertainty-ma")); v != "" {
 		u, err := strconv.ParseFloat(v, 64)

@@ -22,7 +22,7 @@ import (
 // from the top left) and the lattice drawn (Ridgeflank-Figure-Lattice).
 func (s *server) figureAnswer(w http.ResponseWriter, r *http.Request) error {
 	id := chi.URLParam(r, "datasetId")
-	v := r.URL.Query()
+	v := queryOf(r)
 	bb := v.Get("bbox")
 	if bb == "" {
 		return problem(CodeInvalidParameter, "bbox= is required: west,south,east,north in degrees").withParam("bbox")

@@ -210,8 +210,8 @@ func readAllLimited(r *http.Request) ([]byte, error) {
 }
 
 func (s *server) listRegions(w http.ResponseWriter, r *http.Request) error {
-	f := store.RegionFilter{Tag: r.URL.Query().Get("tag")}
-	if bb := r.URL.Query().Get("bbox"); bb != "" {
+	f := store.RegionFilter{Tag: queryOf(r).Get("tag")}
+	if bb := queryOf(r).Get("bbox"); bb != "" {
 		b, err := parseBBox(bb)
 		if err != nil {
 			return err
@@ -357,7 +357,7 @@ func (s *server) gridJSON(r *http.Request, g store.Grid) map[string]any {
 }
 
 func (s *server) listGrids(w http.ResponseWriter, r *http.Request) error {
-	f := store.GridFilter{Kind: store.GridKind(r.URL.Query().Get("kind"))}
+	f := store.GridFilter{Kind: store.GridKind(queryOf(r).Get("kind"))}
 	gs, err := s.deps.Store.ListGrids(r.Context(), f)
 	if err != nil {
 		return err

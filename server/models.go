@@ -149,7 +149,7 @@ func parseRange(name, v string, maxPoints int) ([]float64, error) {
 
 // wantCSV reads f= for endpoints that answer JSON (default) or CSV.
 func wantCSV(r *http.Request) (bool, error) {
-	switch f := strings.ToLower(r.URL.Query().Get("f")); f {
+	switch f := strings.ToLower(queryOf(r).Get("f")); f {
 	case "", "json", "application/json":
 		return false, nil
 	case "csv", "text/csv":
@@ -164,7 +164,7 @@ func (s *server) modelCurve(w http.ResponseWriter, r *http.Request) error {
 	if err != nil {
 		return err
 	}
-	q := r.URL.Query()
+	q := queryOf(r)
 	spec := q.Get("ages")
 	if spec == "" {
 		spec = "0:200:1"
@@ -203,7 +203,7 @@ func (s *server) modelGeotherm(w http.ResponseWriter, r *http.Request) error {
 	if err != nil {
 		return err
 	}
-	q := r.URL.Query()
+	q := queryOf(r)
 	ageStr := q.Get("age")
 	if ageStr == "" {
 		return problem(CodeInvalidParameter, "age= is required (Ma)").withParam("age")
@@ -270,7 +270,7 @@ func (s *server) modelRidgePush(w http.ResponseWriter, r *http.Request) error {
 	if err != nil {
 		return err
 	}
-	spec := r.URL.Query().Get("ages")
+	spec := queryOf(r).Get("ages")
 	if spec == "" {
 		spec = "0:200:10"
 	}

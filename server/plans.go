@@ -27,7 +27,7 @@ func (s *server) listPlans(w http.ResponseWriter, r *http.Request) error {
 		name string
 		v    *int
 	}{{"limit", &page.Limit}, {"offset", &page.Offset}} {
-		if raw := r.URL.Query().Get(q.name); raw != "" {
+		if raw := queryOf(r).Get(q.name); raw != "" {
 			n, err := strconv.Atoi(raw)
 			if err != nil || n < 0 {
 				return problem(CodeInvalidParameter, "%s=%q: want a whole number ≥ 0", q.name, raw).withParam(q.name)
@@ -142,7 +142,7 @@ type checkFormat struct {
 // checkFormatOf reads f= (json, csv, geojson, pdf, png; their media types are accepted too) or,
 // without it, the Accept header; JSON is the default.
 func checkFormatOf(r *http.Request) (checkFormat, error) {
-	f := strings.ToLower(strings.TrimSpace(r.URL.Query().Get("f")))
+	f := strings.ToLower(strings.TrimSpace(queryOf(r).Get("f")))
 	if f == "" {
 		acc := r.Header.Get("Accept")
 		switch {
@@ -170,7 +170,7 @@ func checkFormatOf(r *http.Request) (checkFormat, error) {
 	case "png", MediaPNG:
 		return checkFormat{report: "png"}, nil
 	}
-	return checkFormat{}, problem(CodeUnsupportedFormat, "f=%q: a plan check answers json, csv, geojson, pdf or png", r.URL.Query().Get("f")).withParam("f")
+	return checkFormat{}, problem(CodeUnsupportedFormat, "f=%q: a plan check answers json, csv, geojson, pdf or png", queryOf(r).Get("f")).withParam("f")
 }
 
 // checkRequest is the body of POST /api/plans/check when it names a stored plan: its id and,
@@ -258,7 +258,7 @@ func (s *server) writeCheck(w http.ResponseWriter, r *http.Request, p survey.Pla
 	media := cf.enc.MediaType()
 	if cf.report != "" {
 		page := 1
-		if v := r.URL.Query().Get("page"); v != "" {
+		if v := queryOf(r).Get("page"); v != "" {
 			if page, err = strconv.Atoi(v); err != nil || page < 1 {
 				return problem(CodeInvalidParameter, "page=%q: want a page number from 1", v).withParam("page")
 			}

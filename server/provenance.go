@@ -5,7 +5,9 @@ import (
 	"errors"
 	"fmt"
 	"hash/crc32"
+	"hash/maphash"
 	"net/http"
+	"slices"
 	"strings"
 	"sync"
 
@@ -56,50 +58,95 @@ func provenanceHeader(p Provenance) string {
 	return strings.Join(parts, ", ")
 }
 
-// provHeaders caches provenanceHeader by its inputs: quoting the header cost a position query
-// more than its arithmetic, and answers share a handful of provenances (model × dataset ×
-// sediment law). When it holds provHeadersMax values it is emptied and refilled.
-var provHeaders = struct {
+// provCache holds, per distinct provenance, its header value and its JSON: quoting the header
+// and encoding the model's parameters cost a position query more than its arithmetic, and
+// answers share a handful of provenances (model × dataset × sediment law). Entries are found by
+// a hash of every field and confirmed field by field; when it holds provCacheMax entries it is
+// emptied and refilled.
+var provCache = struct {
 	sync.RWMutex
-	m map[string]string
-}{m: map[string]string{}}
+	m map[uint64]*provEntry
+}{m: map[uint64]*provEntry{}}
 
-const provHeadersMax = 1024
+const provCacheMax = 1024
 
-// cachedProvenanceHeader is provenanceHeader(p), from the cache when p's header fields were seen
-// before.
-func cachedProvenanceHeader(p Provenance) string {
-	var k strings.Builder
-	add := func(s string) { k.WriteString(s); k.WriteByte(0) }
-	add(p.Software)
+var provSeed = maphash.MakeSeed()
+
+type provEntry struct {
+	p      Provenance
+	model  evaluate.ModelRef // *p.Model, copied (p.Model is cleared)
+	header string
+	json   []byte
+}
+
+// provenanceEntry returns the cached header and JSON of p, making them the first time.
+func provenanceEntry(p *Provenance) (*provEntry, error) {
+	var h maphash.Hash
+	h.SetSeed(provSeed)
+	str := func(s string) { h.WriteString(s); h.WriteByte(0) }
+	str(p.Software)
 	if p.Model != nil {
-		add("model")
-		add(p.Model.ID)
-		add(p.Model.ParamsSHA256)
+		str("model")
+		str(p.Model.ID)
+		str(p.Model.ParamsSHA256)
 	}
-	add(p.Sediment)
-	add(p.Dataset)
+	str(p.Sediment)
+	str(p.Dataset)
 	for _, g := range p.Grids {
-		add(g.Role)
-		add(g.ID)
-		add(g.SHA256)
+		str(g.Role)
+		str(g.ID)
+		str(g.SHA256)
+		str(g.Label)
 	}
-	add(p.Label)
-	key := k.String()
-	provHeaders.RLock()
-	h, ok := provHeaders.m[key]
-	provHeaders.RUnlock()
-	if ok {
-		return h
+	str(p.Label)
+	str(p.Caution)
+	str(p.Note)
+	key := h.Sum64()
+	provCache.RLock()
+	e := provCache.m[key]
+	provCache.RUnlock()
+	if e != nil && e.matches(p) {
+		return e, nil
 	}
-	h = provenanceHeader(p)
-	provHeaders.Lock()
-	if len(provHeaders.m) >= provHeadersMax {
-		provHeaders.m = map[string]string{}
+	e = &provEntry{p: *p, header: provenanceHeader(*p)}
+	e.p.Grids = slices.Clone(p.Grids)
+	if p.Model != nil {
+		e.model = *p.Model
+		e.p.Model = nil
 	}
-	provHeaders.m[key] = h
-	provHeaders.Unlock()
-	return h
+	var err error
+	if e.json, err = appendEncoded(nil, p); err != nil {
+		return nil, err
+	}
+	provCache.Lock()
+	if len(provCache.m) >= provCacheMax {
+		provCache.m = map[uint64]*provEntry{}
+	}
+	provCache.m[key] = e
+	provCache.Unlock()
+	return e, nil
+}
+
+// matches reports whether e was made from a provenance equal to p.
+func (e *provEntry) matches(p *Provenance) bool {
+	q := &e.p
+	if q.Software != p.Software || q.Sediment != p.Sediment || q.Dataset != p.Dataset || q.Label != p.Label ||
+		q.Caution != p.Caution || q.Note != p.Note || !slices.Equal(q.Grids, p.Grids) {
+		return false
+	}
+	if p.Model == nil {
+		return e.model.ID == "" && e.model.ParamsSHA256 == ""
+	}
+	return e.model.ID == p.Model.ID && e.model.ParamsSHA256 == p.Model.ParamsSHA256 && e.model.Params == p.Model.Params
+}
+
+// cachedProvenanceHeader is provenanceHeader(p), from the cache when p was seen before.
+func cachedProvenanceHeader(p Provenance) string {
+	e, err := provenanceEntry(&p)
+	if err != nil {
+		return provenanceHeader(p)
+	}
+	return e.header
 }
 
 // withPNGCaution returns the PNG file raw with a tEXt chunk under the

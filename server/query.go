@@ -35,7 +35,7 @@ var formatNames = map[outFormat]string{fmtCovJSON: "CoverageJSON", fmtGeoJSON: "
 // negotiate reads f= (or, without it, the Accept header). The media type
 // returned for CoverageJSON is the older one when the client asked for it.
 func negotiate(r *http.Request, allowed ...outFormat) (outFormat, string, error) {
-	f := strings.ToLower(strings.TrimSpace(r.URL.Query().Get("f")))
+	f := strings.ToLower(strings.TrimSpace(queryOf(r).Get("f")))
 	covType := MediaCovJSON
 	var got outFormat = -1
 	switch f {
@@ -75,12 +75,12 @@ func negotiate(r *http.Request, allowed ...outFormat) (outFormat, string, error)
 		}
 		names = append(names, formatNames[a])
 	}
-	return 0, "", problem(CodeUnsupportedFormat, "f=%q: this query answers %s", r.URL.Query().Get("f"), strings.Join(names, ", ")).withParam("f")
+	return 0, "", problem(CodeUnsupportedFormat, "f=%q: this query answers %s", queryOf(r).Get("f"), strings.Join(names, ", ")).withParam("f")
 }
 
 // parseCoords parses the coords WKT (longitude first, as EDR specifies).
 func parseCoords(r *http.Request) (orb.Geometry, error) {
-	c := strings.TrimSpace(r.URL.Query().Get("coords"))
+	c := strings.TrimSpace(queryOf(r).Get("coords"))
 	if c == "" {
 		return nil, problem(CodeInvalidCoords, "coords= is required (WKT, longitude first)").withParam("coords")
 	}

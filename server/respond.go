@@ -31,10 +31,25 @@ func writeJSON(w http.ResponseWriter, status int, mediaType string, v any) error
 			jsonBuffers.Put(buf)
 		}
 	}()
-	enc := json.NewEncoder(buf)
-	enc.SetEscapeHTML(false)
-	if err := enc.Encode(v); err != nil {
-		return err
+	switch c := v.(type) {
+	case coverage:
+		b, err := c.appendJSON(buf.AvailableBuffer())
+		if err != nil {
+			return err
+		}
+		buf.Write(b)
+	case *coverage:
+		b, err := c.appendJSON(buf.AvailableBuffer())
+		if err != nil {
+			return err
+		}
+		buf.Write(b)
+	default:
+		enc := json.NewEncoder(buf)
+		enc.SetEscapeHTML(false)
+		if err := enc.Encode(v); err != nil {
+			return err
+		}
 	}
 	if mediaType == "" {
 		mediaType = "application/json"

@@ -44,7 +44,7 @@ func (s *server) slabPullPost(w http.ResponseWriter, r *http.Request) error {
 // slabSettings reads convergence-mm-yr, slab-length-km and dip-deg; a missing or unreadable
 // value is NaN, refused by evaluate.SlabSettings.Check naming the field.
 func slabSettings(r *http.Request) evaluate.SlabSettings {
-	q := r.URL.Query()
+	q := queryOf(r)
 	num := func(name string) float64 {
 		v, err := strconv.ParseFloat(strings.TrimSpace(q.Get(name)), 64)
 		if err != nil {
@@ -57,7 +57,7 @@ func slabSettings(r *http.Request) evaluate.SlabSettings {
 
 // spacingKm reads spacing-km (0 when absent: the age grid's row spacing).
 func spacingKm(r *http.Request) (float64, error) {
-	v := r.URL.Query().Get("spacing-km")
+	v := queryOf(r).Get("spacing-km")
 	if v == "" {
 		return 0, nil
 	}

@@ -62,7 +62,7 @@ func parseStatisticsQuery(r *http.Request) (q statisticsQuery, err error) {
 		return
 	}
 	q.options = queryOptions(r)
-	v := r.URL.Query()
+	v := queryOf(r)
 	if g := v.Get("grid"); g != "" {
 		if q.grid, err = strconv.ParseBool(g); err != nil {
 			return q, problem(CodeInvalidParameter, "grid=%q must be true or false", g).withParam("grid")

@@ -42,7 +42,7 @@ func (s *server) tile(w http.ResponseWriter, r *http.Request) error {
 	if err != nil {
 		return err
 	}
-	if rs := r.URL.Query().Get("range"); rs != "" {
+	if rs := queryOf(r).Get("range"); rs != "" {
 		lo, hi, ok := parseColourRange(rs)
 		if !ok {
 			return problem(CodeInvalidParameter, "range must be two numbers min,max (units of the parameter), got %q", rs)
