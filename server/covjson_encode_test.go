@@ -59,7 +59,7 @@ func TestCoverageEncoding(t *testing.T) {
 		},
 		"nil maps and axis of other values": func() coverage {
 			c := coverage{Type: "Coverage", Domain: covDomain{Type: "Domain", DomainType: "Point",
-				Axes: map[string]covAxis{"t": {Values: []string{"2026-12-03"}}, "x": {Values: []jsonFloat(nil)}, "y": {}},
+				Axes:        map[string]covAxis{"t": {Values: []string{"2026-12-03"}}, "x": {Values: []jsonFloat(nil)}, "y": {}},
 				Referencing: []covReferencing{{Coordinates: []string{"x"}, System: covRefSystem{Type: "T", ID: "i"}}}}}
 			return c
 		},
