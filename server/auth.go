@@ -79,6 +79,10 @@ func (s *server) authenticate(next http.Handler) http.Handler {
 			s.unauthorized(w, r, "this server requires a token for reads: send Authorization: Bearer <token>")
 			return
 		}
+		if p.Token == nil {
+			next.ServeHTTP(w, r) // anonymous: the zero principal, as when none is stored
+			return
+		}
 		next.ServeHTTP(w, r.WithContext(context.WithValue(r.Context(), ctxPrincipal, p)))
 	})
 }

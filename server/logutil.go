@@ -25,8 +25,17 @@ func levelFor(status int) slog.Level {
 // routePattern is the chi route pattern that matched (e.g.
 // /api/collections/{datasetId}/position), or "" before routing.
 func routePattern(r *http.Request) string {
-	if rc := chi.RouteContext(r.Context()); rc != nil {
-		return rc.RoutePattern()
+	st, _ := r.Context().Value(ctxRequestID).(*requestState)
+	if st != nil && st.route != "" {
+		return st.route
 	}
-	return ""
+	rc := chi.RouteContext(r.Context())
+	if rc == nil {
+		return ""
+	}
+	route := rc.RoutePattern()
+	if st != nil && route != "" {
+		st.route = route // the metrics and the access log both ask, after routing
+	}
+	return route
 }

@@ -33,6 +33,7 @@ type requestState struct {
 	id     string
 	query  url.Values
 	parsed bool
+	route  string // the route pattern, once routed (routePattern)
 }
 
 // requestID returns the request id stored by requestIDMiddleware.

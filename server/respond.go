@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"net"
 	"net/http"
+	"strconv"
 	"strings"
 	"sync"
 
@@ -54,7 +55,10 @@ func writeJSON(w http.ResponseWriter, status int, mediaType string, v any) error
 	if mediaType == "" {
 		mediaType = "application/json"
 	}
-	w.Header().Set("Content-Type", mediaType)
+	h := w.Header()
+	h.Set("Content-Type", mediaType)
+	// A stated length: net/http would otherwise send a body over 2 KiB in chunks.
+	h.Set("Content-Length", strconv.Itoa(buf.Len()))
 	w.WriteHeader(status)
 	_, err := w.Write(buf.Bytes())
 	return err
