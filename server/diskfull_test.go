@@ -4,8 +4,10 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
+	"log/slog"
 	"mime/multipart"
 	"net/http"
 	"net/http/httptest"
@@ -167,5 +169,33 @@ func TestStoreFaultProblems(t *testing.T) {
 	}
 	if p := asProblem(context.DeadlineExceeded); p.Code != CodeTimeout || p.retryAfter != 0 {
 		t.Errorf("a plain deadline: %s retry %v", p.Code, p.retryAfter)
+	}
+}
+
+// A 503 or 507 the service means to give is a warning in the log; any other server fault an
+// error.
+func TestFaultLogLevels(t *testing.T) {
+	cases := []struct {
+		name  string
+		err   error
+		level string
+	}{
+		{"store unavailable", fmt.Errorf("x: %w", store.ErrUnavailable), "level=WARN"},
+		{"disk full", store.NoSpace(&os.PathError{Op: "write", Path: "x", Err: syscall.ENOSPC}), "level=WARN"},
+		{"a fault", errors.New("something broke"), "level=ERROR"},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			var logs bytes.Buffer
+			s := &server{log: slog.New(slog.NewTextHandler(&logs, nil))}
+			rec := httptest.NewRecorder()
+			s.h(func(http.ResponseWriter, *http.Request) error { return tc.err })(rec, httptest.NewRequest("GET", "/api/regions", nil))
+			if rec.Code < 500 {
+				t.Fatalf("status %d", rec.Code)
+			}
+			if !strings.Contains(logs.String(), tc.level) {
+				t.Fatalf("want %s, logged %q", tc.level, logs.String())
+			}
+		})
 	}
 }

@@ -218,14 +218,17 @@ func newServer(deps Deps) *server {
 // writing one, and the single adapter h turns errors into problem details.
 type handlerFunc func(w http.ResponseWriter, r *http.Request) error
 
-// h adapts a handlerFunc to http.HandlerFunc, writing any returned error as
-// RFC 9457 application/problem+json.
 // NewEvaluate builds the evaluate service of deps: its store, version and limits.
 func NewEvaluate(deps Deps) *evaluate.Service {
 	return evaluate.New(evaluate.Config{Store: deps.Store, Version: deps.Version, Limits: deps.Limits.withDefaults().Limits,
 		MemoryBudget: deps.Config.MemoryBudgetBytes})
 }
 
+// h adapts a handlerFunc to http.HandlerFunc, writing any returned error as
+// RFC 9457 application/problem+json. Server faults are logged at error level; a refusal the
+// service means to give under a condition that passes (503 store unavailable or busy with a
+// Retry-After, 507 disk full) is logged at warning level, so an outage of the database does not
+// fill the error log with one line per request.
 func (s *server) h(fn handlerFunc) http.HandlerFunc {
 	return func(w http.ResponseWriter, r *http.Request) {
 		err := fn(w, r)
@@ -234,8 +237,12 @@ func (s *server) h(fn handlerFunc) http.HandlerFunc {
 		}
 		p := asProblem(err)
 		if p.Status >= 500 {
-			s.log.ErrorContext(r.Context(), "request failed", "request_id", requestID(r.Context()),
-				"method", r.Method, "path", r.URL.Path, "err", err)
+			level := slog.LevelError
+			if p.Status == http.StatusServiceUnavailable || p.Status == http.StatusInsufficientStorage {
+				level = slog.LevelWarn
+			}
+			s.log.Log(r.Context(), level, "request failed", "request_id", requestID(r.Context()),
+				"method", r.Method, "path", r.URL.Path, "status", p.Status, "err", err)
 		} else if d := store.DetailOf(err); d != "" {
 			// The database's own words (constraint names, SQL) go to the log, never the answer.
 			s.log.InfoContext(r.Context(), "request refused by the store", "request_id", requestID(r.Context()),
