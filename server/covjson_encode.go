@@ -25,43 +25,18 @@ func (c *coverage) appendJSON(b []byte) ([]byte, error) {
 		return b, err
 	}
 	b = append(b, `,"parameters":`...)
-	if c.Parameters == nil {
-		b = append(b, "null"...)
-	} else {
-		b = append(b, '{')
-		for i, k := range sortedKeys(c.Parameters) {
-			if i > 0 {
-				b = append(b, ',')
-			}
-			b = appendJSONString(b, k)
-			b = append(b, ':')
-			p := c.Parameters[k]
-			if p.encoded == nil {
-				enc, err := p.MarshalJSON()
-				if err != nil {
-					return b, err
-				}
-				b = append(b, enc...)
-			} else {
-				b = append(b, p.encoded...)
-			}
+	if b, err = appendMap(b, c.Parameters, func(b []byte, p covParameter) ([]byte, error) {
+		if p.encoded != nil {
+			return append(b, p.encoded...), nil
 		}
-		b = append(b, '}')
+		enc, err := p.MarshalJSON()
+		return append(b, enc...), err
+	}); err != nil {
+		return b, err
 	}
 	b = append(b, `,"ranges":`...)
-	if c.Ranges == nil {
-		b = append(b, "null"...)
-	} else {
-		b = append(b, '{')
-		for i, k := range sortedKeys(c.Ranges) {
-			if i > 0 {
-				b = append(b, ',')
-			}
-			b = appendJSONString(b, k)
-			b = append(b, ':')
-			b = appendNdArray(b, c.Ranges[k])
-		}
-		b = append(b, '}')
+	if b, err = appendMap(b, c.Ranges, func(b []byte, a covNdArray) ([]byte, error) { return appendNdArray(b, a), nil }); err != nil {
+		return b, err
 	}
 	if c.Provenance != nil {
 		b = append(b, `,"ridgeflank:provenance":`...)
@@ -117,22 +92,9 @@ func appendDomain(b []byte, d *covDomain) ([]byte, error) {
 	b = append(b, `,"domainType":`...)
 	b = appendJSONString(b, d.DomainType)
 	b = append(b, `,"axes":`...)
-	var err error
-	if d.Axes == nil {
-		b = append(b, "null"...)
-	} else {
-		b = append(b, '{')
-		for i, k := range sortedKeys(d.Axes) {
-			if i > 0 {
-				b = append(b, ',')
-			}
-			b = appendJSONString(b, k)
-			b = append(b, ':')
-			if b, err = appendAxis(b, d.Axes[k]); err != nil {
-				return b, err
-			}
-		}
-		b = append(b, '}')
+	b, err := appendMap(b, d.Axes, appendAxis)
+	if err != nil {
+		return b, err
 	}
 	b = append(b, `,"referencing":`...)
 	if len(d.Referencing) == 1 && len(crs84) == 1 && &d.Referencing[0] == &crs84[0] {
@@ -304,6 +266,27 @@ func appendJSONString(b []byte, s string) []byte {
 	b = append(b, '"')
 	b = append(b, s...)
 	return append(b, '"')
+}
+
+// appendMap appends m as encoding/json encodes a map (null when nil, keys sorted), each value
+// by val.
+func appendMap[V any](b []byte, m map[string]V, val func([]byte, V) ([]byte, error)) ([]byte, error) {
+	if m == nil {
+		return append(b, "null"...), nil
+	}
+	b = append(b, '{')
+	var err error
+	for i, k := range sortedKeys(m) {
+		if i > 0 {
+			b = append(b, ',')
+		}
+		b = appendJSONString(b, k)
+		b = append(b, ':')
+		if b, err = val(b, m[k]); err != nil {
+			return b, err
+		}
+	}
+	return append(b, '}'), nil
 }
 
 func sortedKeys[V any](m map[string]V) []string {
