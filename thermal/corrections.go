@@ -41,12 +41,17 @@ func CompactionNames() []string {
 	return names
 }
 
+// compactionKeyReplacer spells a sediment type's name as the table's keys do.
+var compactionKeyReplacer = strings.NewReplacer(" ", "-", "_", "-")
+
 // CompactionByName returns the Sclater & Christie (1980) law for "shale",
 // "sand" or "shaly-sand" (case-insensitive; "shaly sand" and "shaly_sand"
 // are accepted too).
 func CompactionByName(name string) (Compaction, error) {
-	key := strings.ToLower(strings.TrimSpace(name))
-	key = strings.NewReplacer(" ", "-", "_", "-").Replace(key)
+	if c, ok := compactions[name]; ok { // the usual spelling: no copies
+		return c, nil
+	}
+	key := compactionKeyReplacer.Replace(strings.ToLower(strings.TrimSpace(name)))
 	if c, ok := compactions[key]; ok {
 		return c, nil
 	}
