@@ -20,6 +20,12 @@ import (
 	"ridgeflank/store/storetest"
 )
 
+func TestMain(m *testing.M) {
+	code := m.Run()
+	s3test.StopSeaweed()
+	os.Exit(code)
+}
+
 var prefixes atomic.Int64
 
 // open returns a grid store on a fresh prefix of srv's bucket.
@@ -76,18 +82,20 @@ func TestCreateBucket(t *testing.T) {
 func testCreateBucket(t *testing.T, srv *s3test.Server) {
 	_, cfg := srv.Config("")
 	ctx := context.Background()
-	if _, err := s3blob.Open(ctx, "s3://fresh/g", cfg, slog.New(slog.DiscardHandler)); !errors.Is(err, store.ErrInvalid) {
+	// A bucket name of its own for each run: a SeaweedFS server outlives one test.
+	fresh := fmt.Sprintf("s3://fresh-%d/g", prefixes.Add(1))
+	if _, err := s3blob.Open(ctx, fresh, cfg, slog.New(slog.DiscardHandler)); !errors.Is(err, store.ErrInvalid) {
 		t.Fatalf("Open of a missing bucket = %v; want ErrInvalid", err)
 	}
 	cfg.CreateBucket = true
-	b, err := s3blob.Open(ctx, "s3://fresh/g", cfg, slog.New(slog.DiscardHandler))
+	b, err := s3blob.Open(ctx, fresh, cfg, slog.New(slog.DiscardHandler))
 	if err != nil {
 		t.Fatalf("Open with CreateBucket: %v", err)
 	}
 	if _, err := b.Put(ctx, "", func(p string) error { return os.WriteFile(p, []byte("abc"), 0o644) }); err != nil {
 		t.Fatalf("Put into the created bucket: %v", err)
 	}
-	if _, err := s3blob.Open(ctx, "s3://fresh/g", cfg, slog.New(slog.DiscardHandler)); err != nil {
+	if _, err := s3blob.Open(ctx, fresh, cfg, slog.New(slog.DiscardHandler)); err != nil {
 		t.Fatalf("second Open with CreateBucket (bucket exists): %v", err)
 	}
 }

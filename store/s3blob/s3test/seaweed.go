@@ -15,6 +15,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"syscall"
 	"testing"
 	"time"
@@ -29,15 +30,18 @@ import (
 // it: make test sets it to the binary that make deps-test built.
 const EnvWeed = "RIDGEFLANK_TEST_WEED"
 
-// weedStartTimeout bounds the wait for a fresh server to store an object (measured: a few
-// seconds on an idle 2-core machine; generous for a loaded one).
+// weedStartTimeout bounds the wait for a fresh server to store an object (measured: about
+// 11 s on a loaded 2-core machine, most of it the filer joining the master; generous here).
 const weedStartTimeout = 90 * time.Second
 
-// StartSeaweed starts a SeaweedFS server (master, volume server, filer and S3 gateway in one
-// process, `weed server`) on loopback ports in a temporary directory, with one identity whose
-// access key the S3 gateway requires on every request (signature checked: AWS Signature
-// Version 4), creates bucket, and stops the server when the test ends. The requests go
-// through a recording proxy, so Requests works as for Start.
+// StartSeaweed gives the test an empty bucket on a SeaweedFS server: master, volume server,
+// filer and S3 gateway in one process (`weed server`), on loopback ports, in a temporary
+// directory, with one identity whose access key the S3 gateway requires on every request (it
+// checks each AWS Signature Version 4). The process is started on the first call and shared by
+// the test binary's later calls (it takes about 10 s to store its first object); each call
+// gets its own bucket, named bucket plus a number, and its own recording proxy in front, so
+// Requests works as for Start. A TestMain calls StopSeaweed after m.Run; should a test binary
+// not, the kernel ends the server with the binary (its temporary directory stays).
 //
 // The binary is the one EnvWeed names, else build/tools/weed of the module (make deps-test
 // builds it), else weed on PATH. Without one the test is skipped, naming what is missing;
@@ -51,25 +55,69 @@ func StartSeaweed(t testing.TB, bucket string) *Server {
 		}
 		t.Skipf("SeaweedFS server binary (weed) not available, S3 tests against it skipped: %s", why)
 	}
-	s := &Server{Kind: KindSeaweed, Bucket: bucket, AccessKeyID: "RFWEED" + randHex(7), SecretAccessKey: "rf-weed-secret-" + randHex(16)}
-	var (
-		endpoint string
-		err      error
-	)
-	for attempt := 0; attempt < 3; attempt++ { // a port picked free may be taken before weed binds it
-		if endpoint, err = startWeed(t, bin, s); err == nil || !errors.Is(err, errPortTaken) {
-			break
-		}
-	}
+	w, err := sharedWeed(t, bin)
 	if err != nil {
 		t.Fatalf("SeaweedFS server (%s): %v", bin, err)
 	}
-	target, _ := url.Parse(endpoint)
+	s := &Server{Kind: KindSeaweed, Bucket: fmt.Sprintf("%s-%d", bucket, w.buckets.Add(1)), AccessKeyID: w.accessKeyID, SecretAccessKey: w.secretAccessKey}
+	ctx, cancel := context.WithTimeout(context.Background(), weedStartTimeout)
+	defer cancel()
+	if err := weedReady(ctx, w.endpoint, s, nil); err != nil {
+		t.Fatalf("SeaweedFS server: bucket %s: %v", s.Bucket, err)
+	}
+	target, _ := url.Parse(w.endpoint)
 	proxy := httputil.NewSingleHostReverseProxy(target)
 	// The proxy passes the client's Host header on unchanged (its Director leaves req.Host
 	// alone): the signature covers it.
 	s.start(t, proxy, false)
 	return s
+}
+
+// StopSeaweed stops the shared SeaweedFS server, if one was started, and removes its files.
+func StopSeaweed() {
+	weedShared.mu.Lock()
+	defer weedShared.mu.Unlock()
+	if w := weedShared.w; w != nil {
+		w.stop()
+		weedShared.w = nil
+	}
+}
+
+// weedProc is a running server.
+type weedProc struct {
+	endpoint                     string
+	accessKeyID, secretAccessKey string
+	buckets                      atomic.Int64
+	stop                         func()
+}
+
+var weedShared struct {
+	mu  sync.Mutex
+	w   *weedProc
+	err error // why it could not be started (not retried)
+}
+
+func sharedWeed(t testing.TB, bin string) (*weedProc, error) {
+	weedShared.mu.Lock()
+	defer weedShared.mu.Unlock()
+	if weedShared.w != nil || weedShared.err != nil {
+		return weedShared.w, weedShared.err
+	}
+	t0 := time.Now()
+	var w *weedProc
+	var err error
+	for attempt := 0; attempt < 3; attempt++ { // a port picked free may be taken before weed binds it
+		if w, err = startWeed(bin); err == nil || !errors.Is(err, errPortTaken) {
+			break
+		}
+	}
+	if err != nil {
+		weedShared.err = err
+		return nil, err
+	}
+	t.Logf("SeaweedFS server started (a bucket created, an object stored and read) in %s", time.Since(t0).Round(10*time.Millisecond))
+	weedShared.w = w
+	return w, nil
 }
 
 // KindFake and KindSeaweed name the two servers (Server.Kind).
@@ -78,8 +126,8 @@ const (
 	KindSeaweed = "seaweedfs"
 )
 
-// Each runs fn as one subtest per server kind (named by Kind), each with a fresh server and an
-// empty bucket named bucket. The SeaweedFS subtest is skipped, as StartSeaweed says, where no
+// Each runs fn as one subtest per server kind (named by Kind), each with an empty bucket named
+// bucket (the SeaweedFS one with a number appended: StartSeaweed). The SeaweedFS subtest is skipped, as StartSeaweed says, where no
 // binary is available.
 func Each(t *testing.T, bucket string, fn func(t *testing.T, srv *Server)) {
 	t.Helper()
@@ -155,32 +203,36 @@ func moduleRoot() string {
 
 var errPortTaken = errors.New("port taken")
 
-// startWeed runs one server for s and waits until its S3 gateway stores an object in the
-// bucket; it returns the gateway's URL.
-func startWeed(t testing.TB, bin string, s *Server) (string, error) {
+// startWeed runs one server and waits until its S3 gateway stores an object.
+func startWeed(bin string) (_ *weedProc, err error) {
 	dir, err := os.MkdirTemp("", "rf-weed-")
 	if err != nil {
-		return "", err
+		return nil, err
 	}
-	t.Cleanup(func() { os.RemoveAll(dir) })
+	defer func() {
+		if err != nil {
+			os.RemoveAll(dir)
+		}
+	}()
+	w := &weedProc{accessKeyID: "RFWEED" + randHex(7), secretAccessKey: "rf-weed-secret-" + randHex(16)}
 	// The S3 identities (SeaweedFS's -s3.config JSON): one identity with every action; no
 	// anonymous identity, so unsigned requests are refused.
 	conf, _ := json.Marshal(map[string]any{"identities": []any{map[string]any{
 		"name":        "ridgeflank-test",
-		"credentials": []any{map[string]string{"accessKey": s.AccessKeyID, "secretKey": s.SecretAccessKey}},
+		"credentials": []any{map[string]string{"accessKey": w.accessKeyID, "secretKey": w.secretAccessKey}},
 		"actions":     []string{"Admin", "Read", "List", "Tagging", "Write"},
 	}}})
 	confPath := filepath.Join(dir, "s3.json")
 	if err := os.WriteFile(confPath, conf, 0o600); err != nil {
-		return "", err
+		return nil, err
 	}
 	data := filepath.Join(dir, "data")
 	if err := os.Mkdir(data, 0o755); err != nil {
-		return "", err
+		return nil, err
 	}
 	ports, err := freePorts(8)
 	if err != nil {
-		return "", err
+		return nil, err
 	}
 	p := func(i int) string { return strconv.Itoa(ports[i]) }
 	args := []string{"server",
@@ -199,41 +251,49 @@ func startWeed(t testing.TB, bin string, s *Server) (string, error) {
 	logPath := filepath.Join(dir, "weed.log")
 	logf, err := os.Create(logPath)
 	if err != nil {
-		return "", err
+		return nil, err
 	}
 	defer logf.Close()
 	cmd := exec.Command(bin, args...)
 	cmd.Dir = dir
 	cmd.Stdout, cmd.Stderr = logf, logf
-	// Should the test process die without its cleanups, the kernel ends the server too.
+	// Should the test process die without stopping it, the kernel ends the server too.
 	cmd.SysProcAttr = &syscall.SysProcAttr{Pdeathsig: syscall.SIGKILL}
 	if err := cmd.Start(); err != nil {
-		return "", err
+		return nil, err
 	}
 	exited := make(chan error, 1)
 	go func() { exited <- cmd.Wait() }()
-	stop := func() {
+	w.stop = func() {
 		_ = cmd.Process.Signal(syscall.SIGTERM)
 		select {
 		case <-exited:
-		case <-time.After(10 * time.Second):
+		case <-time.After(3 * time.Second): // its graceful stop takes about 10 s: not needed here
 			_ = cmd.Process.Kill()
 			<-exited
 		}
+		// The gRPC sockets it opens in /tmp whatever its options (named by port).
+		for _, svc := range []struct {
+			name string
+			port int
+		}{{"master", ports[1]}, {"volume", ports[3]}, {"filer", ports[5]}, {"s3", ports[7]}} {
+			os.Remove(fmt.Sprintf("/tmp/seaweedfs-%s-grpc-%d.sock", svc.name, svc.port))
+		}
+		os.RemoveAll(dir)
 	}
-	endpoint := "http://127.0.0.1:" + p(6)
+	w.endpoint = "http://127.0.0.1:" + p(6)
 	ctx, cancel := context.WithTimeout(context.Background(), weedStartTimeout)
 	defer cancel()
-	if err := weedReady(ctx, endpoint, s, exited); err != nil {
-		stop()
+	probe := &Server{Bucket: "ridgeflank-ready", AccessKeyID: w.accessKeyID, SecretAccessKey: w.secretAccessKey}
+	if err := weedReady(ctx, w.endpoint, probe, exited); err != nil {
 		tail := logTail(logPath, 3000)
+		w.stop()
 		if strings.Contains(tail, "address already in use") {
-			return "", fmt.Errorf("%w: %v", errPortTaken, err)
+			return nil, fmt.Errorf("%w: %v", errPortTaken, err)
 		}
-		return "", fmt.Errorf("%v; its log ends:\n%s", err, tail)
+		return nil, fmt.Errorf("%v; its log ends:\n%s", err, tail)
 	}
-	t.Cleanup(stop)
-	return endpoint, nil
+	return w, nil
 }
 
 // weedReady creates the bucket and stores, reads and removes one object, retrying while the
