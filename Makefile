@@ -83,6 +83,7 @@ test-web: ## run the page's unit tests (npm test)
 test-go: ## run every Go test on SQLite and PostGIS (brings up the test database)
 	@mkdir -p build/screenshots
 	@set -a; eval "$$(scripts/test-db.sh)"; set +a; \
+	  if [ -z "$${RIDGEFLANK_TEST_WEED:-}" ] && [ -x build/tools/weed ]; then export RIDGEFLANK_TEST_WEED=$(CURDIR)/build/tools/weed; fi; \
 	  RIDGEFLANK_SCREENSHOTS=$(CURDIR)/build/screenshots $(GO) test $(GO_TEST_FLAGS) ./...
 
 bench: build ## run the chosen Go benchmarks and the load test; write docs/benchmarks.md (a few minutes)

@@ -14,8 +14,8 @@ import (
 
 // BenchmarkWindowRead opens a stored COG (4096 × 2048 Float32 cells of noise, about 32 MB, so
 // more than GDAL's 16 MiB range cache) and reads one 256 × 256 window at a random place, from
-// the grid directory and from the bucket of a loopback S3-compatible server through /vsis3/.
-// Compare the two ns/op of one run.
+// the grid directory and, through /vsis3/, from a bucket of the in-process fake and of a
+// SeaweedFS server (both on loopback). Compare the ns/op of one run.
 func BenchmarkWindowRead(b *testing.B) {
 	g := geo.NewGrid(4096, 2048, -180+0.5*360.0/4096, 90-0.5*180.0/2048, 360.0/4096, 180.0/2048, geo.CellCentre)
 	r := rand.New(rand.NewPCG(1, 2))
@@ -26,29 +26,30 @@ func BenchmarkWindowRead(b *testing.B) {
 	if err := gdal.WriteCOG(src, g, gdal.Meta{Units: "m", Name: "noise"}); err != nil {
 		b.Fatal(err)
 	}
-	dir, err := store.NewGridFiles(b.TempDir())
-	if err != nil {
-		b.Fatal(err)
-	}
-	srv := s3test.Start(b, "bench")
-	url, cfg := srv.Config("bench")
-	bucket, err := openBlobs(url, cfg)
-	if err != nil {
-		b.Fatal(err)
-	}
 	for _, c := range []struct {
 		name  string
-		blobs store.Blobs
-	}{{"directory", dir}, {"bucket", bucket}} {
-		info, err := c.blobs.Put(context.Background(), "", store.CopyFile(src))
-		if err != nil {
-			b.Fatal(err)
-		}
-		path, err := c.blobs.Path(info.Key)
-		if err != nil {
-			b.Fatal(err)
-		}
+		blobs func(b *testing.B) store.Blobs
+	}{
+		{"directory", func(b *testing.B) store.Blobs {
+			dir, err := store.NewGridFiles(b.TempDir())
+			if err != nil {
+				b.Fatal(err)
+			}
+			return dir
+		}},
+		{"bucket", func(b *testing.B) store.Blobs { return benchBucket(b, s3test.Start(b, "bench")) }},
+		{"bucket-seaweedfs", func(b *testing.B) store.Blobs { return benchBucket(b, s3test.StartSeaweed(b, "bench")) }},
+	} {
 		b.Run(c.name, func(b *testing.B) {
+			blobs := c.blobs(b)
+			info, err := blobs.Put(context.Background(), "", store.CopyFile(src))
+			if err != nil {
+				b.Fatal(err)
+			}
+			path, err := blobs.Path(info.Key)
+			if err != nil {
+				b.Fatal(err)
+			}
 			b.ReportAllocs()
 			dst := make([]float32, 256*256)
 			for b.Loop() {
@@ -63,4 +64,13 @@ func BenchmarkWindowRead(b *testing.B) {
 			}
 		})
 	}
+}
+
+func benchBucket(b *testing.B, srv *s3test.Server) store.Blobs {
+	url, cfg := srv.Config("bench")
+	bucket, err := openBlobs(url, cfg)
+	if err != nil {
+		b.Fatal(err)
+	}
+	return bucket
 }

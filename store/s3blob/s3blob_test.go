@@ -20,6 +20,12 @@ import (
 	"ridgeflank/store/storetest"
 )
 
+func TestMain(m *testing.M) {
+	code := m.Run()
+	s3test.StopSeaweed()
+	os.Exit(code)
+}
+
 var prefixes atomic.Int64
 
 // open returns a grid store on a fresh prefix of srv's bucket.
@@ -38,9 +44,13 @@ func open(t *testing.T, srv *s3test.Server, mod func(*store.ObjectStoreConfig)) 
 	return b
 }
 
+// The tests below that take a server run once against the in-process fake (gofakes3) and
+// once against a real S3-compatible server, SeaweedFS's S3 gateway (s3test.Each).
+
 func TestContract(t *testing.T) {
-	srv := s3test.Start(t, "contract")
-	storetest.RunBlobs(t, func(t *testing.T) store.Blobs { return open(t, srv, nil) })
+	s3test.Each(t, "contract", func(t *testing.T, srv *s3test.Server) {
+		storetest.RunBlobs(t, func(t *testing.T) store.Blobs { return open(t, srv, nil) })
+	})
 }
 
 func TestThroughStoreOpen(t *testing.T) {
@@ -66,21 +76,26 @@ func TestThroughStoreOpen(t *testing.T) {
 }
 
 func TestCreateBucket(t *testing.T) {
-	srv := s3test.Start(t, "existing")
+	s3test.Each(t, "existing", testCreateBucket)
+}
+
+func testCreateBucket(t *testing.T, srv *s3test.Server) {
 	_, cfg := srv.Config("")
 	ctx := context.Background()
-	if _, err := s3blob.Open(ctx, "s3://fresh/g", cfg, slog.New(slog.DiscardHandler)); !errors.Is(err, store.ErrInvalid) {
+	// A bucket name of its own for each run: a SeaweedFS server outlives one test.
+	fresh := fmt.Sprintf("s3://fresh-%d/g", prefixes.Add(1))
+	if _, err := s3blob.Open(ctx, fresh, cfg, slog.New(slog.DiscardHandler)); !errors.Is(err, store.ErrInvalid) {
 		t.Fatalf("Open of a missing bucket = %v; want ErrInvalid", err)
 	}
 	cfg.CreateBucket = true
-	b, err := s3blob.Open(ctx, "s3://fresh/g", cfg, slog.New(slog.DiscardHandler))
+	b, err := s3blob.Open(ctx, fresh, cfg, slog.New(slog.DiscardHandler))
 	if err != nil {
 		t.Fatalf("Open with CreateBucket: %v", err)
 	}
 	if _, err := b.Put(ctx, "", func(p string) error { return os.WriteFile(p, []byte("abc"), 0o644) }); err != nil {
 		t.Fatalf("Put into the created bucket: %v", err)
 	}
-	if _, err := s3blob.Open(ctx, "s3://fresh/g", cfg, slog.New(slog.DiscardHandler)); err != nil {
+	if _, err := s3blob.Open(ctx, fresh, cfg, slog.New(slog.DiscardHandler)); err != nil {
 		t.Fatalf("second Open with CreateBucket (bucket exists): %v", err)
 	}
 }
@@ -88,7 +103,10 @@ func TestCreateBucket(t *testing.T) {
 // TestMultipart uploads a file larger than one part: it arrives in parts, whole, and the
 // temporary file is gone.
 func TestMultipart(t *testing.T) {
-	srv := s3test.Start(t, "multipart")
+	s3test.Each(t, "multipart", testMultipart)
+}
+
+func testMultipart(t *testing.T, srv *s3test.Server) {
 	const part = 5 << 20 // the S3 minimum part size
 	b := open(t, srv, func(c *store.ObjectStoreConfig) { c.PartSizeBytes = part })
 	data := make([]byte, 2*part+12345)
@@ -128,7 +146,10 @@ func TestMultipart(t *testing.T) {
 }
 
 func TestOpenRefuses(t *testing.T) {
-	srv := s3test.Start(t, "refuse")
+	s3test.Each(t, "refuse", testOpenRefuses)
+}
+
+func testOpenRefuses(t *testing.T, srv *s3test.Server) {
 	ctx := context.Background()
 	url, cfg := srv.Config("p")
 	for _, c := range []struct {
@@ -183,7 +204,10 @@ func TestSecretNeverFormatted(t *testing.T) {
 // TestSharedFiles: uploads and exports kept beside the grid files, invisible to List and
 // never removed by a sweep of the grid files.
 func TestSharedFiles(t *testing.T) {
-	srv := s3test.Start(t, "shared")
+	s3test.Each(t, "shared", testSharedFiles)
+}
+
+func testSharedFiles(t *testing.T, srv *s3test.Server) {
 	b := open(t, srv, nil)
 	ctx := context.Background()
 	src := t.TempDir() + "/upload.nc"

@@ -1,7 +1,12 @@
-// Package s3test runs an S3-compatible server (gofakes3, in memory) on a loopback port for
-// tests, with one bucket. It records every request, and refuses (403) any request that is not
-// signed with its access key id, so a test learns whether a client (the SDK, or GDAL's
-// /vsis3/) really used the configured credentials. It checks no signature: gofakes3 does not.
+// Package s3test runs an S3-compatible server on a loopback port for tests, with one bucket,
+// and records every request it receives. Two kinds:
+//
+//   - Start: gofakes3, in memory and in process. It refuses (403) any request that is not
+//     signed with its access key id, so a test learns whether a client (the SDK, or GDAL's
+//     /vsis3/) really used the configured credentials; it checks no signature (gofakes3 does
+//     not).
+//   - StartSeaweed: a SeaweedFS server (a separate process) behind a recording proxy. Its S3
+//     gateway checks the AWS Signature Version 4 of every request itself.
 package s3test
 
 import (
@@ -27,6 +32,7 @@ type Request struct {
 
 // Server is a running test server.
 type Server struct {
+	Kind            string // KindFake or KindSeaweed
 	URL             string // http://127.0.0.1:port
 	Bucket          string
 	AccessKeyID     string
@@ -36,7 +42,7 @@ type Server struct {
 	requests []Request
 }
 
-// Start starts a server with one empty bucket named bucket; it stops when the test ends.
+// Start starts a gofakes3 server with one empty bucket named bucket; it stops when the test ends.
 // When no server can be started the test is skipped with the reason.
 func Start(t testing.TB, bucket string) *Server {
 	t.Helper()
@@ -45,11 +51,17 @@ func Start(t testing.TB, bucket string) *Server {
 		t.Skipf("S3-compatible test server: cannot create bucket: %v", err)
 	}
 	faker := gofakes3.New(be, gofakes3.WithLogger(gofakes3.DiscardLog()))
-	s := &Server{Bucket: bucket, AccessKeyID: "RFTEST" + randHex(8), SecretAccessKey: "rf-secret-" + randHex(16)}
-	inner := faker.Server()
+	s := &Server{Kind: KindFake, Bucket: bucket, AccessKeyID: "RFTEST" + randHex(8), SecretAccessKey: "rf-secret-" + randHex(16)}
+	s.start(t, faker.Server(), true)
+	return s
+}
+
+// start serves inner on a loopback port, recording each request; with checkKey it refuses
+// (403) requests whose Authorization header does not carry s's access key id.
+func (s *Server) start(t testing.TB, inner http.Handler, checkKey bool) {
 	h := http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
 		rec := &statusRecorder{ResponseWriter: w, status: 200}
-		if !strings.Contains(r.Header.Get("Authorization"), "Credential="+s.AccessKeyID+"/") {
+		if checkKey && !strings.Contains(r.Header.Get("Authorization"), "Credential="+s.AccessKeyID+"/") {
 			rec.WriteHeader(http.StatusForbidden)
 		} else {
 			inner.ServeHTTP(rec, r)
@@ -62,7 +74,6 @@ func Start(t testing.TB, bucket string) *Server {
 	srv.Start() // listens on 127.0.0.1
 	t.Cleanup(srv.Close)
 	s.URL = srv.URL
-	return s
 }
 
 // Config returns the grid store URL (s3://bucket/prefix) and client settings for the server.
