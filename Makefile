@@ -82,6 +82,7 @@ test-web: ## run the page's unit tests (npm test)
 
 test-go: ## run every Go test on SQLite and PostGIS (brings up the test database)
 	@mkdir -p build/screenshots
+	@if [ -e build/tools/weed.lock ]; then flock build/tools/weed.lock true; cat build/tools/weed.setup.log 2>/dev/null || true; fi
 	@set -a; eval "$$(scripts/test-db.sh)"; set +a; \
 	  if [ -z "$${RIDGEFLANK_TEST_WEED:-}" ] && [ -x build/tools/weed ]; then export RIDGEFLANK_TEST_WEED=$(CURDIR)/build/tools/weed; fi; \
 	  RIDGEFLANK_SCREENSHOTS=$(CURDIR)/build/screenshots $(GO) test $(GO_TEST_FLAGS) ./...
