@@ -7,6 +7,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -156,7 +157,10 @@ func TestGridMatchesArea(t *testing.T) {
 			for _, form := range []struct {
 				ext, name string
 				args      []string
-			}{{".tif", ".tif", nil}, {".nc", ".nc", nil}, {".tif", "-zstd.tif", []string{"--compress", "zstd"}}} {
+			}{{".tif", ".tif", nil}, {".nc", ".nc", nil}, {".tif", "-zstd.tif", []string{"--compress", "zstd"}},
+				// written in place, inputs not hashed
+				{".tif", "-none.tif", []string{"--compress", "none", "--overviews", "none", "--content-ids=false"}},
+				{".tif", "-none-overviews.tif", []string{"--compress", "none"}}} {
 				ext := form.ext
 				t.Run(src.name+"/"+param+form.name, func(t *testing.T) {
 					out := filepath.Join(t.TempDir(), param+ext)
@@ -201,6 +205,14 @@ func TestGridMatchesArea(t *testing.T) {
 						md[key("ridgeflank_caution")] != evaluate.Caution || !strings.HasPrefix(md[key("ridgeflank_software")], "ridgeflank ") {
 						t.Errorf("provenance missing: %v", md)
 					}
+					if src.args[0] == "--age" {
+						// inputs named, with the content id import would give unless told not to
+						ageInput := md[key("ridgeflank_input_"+evaluate.PSeafloorAge)]
+						hashed := !slices.Contains(form.args, "--content-ids=false")
+						if !strings.HasPrefix(ageInput, filepath.Base(f.age)) || strings.Contains(ageInput, "content id gr_") != hashed {
+							t.Errorf("age input recorded as %q (content id wanted: %v)", ageInput, hashed)
+						}
+					}
 				})
 			}
 		}
@@ -227,14 +239,19 @@ func TestGridBadInput(t *testing.T) {
 			"--sediment", f.sediment, "--sediment-units", "km"}, "sediment_thickness values must lie between 0 and 20000 m"},
 		{"residual without bathymetry", []string{"--parameter", "residual_depth", "--age", f.age}, "needs a grid"},
 		{"unknown model", []string{"--parameter", "heat_flow", "--age", f.age, "--model", "nosuch", "--data", f.dataDir}, `no model "nosuch"`},
+		{"unknown compression", []string{"--parameter", "predicted_depth", "--age", f.age, "--compress", "lzw"}, "--compress must be deflate, zstd or none"},
+		{"unknown overview choice", []string{"--parameter", "predicted_depth", "--age", f.age, "--overviews", "some"}, "--overviews must be auto or none"},
 		{"unknown sediment set", []string{"--parameter", "residual_depth", "--age", f.age, "--depth", f.elevation, "--sediment-set", "gravel"}, `sediment="gravel"`},
 	}
 	for _, c := range cases {
-		for _, ext := range []string{".tif", ".nc"} {
+		for _, ext := range []string{".tif", ".nc", "-in-place.tif"} {
 			t.Run(c.name+ext, func(t *testing.T) {
 				dir := t.TempDir()
-				out := filepath.Join(dir, "out"+ext)
-				code, _, stderr := runCLI(t, nil, append([]string{"grid", "--out", out}, c.args...)...)
+				args := []string{"grid", "--out", filepath.Join(dir, "out"+ext)}
+				if ext == "-in-place.tif" {
+					args = append(args, "--compress", "none", "--overviews", "none")
+				}
+				code, _, stderr := runCLI(t, nil, append(args, c.args...)...)
 				if code != 2 {
 					t.Fatalf("exit %d, want 2: %s", code, stderr)
 				}
