@@ -432,29 +432,7 @@ func screenRows(fl *flagger, vals, age, obs, sed, crust, corr []float32) {
 	}
 	nan32 := float32(math.NaN())
 	for k := range vals {
-		// The test of the rule below, with the inputs that are absent (NaN: every comparison
-		// false) left out; the branches on absence go the same way for every cell.
-		a := float64(age[k])
-		bad := a < 0 || a > MaxAgeMa
-		if obs != nil && float64(obs[k]) > MaxDepthM {
-			bad = true
-		}
-		if sed != nil {
-			if s := float64(sed[k]); s < 0 || s > MaxSedimentM {
-				bad = true
-			}
-		}
-		if crust != nil && float64(crust[k]) < 0 {
-			bad = true
-		}
-		if corr != nil && float64(corr[k]) > MaxDepthM {
-			bad = true
-		}
-		if !bad {
-			continue
-		}
-		o, s, c, cd := float64(at(obs, k)), float64(at(sed, k)), float64(at(crust, k)), float64(at(corr, k))
-		// The rule: a cell is checked when any input lies outside what is physically possible.
+		a, o, s, c, cd := float64(age[k]), float64(at(obs, k)), float64(at(sed, k)), float64(at(crust, k)), float64(at(corr, k))
 		if !(a < 0 || a > MaxAgeMa || s < 0 || s > MaxSedimentM || c < 0 || o > MaxDepthM || cd > MaxDepthM) {
 			continue
 		}

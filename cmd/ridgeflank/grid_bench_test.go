@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 )
 
 // benchGlobal writes a SYNTHETIC global set of nx × ny cells (age Ma, elevation m positive up,
@@ -105,6 +106,20 @@ func BenchmarkGridResidual(b *testing.B) {
 			}
 		}
 	})
+	// The configuration doing the same work as the gdal_calc.py peer: an uncompressed file
+	// without overviews (written in place) and no content hash of the inputs.
+	b.Run("grid-in-place.tif", func(b *testing.B) {
+		b.ReportAllocs()
+		out := filepath.Join(dir, "residual-in-place.tif")
+		for b.Loop() {
+			code := run(context.Background(), []string{"grid", "--parameter", "residual_depth", "--out", out,
+				"--compress", "none", "--overviews", "none", "--content-ids=false",
+				"--age", age, "--depth", elev, "--vertical", "elevation-positive-up", "--sediment", sed}, io.Discard, io.Discard)
+			if code != 0 {
+				b.Fatalf("exit %d", code)
+			}
+		}
+	})
 	b.Run("grid-auto-sense.tif", func(b *testing.B) {
 		b.ReportAllocs()
 		out := filepath.Join(dir, "residual-auto.tif")
@@ -134,15 +149,55 @@ func BenchmarkGridResidual(b *testing.B) {
 		b.Log("gdal_calc.py needs python3-gdal and python3-numpy: peer skipped")
 		return
 	}
+	gdalCalc := func(b *testing.B, out string) {
+		os.Remove(out)
+		if msg, err := exec.Command(calc, "--quiet", "-A", age, "-B", elev, "--outfile", out, "--type", "Float32",
+			"--calc", "where(A < 20, 2600 + 365*sqrt(A), 5651 - 2473*exp(-A/36)) + B").CombinedOutput(); err != nil {
+			b.Fatalf("gdal_calc.py: %v\n%s", err, msg)
+		}
+	}
 	b.Run("peer-gdal_calc-GDH1-fit", func(b *testing.B) {
 		b.ReportAllocs()
 		out := filepath.Join(dir, "gdal-calc.tif")
 		for b.Loop() {
-			os.Remove(out)
-			if msg, err := exec.Command(calc, "--quiet", "-A", age, "-B", elev, "--outfile", out, "--type", "Float32",
-				"--calc", "where(A < 20, 2600 + 365*sqrt(A), 5651 - 2473*exp(-A/36)) + B").CombinedOutput(); err != nil {
-				b.Fatalf("gdal_calc.py: %v\n%s", err, msg)
-			}
+			gdalCalc(b, out)
 		}
+	})
+	// Paired: each iteration runs grid-in-place.tif's command and the gdal_calc.py peer, in
+	// alternating order, so that both see the same load of a shared machine; reported as
+	// seconds of each per iteration and their ratio (grid / gdal_calc.py; the goal is ≤ 0.5).
+	b.Run("paired-in-place-vs-gdal_calc", func(b *testing.B) {
+		b.ReportAllocs()
+		out, peerOut := filepath.Join(dir, "residual-paired.tif"), filepath.Join(dir, "gdal-calc-paired.tif")
+		var ours, peer time.Duration
+		i := 0
+		for b.Loop() {
+			grid := func() {
+				t0 := time.Now()
+				code := run(context.Background(), []string{"grid", "--parameter", "residual_depth", "--out", out,
+					"--compress", "none", "--overviews", "none", "--content-ids=false",
+					"--age", age, "--depth", elev, "--vertical", "elevation-positive-up", "--sediment", sed}, io.Discard, io.Discard)
+				ours += time.Since(t0)
+				if code != 0 {
+					b.Fatalf("exit %d", code)
+				}
+			}
+			other := func() {
+				t0 := time.Now()
+				gdalCalc(b, peerOut)
+				peer += time.Since(t0)
+			}
+			if i%2 == 0 {
+				grid()
+				other()
+			} else {
+				other()
+				grid()
+			}
+			i++
+		}
+		b.ReportMetric(ours.Seconds()/float64(i), "grid-s/op")
+		b.ReportMetric(peer.Seconds()/float64(i), "gdal_calc-s/op")
+		b.ReportMetric(ours.Seconds()/peer.Seconds(), "ratio")
 	})
 }
