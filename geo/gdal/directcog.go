@@ -21,13 +21,15 @@ import (
 
 // A COG without compression and without overviews is written in place rather than staged and
 // copied by GDAL's COG driver: every tile has the same size (512 × 512 float32), so where each
-// tile lies in the file is known before any value is computed. The tiles are written, a row of
-// tiles at a time, behind a region reserved for the header; Finish has GDAL's GeoTIFF driver
-// write the header (image file directory, georeferencing, metadata, the tile tables left
-// empty: a sparse file) in its in-memory file system, fills in the tile tables and writes the
-// header into the reserved region. The layout is a cloud-optimized GeoTIFF's: the directory
-// first, then the tiles in row-major order (TIFF 6.0, Adobe 1992, tiles §15; COG layout,
-// OGC 21-026).
+// tile lies in the file is known before any value is computed. Each block of rows goes
+// straight into its tiles (nothing of the grid is held), behind a region reserved for the
+// header; Finish has GDAL's GeoTIFF driver write the header (image file directory,
+// georeferencing, metadata, the tile tables left empty: a sparse file) in its in-memory file
+// system, fills in the tile tables and writes the header into the reserved region. The layout
+// is a cloud-optimized GeoTIFF's: the directory first, then the tiles in row-major order
+// (TIFF 6.0, Adobe 1992, tiles §15; OGC 21-026, Cloud Optimized GeoTIFF). GDAL's own COG
+// driver also writes a "ghost" structural-metadata block before the directory; this file has
+// none, so GDAL does not report LAYOUT=COG for it, though its layout is the same.
 const (
 	directTile = 512 // tile width and height, as WriteCOG's BLOCKSIZE=512
 	// directSlack is room reserved for the header beyond the tile tables (directory,
@@ -45,8 +47,7 @@ type directCOG struct {
 	dest     string // the file Finish is expected to write
 	tmp      string // temporary file beside dest holding the tiles
 	f        *os.File
-	buf      []float32 // one row of tiles, tile-major: tile tx holds buf[tx·T²:(tx+1)·T²]
-	rowsIn   int       // rows of the current tile row filled so far
+	buf      []float32 // one block's rows of one tile (or no-data padding)
 }
 
 // tileBytes is the size of one uncompressed tile.
@@ -74,52 +75,71 @@ func newDirectCOG(header geo.Grid, dest string) (*directCOG, error) {
 		return nil, fmt.Errorf("write grid %s: %w", dest, err)
 	}
 	d.f, d.tmp = f, tmp
-	d.buf = make([]float32, d.ntx*directTile*directTile)
 	return d, nil
 }
 
-// writeRows places rows row0.. (n·NX values, whole rows in order) into the current row of
-// tiles and writes it out when it is full or the grid ends.
+// writeRows writes rows row0.. (n·NX values, whole rows in order, not crossing a row of
+// tiles: n divides 512) into their tiles. Rows y0..y0+n−1 of a tile are one contiguous run of
+// bytes in it (a tile's rows are stored in order), so each tile's part is one write from a
+// buffer the size of the block: nothing more is held. After the last row, the rows of the
+// bottom tiles below the grid are written as no-data (NaN), so every tile is whole.
 func (d *directCOG) writeRows(row0 int, rows []float32) error {
-	n := len(rows) / d.nx
-	for r := range n {
-		y := (row0 + r) % directTile
-		src := rows[r*d.nx : (r+1)*d.nx]
-		for tx := range d.ntx {
-			x0 := tx * directTile
-			dst := d.buf[tx*directTile*directTile+y*directTile : tx*directTile*directTile+(y+1)*directTile]
-			w := copy(dst, src[x0:min(x0+directTile, d.nx)])
-			for c := w; c < directTile; c++ {
-				dst[c] = float32(math.NaN())
-			}
-		}
-	}
-	d.rowsIn += n
-	last := row0+n == d.ny
-	if d.rowsIn < directTile && !last {
-		return nil
-	}
-	if d.rowsIn > directTile {
-		return errors.New("write grid: a block crosses a row of tiles")
-	}
-	ty := (row0 + n - 1) / directTile
-	if d.rowsIn < directTile { // bottom row of tiles: pad below the grid with no-data
-		for tx := range d.ntx {
-			t := d.buf[tx*directTile*directTile+d.rowsIn*directTile : (tx+1)*directTile*directTile]
-			for i := range t {
-				t[i] = float32(math.NaN())
-			}
-		}
-	}
-	b := unsafe.Slice((*byte)(unsafe.Pointer(&d.buf[0])), 4*len(d.buf))
 	if !littleEndian {
 		return errors.New("write grid: the in-place COG writer needs a little-endian machine")
 	}
-	if _, err := d.f.WriteAt(b, d.reserved+int64(ty)*int64(d.ntx)*tileBytes); err != nil {
+	n := len(rows) / d.nx
+	y0 := row0 % directTile
+	if y0+n > directTile {
+		return errors.New("write grid: a block crosses a row of tiles")
+	}
+	ty := row0 / directTile
+	d.buf = growFloat32(d.buf, n*directTile)
+	nan := float32(math.NaN())
+	for tx := range d.ntx {
+		x0 := tx * directTile
+		w := min(directTile, d.nx-x0)
+		for r := range n {
+			dst := d.buf[r*directTile : (r+1)*directTile]
+			copy(dst, rows[r*d.nx+x0:r*d.nx+x0+w])
+			for c := w; c < directTile; c++ {
+				dst[c] = nan
+			}
+		}
+		if err := d.writeTileRows(ty, tx, y0, d.buf[:n*directTile]); err != nil {
+			return err
+		}
+	}
+	if row0+n == d.ny && (y0+n)%directTile != 0 {
+		pad := directTile - (y0 + n)
+		d.buf = growFloat32(d.buf, pad*directTile)
+		for i := range d.buf[:pad*directTile] {
+			d.buf[i] = nan
+		}
+		for tx := range d.ntx {
+			if err := d.writeTileRows(ty, tx, y0+n, d.buf[:pad*directTile]); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
+
+// writeTileRows writes v (whole 512-value rows) into tile (ty, tx) from its row y.
+func (d *directCOG) writeTileRows(ty, tx, y int, v []float32) error {
+	off := d.reserved + (int64(ty)*int64(d.ntx)+int64(tx))*tileBytes + int64(y)*directTile*4
+	b := unsafe.Slice((*byte)(unsafe.Pointer(&v[0])), 4*len(v))
+	if _, err := d.f.WriteAt(b, off); err != nil {
 		return fmt.Errorf("write grid %s: %w", d.dest, err)
 	}
-	d.rowsIn = 0
 	return nil
+}
+
+// growFloat32 returns s with length n, reallocated only when its capacity is too small.
+func growFloat32(s []float32, n int) []float32 {
+	if cap(s) < n {
+		return make([]float32, n)
+	}
+	return s[:n]
 }
 
 // littleEndian: float32 values in memory are the bytes of a little-endian ("II") TIFF.

@@ -73,7 +73,8 @@ type StreamOptions struct {
 	NoOverviews bool
 	// Destination is the file Finish will write, when known. A COG without compression and
 	// without overviews is then written in place (into a temporary file beside it, renamed by
-	// Finish) instead of being staged and copied: no staging file, one write of each value.
+	// Finish) instead of being staged and copied: no staging file, one write of each value,
+	// memory one block.
 	Destination string
 }
 
