@@ -45,11 +45,12 @@ space for about the output's compressed size. --compress zstd writes a COG
 about twice as fast as the default deflate, for readers with ZSTD support.
 For batch pipelines that read the result once, --compress none --overviews
 none writes an uncompressed COG without overviews straight to --out (no
-staging copy; the fastest output, about 4 bytes per cell), and
---content-ids=false skips hashing the inputs. Nothing is left at --out when
-the command fails. The file records the model and its parameters, the
-sediment set, the inputs (file names and, unless --content-ids=false, the
-content id import would give each) and the software version. A progress bar is shown on stderr when it is
+staging copy and no TMPDIR space; the fastest output, about 4 bytes per
+cell; peak 0.22 GB for 10800 columns), and --content-ids=false skips hashing
+the inputs. Nothing is left at --out when the command fails. The file
+records the model and its parameters, the sediment set, the inputs (file
+names and, unless --content-ids=false, the content id import would give
+each) and the software version. A progress bar is shown on stderr when it is
 a terminal. Prints the path written on stdout.
 
 Predicted depths are model estimates, not for navigation.
