@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"fmt"
 	"log/slog"
 	"math"
 	"os"
@@ -264,5 +265,83 @@ func TestGridBadInput(t *testing.T) {
 				}
 			})
 		}
+	}
+}
+
+// TestGridUncompressedInputs: uncompressed GeoTIFF inputs, which grid reads straight into its
+// buffers (GTIFF_DIRECT_IO) rather than through GDAL's block cache, give the same numbers, cell
+// for cell, as the compressed COGs they were made from: age as striped float64, elevation as
+// tiled float32 with no-data stored as −99999 instead of NaN, sediment striped float32.
+func TestGridUncompressedInputs(t *testing.T) {
+	f := newGridFixture(t)
+	dir := t.TempDir()
+	conv := func(src, name string, args ...string) string {
+		out := filepath.Join(dir, name)
+		cmd := exec.Command(args[0], append(append(args[1:], "-co", "COMPRESS=NONE"), src, out)...)
+		if msg, err := cmd.CombinedOutput(); err != nil {
+			t.Fatalf("%s: %v\n%s", args[0], err, msg)
+		}
+		return out
+	}
+	age := conv(f.age, "age64.tif", "gdal_translate", "-q", "-ot", "Float64")
+	elev := conv(f.elevation, "elev-nodata.tif", "gdalwarp", "-q", "-ot", "Float32", "-srcnodata", "nan", "-dstnodata", "-99999", "-co", "TILED=YES", "-co", "BLOCKXSIZE=32", "-co", "BLOCKYSIZE=32")
+	sed := conv(f.sediment, "sed.tif", "gdal_translate", "-q")
+	grid := func(out, a, e, s string) *geo.Grid {
+		code, _, stderr := runCLI(t, nil, "grid", "--parameter", evaluate.PResidualDepth, "--out", out, "--compress", "none", "--overviews", "none",
+			"--age", a, "--depth", e, "--vertical", "elevation-positive-up", "--sediment", s)
+		if code != 0 {
+			t.Fatalf("exit %d: %s", code, stderr)
+		}
+		g, _, err := gdal.Read(out)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return g
+	}
+	want := grid(filepath.Join(dir, "from-cog.tif"), f.age, f.elevation, f.sediment)
+	got := grid(filepath.Join(dir, "from-raw.tif"), age, elev, sed)
+	valid := 0
+	for i := range want.Data {
+		if math.Float32bits(got.Data[i]) != math.Float32bits(want.Data[i]) && !(got.Data[i] != got.Data[i] && want.Data[i] != want.Data[i]) {
+			t.Fatalf("cell %d: %g from uncompressed inputs, %g from the COGs", i, got.Data[i], want.Data[i])
+		}
+		if want.Data[i] == want.Data[i] {
+			valid++
+		}
+	}
+	if valid < len(want.Data)/2 {
+		t.Fatalf("only %d of %d cells valid", valid, len(want.Data))
+	}
+	// No-data stored as −99999 in a patch of the elevation file: read with GDAL's block cache
+	// (GTIFF_DIRECT_IO=NO) and straight into the buffers, the same cells are no-data and the
+	// others equal.
+	g := want
+	poly := filepath.Join(dir, "patch.geojson")
+	w, n, e, s := g.West+10*g.DX, g.North-10*g.DY, g.West+30*g.DX, g.North-25*g.DY
+	if err := os.WriteFile(poly, fmt.Appendf(nil, `{"type":"FeatureCollection","features":[{"type":"Feature","properties":{},"geometry":{"type":"Polygon","coordinates":[[[%g,%g],[%g,%g],[%g,%g],[%g,%g],[%g,%g]]]}}]}`,
+		w, n, e, n, e, s, w, s, w, n), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if msg, err := exec.Command("gdal_rasterize", "-q", "-burn", "-99999", poly, elev).CombinedOutput(); err != nil {
+		t.Fatalf("gdal_rasterize: %v\n%s", err, msg)
+	}
+	gdal.SetConfigOptions(map[string]string{"GTIFF_DIRECT_IO": "NO"})
+	t.Setenv("GTIFF_DIRECT_IO", "NO") // grid leaves the option as the environment says
+	cached := grid(filepath.Join(dir, "cached.tif"), age, elev, sed)
+	gdal.SetConfigOptions(map[string]string{"GTIFF_DIRECT_IO": ""})
+	os.Unsetenv("GTIFF_DIRECT_IO")
+	direct := grid(filepath.Join(dir, "direct.tif"), age, elev, sed)
+	nan := 0
+	for i := range cached.Data {
+		a, b := cached.Data[i], direct.Data[i]
+		if a != a {
+			nan++
+		}
+		if math.Float32bits(a) != math.Float32bits(b) && !(a != a && b != b) {
+			t.Fatalf("cell %d: %g read through the cache, %g read directly", i, a, b)
+		}
+	}
+	if nan < 15*20 {
+		t.Errorf("%d no-data cells, want the patch's 300 at least", nan)
 	}
 }
