@@ -123,7 +123,7 @@ func TestReaderFollowsImport(t *testing.T) {
 func TestPrepareRange(t *testing.T) {
 	payloadNaN := math.Float32frombits(0x7fc00123) // a NaN with a payload, as files may hold
 	blocks := [][]float32{
-		{3, -2.5, payloadNaN, 7, 0, -0.0},
+		{3, -2.5, payloadNaN, 7, 0, float32(math.Copysign(0, -1))},
 		{payloadNaN, float32(math.NaN())},
 		{1, 2, float32(math.Inf(1)), -4},
 		{float32(math.Inf(-1)), 5},
