@@ -33,6 +33,38 @@ func BenchmarkStatsAdd(b *testing.B) {
 	}
 }
 
+// BenchmarkReadRowsCheck compares ReadRows's value check of one block (the same block as
+// BenchmarkStatsAdd): prepare then Stats.Add (the two passes it made before) against
+// prepareRange (one pass, the extremes only). Compare ns/op of the two in one run.
+func BenchmarkReadRowsCheck(b *testing.B) {
+	src := make([]float32, 2160*256)
+	for i := range src {
+		src[i] = float32(i%5000) - 2500
+		if i%10 == 0 {
+			src[i] = float32(math.NaN())
+		}
+	}
+	blk := make([]float32, len(src))
+	b.Run("prepare+Stats.Add", func(b *testing.B) {
+		b.ReportAllocs()
+		b.SetBytes(int64(4 * len(blk)))
+		for b.Loop() {
+			copy(blk, src)
+			prepare(blk, 1)
+			var s Stats
+			s.Add(blk)
+		}
+	})
+	b.Run("prepareRange", func(b *testing.B) {
+		b.ReportAllocs()
+		b.SetBytes(int64(4 * len(blk)))
+		for b.Loop() {
+			copy(blk, src)
+			prepareRange(blk, 1)
+		}
+	})
+}
+
 // BenchmarkImportStreaming imports a 4-arc-minute global depth grid (5400×2700 float32, a
 // tiled DEFLATE GeoTIFF without overviews, of smooth relief with hash noise and ~15% no-data)
 // into a fresh store, and

@@ -3,6 +3,7 @@ package ingest
 import (
 	"context"
 	"fmt"
+	"math"
 	"strings"
 	"sync"
 
@@ -191,9 +192,13 @@ func (r *Reader) ReadRows(row0 int, dst []float32) error {
 	if err := r.d.ReadRows(row0, dst); err != nil {
 		return readFault(r.name, err)
 	}
-	prepare(dst, r.factor)
-	var st Stats
-	st.Add(dst)
+	lo, hi := prepareRange(dst, r.factor)
+	st := Stats{Min: float64(lo), Max: float64(hi)}
+	if math.IsInf(st.Max, 1) || math.IsInf(st.Min, -1) {
+		// An infinite value: Stats count them for checkRange's message.
+		st = Stats{}
+		st.Add(dst)
+	}
 	if err := checkRange(st, r.kind, r.unit, r.converted); err != nil {
 		return fault.New(fault.InvalidGrid, "file", "%s: %w", r.name, err)
 	}
@@ -212,6 +217,56 @@ func (r *Reader) ReadRows(row0 int, dst []float32) error {
 		r.digNext = -1 // a gap: no content id
 	}
 	return nil
+}
+
+// SkipContentID stops the content digest of the rows read from here on: ContentID stays ""
+// unless the sense pass of OpenReader already made it. A caller that records no content id
+// saves hashing every value (a SHA-256 pass over the grid).
+func (r *Reader) SkipContentID() {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	if r.id == "" {
+		r.digNext = -1
+	}
+}
+
+// prepareRange is prepare (no-data as one NaN, values times factor) and the extremes of the
+// values that are not NaN, in one pass: lo = +Inf and hi = −Inf when every value is NaN; an
+// infinite value shows as lo = −Inf or hi = +Inf. It is what ReadRows needs of Stats.Add
+// (checkRange reads Min, Max and Inf only), without its counts.
+func prepareRange(blk []float32, factor float64) (lo, hi float32) {
+	lo, hi = float32(math.Inf(1)), float32(math.Inf(-1))
+	nan := float32(math.NaN())
+	if factor == 1 {
+		// Comparisons with NaN are false, so NaN never becomes an extreme.
+		for i, v := range blk {
+			if v < lo {
+				lo = v
+			}
+			if v > hi {
+				hi = v
+			}
+			if v != v {
+				blk[i] = nan
+			}
+		}
+		return lo, hi
+	}
+	for i, v := range blk {
+		if v != v {
+			blk[i] = nan
+			continue
+		}
+		v = float32(float64(v) * factor)
+		blk[i] = v
+		if v < lo {
+			lo = v
+		}
+		if v > hi {
+			hi = v
+		}
+	}
+	return lo, hi
 }
 
 // Close releases the file.

@@ -115,3 +115,82 @@ func TestReaderFollowsImport(t *testing.T) {
 		}
 	})
 }
+
+// TestPrepareRange: the one-pass check ReadRows makes gives what prepare then Stats.Add give
+// (the values afterwards, bit for bit; Min and Max over the finite values), with no-data NaN
+// of another bit pattern made the one NaN, a unit factor, a block of no-data only, and
+// infinities shown as an extreme of ±Inf (ReadRows then counts them with Stats).
+func TestPrepareRange(t *testing.T) {
+	payloadNaN := math.Float32frombits(0x7fc00123) // a NaN with a payload, as files may hold
+	blocks := [][]float32{
+		{3, -2.5, payloadNaN, 7, 0, float32(math.Copysign(0, -1))},
+		{payloadNaN, float32(math.NaN())},
+		{1, 2, float32(math.Inf(1)), -4},
+		{float32(math.Inf(-1)), 5},
+		{},
+	}
+	for _, factor := range []float64{1, 1000, 0.3048} {
+		for i, blk := range blocks {
+			a := append([]float32(nil), blk...)
+			b := append([]float32(nil), blk...)
+			prepare(a, factor)
+			var st Stats
+			st.Add(a)
+			lo, hi := prepareRange(b, factor)
+			for k := range a {
+				if math.Float32bits(a[k]) != math.Float32bits(b[k]) {
+					t.Errorf("factor %g block %d cell %d: %x, prepare gives %x", factor, i, k, math.Float32bits(b[k]), math.Float32bits(a[k]))
+				}
+			}
+			switch {
+			case st.Inf > 0:
+				if !math.IsInf(float64(hi), 1) && !math.IsInf(float64(lo), -1) {
+					t.Errorf("factor %g block %d: %d infinite values not shown (%g, %g)", factor, i, st.Inf, lo, hi)
+				}
+			case float64(lo) != st.Min || float64(hi) != st.Max:
+				t.Errorf("factor %g block %d: range %g..%g, Stats %g..%g", factor, i, lo, hi, st.Min, st.Max)
+			}
+		}
+	}
+}
+
+// TestReaderSkipContentID: after SkipContentID the values read are the same and no content
+// id is made; without it, reading every row gives one.
+func TestReaderSkipContentID(t *testing.T) {
+	g := geo.NewGrid(40, 30, 10, 20, 0.5, 0.5, geo.CellCentre)
+	for i := range g.Data {
+		g.Data[i] = float32(5 + i%170)
+	}
+	p := filepath.Join(t.TempDir(), "age.tif")
+	if err := gdal.WriteCOG(p, g, gdal.Meta{Units: "Ma"}); err != nil {
+		t.Fatal(err)
+	}
+	read := func(skip bool) ([]float32, string) {
+		r, err := OpenReader(context.Background(), Request{Path: p, Kind: store.KindAge}, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer r.Close()
+		if skip {
+			r.SkipContentID()
+		}
+		out := make([]float32, g.NX*g.NY)
+		for row := 0; row < g.NY; row += 8 {
+			n := min(8, g.NY-row)
+			if err := r.ReadRows(row, out[row*g.NX:(row+n)*g.NX]); err != nil {
+				t.Fatal(err)
+			}
+		}
+		return out, r.ContentID()
+	}
+	full, id := read(false)
+	skipped, none := read(true)
+	if id == "" || none != "" {
+		t.Errorf("content ids %q and %q (skipped), want one and none", id, none)
+	}
+	for i := range full {
+		if full[i] != skipped[i] || full[i] != g.Data[i] {
+			t.Fatalf("cell %d: %g and %g, written %g", i, full[i], skipped[i], g.Data[i])
+		}
+	}
+}

@@ -42,9 +42,14 @@ Grids of any size are processed in blocks of rows in bounded memory (peak
 about 0.38 GB for 10800 columns, 0.65 GB for 86400 columns: it grows with the
 width, not the number of rows); a COG is staged in TMPDIR, which needs free
 space for about the output's compressed size. --compress zstd writes a COG
-about twice as fast as the default deflate, for readers with ZSTD support. Nothing is left at
---out when the command fails. The file records the model and its parameters,
-the sediment set, the inputs (file names and the content id import would give
+about twice as fast as the default deflate, for readers with ZSTD support.
+For batch pipelines that read the result once, --compress none --overviews
+none writes an uncompressed COG without overviews straight to --out (no
+staging copy and no TMPDIR space; the fastest output, about 4 bytes per
+cell; peak 0.22 GB for 10800 columns), and --content-ids=false skips hashing
+the inputs. Nothing is left at --out when the command fails. The file
+records the model and its parameters, the sediment set, the inputs (file
+names and, unless --content-ids=false, the content id import would give
 each) and the software version. A progress bar is shown on stderr when it is
 a terminal. Prints the path written on stdout.
 
@@ -53,6 +58,7 @@ Predicted depths are model estimates, not for navigation.
 Examples:
   ridgeflank grid --parameter residual_depth --age age.nc --depth bathy.tif --vertical auto --sediment sed.nc --out residual.tif
   ridgeflank grid --parameter heat_flow --model psm --age age.nc --out heat_flow.nc
+  ridgeflank grid --parameter residual_depth --age age.tif --depth bathy.tif --sediment sed.tif --compress none --overviews none --content-ids=false --out residual.tif
   ridgeflank grid --parameter residual_depth --dataset quillon-basin-synthetic --data ./data --out residual.nc`,
 }
 
@@ -67,8 +73,9 @@ type gridFlags struct {
 	ageUnc                                   string
 	depthUnits, sedimentUnits, crustUnits    string
 	vertical, model, sedimentSet, param, out string
-	format, compress                         string
+	format, compress, overviews              string
 	workers                                  int
+	contentIDs                               bool
 	ageSigmaMa                               float64
 	loc                                      dbLocationFlags
 }
@@ -79,7 +86,8 @@ func runGrid(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	fs.StringVar(&f.param, "parameter", "", "parameter to compute (required): "+strings.Join(evaluate.ParameterIDs(), ", "))
 	fs.StringVar(&f.out, "out", "", "output file (required); .tif/.tiff for COG, .nc for netCDF")
 	fs.StringVar(&f.format, "format", "", "output format: cog or netcdf (default: from the --out extension)")
-	fs.StringVar(&f.compress, "compress", "deflate", "COG compression: deflate (readable everywhere) or zstd (about twice as fast to write, slightly larger)")
+	fs.StringVar(&f.compress, "compress", "deflate", "COG compression: deflate (readable everywhere), zstd (about twice as fast to write, slightly larger) or none (fastest, largest)")
+	fs.StringVar(&f.overviews, "overviews", "auto", "COG overviews: auto (reduced-resolution copies down to one tile) or none (for pipelines that read the full resolution)")
 	fs.StringVar(&f.dataset, "dataset", "", "stored dataset whose grids to use (instead of --age and the other files)")
 	fs.StringVar(&f.age, "age", "", "seafloor age grid file, Ma (required without --dataset)")
 	fs.StringVar(&f.depth, "depth", "", "bathymetry grid file (observed depth or elevation)")
@@ -91,6 +99,7 @@ func runGrid(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	fs.StringVar(&f.crustUnits, "crust-units", "", "units of the crustal thickness values (default: the file's, else km)")
 	fs.StringVar(&f.model, "model", evaluate.DefaultModel, "cooling model: "+strings.Join(thermal.BuiltinIDs(), ", ")+", or a stored custom model id (needs the store)")
 	fs.StringVar(&f.sedimentSet, "sediment-set", evaluate.DefaultSediment, "compaction set of the sediment correction: "+strings.Join(thermal.CompactionNames(), ", "))
+	fs.BoolVar(&f.contentIDs, "content-ids", true, "record each input file's content id (the id import would give it; hashes every value read): --content-ids=false skips it")
 	fs.IntVar(&f.workers, "workers", 0, "goroutines computing each block (default: the number of CPUs)")
 	fs.StringVar(&f.ageUnc, "age-uncertainty", "", "seafloor-age uncertainty grid file, Ma (one standard deviation): read by the *_uncertainty parameters")
 	fs.Float64Var(&f.ageSigmaMa, "age-uncertainty-ma", 0, "one seafloor-age uncertainty, Ma (one standard deviation), for every cell: for the *_uncertainty parameters without an age-uncertainty grid; given, it holds instead of the grid")
@@ -142,10 +151,15 @@ func (f *gridFlags) check() (string, error) {
 			return "", usagef("cannot tell the format from %q: name it .tif or .nc, or give --format cog|netcdf", filepath.Base(f.out))
 		}
 	}
-	if c := strings.ToLower(strings.TrimSpace(f.compress)); c != "deflate" && c != "zstd" {
-		return "", usagef("--compress must be deflate or zstd, not %q", f.compress)
+	if c := strings.ToLower(strings.TrimSpace(f.compress)); c != "deflate" && c != "zstd" && c != "none" {
+		return "", usagef("--compress must be deflate, zstd or none, not %q", f.compress)
 	} else {
 		f.compress = c
+	}
+	if o := strings.ToLower(strings.TrimSpace(f.overviews)); o != "auto" && o != "none" {
+		return "", usagef("--overviews must be auto or none, not %q", f.overviews)
+	} else {
+		f.overviews = o
 	}
 	if format != "cog" && format != "netcdf" {
 		return "", usagef("--format must be cog or netcdf, not %q", f.format)
@@ -197,6 +211,13 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 		defer st.Close()
 	}
 	svc := evaluate.New(evaluate.Config{Store: st, Version: version})
+	// Uncompressed GeoTIFF inputs are read straight into the block buffers rather than
+	// through GDAL's block cache (one copy less: 20–30% less user time of a 10800×5400 run,
+	// measured on this project's machine); other inputs are not affected. The environment
+	// may say otherwise.
+	if _, set := os.LookupEnv("GTIFF_DIRECT_IO"); !set {
+		gdal.SetConfigOptions(map[string]string{"GTIFF_DIRECT_IO": "YES"})
+	}
 
 	var inputs []*gridInput
 	defer func() {
@@ -259,6 +280,9 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 				// Import's wording is about storing; grid only reads.
 				notes = append(notes, name+": "+strings.ReplaceAll(n, "stored as", "read as"))
 			}
+			if !f.contentIDs {
+				r.SkipContentID()
+			}
 			inputs = append(inputs, &gridInput{role: spec.role, name: name, reader: r, closer: r.Close, file: r})
 			if spec.role == evaluate.PObservedDepth {
 				gin.DepthSense = r.Sense()
@@ -306,7 +330,7 @@ func runGridJob(ctx context.Context, f *gridFlags, format string, stdout, stderr
 	)
 	blockBytes := gridBlockBytes
 	if format == "cog" {
-		cogw, err := gdal.NewCOGStream(lattice, gdal.StreamOptions{BlockBytes: blockBytes, Compress: f.compress})
+		cogw, err := gdal.NewCOGStream(lattice, gdal.StreamOptions{BlockBytes: blockBytes, Compress: f.compress, NoOverviews: f.overviews == "none", Destination: f.out})
 		if err != nil {
 			return err
 		}

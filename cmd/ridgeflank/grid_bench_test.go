@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 )
 
 // benchGlobal writes a SYNTHETIC global set of nx × ny cells (age Ma, elevation m positive up,
@@ -77,6 +78,30 @@ func benchGlobal(b *testing.B, dir string, nx, ny int) (age, elev, sed string) {
 // both. On the same runs gdal_calc.py took 1.35 s (0.80 GB): best ratio 3.0, against the goal
 // 0.5. `gdal_translate -of COG -co COMPRESS=ZSTD -co LEVEL=1 -co PREDICTOR=YES` of the age file
 // alone took 6.1–7.4 s: the COG copy by itself exceeds the goal of 0.5× gdal_calc.py.
+//
+// Equal work (issue 10): gdal_calc.py reads two files and writes an uncompressed GeoTIFF
+// without overviews; grid-in-place.tif is grid doing the same kind of output (`--compress none
+// --overviews none`: an uncompressed COG written straight into its tiles, no staging copy) and
+// no content hash of the inputs (`--content-ids=false`), while still reading three files
+// under import's rules and screening every cell. Uncompressed GeoTIFF inputs are read without
+// GDAL's block cache (GTIFF_DIRECT_IO) and the value check is one pass. Go benchmark, this
+// code, one run (-benchtime 4x -count 2, load average 9.7 falling to 5.7): grid-in-place.tif
+// 1.47–1.56 s, gdal_calc.py 1.22–1.33 s, gdal_translate -of COG 6.5 s, grid-zstd.tif 7.3–8.5 s;
+// paired-in-place-vs-gdal_calc (alternating in each iteration) ratio 1.16 and 1.00. Earlier
+// paired runs at load 8–11: 1.60, 0.76, 0.87, 1.18 (the ratio moves with the load).
+// As binaries, alternating rounds, /usr/bin/time -v: at load 3.8–4.0, six rounds, grid in
+// place 1.31–1.92 s wall, 1.4 s CPU, 0.22 GB; gdal_calc.py 1.21–1.83 s wall, 1.2–1.3 s CPU,
+// 0.80 GB; ratio per round 0.94–1.26 (median 1.06). In place with content ids 1.9–2.8 s wall,
+// 1.7–1.9 s CPU. At load 10–12: grid --compress zstd before this pass 10.3–12.5 s wall, 6.2–8.1
+// s CPU (2.7–4.9× gdal_calc.py on those rounds), after 5.2–5.7 s wall, 5.6–5.7 s CPU at load
+// 3.6; gdal_translate -of COG (deflate) 15–19 s, 0.46 GB. Profile of the in-place run (perf):
+// reading (kernel copies) 22%, the value check 15%, screening 13%, copies and sampling 18%, the
+// model 8%; the output write, 20% while rows of tiles went out as 22 MB pieces, is about 1% as
+// per-block pieces. The goal of ≤ 0.5× gdal_calc.py is NOT met: grid now takes about the CPU time of
+// gdal_calc.py (1.0–1.2× its wall time, at a quarter of its memory) while reading half as much
+// again (three inputs, each checked). What is left would have to come from running the
+// pipeline's stages (reading, computing, writing) on both cores at once, which this shared
+// machine never allowed: wall time was about CPU time in every run.
 func BenchmarkGridResidual(b *testing.B) {
 	dir := b.TempDir()
 	age, elev, sed := benchGlobal(b, dir, 10800, 5400)
@@ -99,6 +124,20 @@ func BenchmarkGridResidual(b *testing.B) {
 		out := filepath.Join(dir, "residual-zstd.tif")
 		for b.Loop() {
 			code := run(context.Background(), []string{"grid", "--parameter", "residual_depth", "--out", out, "--compress", "zstd",
+				"--age", age, "--depth", elev, "--vertical", "elevation-positive-up", "--sediment", sed}, io.Discard, io.Discard)
+			if code != 0 {
+				b.Fatalf("exit %d", code)
+			}
+		}
+	})
+	// The configuration doing the same work as the gdal_calc.py peer: an uncompressed file
+	// without overviews (written in place) and no content hash of the inputs.
+	b.Run("grid-in-place.tif", func(b *testing.B) {
+		b.ReportAllocs()
+		out := filepath.Join(dir, "residual-in-place.tif")
+		for b.Loop() {
+			code := run(context.Background(), []string{"grid", "--parameter", "residual_depth", "--out", out,
+				"--compress", "none", "--overviews", "none", "--content-ids=false",
 				"--age", age, "--depth", elev, "--vertical", "elevation-positive-up", "--sediment", sed}, io.Discard, io.Discard)
 			if code != 0 {
 				b.Fatalf("exit %d", code)
@@ -134,15 +173,55 @@ func BenchmarkGridResidual(b *testing.B) {
 		b.Log("gdal_calc.py needs python3-gdal and python3-numpy: peer skipped")
 		return
 	}
+	gdalCalc := func(b *testing.B, out string) {
+		os.Remove(out)
+		if msg, err := exec.Command(calc, "--quiet", "-A", age, "-B", elev, "--outfile", out, "--type", "Float32",
+			"--calc", "where(A < 20, 2600 + 365*sqrt(A), 5651 - 2473*exp(-A/36)) + B").CombinedOutput(); err != nil {
+			b.Fatalf("gdal_calc.py: %v\n%s", err, msg)
+		}
+	}
 	b.Run("peer-gdal_calc-GDH1-fit", func(b *testing.B) {
 		b.ReportAllocs()
 		out := filepath.Join(dir, "gdal-calc.tif")
 		for b.Loop() {
-			os.Remove(out)
-			if msg, err := exec.Command(calc, "--quiet", "-A", age, "-B", elev, "--outfile", out, "--type", "Float32",
-				"--calc", "where(A < 20, 2600 + 365*sqrt(A), 5651 - 2473*exp(-A/36)) + B").CombinedOutput(); err != nil {
-				b.Fatalf("gdal_calc.py: %v\n%s", err, msg)
-			}
+			gdalCalc(b, out)
 		}
+	})
+	// Paired: each iteration runs grid-in-place.tif's command and the gdal_calc.py peer, in
+	// alternating order, so that both see the same load of a shared machine; reported as
+	// seconds of each per iteration and their ratio (grid / gdal_calc.py; the goal is ≤ 0.5).
+	b.Run("paired-in-place-vs-gdal_calc", func(b *testing.B) {
+		b.ReportAllocs()
+		out, peerOut := filepath.Join(dir, "residual-paired.tif"), filepath.Join(dir, "gdal-calc-paired.tif")
+		var ours, peer time.Duration
+		i := 0
+		for b.Loop() {
+			grid := func() {
+				t0 := time.Now()
+				code := run(context.Background(), []string{"grid", "--parameter", "residual_depth", "--out", out,
+					"--compress", "none", "--overviews", "none", "--content-ids=false",
+					"--age", age, "--depth", elev, "--vertical", "elevation-positive-up", "--sediment", sed}, io.Discard, io.Discard)
+				ours += time.Since(t0)
+				if code != 0 {
+					b.Fatalf("exit %d", code)
+				}
+			}
+			other := func() {
+				t0 := time.Now()
+				gdalCalc(b, peerOut)
+				peer += time.Since(t0)
+			}
+			if i%2 == 0 {
+				grid()
+				other()
+			} else {
+				other()
+				grid()
+			}
+			i++
+		}
+		b.ReportMetric(ours.Seconds()/float64(i), "grid-s/op")
+		b.ReportMetric(peer.Seconds()/float64(i), "gdal_calc-s/op")
+		b.ReportMetric(ours.Seconds()/peer.Seconds(), "ratio")
 	})
 }

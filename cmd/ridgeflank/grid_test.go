@@ -2,11 +2,13 @@ package main
 
 import (
 	"context"
+	"fmt"
 	"log/slog"
 	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -156,7 +158,10 @@ func TestGridMatchesArea(t *testing.T) {
 			for _, form := range []struct {
 				ext, name string
 				args      []string
-			}{{".tif", ".tif", nil}, {".nc", ".nc", nil}, {".tif", "-zstd.tif", []string{"--compress", "zstd"}}} {
+			}{{".tif", ".tif", nil}, {".nc", ".nc", nil}, {".tif", "-zstd.tif", []string{"--compress", "zstd"}},
+				// written in place, inputs not hashed
+				{".tif", "-none.tif", []string{"--compress", "none", "--overviews", "none", "--content-ids=false"}},
+				{".tif", "-none-overviews.tif", []string{"--compress", "none"}}} {
 				ext := form.ext
 				t.Run(src.name+"/"+param+form.name, func(t *testing.T) {
 					out := filepath.Join(t.TempDir(), param+ext)
@@ -201,6 +206,14 @@ func TestGridMatchesArea(t *testing.T) {
 						md[key("ridgeflank_caution")] != evaluate.Caution || !strings.HasPrefix(md[key("ridgeflank_software")], "ridgeflank ") {
 						t.Errorf("provenance missing: %v", md)
 					}
+					if src.args[0] == "--age" {
+						// inputs named, with the content id import would give unless told not to
+						ageInput := md[key("ridgeflank_input_"+evaluate.PSeafloorAge)]
+						hashed := !slices.Contains(form.args, "--content-ids=false")
+						if !strings.HasPrefix(ageInput, filepath.Base(f.age)) || strings.Contains(ageInput, "content id gr_") != hashed {
+							t.Errorf("age input recorded as %q (content id wanted: %v)", ageInput, hashed)
+						}
+					}
 				})
 			}
 		}
@@ -227,14 +240,19 @@ func TestGridBadInput(t *testing.T) {
 			"--sediment", f.sediment, "--sediment-units", "km"}, "sediment_thickness values must lie between 0 and 20000 m"},
 		{"residual without bathymetry", []string{"--parameter", "residual_depth", "--age", f.age}, "needs a grid"},
 		{"unknown model", []string{"--parameter", "heat_flow", "--age", f.age, "--model", "nosuch", "--data", f.dataDir}, `no model "nosuch"`},
+		{"unknown compression", []string{"--parameter", "predicted_depth", "--age", f.age, "--compress", "lzw"}, "--compress must be deflate, zstd or none"},
+		{"unknown overview choice", []string{"--parameter", "predicted_depth", "--age", f.age, "--overviews", "some"}, "--overviews must be auto or none"},
 		{"unknown sediment set", []string{"--parameter", "residual_depth", "--age", f.age, "--depth", f.elevation, "--sediment-set", "gravel"}, `sediment="gravel"`},
 	}
 	for _, c := range cases {
-		for _, ext := range []string{".tif", ".nc"} {
+		for _, ext := range []string{".tif", ".nc", "-in-place.tif"} {
 			t.Run(c.name+ext, func(t *testing.T) {
 				dir := t.TempDir()
-				out := filepath.Join(dir, "out"+ext)
-				code, _, stderr := runCLI(t, nil, append([]string{"grid", "--out", out}, c.args...)...)
+				args := []string{"grid", "--out", filepath.Join(dir, "out"+ext)}
+				if ext == "-in-place.tif" {
+					args = append(args, "--compress", "none", "--overviews", "none")
+				}
+				code, _, stderr := runCLI(t, nil, append(args, c.args...)...)
 				if code != 2 {
 					t.Fatalf("exit %d, want 2: %s", code, stderr)
 				}
@@ -247,5 +265,83 @@ func TestGridBadInput(t *testing.T) {
 				}
 			})
 		}
+	}
+}
+
+// TestGridUncompressedInputs: uncompressed GeoTIFF inputs, which grid reads straight into its
+// buffers (GTIFF_DIRECT_IO) rather than through GDAL's block cache, give the same numbers, cell
+// for cell, as the compressed COGs they were made from: age as striped float64, elevation as
+// tiled float32 with no-data stored as −99999 instead of NaN, sediment striped float32.
+func TestGridUncompressedInputs(t *testing.T) {
+	f := newGridFixture(t)
+	dir := t.TempDir()
+	conv := func(src, name string, args ...string) string {
+		out := filepath.Join(dir, name)
+		cmd := exec.Command(args[0], append(append(args[1:], "-co", "COMPRESS=NONE"), src, out)...)
+		if msg, err := cmd.CombinedOutput(); err != nil {
+			t.Fatalf("%s: %v\n%s", args[0], err, msg)
+		}
+		return out
+	}
+	age := conv(f.age, "age64.tif", "gdal_translate", "-q", "-ot", "Float64")
+	elev := conv(f.elevation, "elev-nodata.tif", "gdalwarp", "-q", "-ot", "Float32", "-srcnodata", "nan", "-dstnodata", "-99999", "-co", "TILED=YES", "-co", "BLOCKXSIZE=32", "-co", "BLOCKYSIZE=32")
+	sed := conv(f.sediment, "sed.tif", "gdal_translate", "-q")
+	grid := func(out, a, e, s string) *geo.Grid {
+		code, _, stderr := runCLI(t, nil, "grid", "--parameter", evaluate.PResidualDepth, "--out", out, "--compress", "none", "--overviews", "none",
+			"--age", a, "--depth", e, "--vertical", "elevation-positive-up", "--sediment", s)
+		if code != 0 {
+			t.Fatalf("exit %d: %s", code, stderr)
+		}
+		g, _, err := gdal.Read(out)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return g
+	}
+	want := grid(filepath.Join(dir, "from-cog.tif"), f.age, f.elevation, f.sediment)
+	got := grid(filepath.Join(dir, "from-raw.tif"), age, elev, sed)
+	valid := 0
+	for i := range want.Data {
+		if math.Float32bits(got.Data[i]) != math.Float32bits(want.Data[i]) && !(got.Data[i] != got.Data[i] && want.Data[i] != want.Data[i]) {
+			t.Fatalf("cell %d: %g from uncompressed inputs, %g from the COGs", i, got.Data[i], want.Data[i])
+		}
+		if want.Data[i] == want.Data[i] {
+			valid++
+		}
+	}
+	if valid < len(want.Data)/2 {
+		t.Fatalf("only %d of %d cells valid", valid, len(want.Data))
+	}
+	// No-data stored as −99999 in a patch of the elevation file: read with GDAL's block cache
+	// (GTIFF_DIRECT_IO=NO) and straight into the buffers, the same cells are no-data and the
+	// others equal.
+	g := want
+	poly := filepath.Join(dir, "patch.geojson")
+	w, n, e, s := g.West+10*g.DX, g.North-10*g.DY, g.West+30*g.DX, g.North-25*g.DY
+	if err := os.WriteFile(poly, fmt.Appendf(nil, `{"type":"FeatureCollection","features":[{"type":"Feature","properties":{},"geometry":{"type":"Polygon","coordinates":[[[%g,%g],[%g,%g],[%g,%g],[%g,%g],[%g,%g]]]}}]}`,
+		w, n, e, n, e, s, w, s, w, n), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if msg, err := exec.Command("gdal_rasterize", "-q", "-burn", "-99999", poly, elev).CombinedOutput(); err != nil {
+		t.Fatalf("gdal_rasterize: %v\n%s", err, msg)
+	}
+	gdal.SetConfigOptions(map[string]string{"GTIFF_DIRECT_IO": "NO"})
+	t.Setenv("GTIFF_DIRECT_IO", "NO") // grid leaves the option as the environment says
+	cached := grid(filepath.Join(dir, "cached.tif"), age, elev, sed)
+	gdal.SetConfigOptions(map[string]string{"GTIFF_DIRECT_IO": ""})
+	os.Unsetenv("GTIFF_DIRECT_IO")
+	direct := grid(filepath.Join(dir, "direct.tif"), age, elev, sed)
+	nan := 0
+	for i := range cached.Data {
+		a, b := cached.Data[i], direct.Data[i]
+		if a != a {
+			nan++
+		}
+		if math.Float32bits(a) != math.Float32bits(b) && !(a != a && b != b) {
+			t.Fatalf("cell %d: %g read through the cache, %g read directly", i, a, b)
+		}
+	}
+	if nan < 15*20 {
+		t.Errorf("%d no-data cells, want the patch's 300 at least", nan)
 	}
 }
