@@ -31,6 +31,12 @@ func writeJSON(w http.ResponseWriter, status int, mediaType string, v any) error
 			jsonBuffers.Put(buf)
 		}
 	}()
+	// Gridded values (large answers) are written straight to w rather than through encoding/json.
+	var grids []*gridValues
+	if sv, ok := v.(streamedValues); ok {
+		grids = sv.valueGrids()
+		defer armValues(grids)()
+	}
 	enc := json.NewEncoder(buf)
 	enc.SetEscapeHTML(false)
 	if err := enc.Encode(v); err != nil {
@@ -41,6 +47,9 @@ func writeJSON(w http.ResponseWriter, status int, mediaType string, v any) error
 	}
 	w.Header().Set("Content-Type", mediaType)
 	w.WriteHeader(status)
+	if grids != nil {
+		return writeSpliced(w, buf.Bytes(), grids)
+	}
 	_, err := w.Write(buf.Bytes())
 	return err
 }
