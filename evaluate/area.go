@@ -328,6 +328,8 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 
 // screenGrids refuses (sets to NaN) every value of grids whose inputs are impossible, counting
 // them in fl. Input grids may be nil (absent); mask, if it has cells, limits the cells checked.
+// Cells whose inputs are all possible (plausible, below) are passed over without screen's
+// bookkeeping: they are the cells screen would find nothing in.
 func screenGrids(fl *flagger, grids []*geo.Grid, mask geo.Mask, age, obs, sed, crust, corr *geo.Grid) {
 	at := func(g *geo.Grid, k int) float64 {
 		if g == nil {
@@ -335,14 +337,41 @@ func screenGrids(fl *flagger, grids []*geo.Grid, mask geo.Mask, age, obs, sed, c
 		}
 		return float64(g.Data[k])
 	}
+	ad, od, sd, cd, kd := gridData(age), gridData(obs), gridData(sed), gridData(crust), gridData(corr)
 	nan32 := float32(math.NaN())
-	for k := range age.Data {
-		if mask.Len() != 0 && !mask.Get(k) {
+	useMask := mask.Len() != 0
+	for k := range ad {
+		if plausible(ad, od, sd, cd, kd, k) || useMask && !mask.Get(k) {
 			continue
 		}
 		fl.check(sample{age: at(age, k), obs: at(obs, k), sed: at(sed, k), crust: at(crust, k), corr: at(corr, k)},
 			func(i int) { grids[i].Data[k] = nan32 })
 	}
+}
+
+// plausible is false when screen could find an impossible input at cell k of the input
+// rows (nil rows are absent): a negative or too great age, a negative or too thick sediment
+// column, a negative crust, or an observed or corrected depth beyond MaxDepthM. NaN (no value)
+// is possible. It is screen's conditions, each compared as screen compares it, with none of
+// its bookkeeping; screen decides the rest.
+func plausible(age, obs, sed, crust, corr []float32, k int) bool {
+	if age != nil {
+		if a := float64(age[k]); a < 0 || a > MaxAgeMa {
+			return false
+		}
+	}
+	if sed != nil {
+		if s := float64(sed[k]); s < 0 || s > MaxSedimentM {
+			return false
+		}
+	}
+	if crust != nil && float64(crust[k]) < 0 {
+		return false
+	}
+	if obs != nil && float64(obs[k]) > MaxDepthM {
+		return false
+	}
+	return corr == nil || !(float64(corr[k]) > MaxDepthM)
 }
 
 // inputGrid is a copy of the input grid that answers parameter id (age, observed depth in m
