@@ -283,17 +283,18 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 }
 
 // maxBandWorkers bounds the bands a statistics question evaluates at once, and
-// maxBandCellsInFlight the lattice cells of the bands evaluated or waiting at once (each band
-// holds about 16 bytes a cell while it is evaluated: its age, depth and sediment windows and
-// the answer), so a wide region's bands are evaluated one at a time, as before.
+// maxBandCellsInFlight the lattice cells of the bands evaluated, waiting or being fed to the
+// streams at once (each band holds about 16 bytes a cell while it is evaluated: its age, depth
+// and sediment windows and the answer), so a wide region's bands are evaluated one at a time,
+// as before.
 const (
 	maxBandWorkers       = 2
 	maxBandCellsInFlight = 6 << 20
 )
 
-// bandWorkers is the number of bands of plan evaluated at once: up to GOMAXPROCS and
-// maxBandWorkers, fewer when the bands are so wide that more would hold over
-// maxBandCellsInFlight cells (one band more is being fed to the streams meanwhile).
+// bandWorkers is the number of bands of plan held at once (evaluated, waiting or being fed):
+// up to GOMAXPROCS and maxBandWorkers, fewer when the bands are so wide that more would hold
+// over maxBandCellsInFlight cells.
 func bandWorkers(bands []orb.Bound, plan *areaPlan, age *raster.File) int {
 	if len(bands) < 2 {
 		return 1
@@ -304,12 +305,14 @@ func bandWorkers(bands []orb.Bound, plan *areaPlan, age *raster.File) int {
 		return 1
 	}
 	cells := max(1, sp.Out.NX*sp.Out.NY)
-	return max(1, min(runtime.GOMAXPROCS(0), maxBandWorkers, maxBandCellsInFlight/cells-1))
+	return max(1, min(runtime.GOMAXPROCS(0), maxBandWorkers, maxBandCellsInFlight/cells))
 }
 
 // bandsInOrder evaluates q over each of bands (evalWindow, each band with a flagger of its
 // own), up to workers bands at once, and calls fn with each band's answer in band order, never
-// concurrently, so whatever fn accumulates is accumulated in the order of a sequential pass.
+// concurrently, so whatever fn accumulates is accumulated in the order of a sequential pass. At
+// most workers bands are held at once, the one fn is given included (with one worker, one band
+// at a time, as a plain loop).
 // Bands outside the dataset or with no cell in the region are passed over (fn is not called);
 // another error, or fn's, stops the evaluation and is returned.
 func (s *Service) bandsInOrder(ctx context.Context, q *Query, r geo.PreparedRegion, bands []orb.Bound, plan areaPlan, scan bool, workers int,
@@ -325,8 +328,8 @@ func (s *Service) bandsInOrder(ctx context.Context, q *Query, r geo.PreparedRegi
 	for i := range results {
 		results[i] = make(chan out, 1)
 	}
-	// A band starts when a slot is free; the slot is given back once fn has taken its answer,
-	// so at most workers bands are evaluated or waiting while fn runs.
+	// A band starts when a slot is free; the slot is given back once fn has returned (or the
+	// band is passed over).
 	slots := make(chan struct{}, max(1, workers))
 	go func() {
 		for i, b := range bands {
@@ -349,19 +352,19 @@ func (s *Service) bandsInOrder(ctx context.Context, q *Query, r geo.PreparedRegi
 		case <-ctx.Done():
 			return ctx.Err()
 		}
-		<-slots
 		if o.err != nil {
 			if isEmptyWindow(o.err) || fault.KindOf(o.err) == fault.NoData {
+				<-slots
 				continue
 			}
 			return o.err
 		}
-		if o.ar == nil {
-			continue
+		if o.ar != nil {
+			if err := fn(i, o.ar, o.fl); err != nil {
+				return err
+			}
 		}
-		if err := fn(i, o.ar, o.fl); err != nil {
-			return err
-		}
+		<-slots
 	}
 	return nil
 }
