@@ -265,11 +265,15 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 	// The inputs on the output lattice, for the answers and the plausibility checks.
 	var obsL, sedL, crustL *geo.Grid
 	if depthW != nil && fl.need&inObs != 0 {
-		obsL = sampleOnto(ageW, depthW)
-		toDepthM(obsL, d.DepthSense)
+		if d.DepthSense == geo.DepthPositiveDown {
+			obsL = onLattice(ageW, depthW) // nothing to convert: read in place
+		} else {
+			obsL = sampleOnto(ageW, depthW)
+			toDepthM(obsL, d.DepthSense)
+		}
 	}
 	if sedW != nil && fl.need&inSed != 0 {
-		sedL = sampleOnto(ageW, sedW)
+		sedL = onLattice(ageW, sedW)
 	}
 	if crustW != nil && fl.need&inCrust != 0 && needCorr {
 		crustL = sampleOnto(ageW, crustW)
@@ -307,11 +311,7 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 			g = geo.NewGrid(ageW.NX, ageW.NY, ageW.West, ageW.North, ageW.DX, ageW.DY, ageW.Registration)
 		}
 		if !p.Predicted {
-			for i := range g.Data {
-				if !mask.Get(i) {
-					g.Data[i] = float32(math.NaN())
-				}
-			}
+			mask.FillOutside(g.Data, float32(math.NaN()))
 		}
 		res.Grids = append(res.Grids, g)
 	}
@@ -328,6 +328,8 @@ func (s *Service) evalWindowAll(ctx context.Context, q *Query, r geo.PreparedReg
 
 // screenGrids refuses (sets to NaN) every value of grids whose inputs are impossible, counting
 // them in fl. Input grids may be nil (absent); mask, if it has cells, limits the cells checked.
+// Cells whose inputs are all possible (implausible, below, is false) are passed over without
+// screen's bookkeeping: they are the cells screen would find nothing in.
 func screenGrids(fl *flagger, grids []*geo.Grid, mask geo.Mask, age, obs, sed, crust, corr *geo.Grid) {
 	at := func(g *geo.Grid, k int) float64 {
 		if g == nil {
@@ -336,13 +338,42 @@ func screenGrids(fl *flagger, grids []*geo.Grid, mask geo.Mask, age, obs, sed, c
 		return float64(g.Data[k])
 	}
 	nan32 := float32(math.NaN())
-	for k := range age.Data {
-		if mask.Len() != 0 && !mask.Get(k) {
-			continue
+	useMask := mask.Len() != 0
+	ad, od, sd, cd, kd := gridData(age), gridData(obs), gridData(sed), gridData(crust), gridData(corr)
+	// Chunks of cells, absent inputs standing in as zeros (possible for each test).
+	var zeros [screenChunk]float32
+	part := func(d []float32, lo, hi int) []float32 {
+		if d == nil {
+			return zeros[:hi-lo]
 		}
-		fl.check(sample{age: at(age, k), obs: at(obs, k), sed: at(sed, k), crust: at(crust, k), corr: at(corr, k)},
-			func(i int) { grids[i].Data[k] = nan32 })
+		return d[lo:hi]
 	}
+	for lo := 0; lo < len(ad); lo += screenChunk {
+		hi := min(len(ad), lo+screenChunk)
+		a, o, s, c, k := ad[lo:hi], part(od, lo, hi), part(sd, lo, hi), part(cd, lo, hi), part(kd, lo, hi)
+		for j := range a {
+			if !implausible(a[j], o[j], s[j], c[j], k[j]) || useMask && !mask.Get(lo+j) {
+				continue
+			}
+			i := lo + j
+			fl.check(sample{age: at(age, i), obs: at(obs, i), sed: at(sed, i), crust: at(crust, i), corr: at(corr, i)},
+				func(p int) { grids[p].Data[i] = nan32 })
+		}
+	}
+}
+
+// screenChunk is the number of cells screenGrids tests at a time.
+const screenChunk = 4096
+
+// implausible reports whether screen could find an impossible input among a cell's age,
+// observed depth, sediment, crust and corrected depth (absent ones given as 0, which is
+// possible for each): a negative or too great age, a negative or too thick sediment column, a
+// negative crust, or an observed or corrected depth beyond MaxDepthM. NaN (no value) is
+// possible. It is screen's conditions, compared as screen compares them, with none of its
+// bookkeeping; screen decides the rest.
+func implausible(age, obs, sed, crust, corr float32) bool {
+	a, o, s, c, k := float64(age), float64(obs), float64(sed), float64(crust), float64(corr)
+	return a < 0 || a > MaxAgeMa || s < 0 || s > MaxSedimentM || c < 0 || o > MaxDepthM || k > MaxDepthM
 }
 
 // inputGrid is a copy of the input grid that answers parameter id (age, observed depth in m
@@ -411,6 +442,17 @@ func sampleOnto(lattice, src *geo.Grid) *geo.Grid {
 	out := geo.NewGrid(lattice.NX, lattice.NY, lattice.West, lattice.North, lattice.DX, lattice.DY, lattice.Registration)
 	onto(out.Data, lattice, src)
 	return out
+}
+
+// onLattice is src's values on lattice's positions as sampleOnto gives them, without a copy
+// when src is a window of exactly lattice's cells (the same shape, origin and spacing): then
+// src itself, which the caller must only read.
+func onLattice(lattice, src *geo.Grid) *geo.Grid {
+	if src.NX == lattice.NX && src.NY == lattice.NY && sameLattice(lattice, src) &&
+		math.Abs(src.West-lattice.West) < 1e-6*lattice.DX && math.Abs(src.North-lattice.North) < 1e-6*lattice.DY {
+		return src
+	}
+	return sampleOnto(lattice, src)
 }
 
 // toDepthM converts observed bathymetry in sense to depth in metres, positive down, in place.

@@ -8,6 +8,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"reflect"
+	"runtime"
 	"strings"
 	"testing"
 
@@ -243,6 +244,49 @@ func TestServedLargerThanBudgetEqualsInMemory(t *testing.T) {
 			if math.Abs(p.got-p.want) > g.PercentileErrorBound+1e-9 {
 				t.Fatalf("percentile %g, exact %g, beyond the stated bound %g", p.got, p.want, g.PercentileErrorBound)
 			}
+		}
+	})
+
+	// Bands are evaluated two at a time on two cores and fed to the statistics in band order:
+	// the answer must be the one core's, bit for bit (the sums are formed in the same order).
+	t.Run("statistics on one core and on two are the same", func(t *testing.T) {
+		ring := orb.Ring{{-170, -70}, {-10, -70}, {-10, 70}, {-170, 70}, {-170, -70}}
+		r, err := s.PrepareRegion(orb.MultiPolygon{{ring}}, "coords")
+		if err != nil {
+			t.Fatal(err)
+		}
+		d, err := s.Dataset(ctx, "big")
+		if err != nil {
+			t.Fatal(err)
+		}
+		plan, err := planArea(d, r.Bound, 0, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		bands, err := rowBands(d.Files.Age, r.Bound, plan)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+		answer := func(procs int) string {
+			runtime.GOMAXPROCS(procs)
+			if w := bandWorkers(bands, &plan, d.Files.Age); len(bands) < 2 || w != min(procs, maxBandWorkers) {
+				t.Fatalf("%d bands, %d evaluated at once on %d cores: the test does not compare what it should", len(bands), w, procs)
+			}
+			res, err := s.Statistics(ctx, "big", Options{Parameters: []string{PResidualDepth, PObservedDepth}}, r, 0, 0, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			out := fmt.Sprintf("cells %d flags %+v lattice %+v", res.Cells, res.Flags, res.Lattice)
+			for _, st := range res.Stats {
+				h := st.Histogram
+				st.Histogram = nil
+				out += fmt.Sprintf(" %#v %#v", st, h)
+			}
+			return out
+		}
+		if one, two := answer(1), answer(2); one != two {
+			t.Fatalf("one core: %s\ntwo cores: %s", one, two)
 		}
 	})
 

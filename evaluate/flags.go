@@ -130,6 +130,13 @@ func (f *flagger) check(s sample, refuse func(i int)) {
 	}
 }
 
+// merge adds o's counts to f's (both over the same parameters).
+func (f *flagger) merge(o *flagger) {
+	for k, n := range o.counts {
+		f.counts[k] += n
+	}
+}
+
 // flags lists the counts in a stable order.
 func (f *flagger) flags() []Flag {
 	out := make([]Flag, 0, len(f.counts))
@@ -169,12 +176,19 @@ func corrCanExceedRows(obs, sed []float32, crust bool) bool {
 	if obs == nil {
 		return false
 	}
+	if sed == nil {
+		for _, o := range obs {
+			if float64(o) > MaxDepthM {
+				return true
+			}
+		}
+		return false
+	}
+	sed = sed[:len(obs)]
 	for k, o := range obs {
 		v := float64(o)
-		if sed != nil {
-			if s := float64(sed[k]); s > 0 {
-				v += s
-			}
+		if s := float64(sed[k]); s > 0 {
+			v += s
 		}
 		if v > MaxDepthM {
 			return true

@@ -117,3 +117,93 @@ func TestEveryParameterFitsOneQuestion(t *testing.T) {
 		t.Fatalf("%d parameters, but a question may name only %d", n, lim)
 	}
 }
+
+// screenGrids passes over cells with every input possible without asking check; the cells it
+// refuses and the flags it counts must be check's, cell by cell (check is held to the
+// thresholds above), with or without a mask and with absent input grids. The values sit at and
+// around every threshold (common practice, no source: 12 km depth, 20 km sediment, ages 0 to
+// MaxAgeMa, no negative thickness), with no data among them.
+func TestScreenGridsMatchesCheckPerCell(t *testing.T) {
+	ps := []Parameter{}
+	for _, id := range []string{PSeafloorAge, PObservedDepth, PSedimentThickness, PPredictedDepth, PCorrectedDepth, PResidualDepth} {
+		p, _ := ParameterByID(id)
+		ps = append(ps, p)
+	}
+	nan32 := float32(math.NaN())
+	ages := []float32{-3, 0, 50, MaxAgeMa, MaxAgeMa + 1, nan32}
+	obs := []float32{0, 5000, MaxDepthM, MaxDepthM + 1, nan32}
+	seds := []float32{-1, 0, 500, MaxSedimentM, MaxSedimentM + 1, nan32}
+	crusts := []float32{-0.5, 7, nan32}
+	corrs := []float32{5300, MaxDepthM, MaxDepthM + 100, nan32}
+	var cells [][5]float32
+	for _, a := range ages {
+		for _, o := range obs {
+			for _, s := range seds {
+				for _, c := range crusts {
+					for _, k := range corrs {
+						cells = append(cells, [5]float32{a, o, s, c, k})
+					}
+				}
+			}
+		}
+	}
+	n := len(cells)
+	mk := func(j int) *geo.Grid {
+		g := geo.NewGrid(n, 1, 0, 0, 1, 1, geo.CellCentre)
+		for i, c := range cells {
+			g.Data[i] = c[j]
+		}
+		return g
+	}
+	masks := map[string]geo.Mask{"no mask": {}, "every third cell": geo.NewMask(n)}
+	for i := 0; i < n; i += 3 {
+		masks["every third cell"].Set(i, true)
+	}
+	for name, mask := range masks {
+		for _, absent := range []int{-1, 1, 2, 3, 4} { // which input grid is missing (−1: none)
+			in := make([]*geo.Grid, 5)
+			for j := range in {
+				if j != absent {
+					in[j] = mk(j)
+				}
+			}
+			grids := make([]*geo.Grid, len(ps))
+			for i := range grids {
+				grids[i] = geo.NewGrid(n, 1, 0, 0, 1, 1, geo.CellCentre)
+				for k := range grids[i].Data {
+					grids[i].Data[k] = 1 // a value: only refusals make NaN
+				}
+			}
+			fl := newFlagger(ps)
+			screenGrids(fl, grids, mask, in[0], in[1], in[2], in[3], in[4])
+
+			ref := newFlagger(ps)
+			at := func(j, k int) float64 {
+				if in[j] == nil {
+					return math.NaN()
+				}
+				return float64(in[j].Data[k])
+			}
+			for k := range n {
+				refused := make([]bool, len(ps))
+				if mask.Len() == 0 || mask.Get(k) {
+					ref.check(sample{age: at(0, k), obs: at(1, k), sed: at(2, k), crust: at(3, k), corr: at(4, k)}, func(i int) { refused[i] = true })
+				}
+				for i := range ps {
+					if got := math.IsNaN(float64(grids[i].Data[k])); got != refused[i] {
+						t.Fatalf("%s, grid %d absent: cell %v, %s refused %v, check says %v", name, absent, cells[k], ps[i].ID, got, refused[i])
+					}
+				}
+			}
+			got, want := fl.flags(), ref.flags()
+			if len(got) != len(want) {
+				t.Fatalf("%s, grid %d absent: flags %v, check's %v", name, absent, got, want)
+			}
+			for i := range got {
+				if got[i] != want[i] {
+					t.Fatalf("%s, grid %d absent: flag %+v, check's %+v", name, absent, got[i], want[i])
+				}
+			}
+		}
+	}
+}

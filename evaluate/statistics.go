@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"math"
+	"runtime"
 	"strings"
 
 	"github.com/paulmach/orb"
@@ -187,31 +188,27 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 	var kept []*AreaResult
 	scan := s.scans(plan)
 	steps := float64(2 * len(bands))
-	for i, b := range bands {
-		ar, err := s.evalWindow(ctx, q, r, b, plan, fl, scan)
-		if err != nil {
-			if isEmptyWindow(err) || fault.KindOf(err) == fault.NoData {
-				continue
-			}
-			return nil, err
-		}
-		if ar == nil {
-			continue
-		}
-		if i == 0 || res.Lattice.NX == 0 {
+	workers := bandWorkers(bands, &plan, d.Files.Age)
+	err = s.bandsInOrder(ctx, q, r, bands, plan, scan, workers, func(i int, ar *AreaResult, bf *flagger) error {
+		fl.merge(bf)
+		if res.Lattice.NX == 0 {
 			res.Lattice = *ar.Lattice
 			res.Lattice.Data = nil
 		}
 		res.Cells += int64(ar.Mask.Count())
 		for k, g := range ar.Grids {
 			if err := streams[k].AddMoments(g, ar.Mask); err != nil {
-				return nil, err
+				return err
 			}
 		}
 		if keep {
 			kept = append(kept, ar)
 		}
 		progress(float64(i+1) / steps)
+		return nil
+	})
+	if err != nil {
+		return nil, err
 	}
 	if res.Cells == 0 {
 		return nil, fault.New(fault.NoData, "coords", "no cell centre of dataset %q lies inside the area; try a larger area or a finer resolution", d.Row.ID)
@@ -236,21 +233,16 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 			}
 		}
 	} else {
-		discard := newFlagger(q.Params) // refusals were counted in the first pass
-		for i, b := range bands {
-			ar, err := s.evalWindow(ctx, q, r, b, plan, discard, scan)
-			if err != nil {
-				if isEmptyWindow(err) || fault.KindOf(err) == fault.NoData {
-					continue
-				}
-				return nil, err
-			}
-			if ar != nil {
-				if err := second(ar); err != nil {
-					return nil, err
-				}
+		// refusals were counted in the first pass: the bands' own flaggers are dropped
+		err := s.bandsInOrder(ctx, q, r, bands, plan, scan, workers, func(i int, ar *AreaResult, _ *flagger) error {
+			if err := second(ar); err != nil {
+				return err
 			}
 			progress(float64(len(bands)+i+1) / steps)
+			return nil
+		})
+		if err != nil {
+			return nil, err
 		}
 	}
 	for i, p := range q.Params {
@@ -288,6 +280,93 @@ func (s *Service) statistics(ctx context.Context, q *Query, r geo.PreparedRegion
 	}
 	progress(1)
 	return res, nil
+}
+
+// maxBandWorkers bounds the bands a statistics question evaluates at once, and
+// maxBandCellsInFlight the lattice cells of the bands evaluated, waiting or being fed to the
+// streams at once (each band holds about 16 bytes a cell while it is evaluated: its age, depth
+// and sediment windows and the answer), so a wide region's bands are evaluated one at a time,
+// as before.
+const (
+	maxBandWorkers       = 2
+	maxBandCellsInFlight = 6 << 20
+)
+
+// bandWorkers is the number of bands of plan held at once (evaluated, waiting or being fed):
+// up to GOMAXPROCS and maxBandWorkers, fewer when the bands are so wide that more would hold
+// over maxBandCellsInFlight cells.
+func bandWorkers(bands []orb.Bound, plan *areaPlan, age *raster.File) int {
+	if len(bands) < 2 {
+		return 1
+	}
+	lv := age.Levels()[plan.lvl].Grid
+	sp, err := lv.WindowSpec(bands[0])
+	if err != nil {
+		return 1
+	}
+	cells := max(1, sp.Out.NX*sp.Out.NY)
+	return max(1, min(runtime.GOMAXPROCS(0), maxBandWorkers, maxBandCellsInFlight/cells))
+}
+
+// bandsInOrder evaluates q over each of bands (evalWindow, each band with a flagger of its
+// own), up to workers bands at once, and calls fn with each band's answer in band order, never
+// concurrently, so whatever fn accumulates is accumulated in the order of a sequential pass. At
+// most workers bands are held at once, the one fn is given included (with one worker, one band
+// at a time, as a plain loop).
+// Bands outside the dataset or with no cell in the region are passed over (fn is not called);
+// another error, or fn's, stops the evaluation and is returned.
+func (s *Service) bandsInOrder(ctx context.Context, q *Query, r geo.PreparedRegion, bands []orb.Bound, plan areaPlan, scan bool, workers int,
+	fn func(i int, ar *AreaResult, fl *flagger) error) error {
+	type out struct {
+		ar  *AreaResult
+		fl  *flagger
+		err error
+	}
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	results := make([]chan out, len(bands))
+	for i := range results {
+		results[i] = make(chan out, 1)
+	}
+	// A band starts when a slot is free; the slot is given back once fn has returned (or the
+	// band is passed over).
+	slots := make(chan struct{}, max(1, workers))
+	go func() {
+		for i, b := range bands {
+			select {
+			case slots <- struct{}{}:
+			case <-ctx.Done():
+				return
+			}
+			go func() {
+				fl := newFlagger(q.Params)
+				ar, err := s.evalWindow(ctx, q, r, b, plan, fl, scan)
+				results[i] <- out{ar, fl, err}
+			}()
+		}
+	}()
+	for i := range bands {
+		var o out
+		select {
+		case o = <-results[i]:
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+		if o.err != nil {
+			if isEmptyWindow(o.err) || fault.KindOf(o.err) == fault.NoData {
+				<-slots
+				continue
+			}
+			return o.err
+		}
+		if o.ar != nil {
+			if err := fn(i, o.ar, o.fl); err != nil {
+				return err
+			}
+		}
+		<-slots
+	}
+	return nil
 }
 
 // statisticsLimit refuses a statistics question reading cells cells: over

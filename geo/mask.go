@@ -70,6 +70,25 @@ func (m Mask) Count() int {
 	return c
 }
 
+// FillOutside sets data[i] to v for every cell i not in the mask, a 64-cell word at a time
+// (words wholly inside are passed over). data must have Len cells.
+func (m Mask) FillOutside(data []float32, v float32) {
+	if len(data) != m.n {
+		panic(fmt.Sprintf("geo: FillOutside of %d values with a mask of %d cells", len(data), m.n))
+	}
+	for w, word := range m.words {
+		if word == ^uint64(0) {
+			continue
+		}
+		base := w << 6
+		for out := ^word; out != 0; out &= out - 1 {
+			if i := base + bits.TrailingZeros64(out); i < len(data) {
+				data[i] = v
+			}
+		}
+	}
+}
+
 // setRange sets cells lo..hi−1.
 func (m Mask) setRange(lo, hi int) {
 	if lo >= hi {

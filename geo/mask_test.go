@@ -73,6 +73,17 @@ func TestMaskBitOperations(t *testing.T) {
 				t.Fatalf("trial %d: bit %d from []bool = %v, set by ranges = %v", trial, i, back.Get(i), m.Get(i))
 			}
 		}
+		// FillOutside writes exactly the cells outside, whole words or not
+		data := make([]float32, n)
+		for i := range data {
+			data[i] = float32(i)
+		}
+		m.FillOutside(data, -1)
+		for i, w := range want {
+			if wantV := map[bool]float32{true: float32(i), false: -1}[w]; data[i] != wantV {
+				t.Fatalf("trial %d: FillOutside left cell %d (inside %v) = %g, want %g", trial, i, w, data[i], wantV)
+			}
+		}
 	}
 }
 

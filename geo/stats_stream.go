@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
 
 	"ridgeflank/fault"
 )
@@ -311,36 +312,73 @@ func (s *StatsStream) AddHistogram(block *Grid, mask Mask) error {
 		return nil
 	}
 	useMask := mask.Len() != 0
+	// The user histogram and the fine percentile bins are independent sums: each is filled
+	// by its own loop over the block, cell by cell in the same order as one loop would, so
+	// the two may run on two cores (a large block, more than one core) with the same result
+	// bit for bit.
 	lo, hi, scale := s.lo, s.hi, s.scale
-	fine, hist, histW := s.fine, s.hist, s.histW
-	for r, w := range ws {
-		base := r * block.NX
-		useFine := fine != nil && w > 0
-		for c, v32 := range block.Data[base : base+nx] {
-			if v32 != v32 || useMask && mask.words[(base+c)>>6]&(1<<(uint(base+c)&63)) == 0 {
-				continue
+	fineLoop := func() {
+		seen, outside := 0, 0
+		fine := s.fine
+		for r, w := range ws {
+			base := r * block.NX
+			useFine := fine != nil && w > 0
+			for c, v32 := range block.Data[base : base+nx] {
+				if v32 != v32 || useMask && mask.words[(base+c)>>6]&(1<<(uint(base+c)&63)) == 0 {
+					continue
+				}
+				seen++
+				v := float64(v32)
+				if v < lo || v > hi {
+					outside++
+				}
+				if useFine {
+					fb := &fine[max(0, min(int((v-lo)*scale), StreamQuantileBins-1))]
+					fb.w += w
+					fb.lo = min(fb.lo, v32)
+					fb.hi = max(fb.hi, v32)
+				}
 			}
-			s.seen++
-			v := float64(v32)
-			if v < lo || v > hi {
-				s.outside++
-			}
-			if hist != nil {
-				if k := hist.bin(v); k >= 0 {
+		}
+		s.seen += seen
+		s.outside += outside
+	}
+	histLoop := func() {
+		hist, histW := s.hist, s.histW
+		if hist == nil {
+			return
+		}
+		for r, w := range ws {
+			base := r * block.NX
+			for c, v32 := range block.Data[base : base+nx] {
+				if v32 != v32 || useMask && mask.words[(base+c)>>6]&(1<<(uint(base+c)&63)) == 0 {
+					continue
+				}
+				if k := hist.bin(float64(v32)); k >= 0 {
 					hist.Counts[k]++
 					histW[k] += w
 				}
 			}
-			if useFine {
-				fb := &fine[max(0, min(int((v-lo)*scale), StreamQuantileBins-1))]
-				fb.w += w
-				fb.lo = min(fb.lo, v32)
-				fb.hi = max(fb.hi, v32)
-			}
 		}
 	}
+	if s.hist == nil || nx*len(ws) < parallelHistogramCells || runtime.GOMAXPROCS(0) < 2 {
+		fineLoop()
+		histLoop()
+		return nil
+	}
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		histLoop()
+	}()
+	fineLoop()
+	<-done
 	return nil
 }
+
+// parallelHistogramCells is the block size, in cells, from which AddHistogram fills the user
+// histogram and the fine percentile bins on two goroutines.
+const parallelHistogramCells = 1 << 16
 
 // Merge adds the part o (fed by another goroutine, from NewPart or NewStatsStream with the same
 // options) into s. Both must be in the same pass; in the second pass they must share the

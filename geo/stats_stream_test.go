@@ -564,3 +564,75 @@ func streamInParallelBlocks(blocks []*Grid, opt StatsOptions, workers int) (Stat
 	}
 	return root.Result()
 }
+
+// A block large enough for AddHistogram to fill the user histogram and the fine percentile
+// bins on two goroutines (two cores) gives the Stats, bit for bit, that one loop gives on one
+// core (every sum is formed in the same order), and the counts, range and histogram of
+// AreaWeightedStats exactly (whose moments and percentiles are held to gonum in
+// TestStatsStreamAgainstGonumAndInMemory).
+func TestStatsStreamLargeBlockOneOrTwoCores(t *testing.T) {
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	g := randomResidualGrid(9, 640, 210, CellCentre) // 134 400 cells, over parallelHistogramCells
+	if g.NX*g.NY < 2*parallelHistogramCells {
+		t.Fatalf("test block of %d cells is too small to take the two-goroutine path", g.NX*g.NY)
+	}
+	rng := newTestRand(17)
+	m := NewMask(g.NX * g.NY)
+	for i := range m.Len() {
+		m.Set(i, rng.Float64() < 0.8)
+	}
+	for _, opt := range []StatsOptions{{HistogramBinWidth: 50}, {HistogramBins: 50, Weighting: WeightCellArea}, {}} {
+		run := func(procs int) Stats {
+			t.Helper()
+			runtime.GOMAXPROCS(procs)
+			rows := g.NY
+			st, err := NewStatsStream(opt, 0)
+			if err != nil {
+				t.Fatal(err)
+			}
+			for pass := range 2 {
+				if pass == 1 {
+					if err := st.BeginHistogram(); err != nil {
+						t.Fatal(err)
+					}
+				}
+				for r0 := 0; r0 < g.NY; r0 += rows {
+					b, bm := rowBand(g, m, r0, min(g.NY, r0+rows))
+					add := st.AddMoments
+					if pass == 1 {
+						add = st.AddHistogram
+					}
+					if err := add(b, bm); err != nil {
+						t.Fatal(err)
+					}
+				}
+			}
+			res, err := st.Result()
+			if err != nil {
+				t.Fatal(err)
+			}
+			return res
+		}
+		one, two := run(1), run(2)
+		bits := func(st Stats) string { // every field, the histogram's by value (not its address)
+			h := st.Histogram
+			st.Histogram = nil
+			return fmt.Sprintf("%#v %#v", st, h)
+		}
+		if bits(one) != bits(two) {
+			t.Errorf("%+v: one core %+v %+v, two %+v %+v", opt, one, one.Histogram, two, two.Histogram)
+		}
+		want, err := AreaWeightedStats(g, m, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if one.Count != want.Count || one.NoData != want.NoData || one.Min != want.Min || one.Max != want.Max {
+			t.Errorf("%+v: count %d nodata %d range %g..%g; AreaWeightedStats %d %d %g..%g", opt, one.Count, one.NoData, one.Min, one.Max, want.Count, want.NoData, want.Min, want.Max)
+		}
+		if (one.Histogram == nil) != (want.Histogram == nil) ||
+			one.Histogram != nil && (fmt.Sprint(one.Histogram.Edges, one.Histogram.Counts, one.Histogram.Below, one.Histogram.Above) !=
+				fmt.Sprint(want.Histogram.Edges, want.Histogram.Counts, want.Histogram.Below, want.Histogram.Above)) {
+			t.Errorf("%+v: histogram %+v, AreaWeightedStats %+v", opt, one.Histogram, want.Histogram)
+		}
+	}
+}

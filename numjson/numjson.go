@@ -32,8 +32,9 @@ type Float float64
 // MarshalJSON implements json.Marshaler.
 func (f Float) MarshalJSON() ([]byte, error) { return appendFloat(nil, float64(f)), nil }
 
-// AppendFloat appends v as Float encodes it.
-func AppendFloat(b []byte, v float64) []byte { return appendFloat(b, v) }
+// AppendJSON appends v as Float writes it in JSON (Round's digits; null for NaN and ±Inf), for
+// writers that encode long runs of values themselves.
+func AppendJSON(b []byte, v float64) []byte { return appendFloat(b, v) }
 
 func appendFloat(b []byte, v float64) []byte {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
@@ -74,7 +75,14 @@ func appendRounded(b []byte, v float64) []byte {
 	for nd > 1 && dig[nd-1] == '0' {
 		nd--
 	}
-	x, _ := strconv.Atoi(string(e[i+1:]))
+	// the exponent: a sign and at least two digits, as strconv writes it
+	x := 0
+	for _, c := range e[i+2:] {
+		x = 10*x + int(c-'0')
+	}
+	if e[i+1] == '-' {
+		x = -x
+	}
 	d := dig[:nd]
 	switch {
 	case x < -4 || x >= 6: // exponent form, at least two exponent digits, as strconv writes

@@ -124,3 +124,45 @@ func TestAppendRoundedMatchesStrconv(t *testing.T) {
 		}
 	}
 }
+
+// AppendJSON writes what Float's MarshalJSON writes (null for NaN and ±Inf per RFC 8259 §6,
+// else strconv's correctly rounded 7-digit form, the reference rule), appended to what is there.
+func TestAppendJSON(t *testing.T) {
+	r := rand.New(rand.NewPCG(3, 4))
+	vals := []float64{math.NaN(), math.Inf(1), math.Inf(-1), 0, -1e-7, 1550.744321, 1e21, 123456.75}
+	for range 10_000 {
+		vals = append(vals, float64(float32((r.Float64()-0.5)*math.Pow(10, float64(r.IntN(16)-8)))))
+	}
+	for _, v := range vals {
+		want := "null"
+		if !math.IsNaN(v) && !math.IsInf(v, 0) {
+			want = strconv.FormatFloat(Round(v), 'g', -1, 64)
+		}
+		if got := string(AppendJSON([]byte("x,"), v)); got != "x,"+want {
+			t.Fatalf("AppendJSON(%v) = %q, want %q", v, got, "x,"+want)
+		}
+	}
+}
+
+// BenchmarkAppendJSON writes 1 M SYNTHETIC grid values (float32 depths in metres, one in ten no
+// data) into one buffer, as a gridded CoverageJSON answer does.
+func BenchmarkAppendJSON(b *testing.B) {
+	vals := make([]float32, 1<<20)
+	for i := range vals {
+		if i%10 == 3 {
+			vals[i] = float32(math.NaN())
+			continue
+		}
+		vals[i] = float32(300*math.Sin(float64(i)*1e-3) + 0.01*float64(i%977))
+	}
+	buf := make([]byte, 0, 10*len(vals))
+	b.ReportAllocs()
+	for b.Loop() {
+		buf = buf[:0]
+		for _, v := range vals {
+			buf = AppendJSON(buf, float64(v))
+			buf = append(buf, ',')
+		}
+	}
+	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(len(vals)), "ns/value")
+}

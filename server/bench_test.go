@@ -60,9 +60,17 @@ func BenchmarkPosition(b *testing.B) {
 
 // BenchmarkResidualTile measures rendering one 256×256 residual-depth tile
 // (zoom 6 over the demo basin: window, residual evaluation with the GDH1
-// lookup table, colour mapping, PNG encoding), bypassing the ETag.
-func BenchmarkResidualTile(b *testing.B) {
-	e := newEnv(b, "sqlite", Config{})
+// lookup table, colour mapping, PNG encoding), bypassing the ETag, with no
+// tile cache (every request renders). BenchmarkResidualTileCached asks the
+// same tile of a server keeping rendered tiles (the default).
+func BenchmarkResidualTile(b *testing.B) { benchResidualTile(b, -1) }
+
+// BenchmarkResidualTileCached is BenchmarkResidualTile answered from the tile
+// cache after the first request.
+func BenchmarkResidualTileCached(b *testing.B) { benchResidualTile(b, 0) }
+
+func benchResidualTile(b *testing.B, tileCacheBytes int64) {
+	e := newEnv(b, "sqlite", Config{TileCacheBytes: tileCacheBytes})
 	url := fmt.Sprintf("/tiles/%s/residual_depth/6/6/36.png", e.dataset)
 	rec := httptest.NewRecorder()
 	e.handler.ServeHTTP(rec, httptest.NewRequest("GET", url, nil))

@@ -90,11 +90,11 @@ type covDomain struct {
 }
 
 type covNdArray struct {
-	Type      string      `json:"type"`
-	DataType  string      `json:"dataType"`
-	AxisNames []string    `json:"axisNames,omitempty"`
-	Shape     []int       `json:"shape,omitempty"`
-	Values    []jsonFloat `json:"values"`
+	Type      string   `json:"type"`
+	DataType  string   `json:"dataType"`
+	AxisNames []string `json:"axisNames,omitempty"`
+	Shape     []int    `json:"shape,omitempty"`
+	Values    ndValues `json:"values"`
 }
 
 type coverage struct {
@@ -114,7 +114,12 @@ type coverage struct {
 	Waypoints []evaluate.WaypointAt `json:"ridgeflank:waypoints,omitempty"`
 	// Resolution states the spacing an area answer was given at when it is not the one asked.
 	Resolution *resolutionUsed `json:"ridgeflank:resolution,omitempty"`
+
+	grids []*gridValues // the gridded ranges' values, for writeJSON to write itself
 }
+
+// valueGrids lists the gridded values of a coverage (writeJSON's streamedValues).
+func (c coverage) valueGrids() []*gridValues { return c.grids }
 
 // resolutionUsed is the CoverageJSON member ridgeflank:resolution: the spacing used and why it
 // differs from the one asked (evaluate.AreaResult.ResolutionNote).
@@ -241,7 +246,7 @@ func pointCoverage(lons, lats []float64, ps []evaluate.Parameter, values [][]flo
 			"y": {Values: []jsonFloat{jsonFloat(lats[0])}},
 		}}
 		for i, p := range ps {
-			c.Ranges[p.ID] = covNdArray{Type: "NdArray", DataType: "float", Values: floats(values[i])}
+			c.Ranges[p.ID] = covNdArray{Type: "NdArray", DataType: "float", Values: ndValues{points: values[i]}}
 		}
 		return c
 	}
@@ -253,7 +258,7 @@ func pointCoverage(lons, lats []float64, ps []evaluate.Parameter, values [][]flo
 		"composite": {DataType: "tuple", Coordinates: []string{"x", "y"}, Values: tuples},
 	}}
 	for i, p := range ps {
-		c.Ranges[p.ID] = covNdArray{Type: "NdArray", DataType: "float", AxisNames: []string{"composite"}, Shape: []int{len(lons)}, Values: floats(values[i])}
+		c.Ranges[p.ID] = covNdArray{Type: "NdArray", DataType: "float", AxisNames: []string{"composite"}, Shape: []int{len(lons)}, Values: ndValues{points: values[i]}}
 	}
 	return c
 }
@@ -268,11 +273,9 @@ func gridCoverage(lattice *geo.Grid, ps []evaluate.Parameter, grids []*geo.Grid)
 		"y": {Start: f64(roundSig(lattice.Lat(0))), Stop: f64(roundSig(lattice.Lat(lattice.NY - 1))), Num: lattice.NY},
 	}}
 	for i, p := range ps {
-		vals := make([]jsonFloat, len(grids[i].Data))
-		for j, v := range grids[i].Data {
-			vals[j] = jsonFloat(float64(v))
-		}
-		c.Ranges[p.ID] = covNdArray{Type: "NdArray", DataType: "float", AxisNames: []string{"y", "x"}, Shape: []int{lattice.NY, lattice.NX}, Values: vals}
+		g := &gridValues{data: grids[i].Data}
+		c.grids = append(c.grids, g)
+		c.Ranges[p.ID] = covNdArray{Type: "NdArray", DataType: "float", AxisNames: []string{"y", "x"}, Shape: []int{lattice.NY, lattice.NX}, Values: ndValues{grid: g}}
 	}
 	return c
 }

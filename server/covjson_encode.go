@@ -132,7 +132,7 @@ func appendAxis(b []byte, a covAxis) ([]byte, error) {
 				if i > 0 {
 					b = append(b, ',')
 				}
-				b = numjson.AppendFloat(b, float64(x))
+				b = numjson.AppendJSON(b, float64(x))
 			}
 			b = append(b, ']')
 		}
@@ -147,9 +147,9 @@ func appendAxis(b []byte, a covAxis) ([]byte, error) {
 					b = append(b, ',')
 				}
 				b = append(b, '[')
-				b = numjson.AppendFloat(b, float64(x[0]))
+				b = numjson.AppendJSON(b, float64(x[0]))
 				b = append(b, ',')
-				b = numjson.AppendFloat(b, float64(x[1]))
+				b = numjson.AppendJSON(b, float64(x[1]))
 				b = append(b, ']')
 			}
 			b = append(b, ']')
@@ -232,15 +232,18 @@ func appendNdArray(b []byte, a covNdArray) []byte {
 		b = append(b, ']')
 	}
 	b = append(b, `,"values":`...)
-	if a.Values == nil {
-		b = append(b, "null"...)
-	} else {
+	switch g := a.Values.grid; {
+	case g != nil && g.token != nil: // writeJSON splices the values in
+		b = append(b, g.token...)
+	case g != nil:
+		b = appendValues32(append(b, '['), g.data, true)
+	default:
 		b = append(b, '[')
-		for i, x := range a.Values {
+		for i, x := range a.Values.points {
 			if i > 0 {
 				b = append(b, ',')
 			}
-			b = numjson.AppendFloat(b, float64(x))
+			b = numjson.AppendJSON(b, x)
 		}
 		b = append(b, ']')
 	}

@@ -32,6 +32,12 @@ func writeJSON(w http.ResponseWriter, status int, mediaType string, v any) error
 			jsonBuffers.Put(buf)
 		}
 	}()
+	// Gridded values (large answers) are written straight to w rather than through encoding/json.
+	var grids []*gridValues
+	if sv, ok := v.(streamedValues); ok {
+		grids = sv.valueGrids()
+		defer armValues(grids)()
+	}
 	switch c := v.(type) {
 	case coverage:
 		b, err := c.appendJSON(buf.AvailableBuffer())
@@ -57,6 +63,10 @@ func writeJSON(w http.ResponseWriter, status int, mediaType string, v any) error
 	}
 	h := w.Header()
 	h.Set("Content-Type", mediaType)
+	if len(grids) > 0 && grids[0].token != nil { // values spliced in while writing: length unknown
+		w.WriteHeader(status)
+		return writeSpliced(w, buf.Bytes(), grids)
+	}
 	// A stated length: net/http would otherwise send a body over 2 KiB in chunks.
 	h.Set("Content-Length", strconv.Itoa(buf.Len()))
 	w.WriteHeader(status)

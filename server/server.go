@@ -132,6 +132,10 @@ type Config struct {
 	// MemoryBudgetBytes bounds the memory kept between requests (decoded grid blocks and GDAL's
 	// block cache together; evaluate.Config.MemoryBudget); 0 means evaluate.DefaultMemoryBudget.
 	MemoryBudgetBytes int64
+	// TileCacheBytes bounds the rendered map tiles kept to answer the same tile again without
+	// rendering it (by its ETag); 0 means a sixty-fourth of the memory budget (8 MiB of the
+	// default 512 MiB, within its part for the questions in flight), negative keeps none.
+	TileCacheBytes int64
 	// MinFreeGridBytes is the free space the grid directory must keep: below it /readyz answers
 	// not ready (naming the shortfall) and grid uploads answer 507. 0 means
 	// DefaultMinFreeGridBytes; negative disables the check.
@@ -173,6 +177,7 @@ type server struct {
 	// limiter's counter (nil when rates are not limited), charged by heavy requests' cost.
 	gate       *costGate
 	apiCounter httprate.LimitCounter
+	tiles      *tileCache // rendered tiles by ETag (nil: none kept)
 }
 
 // New builds the HTTP handler: the EDR API under /api, tiles under /tiles,
@@ -211,6 +216,11 @@ func newServer(deps Deps) *server {
 	}
 	s.metrics = newMetrics(deps.Registry)
 	s.gate = newCostGate(s.limits.MaxConcurrentValues)
+	tb := deps.Config.TileCacheBytes
+	if tb == 0 {
+		tb = s.ev.MemoryBudget() / 64
+	}
+	s.tiles = newTileCache(tb)
 	return s
 }
 

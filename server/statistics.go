@@ -36,6 +36,23 @@ type statisticsAnswer struct {
 	PercentileNote string               `json:"percentile_method"`
 }
 
+// valueGrids lists the gridded values of the attached grid (writeJSON's streamedValues).
+func (a statisticsAnswer) valueGrids() []*gridValues {
+	if a.Grid == nil {
+		return nil
+	}
+	return a.Grid.grids
+}
+
+// valueGrids lists the gridded values of every block (writeJSON's streamedValues).
+func (c comparisonAnswer) valueGrids() []*gridValues {
+	var out []*gridValues
+	for _, b := range c.Blocks {
+		out = append(out, b.valueGrids()...)
+	}
+	return out
+}
+
 // comparisonAnswer is the answer of a statistics query with models=: one statistics answer
 // per model, in the order asked, each the answer the same query with model= gives.
 type comparisonAnswer struct {

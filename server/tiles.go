@@ -30,6 +30,7 @@ func parseColourRange(s string) (lo, hi float64, ok bool) {
 // tile renders /tiles/{datasetId}/{parameter}/{z}/{x}/{y}.png: one parameter colour-mapped with
 // the shared colour scale (package colour), computed by the evaluate service. The query's
 // range=min,max (units of the parameter) draws another value range than the scale's default.
+// A tile rendered before under the same ETag is answered from the tile cache (s.tiles).
 func (s *server) tile(w http.ResponseWriter, r *http.Request) error {
 	z, err1 := strconv.Atoi(chi.URLParam(r, "z"))
 	x, err2 := strconv.Atoi(chi.URLParam(r, "x"))
@@ -60,6 +61,11 @@ func (s *server) tile(w http.ResponseWriter, r *http.Request) error {
 		w.WriteHeader(http.StatusNotModified)
 		return nil
 	}
+	if raw, ok := s.tiles.get(plan.ETag); ok { // rendered before: the same bytes
+		w.Header().Set("Content-Type", MediaPNG)
+		_, err = w.Write(withPNGCaution(raw, prov.Caution))
+		return err
+	}
 	img, cells, err := plan.Render(r.Context())
 	if err != nil {
 		return err
@@ -70,6 +76,7 @@ func (s *server) tile(w http.ResponseWriter, r *http.Request) error {
 		return err
 	}
 	s.metrics.tiles.Inc()
+	s.tiles.put(plan.ETag, buf.Bytes())
 	w.Header().Set("Content-Type", MediaPNG)
 	_, err = w.Write(withPNGCaution(buf.Bytes(), prov.Caution))
 	return err

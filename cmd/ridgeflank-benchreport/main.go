@@ -300,6 +300,23 @@ func render(rs results, m machineInfo, load, loadStatus, scale, command string) 
 		b.WriteString("Not measured: build/scale/report.md is missing (`make bench-scale` writes it; it needs tens of GB and much time, so `make bench` does not run it).\n\n")
 	}
 
+	// Serving at global sizes: the figures of make bench-scale with goals (area, statistics,
+	// demo-basin tiles).
+	b.WriteString("## Serving at global sizes (`make bench-scale`)\n\n")
+	if rows := serveRows(scale); len(rows) > 0 {
+		b.WriteString("From build/scale/report.md (SYNTHETIC global grids, HTTP on 127.0.0.1, its own run and date")
+		if l := scaleLoad(scale); l != "" {
+			b.WriteString("; " + l)
+		}
+		b.WriteString("):\n\n| figure | measured | goal | peer | ratio | verdict | note |\n| --- | --- | --- | --- | --- | --- | --- |\n")
+		for _, r := range rows {
+			b.WriteString(r + "\n")
+		}
+		b.WriteString("\n")
+	} else {
+		b.WriteString("Not measured: build/scale/report.md is missing or has no served figures.\n\n")
+	}
+
 	// Load test.
 	b.WriteString("## Load test (`make loadtest`)\n\n")
 	if loadStatus != "" {
@@ -337,6 +354,30 @@ func sortedUnits(m map[string]float64) []string {
 	}
 	sort.Strings(u)
 	return u
+}
+
+// serveRows are the table rows of the scale report with a goal about serving: the area query,
+// the region statistics and the tiles.
+func serveRows(scale string) []string {
+	var rows []string
+	for _, l := range strings.Split(scale, "\n") {
+		if strings.HasPrefix(l, "| ") && !strings.Contains(l, "`ridgeflank import`") &&
+			(strings.Contains(l, "| area query") || strings.Contains(l, "| region statistics") || strings.Contains(l, "| tiles warm") || strings.Contains(l, "| tiles cold")) &&
+			strings.Contains(l, "≤") {
+			rows = append(rows, l)
+		}
+	}
+	return rows
+}
+
+// scaleLoad is the scale report's line on the machine's load average, without its dash.
+func scaleLoad(scale string) string {
+	for _, l := range strings.Split(scale, "\n") {
+		if strings.HasPrefix(l, "- load average") {
+			return strings.TrimPrefix(l, "- ")
+		}
+	}
+	return ""
 }
 
 // importRows are the table rows of the scale report about imports (`ridgeflank import` beside
