@@ -124,36 +124,15 @@ func appendAxis(b []byte, a covAxis) ([]byte, error) {
 	case nil:
 	case []jsonFloat: // a non-nil interface is not omitted, even holding an empty or nil slice
 		sep()
-		if v == nil {
-			b = append(b, `"values":null`...)
-		} else {
-			b = append(b, `"values":[`...)
-			for i, x := range v {
-				if i > 0 {
-					b = append(b, ',')
-				}
-				b = numjson.AppendJSON(b, float64(x))
-			}
-			b = append(b, ']')
-		}
+		b = appendList(append(b, `"values":`...), v, func(b []byte, x jsonFloat) []byte {
+			return numjson.AppendJSON(b, float64(x))
+		})
 	case [][2]jsonFloat:
 		sep()
-		if v == nil {
-			b = append(b, `"values":null`...)
-		} else {
-			b = append(b, `"values":[`...)
-			for i, x := range v {
-				if i > 0 {
-					b = append(b, ',')
-				}
-				b = append(b, '[')
-				b = numjson.AppendJSON(b, float64(x[0]))
-				b = append(b, ',')
-				b = numjson.AppendJSON(b, float64(x[1]))
-				b = append(b, ']')
-			}
-			b = append(b, ']')
-		}
+		b = appendList(append(b, `"values":`...), v, func(b []byte, x [2]jsonFloat) []byte {
+			b = numjson.AppendJSON(append(b, '['), float64(x[0]))
+			return append(numjson.AppendJSON(append(b, ','), float64(x[1])), ']')
+		})
 	default:
 		// Any other kind of values: encoding/json for the whole axis.
 		enc, err := appendEncoded(nil, a)
@@ -269,6 +248,21 @@ func appendJSONString(b []byte, s string) []byte {
 	b = append(b, '"')
 	b = append(b, s...)
 	return append(b, '"')
+}
+
+// appendList appends v as encoding/json encodes a slice (null when nil), each element by val.
+func appendList[E any](b []byte, v []E, val func([]byte, E) []byte) []byte {
+	if v == nil {
+		return append(b, "null"...)
+	}
+	b = append(b, '[')
+	for i, x := range v {
+		if i > 0 {
+			b = append(b, ',')
+		}
+		b = val(b, x)
+	}
+	return append(b, ']')
 }
 
 // appendMap appends m as encoding/json encodes a map (null when nil, keys sorted), each value

@@ -110,27 +110,7 @@ func TestCOGStreamInPlace(t *testing.T) {
 			if left, _ := filepath.Glob(filepath.Join(dir, ".*")); len(left) != 0 {
 				t.Errorf("temporary files left: %v", left)
 			}
-			a, ma, err := Read(mem)
-			if err != nil {
-				t.Fatal(err)
-			}
-			b, mb, err := Read(out)
-			if err != nil {
-				t.Fatal(err)
-			}
-			sameHeader(t, b, a)
-			sameData(t, b, g)
-			if ma.Units != mb.Units || ma.Name != mb.Name || ma.Sense != mb.Sense || ma.Driver != mb.Driver {
-				t.Fatalf("meta %+v, want %+v", mb, ma)
-			}
-			for k, v := range ma.Metadata {
-				if mb.Metadata[k] != v {
-					t.Errorf("metadata %s = %q, want %q", k, mb.Metadata[k], v)
-				}
-			}
-			if len(ma.Metadata) != len(mb.Metadata) {
-				t.Errorf("metadata %v, want %v", mb.Metadata, ma.Metadata)
-			}
+			sameGridFile(t, out, mem, g)
 			raw, err := os.ReadFile(out)
 			if err != nil {
 				t.Fatal(err)

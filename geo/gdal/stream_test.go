@@ -69,28 +69,7 @@ func TestCOGStreamEqualsWriteCOG(t *testing.T) {
 			if s.BlockRows() != minStreamRows {
 				t.Fatalf("block rows %d, want %d", s.BlockRows(), minStreamRows)
 			}
-			a, ma, err := Read(mem)
-			if err != nil {
-				t.Fatal(err)
-			}
-			b, mb, err := Read(streamed)
-			if err != nil {
-				t.Fatal(err)
-			}
-			sameHeader(t, b, a)
-			sameHeader(t, b, g)
-			sameData(t, b, g)
-			if ma.Units != mb.Units || ma.Name != mb.Name || ma.Sense != mb.Sense || ma.Driver != mb.Driver {
-				t.Fatalf("meta %+v, want %+v", mb, ma)
-			}
-			for k, v := range ma.Metadata {
-				if mb.Metadata[k] != v {
-					t.Errorf("metadata %s = %q, want %q", k, mb.Metadata[k], v)
-				}
-			}
-			if len(ma.Metadata) != len(mb.Metadata) {
-				t.Errorf("metadata %v, want %v", mb.Metadata, ma.Metadata)
-			}
+			sameGridFile(t, streamed, mem, g)
 			ba, _ := os.ReadFile(mem)
 			bb, _ := os.ReadFile(streamed)
 			if !bytes.Equal(ba, bb) {
@@ -230,5 +209,33 @@ func TestCOGStreamCancelledDuringCopy(t *testing.T) {
 	}
 	if left, _ := filepath.Glob(filepath.Join(dir, "*out.tif*")); len(left) > 0 {
 		t.Fatalf("files left: %v", left)
+	}
+}
+
+// sameGridFile checks that the grid file got reads as the file want does (lattice, metadata)
+// and holds g's values on g's lattice.
+func sameGridFile(t *testing.T, got, want string, g *geo.Grid) {
+	t.Helper()
+	a, ma, err := Read(want)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, mb, err := Read(got)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sameHeader(t, b, a)
+	sameHeader(t, b, g)
+	sameData(t, b, g)
+	if ma.Units != mb.Units || ma.Name != mb.Name || ma.Sense != mb.Sense || ma.Driver != mb.Driver {
+		t.Fatalf("meta %+v, want %+v", mb, ma)
+	}
+	for k, v := range ma.Metadata {
+		if mb.Metadata[k] != v {
+			t.Errorf("metadata %s = %q, want %q", k, mb.Metadata[k], v)
+		}
+	}
+	if len(ma.Metadata) != len(mb.Metadata) {
+		t.Errorf("metadata %v, want %v", mb.Metadata, ma.Metadata)
 	}
 }
