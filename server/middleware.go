@@ -94,7 +94,11 @@ func (s *server) accessLog(next http.Handler) http.Handler {
 		if status == 0 {
 			status = http.StatusOK
 		}
-		s.log.LogAttrs(r.Context(), levelFor(status), "http request",
+		level := levelFor(status)
+		if !s.log.Enabled(r.Context(), level) {
+			return // not logged at this level: build no line
+		}
+		s.log.LogAttrs(r.Context(), level, "http request",
 			slogStr("request_id", requestID(r.Context())),
 			slogStr("method", r.Method),
 			slogStr("path", r.URL.Path),
@@ -140,8 +144,8 @@ func (s *server) timeout(d time.Duration, skipPath string) func(http.Handler) ht
 				next.ServeHTTP(w, r)
 				return
 			}
-			ctx, cancel := context.WithTimeout(r.Context(), d)
-			defer cancel()
+			ctx, release := withLazyDeadline(r.Context(), d)
+			defer release()
 			next.ServeHTTP(w, r.WithContext(ctx))
 		})
 	}
