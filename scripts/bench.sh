@@ -37,6 +37,9 @@ if ! scripts/loadtest.sh; then
 	rc=1
 	status="The load test failed in this run (unintended answers, a server failure or memory growth beyond its bound): see the figures below."
 fi
+# Every report of make bench-scale under build/ (build/scale, or another SCALE_DIR such as
+# build/scale15 for a size measured apart).
+scales=$(ls build/scale*/report.md 2>/dev/null | paste -sd, -)
 go run ./cmd/ridgeflank-benchreport -bench "$raw" -load build/load/load.md -load-status "$status" \
-	-scale build/scale/report.md -out "$out" || rc=1
+	-scale "${scales:-build/scale/report.md}" -out "$out" || rc=1
 exit $rc

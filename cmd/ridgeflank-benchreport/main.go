@@ -102,7 +102,7 @@ func main() {
 	benchPath := flag.String("bench", "build/bench/go-bench.txt", "output of go test -bench")
 	loadPath := flag.String("load", "build/load/load.md", "the load test's Markdown section (skipped when missing)")
 	loadStatus := flag.String("load-status", "", "how the load test ended, when it did not pass (written into the report)")
-	scalePath := flag.String("scale", "build/scale/report.md", "the report of make bench-scale (import figures; skipped when missing)")
+	scalePath := flag.String("scale", "build/scale/report.md", "the reports of make bench-scale, comma-separated (import and serving figures; missing ones skipped)")
 	outPath := flag.String("out", "docs/benchmarks.md", "the report to write")
 	command := flag.String("command", "make bench", "the command that made the figures")
 	flag.Parse()
@@ -122,8 +122,13 @@ func main() {
 		os.Exit(1)
 	}
 	load, _ := os.ReadFile(*loadPath)
-	scale, _ := os.ReadFile(*scalePath)
-	md := render(results(rs), machine(), string(load), *loadStatus, string(scale), *command)
+	var scales []scaleReport
+	for _, p := range strings.Split(*scalePath, ",") {
+		if text, err := os.ReadFile(strings.TrimSpace(p)); err == nil {
+			scales = append(scales, scaleReport{path: strings.TrimSpace(p), text: string(text)})
+		}
+	}
+	md := render(results(rs), machine(), string(load), *loadStatus, scales, *command)
 	if err := os.WriteFile(*outPath, []byte(md), 0o644); err != nil {
 		fmt.Fprintln(os.Stderr, "ridgeflank-benchreport: "+err.Error())
 		os.Exit(1)
@@ -192,7 +197,10 @@ func verdict(ok bool) string {
 	return "**not met**"
 }
 
-func render(rs results, m machineInfo, load, loadStatus, scale, command string) string {
+// scaleReport is one report of make bench-scale: its path and text.
+type scaleReport struct{ path, text string }
+
+func render(rs results, m machineInfo, load, loadStatus string, scales []scaleReport, command string) string {
 	var b strings.Builder
 	b.WriteString("# Benchmarks\n\n")
 	fmt.Fprintf(&b, "Written by `%s` on %s. Figures from different machines or runs are not comparable; the ratios below compare two figures measured in the same run.\n\n", command, m.Date)
@@ -289,32 +297,39 @@ func render(rs results, m machineInfo, load, loadStatus, scale, command string) 
 
 	// Import against gdal_translate.
 	b.WriteString("## Import against `gdal_translate -of COG`\n\n")
-	if rows := importRows(scale); len(rows) > 0 {
-		b.WriteString("From `make bench-scale` (build/scale/report.md, SYNTHETIC global grids; its own run and date):\n\n")
-		b.WriteString("| figure | measured | goal | peer | ratio | verdict | note |\n| --- | --- | --- | --- | --- | --- | --- |\n")
-		for _, r := range rows {
-			b.WriteString(r + "\n")
+	const header = "| grid | figure | measured | goal | peer | ratio | verdict | note |\n| --- | --- | --- | --- | --- | --- | --- | --- |\n"
+	imported := false
+	for _, sr := range scales {
+		rows := importRows(sr.text)
+		if len(rows) == 0 {
+			continue
 		}
-		b.WriteString("\n")
-	} else {
-		b.WriteString("Not measured: build/scale/report.md is missing (`make bench-scale` writes it; it needs tens of GB and much time, so `make bench` does not run it).\n\n")
+		imported = true
+		fmt.Fprintf(&b, "From `make bench-scale` (%s, SYNTHETIC global grids; its own run and date):\n\n", sr.path)
+		b.WriteString(header + strings.Join(rows, "\n") + "\n\n")
+	}
+	if !imported {
+		b.WriteString("Not measured: no report of `make bench-scale` (build/scale/report.md; it needs tens of GB and much time, so `make bench` does not run it).\n\n")
 	}
 
 	// Serving at global sizes: the figures of make bench-scale with goals (area, statistics,
-	// demo-basin tiles).
+	// tiles).
 	b.WriteString("## Serving at global sizes (`make bench-scale`)\n\n")
-	if rows := serveRows(scale); len(rows) > 0 {
-		b.WriteString("From build/scale/report.md (SYNTHETIC global grids, HTTP on 127.0.0.1, its own run and date")
-		if l := scaleLoad(scale); l != "" {
+	served := false
+	for _, sr := range scales {
+		rows := serveRows(sr.text)
+		if len(rows) == 0 {
+			continue
+		}
+		served = true
+		fmt.Fprintf(&b, "From %s (SYNTHETIC global grids, HTTP on 127.0.0.1, its own run and date", sr.path)
+		if l := scaleLoad(sr.text); l != "" {
 			b.WriteString("; " + l)
 		}
-		b.WriteString("):\n\n| figure | measured | goal | peer | ratio | verdict | note |\n| --- | --- | --- | --- | --- | --- | --- |\n")
-		for _, r := range rows {
-			b.WriteString(r + "\n")
-		}
-		b.WriteString("\n")
-	} else {
-		b.WriteString("Not measured: build/scale/report.md is missing or has no served figures.\n\n")
+		b.WriteString("):\n\n" + header + strings.Join(rows, "\n") + "\n\n")
+	}
+	if !served {
+		b.WriteString("Not measured: no report of `make bench-scale` with served figures.\n\n")
 	}
 
 	// Load test.
@@ -359,12 +374,24 @@ func sortedUnits(m map[string]float64) []string {
 // serveRows are the table rows of the scale report with a goal about serving: the area query,
 // the region statistics and the tiles.
 func serveRows(scale string) []string {
-	var rows []string
-	for _, l := range strings.Split(scale, "\n") {
-		if strings.HasPrefix(l, "| ") && !strings.Contains(l, "`ridgeflank import`") &&
+	return sectionRows(scale, func(l string) bool {
+		return !strings.Contains(l, "`ridgeflank import`") &&
 			(strings.Contains(l, "| area query") || strings.Contains(l, "| region statistics") || strings.Contains(l, "| tiles warm") || strings.Contains(l, "| tiles cold")) &&
-			strings.Contains(l, "≤") {
-			rows = append(rows, l)
+			strings.Contains(l, "≤")
+	})
+}
+
+// sectionRows are the table rows of the scale report that keep takes, each with the heading of
+// its section (the grid size or the demo basin) as a first cell.
+func sectionRows(scale string, keep func(line string) bool) []string {
+	var rows []string
+	section := ""
+	for _, l := range strings.Split(scale, "\n") {
+		if h, ok := strings.CutPrefix(l, "## "); ok {
+			section = strings.TrimSpace(h)
+		}
+		if strings.HasPrefix(l, "| ") && keep(l) {
+			rows = append(rows, "| "+section+" "+l)
 		}
 	}
 	return rows
@@ -383,11 +410,5 @@ func scaleLoad(scale string) string {
 // importRows are the table rows of the scale report about imports (`ridgeflank import` beside
 // `gdal_translate -of COG`).
 func importRows(scale string) []string {
-	var rows []string
-	for _, l := range strings.Split(scale, "\n") {
-		if strings.HasPrefix(l, "| ") && strings.Contains(l, "`ridgeflank import`") {
-			rows = append(rows, l)
-		}
-	}
-	return rows
+	return sectionRows(scale, func(l string) bool { return strings.Contains(l, "`ridgeflank import`") })
 }

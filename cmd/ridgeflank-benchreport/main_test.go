@@ -49,15 +49,20 @@ BenchmarkNoSuffix 	 10	 100 ns/op
 // served figures that have a goal, and nothing about imports or without a goal.
 func TestServeRows(t *testing.T) {
 	scale := "- load average (1, 5, 15 min; other work on the machine counts too): 1.0, 2.0, 3.0 at the start, 1.5, 2.0, 3.0 at the end\n" +
+		"## Import (15″, 86400 × 43200 Float32)\n" +
 		"| `ridgeflank import` age: wall time | 41.6s | ≤ 1.5× peer | x | 1.3× | met | |\n" +
+		"## Demo basin\n" +
 		"| tiles warm (5 repeats of each) | p50 0.4 ms | any ≤ 5.0 ms | – | – | met |  |\n" +
 		"| tiles warm (5 repeats of each) | p50 3.0 ms | – | – | – | – |  |\n" +
 		"| position queries (one POINT each) | p50 0.4 ms | – | – | – | – |  |\n" +
 		"| area query, 1000 × 1000 = 1.0 M output cells: 20 repeats | p50 90 ms | any ≤ 300.0 ms | – | – | met |  |\n" +
 		"| region statistics, 3163 × 3163 = 10.0 M cells: first request | p50 900 ms | any ≤ 1000.0 ms | – | – | met |  |\n"
 	rows := serveRows(scale)
-	if len(rows) != 3 || !strings.Contains(rows[0], "tiles warm") || !strings.Contains(rows[1], "area query") || !strings.Contains(rows[2], "region statistics") {
+	if len(rows) != 3 || !strings.HasPrefix(rows[0], "| Demo basin | tiles warm") || !strings.Contains(rows[1], "area query") || !strings.Contains(rows[2], "region statistics") {
 		t.Errorf("rows %q", rows)
+	}
+	if imp := importRows(scale); len(imp) != 1 || !strings.HasPrefix(imp[0], "| Import (15″, 86400 × 43200 Float32) | `ridgeflank import`") {
+		t.Errorf("import rows %q", imp)
 	}
 	if l := scaleLoad(scale); !strings.HasPrefix(l, "load average") || !strings.HasSuffix(l, "at the end") {
 		t.Errorf("load line %q", l)
