@@ -376,7 +376,8 @@ func sortedUnits(m map[string]float64) []string {
 func serveRows(scale string) []string {
 	return sectionRows(scale, func(l string) bool {
 		return !strings.Contains(l, "`ridgeflank import`") &&
-			(strings.Contains(l, "| area query") || strings.Contains(l, "| region statistics") || strings.Contains(l, "| tiles warm") || strings.Contains(l, "| tiles cold")) &&
+			(strings.Contains(l, "| area query") || strings.Contains(l, "| region statistics") || strings.Contains(l, "| tiles warm") ||
+				strings.Contains(l, "| tiles cold") || strings.Contains(l, "| max VmRSS of the run") || strings.Contains(l, "| VmHWM")) &&
 			strings.Contains(l, "≤")
 	})
 }

@@ -56,9 +56,12 @@ func TestServeRows(t *testing.T) {
 		"| tiles warm (5 repeats of each) | p50 3.0 ms | – | – | – | – |  |\n" +
 		"| position queries (one POINT each) | p50 0.4 ms | – | – | – | – |  |\n" +
 		"| area query, 1000 × 1000 = 1.0 M output cells: 20 repeats | p50 90 ms | any ≤ 300.0 ms | – | – | met |  |\n" +
-		"| region statistics, 3163 × 3163 = 10.0 M cells: first request | p50 900 ms | any ≤ 1000.0 ms | – | – | met |  |\n"
+		"| region statistics, 3163 × 3163 = 10.0 M cells: first request | p50 900 ms | any ≤ 1000.0 ms | – | – | met |  |\n" +
+		"## Server memory (VmRSS sampled every 100 ms from /proc/PID/status)\n" +
+		"| max VmRSS during start-up | 0.07 GiB | – | – | – | – |  |\n" +
+		"| VmHWM (peak RSS) at the last sample | 0.71 GiB | ≤ 1 GB (512 MB budget) | – | – | met |  |\n"
 	rows := serveRows(scale)
-	if len(rows) != 3 || !strings.HasPrefix(rows[0], "| Demo basin | tiles warm") || !strings.Contains(rows[1], "area query") || !strings.Contains(rows[2], "region statistics") {
+	if len(rows) != 4 || !strings.HasPrefix(rows[3], "| Server memory") || !strings.HasPrefix(rows[0], "| Demo basin | tiles warm") || !strings.Contains(rows[1], "area query") || !strings.Contains(rows[2], "region statistics") {
 		t.Errorf("rows %q", rows)
 	}
 	if imp := importRows(scale); len(imp) != 1 || !strings.HasPrefix(imp[0], "| Import (15″, 86400 × 43200 Float32) | `ridgeflank import`") {
