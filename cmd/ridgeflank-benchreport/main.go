@@ -200,6 +200,24 @@ func verdict(ok bool) string {
 // scaleReport is one report of make bench-scale: its path and text.
 type scaleReport struct{ path, text string }
 
+// scaleTables writes, for each report with rows, its introduction and a table of its rows (each
+// led by its grid size), or missing when no report has any.
+func scaleTables(b *strings.Builder, scales []scaleReport, rowsOf func(string) []string, intro func(scaleReport) string, missing string) {
+	const header = "| grid | figure | measured | goal | peer | ratio | verdict | note |\n| --- | --- | --- | --- | --- | --- | --- | --- |\n"
+	found := false
+	for _, sr := range scales {
+		rows := rowsOf(sr.text)
+		if len(rows) == 0 {
+			continue
+		}
+		found = true
+		b.WriteString(intro(sr) + ":\n\n" + header + strings.Join(rows, "\n") + "\n\n")
+	}
+	if !found {
+		b.WriteString(missing + "\n\n")
+	}
+}
+
 func render(rs results, m machineInfo, load, loadStatus string, scales []scaleReport, command string) string {
 	var b strings.Builder
 	b.WriteString("# Benchmarks\n\n")
@@ -297,40 +315,20 @@ func render(rs results, m machineInfo, load, loadStatus string, scales []scaleRe
 
 	// Import against gdal_translate.
 	b.WriteString("## Import against `gdal_translate -of COG`\n\n")
-	const header = "| grid | figure | measured | goal | peer | ratio | verdict | note |\n| --- | --- | --- | --- | --- | --- | --- | --- |\n"
-	imported := false
-	for _, sr := range scales {
-		rows := importRows(sr.text)
-		if len(rows) == 0 {
-			continue
-		}
-		imported = true
-		fmt.Fprintf(&b, "From `make bench-scale` (%s, SYNTHETIC global grids; its own run and date):\n\n", sr.path)
-		b.WriteString(header + strings.Join(rows, "\n") + "\n\n")
-	}
-	if !imported {
-		b.WriteString("Not measured: no report of `make bench-scale` (build/scale/report.md; it needs tens of GB and much time, so `make bench` does not run it).\n\n")
-	}
+	scaleTables(&b, scales, importRows, func(sr scaleReport) string {
+		return fmt.Sprintf("From `make bench-scale` (%s, SYNTHETIC global grids; its own run and date)", sr.path)
+	}, "Not measured: no report of `make bench-scale` (build/scale/report.md; it needs tens of GB and much time, so `make bench` does not run it).")
 
 	// Serving at global sizes: the figures of make bench-scale with goals (area, statistics,
-	// tiles).
+	// tiles, peak memory).
 	b.WriteString("## Serving at global sizes (`make bench-scale`)\n\n")
-	served := false
-	for _, sr := range scales {
-		rows := serveRows(sr.text)
-		if len(rows) == 0 {
-			continue
-		}
-		served = true
-		fmt.Fprintf(&b, "From %s (SYNTHETIC global grids, HTTP on 127.0.0.1, its own run and date", sr.path)
+	scaleTables(&b, scales, serveRows, func(sr scaleReport) string {
+		intro := fmt.Sprintf("From %s (SYNTHETIC global grids, HTTP on 127.0.0.1, its own run and date", sr.path)
 		if l := scaleLoad(sr.text); l != "" {
-			b.WriteString("; " + l)
+			intro += "; " + l
 		}
-		b.WriteString("):\n\n" + header + strings.Join(rows, "\n") + "\n\n")
-	}
-	if !served {
-		b.WriteString("Not measured: no report of `make bench-scale` with served figures.\n\n")
-	}
+		return intro + ")"
+	}, "Not measured: no report of `make bench-scale` with served figures.")
 
 	// Load test.
 	b.WriteString("## Load test (`make loadtest`)\n\n")

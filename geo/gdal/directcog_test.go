@@ -235,12 +235,7 @@ func TestCOGStreamInPlaceBigTIFF(t *testing.T) {
 	if ifd != 16 || len(offs) != 6 || len(counts) != 6 || offs[5]+counts[5] != int64(len(raw)) {
 		t.Errorf("directory at %d, %d tiles, last ending at %d of %d bytes", ifd, len(offs), offs[len(offs)-1]+counts[len(counts)-1], len(raw))
 	}
-	b, _, err := Read(out)
-	if err != nil {
-		t.Fatal(err)
-	}
-	sameHeader(t, b, g)
-	sameData(t, b, g)
+	sameAsGrid(t, out, g)
 }
 
 // TestStreamCOGOptions: the creation options of each compression and overview choice.

@@ -387,12 +387,7 @@ func TestEncode(t *testing.T) {
 				if err := os.WriteFile(p, b, 0o644); err != nil {
 					t.Fatal(err)
 				}
-				back, _, err := Read(p)
-				if err != nil {
-					t.Fatal(err)
-				}
-				sameHeader(t, back, g)
-				sameData(t, back, g)
+				sameAsGrid(t, p, g)
 			}
 		})
 	}

@@ -176,12 +176,7 @@ func TestTranslateCOG(t *testing.T) {
 	if err := TranslateCOG(context.Background(), src, dst); err != nil {
 		t.Fatal(err)
 	}
-	back, _, err := Read(dst)
-	if err != nil {
-		t.Fatal(err)
-	}
-	sameHeader(t, back, g)
-	sameData(t, back, g)
+	sameAsGrid(t, dst, g)
 }
 
 // TestCOGStreamCancelledDuringCopy: cancelling the context while GDAL builds the COG stops it
@@ -238,4 +233,15 @@ func sameGridFile(t *testing.T, got, want string, g *geo.Grid) {
 	if len(ma.Metadata) != len(mb.Metadata) {
 		t.Errorf("metadata %v, want %v", mb.Metadata, ma.Metadata)
 	}
+}
+
+// sameAsGrid checks that the grid file path holds g: its lattice and its values.
+func sameAsGrid(t *testing.T, path string, g *geo.Grid) {
+	t.Helper()
+	got, _, err := Read(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sameHeader(t, got, g)
+	sameData(t, got, g)
 }
