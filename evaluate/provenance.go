@@ -1,7 +1,6 @@
 package evaluate
 
 import (
-	"bytes"
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
@@ -33,30 +32,6 @@ type ModelRef struct {
 	ID           string         `json:"id"`
 	ParamsSHA256 string         `json:"params_sha256"`
 	Params       thermal.Params `json:"params"`
-	// encoded is the JSON of the three fields above, made once by NewModelRef (a ModelRef is
-	// only read afterwards): every answer repeats it, and encoding its floats each time took a
-	// sixth of a position query's CPU time.
-	encoded []byte
-}
-
-// MarshalJSON writes m as its three fields, from the encoding made by NewModelRef when m came
-// from there (HTML characters not escaped, as the server writes JSON).
-func (m ModelRef) MarshalJSON() ([]byte, error) {
-	if m.encoded != nil {
-		return m.encoded, nil
-	}
-	return encodeModelRef(m)
-}
-
-func encodeModelRef(m ModelRef) ([]byte, error) {
-	type plain ModelRef
-	var b bytes.Buffer
-	enc := json.NewEncoder(&b)
-	enc.SetEscapeHTML(false)
-	if err := enc.Encode(plain(m)); err != nil {
-		return nil, err
-	}
-	return bytes.TrimSuffix(b.Bytes(), []byte("\n")), nil
 }
 
 // GridRef names one input grid by id, role and content hash; Label is SyntheticLabel for a
@@ -113,9 +88,7 @@ func NewModelRef(params thermal.Params) *ModelRef {
 	shown.DiffusivityM2s = params.EffectiveDiffusivityM2s()
 	raw, _ := json.Marshal(shown)
 	sum := sha256.Sum256(raw)
-	ref := &ModelRef{ID: params.ID, ParamsSHA256: hex.EncodeToString(sum[:]), Params: shown}
-	ref.encoded, _ = encodeModelRef(*ref)
-	return ref
+	return &ModelRef{ID: params.ID, ParamsSHA256: hex.EncodeToString(sum[:]), Params: shown}
 }
 
 // Provenance is the provenance of an answer to q.

@@ -38,18 +38,17 @@ type covParameter struct {
 	Unit             covUnit             `json:"unit"`
 	// Field is the parameter's name, with its unit, in CSV columns and GeoJSON properties.
 	Field string `json:"ridgeflank:field,omitempty"`
-	// encoded is the JSON of the fields above, made once by covParameterOf (every answer
-	// repeats a parameter's description).
+	// encoded is the JSON of the fields above, made once by covParameterOf for the coverage
+	// encoder (every answer repeats a parameter's description). encoding/json ignores it.
 	encoded []byte
 }
 
-// MarshalJSON writes p's fields, from the encoding made by covParameterOf when there is one.
-func (p covParameter) MarshalJSON() ([]byte, error) {
+// encode is p's JSON as writeJSON's encoder writes it.
+func (p covParameter) encode() ([]byte, error) {
 	if p.encoded != nil {
 		return p.encoded, nil
 	}
-	type plain covParameter
-	return marshalNoEscape(plain(p))
+	return marshalNoEscape(p)
 }
 
 // marshalNoEscape is json.Marshal without HTML escaping, as writeJSON writes.
@@ -229,7 +228,7 @@ func covParameterOf(p evaluate.Parameter) covParameter {
 		Unit:             covUnit{Label: covI18n{"en": p.UnitLabel}, Symbol: covSymbol{Value: p.Unit, Type: "http://www.opengis.net/def/uom/UCUM/"}},
 		Field:            evaluate.FieldName(p),
 	}
-	c.encoded, _ = c.MarshalJSON()
+	c.encoded, _ = c.encode()
 	covParams.Store(p, c)
 	return c
 }

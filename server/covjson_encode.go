@@ -26,10 +26,7 @@ func (c *coverage) appendJSON(b []byte) ([]byte, error) {
 	}
 	b = append(b, `,"parameters":`...)
 	if b, err = appendMap(b, c.Parameters, func(b []byte, p covParameter) ([]byte, error) {
-		if p.encoded != nil {
-			return append(b, p.encoded...), nil
-		}
-		enc, err := p.MarshalJSON()
+		enc, err := p.encode()
 		return append(b, enc...), err
 	}); err != nil {
 		return b, err

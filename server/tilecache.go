@@ -48,10 +48,10 @@ func (c *tileCache) get(etag string) ([]byte, bool) {
 	return e.Value.(*cachedTile).png, true
 }
 
-// put stores a rendered tile (the cache keeps png: the caller must not change it). A tile
-// over an eighth of the budget is not kept.
+// put stores a rendered tile (the cache keeps png: the caller must not change it), counted by
+// its capacity. A tile over an eighth of the budget is not kept.
 func (c *tileCache) put(etag string, png []byte) {
-	if c == nil || len(png) > c.budget/8 {
+	if c == nil || cap(png) > c.budget/8 {
 		return
 	}
 	c.mu.Lock()
@@ -60,12 +60,12 @@ func (c *tileCache) put(etag string, png []byte) {
 		return
 	}
 	c.items[etag] = c.ll.PushFront(&cachedTile{etag, png})
-	c.used += len(png) + len(etag)
+	c.used += cap(png) + len(etag) // the memory held, not only the bytes used
 	for c.used > c.budget {
 		e := c.ll.Back()
 		t := e.Value.(*cachedTile)
 		c.ll.Remove(e)
 		delete(c.items, t.etag)
-		c.used -= len(t.png) + len(t.etag)
+		c.used -= cap(t.png) + len(t.etag)
 	}
 }

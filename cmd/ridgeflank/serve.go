@@ -180,17 +180,15 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		log.Info("removed old export files", "count", n)
 	}
 	// Staging files of imports and exports whose writer died (SIGKILL, power loss): their lock
-	// is free. Streams in progress, here or in another process, hold theirs.
-	sweepStaging := func() {
-		for _, dir := range []string{"", deps.Config.ExportDir} {
-			if n, err := gdal.SweepStaging(dir); err != nil {
-				log.Warn("sweeping abandoned staging files", "err", err)
-			} else if n > 0 {
-				log.Info("removed abandoned staging files", "count", n)
-			}
+	// is free. Streams in progress, here or in another process, hold theirs. Every new stream
+	// also sweeps its own directory (gdal.NewCOGStream); this reclaims the disk at start.
+	for _, dir := range []string{"", deps.Config.ExportDir} {
+		if n, err := gdal.SweepStaging(dir); err != nil {
+			log.Warn("sweeping abandoned staging files", "err", err)
+		} else if n > 0 {
+			log.Info("removed abandoned staging files", "count", n)
 		}
 	}
-	sweepStaging()
 	if n, err := server.SweepShared(ctx, st); err != nil {
 		log.Warn("sweeping old uploads and exports in the grid store", "err", err)
 	} else if n > 0 {
@@ -228,7 +226,6 @@ func runServe(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 				return
 			case <-tick.C:
 				sweepUploads(server.UploadSweepAge)
-				sweepStaging()
 				if _, err := server.SweepExports(deps.Config.ExportDir); err != nil {
 					log.Warn("sweeping old export files", "err", err)
 				}

@@ -95,12 +95,7 @@ func TestCOGStreamInPlace(t *testing.T) {
 			if s.direct == nil {
 				t.Fatal("not written in place")
 			}
-			for row := 0; row < g.NY; row += s.BlockRows() {
-				n := min(s.BlockRows(), g.NY-row)
-				if err := s.WriteRows(row, g.Data[row*g.NX:(row+n)*g.NX]); err != nil {
-					t.Fatal(err)
-				}
-			}
+			writeAllRows(t, s, g)
 			if err := s.Finish(context.Background(), out, m, nil); err != nil {
 				t.Fatal(err)
 			}
@@ -168,12 +163,7 @@ func TestCOGStreamInPlaceElsewhere(t *testing.T) {
 				t.Fatal(err)
 			}
 			defer s.Close()
-			for row := 0; row < g.NY; row += s.BlockRows() {
-				n := min(s.BlockRows(), g.NY-row)
-				if err := s.WriteRows(row, g.Data[row*g.NX:(row+n)*g.NX]); err != nil {
-					t.Fatal(err)
-				}
-			}
+			writeAllRows(t, s, g)
 			out := filepath.Join(dir, tc.to)
 			if err := s.Finish(context.Background(), out, Meta{Units: "m", Metadata: tc.md}, nil); err != nil {
 				t.Fatal(err)
@@ -215,12 +205,7 @@ func TestCOGStreamInPlaceBigTIFF(t *testing.T) {
 	}
 	defer s.Close()
 	s.direct.bigTIFF = true
-	for row := 0; row < g.NY; row += s.BlockRows() {
-		n := min(s.BlockRows(), g.NY-row)
-		if err := s.WriteRows(row, g.Data[row*g.NX:(row+n)*g.NX]); err != nil {
-			t.Fatal(err)
-		}
-	}
+	writeAllRows(t, s, g)
 	if err := s.Finish(context.Background(), out, Meta{Units: "m"}, nil); err != nil {
 		t.Fatal(err)
 	}

@@ -100,6 +100,25 @@ func TestSweepStaging(t *testing.T) {
 		}
 	})
 
+	t.Run("a new stream sweeps what a dead writer left beside it", func(t *testing.T) {
+		dead := filepath.Join(dir, "ridgeflank-stage-999.tif")
+		for _, p := range []string{dead, dead + ".lock", dead + ".aux.xml"} {
+			if err := os.WriteFile(p, []byte("x"), 0o600); err != nil {
+				t.Fatal(err)
+			}
+		}
+		st, err := NewCOGStream(g, StreamOptions{StageDir: dir})
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer st.Close()
+		for _, p := range []string{dead, dead + ".lock", dead + ".aux.xml"} {
+			if _, err := os.Stat(p); err == nil {
+				t.Errorf("%s left by a dead writer is still there", filepath.Base(p))
+			}
+		}
+	})
+
 	t.Run("lockless file: kept when recent, removed after a day", func(t *testing.T) {
 		p := filepath.Join(dir, "ridgeflank-stage-123.tif")
 		if err := os.WriteFile(p, []byte("x"), 0o600); err != nil {

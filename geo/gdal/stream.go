@@ -123,6 +123,9 @@ func NewCOGStream(header geo.Grid, opt StreamOptions) (*COGStream, error) {
 	if dir == "" {
 		dir = os.TempDir()
 	}
+	// Staging files of streams whose writer died (any way in: import, grid, export) go before
+	// a new one takes room beside them.
+	_, _ = SweepStaging(dir)
 	f, err := os.CreateTemp(dir, "ridgeflank-stage-*.tif")
 	if err != nil {
 		return nil, fmt.Errorf("write grid: staging file: %w", err)

@@ -31,6 +31,17 @@ func streamGrid(nx, ny int, reg geo.Registration) *geo.Grid {
 	return g
 }
 
+// writeAllRows writes every row of g to s, a block at a time.
+func writeAllRows(t *testing.T, s *COGStream, g *geo.Grid) {
+	t.Helper()
+	for row := 0; row < g.NY; row += s.BlockRows() {
+		n := min(s.BlockRows(), g.NY-row)
+		if err := s.WriteRows(row, g.Data[row*g.NX:(row+n)*g.NX]); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
 // streamCOG writes g through a COGStream with the given block bound.
 func streamCOG(t *testing.T, path string, g *geo.Grid, m Meta, blockBytes int) *COGStream {
 	t.Helper()
@@ -39,12 +50,7 @@ func streamCOG(t *testing.T, path string, g *geo.Grid, m Meta, blockBytes int) *
 		t.Fatal(err)
 	}
 	t.Cleanup(func() { s.Close() })
-	for row := 0; row < g.NY; row += s.BlockRows() {
-		n := min(s.BlockRows(), g.NY-row)
-		if err := s.WriteRows(row, g.Data[row*g.NX:(row+n)*g.NX]); err != nil {
-			t.Fatal(err)
-		}
-	}
+	writeAllRows(t, s, g)
 	if err := s.Finish(context.Background(), path, m, nil); err != nil {
 		t.Fatal(err)
 	}
@@ -190,12 +196,7 @@ func TestCOGStreamCancelledDuringCopy(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer s.Close()
-	for row := 0; row < g.NY; row += s.BlockRows() {
-		n := min(s.BlockRows(), g.NY-row)
-		if err := s.WriteRows(row, g.Data[row*g.NX:(row+n)*g.NX]); err != nil {
-			t.Fatal(err)
-		}
-	}
+	writeAllRows(t, s, g)
 	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Millisecond)
 	defer cancel()
 	out := filepath.Join(dir, "out.tif")

@@ -3,10 +3,8 @@ package s3blob_test
 import (
 	"context"
 	"math/rand/v2"
-	"path/filepath"
 	"testing"
 
-	"ridgeflank/geo"
 	"ridgeflank/geo/gdal"
 	"ridgeflank/store"
 	"ridgeflank/store/s3blob/s3test"
@@ -17,15 +15,8 @@ import (
 // the grid directory and, through /vsis3/, from a bucket of the in-process fake and of a
 // SeaweedFS server (both on loopback). Compare the ns/op of one run.
 func BenchmarkWindowRead(b *testing.B) {
-	g := geo.NewGrid(4096, 2048, -180+0.5*360.0/4096, 90-0.5*180.0/2048, 360.0/4096, 180.0/2048, geo.CellCentre)
+	src := noiseCOG(b, 4096, 2048, 1, 0, 1000)
 	r := rand.New(rand.NewPCG(1, 2))
-	for i := range g.Data {
-		g.Data[i] = r.Float32() * 1000
-	}
-	src := filepath.Join(b.TempDir(), "noise.tif")
-	if err := gdal.WriteCOG(src, g, gdal.Meta{Units: "m", Name: "noise"}); err != nil {
-		b.Fatal(err)
-	}
 	for _, c := range []struct {
 		name  string
 		blobs func(b *testing.B) store.Blobs

@@ -16,6 +16,22 @@ import (
 	"ridgeflank/store/s3blob/s3test"
 )
 
+// noiseCOG writes a global COG of nx × ny Float32 cells of uniform noise in [lo, lo+span)
+// (seeded) and returns its path.
+func noiseCOG(tb testing.TB, nx, ny int, seed uint64, lo, span float32) string {
+	tb.Helper()
+	g := geo.NewGrid(nx, ny, -180+0.5*360.0/float64(nx), 90-0.5*180.0/float64(ny), 360.0/float64(nx), 180.0/float64(ny), geo.CellCentre)
+	r := rand.New(rand.NewPCG(seed, seed+1))
+	for i := range g.Data {
+		g.Data[i] = lo + r.Float32()*span
+	}
+	src := filepath.Join(tb.TempDir(), "noise.tif")
+	if err := gdal.WriteCOG(src, g, gdal.Meta{Units: "m", Name: "noise"}); err != nil {
+		tb.Fatal(err)
+	}
+	return src
+}
+
 // TestGDALRangeRead stores a COG in the bucket and reads windows of it in place through
 // GDAL's /vsis3/: the values equal those read from the local file, and every GET of the object
 // asks for a byte range (HTTP Range, RFC 9110 §14) and is answered 206 Partial Content, so the
@@ -23,15 +39,7 @@ import (
 func TestGDALRangeRead(t *testing.T) {
 	// 1024 × 512 Float32 cells of noise (2 MiB before compression, 512 × 512 tiles): several
 	// tiles, so a window needs only some of the file's bytes.
-	g := geo.NewGrid(1024, 512, -180+0.5*360.0/1024, 90-0.5*180.0/512, 360.0/1024, 180.0/512, geo.CellCentre)
-	r := rand.New(rand.NewPCG(3, 4))
-	for i := range g.Data {
-		g.Data[i] = r.Float32()*5000 - 6000
-	}
-	src := filepath.Join(t.TempDir(), "noise.tif")
-	if err := gdal.WriteCOG(src, g, gdal.Meta{Units: "m", Name: "noise"}); err != nil {
-		t.Fatal(err)
-	}
+	src := noiseCOG(t, 1024, 512, 3, -6000, 5000)
 	local, err := gdal.Open(src, gdal.ReadOptions{})
 	if err != nil {
 		t.Fatal(err)
