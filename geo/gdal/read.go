@@ -721,3 +721,27 @@ func (d *Dataset) BlockBytes() int64 {
 	size := C.GDALGetDataTypeSizeBytes(C.GDALGetRasterDataType(band))
 	return int64(bx) * int64(by) * int64(size)
 }
+
+// BlockRows is the height in rows of the band's storage blocks (GDALGetBlockSize) when reads
+// of whole blocks of rows, counted from the northernmost row, line up with them; 0 when they
+// do not (a south-up file whose height is not a multiple of the block height) or the band is
+// gone. A reader of a tiled file whose row of tiles does not fit in GDAL's block cache decodes
+// every tile once only if it reads whole rows of tiles at a time: a read of half a tile's rows
+// decodes the whole tile, and the cache has dropped it before the other half is read.
+func (d *Dataset) BlockRows() int {
+	d.lock()
+	defer d.unlock()
+	if d.h == nil {
+		return 0
+	}
+	band := C.GDALGetRasterBand(d.h, C.int(d.band))
+	if band == nil {
+		return 0
+	}
+	var bx, by C.int
+	C.GDALGetBlockSize(band, &bx, &by)
+	if by <= 0 || (d.flip && d.header.NY%int(by) != 0) {
+		return 0
+	}
+	return int(by)
+}

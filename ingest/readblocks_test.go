@@ -1,0 +1,72 @@
+package ingest
+
+import (
+	"os/exec"
+	"path/filepath"
+	"slices"
+	"testing"
+
+	"ridgeflank/geo"
+	"ridgeflank/geo/gdal"
+)
+
+// TestReadBlocksWholeTileRows: a file tiled 64 rows high (made by GDAL's own gdal_translate) is
+// read in blocks of 16 rows through whole rows of tiles at a time; the blocks arrive in order,
+// cover every row once (the last row of tiles is short: 300 = 4·64 + 44 rows) and hold exactly
+// what one read of the whole grid through GDAL returns. Blocks as tall as the tiles, or taller,
+// are read as they are.
+func TestReadBlocksWholeTileRows(t *testing.T) {
+	if _, err := exec.LookPath("gdal_translate"); err != nil {
+		t.Skip("gdal_translate not installed (Debian: gdal-bin)")
+	}
+	dir := t.TempDir()
+	const nx, ny = 1000, 300
+	g := &geo.Grid{NX: nx, NY: ny, DX: 0.36, DY: 0.36, West: -179.82, North: 53.82, Data: make([]float32, nx*ny)}
+	for i := range g.Data {
+		g.Data[i] = float32(i%nx) + 1000*float32(i/nx)
+	}
+	src := filepath.Join(dir, "src.tif")
+	if err := gdal.WriteCOG(src, g, gdal.Meta{Units: "m"}); err != nil {
+		t.Fatal(err)
+	}
+	tiled := filepath.Join(dir, "tiled-64.tif")
+	if out, err := exec.Command("gdal_translate", "-q", "-co", "TILED=YES", "-co", "BLOCKXSIZE=128", "-co", "BLOCKYSIZE=64",
+		src, tiled).CombinedOutput(); err != nil {
+		t.Fatalf("gdal_translate: %v\n%s", err, out)
+	}
+	d, err := gdal.Open(tiled, gdal.ReadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer d.Close()
+	if got := d.BlockRows(); got != 64 {
+		t.Fatalf("BlockRows = %d, want the file's 64 (gdal_translate BLOCKYSIZE=64)", got)
+	}
+	whole := make([]float32, nx*ny)
+	if err := d.ReadRows(0, whole); err != nil {
+		t.Fatal(err)
+	}
+	for _, rows := range []int{16, 64, 128} {
+		t.Run(map[int]string{16: "blocks of 16 rows", 64: "blocks as tall as the tiles", 128: "blocks taller than the tiles"}[rows], func(t *testing.T) {
+			blocks, stop := readBlocks(d, nx, ny, rows)
+			defer stop()
+			next := 0
+			for b := range blocks {
+				if b.err != nil {
+					t.Fatal(b.err)
+				}
+				if b.row != next || b.n != min(rows, ny-next) || len(b.data) != b.n*nx {
+					t.Fatalf("block at row %d, %d rows, %d values; want row %d, %d rows", b.row, b.n, len(b.data), next, min(rows, ny-next))
+				}
+				if !slices.Equal(b.data, whole[b.row*nx:(b.row+b.n)*nx]) {
+					t.Fatalf("block at row %d differs from GDAL's read of the whole grid", b.row)
+				}
+				next += b.n
+				b.release()
+			}
+			if next != ny {
+				t.Fatalf("blocks ended at row %d of %d", next, ny)
+			}
+		})
+	}
+}
