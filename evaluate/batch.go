@@ -174,6 +174,19 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 		comp [4][]float32
 	}
 	sets := [2]*inputSet{{}, {}}
+	// The most rows a companion's block takes (its first and last blocks take fewer), so that
+	// its buffers are allocated once.
+	var compRows [4]int
+	for i, c := range comps {
+		if c == nil {
+			continue
+		}
+		for k := range nBlocks {
+			r0 := k * rowsPerBlock
+			top, bot := c.rowsFor(&age, r0, min(r0+rowsPerBlock, ny))
+			compRows[i] = max(compRows[i], bot-top)
+		}
+	}
 	freeSets := make(chan int, 2)
 	freeSets <- 0
 	freeSets <- 1
@@ -205,7 +218,7 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 					continue
 				}
 				top, bot := c.rowsFor(&age, r0, r0+n)
-				set.comp[i] = grow(set.comp[i], (bot-top)*c.h.NX)
+				set.comp[i] = growCap(set.comp[i], (bot-top)*c.h.NX, compRows[i]*c.h.NX)
 				g := c.h
 				g.NY = bot - top
 				g.North = c.h.North - float64(top)*c.h.DY
@@ -410,8 +423,14 @@ func validHeader(h geo.Grid) error {
 
 // grow returns s with length n, reallocated only when its capacity is too small.
 func grow(s []float32, n int) []float32 {
+	return growCap(s, n, n)
+}
+
+// growCap is grow allocating room for c ≥ n values when it reallocates (the largest of the
+// blocks a buffer will hold, so that it is allocated once), with blockBuf.
+func growCap(s []float32, n, c int) []float32 {
 	if cap(s) < n {
-		return make([]float32, n)
+		s = blockBuf(max(n, c))
 	}
 	return s[:n]
 }

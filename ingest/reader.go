@@ -55,7 +55,8 @@ func OpenReader(ctx context.Context, r Request, progress func(fraction float64))
 		return nil, err
 	}
 	name := displayName(r.Path)
-	d, err := gdal.Open(r.Path, gdal.ReadOptions{Variable: r.Variable, Registration: r.Registration})
+	// Uncompressed float32 GeoTIFFs are read straight into the caller's rows (gdal.ReadOptions.RawTiles).
+	d, err := gdal.Open(r.Path, gdal.ReadOptions{Variable: r.Variable, Registration: r.Registration, RawTiles: true})
 	if err != nil {
 		return nil, readFault(name, err)
 	}
