@@ -22,6 +22,32 @@ type RowReader interface {
 	ReadRows(row0 int, dst []float32) error
 }
 
+// RangeReader is a RowReader that also reports the extremes of the values it read
+// (ingest.Reader is one: its value check finds them anyway). EvaluateGrid uses them to skip
+// the per-cell plausibility screen of a block whose inputs all lie within the screen's limits.
+type RangeReader interface {
+	RowReader
+	// ReadRowsRange is ReadRows also returning the least and the greatest of the values read
+	// that are not NaN (lo = +Inf and hi = −Inf when every value is NaN).
+	ReadRowsRange(row0 int, dst []float32) (lo, hi float32, err error)
+}
+
+// valueRange is what a RangeReader said of the values of one read (known false for other
+// readers).
+type valueRange struct {
+	lo, hi float32
+	known  bool
+}
+
+// readRange reads rows like r.ReadRows, with their extremes when r is a RangeReader.
+func readRange(r RowReader, row0 int, dst []float32) (valueRange, error) {
+	if rr, ok := r.(RangeReader); ok {
+		lo, hi, err := rr.ReadRowsRange(row0, dst)
+		return valueRange{lo, hi, true}, err
+	}
+	return valueRange{}, r.ReadRows(row0, dst)
+}
+
 // GridInputs are the grids of a whole-grid evaluation, each read in row blocks. The output
 // lattice is Age's; Depth, Sediment and Crust may lie on any lattice (sampled bilinearly at the
 // output positions when their samples do not coincide with Age's, as Area samples them).
@@ -136,6 +162,7 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 		row0, rows int
 		age        []float32
 		comp       [4]*geo.Grid
+		rng        [5]valueRange // age, then the companions
 		err        error
 		set        int
 	}
@@ -147,6 +174,19 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 		comp [4][]float32
 	}
 	sets := [2]*inputSet{{}, {}}
+	// The most rows a companion's block takes (its first and last blocks take fewer), so that
+	// its buffers are allocated once.
+	var compRows [4]int
+	for i, c := range comps {
+		if c == nil {
+			continue
+		}
+		for k := range nBlocks {
+			r0 := k * rowsPerBlock
+			top, bot := c.rowsFor(&age, r0, min(r0+rowsPerBlock, ny))
+			compRows[i] = max(compRows[i], bot-top)
+		}
+	}
 	freeSets := make(chan int, 2)
 	freeSets <- 0
 	freeSets <- 1
@@ -172,20 +212,20 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 			var errs [5]error
 			var wg sync.WaitGroup
 			wg.Add(1)
-			go func() { defer wg.Done(); errs[0] = in.Age.ReadRows(r0, l.age) }()
+			go func() { defer wg.Done(); l.rng[0], errs[0] = readRange(in.Age, r0, l.age) }()
 			for i, c := range comps {
 				if c == nil {
 					continue
 				}
 				top, bot := c.rowsFor(&age, r0, r0+n)
-				set.comp[i] = grow(set.comp[i], (bot-top)*c.h.NX)
+				set.comp[i] = growCap(set.comp[i], (bot-top)*c.h.NX, compRows[i]*c.h.NX)
 				g := c.h
 				g.NY = bot - top
 				g.North = c.h.North - float64(top)*c.h.DY
 				g.Data = set.comp[i]
 				l.comp[i] = &g
 				wg.Add(1)
-				go func() { defer wg.Done(); errs[i+1] = c.r.ReadRows(top, set.comp[i]) }()
+				go func() { defer wg.Done(); l.rng[i+1], errs[i+1] = readRange(c.r, top, set.comp[i]) }()
 			}
 			wg.Wait()
 			for _, err := range errs {
@@ -256,17 +296,20 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 			break
 		}
 		vals = grow(vals, n)
+		// The inputs of the screen on the output lattice, unless their extremes show that the
+		// screen would refuse nothing in this block (then neither they nor the screen are needed).
+		screen := !blockClean(fl, p.ID, &blk, &l.comp, &l.rng, in.DepthSense, needCorr, want)
 		var obsL, sedL, crustL []float32
-		if l.comp[0] != nil && fl.need&inObs != 0 {
+		if l.comp[0] != nil && fl.need&inObs != 0 && (screen || p.ID == PObservedDepth) {
 			scratch.obs = grow(scratch.obs, n)
 			obsL = onto(scratch.obs, &blk, l.comp[0])
 			toDepthRows(obsL, in.DepthSense)
 		}
-		if l.comp[1] != nil && fl.need&inSed != 0 {
+		if l.comp[1] != nil && fl.need&inSed != 0 && (screen || p.ID == PSedimentThickness) {
 			scratch.sed = grow(scratch.sed, n)
 			sedL = onto(scratch.sed, &blk, l.comp[1])
 		}
-		if l.comp[2] != nil && fl.need&inCrust != 0 && needCorr {
+		if l.comp[2] != nil && fl.need&inCrust != 0 && needCorr && screen {
 			scratch.crust = grow(scratch.crust, n)
 			crustL = onto(scratch.crust, &blk, l.comp[2])
 		}
@@ -311,7 +354,7 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 			}
 			if err := geo.EvaluateInto(ctx, gin, dst); err != nil {
 				runErr = err
-			} else if screenCorrOnItsOwn(needCorr, want, obsL, sedL, l.comp[2] != nil) {
+			} else if screen && screenCorrOnItsOwn(needCorr, want, obsL, sedL, l.comp[2] != nil) {
 				scratch.corr = grow(scratch.corr, n)
 				corr = scratch.corr
 				runErr = geo.EvaluateInto(ctx, gin, &geo.Result{CorrectedDepthM: outGrid(corr)})
@@ -320,7 +363,9 @@ func (s *Service) EvaluateGrid(ctx context.Context, q *Query, in GridInputs, row
 		if runErr != nil {
 			break
 		}
-		screenRows(fl, vals, l.age, obsL, sedL, crustL, corr)
+		if screen {
+			screenRows(fl, vals, l.age, obsL, sedL, crustL, corr)
+		}
 		freeSets <- l.set
 		select {
 		case outCh <- outBlock{l.row0, vals}:
@@ -378,8 +423,14 @@ func validHeader(h geo.Grid) error {
 
 // grow returns s with length n, reallocated only when its capacity is too small.
 func grow(s []float32, n int) []float32 {
+	return growCap(s, n, n)
+}
+
+// growCap is grow allocating room for c ≥ n values when it reallocates (the largest of the
+// blocks a buffer will hold, so that it is allocated once), with blockBuf.
+func growCap(s []float32, n, c int) []float32 {
 	if cap(s) < n {
-		return make([]float32, n)
+		s = blockBuf(max(n, c))
 	}
 	return s[:n]
 }
@@ -390,24 +441,22 @@ func grow(s []float32, n int) []float32 {
 // sampleOnto gives them.
 func onto(dst []float32, lattice, src *geo.Grid) []float32 {
 	nx := lattice.NX
-	if sameLattice(lattice, src) {
+	if byIndex(lattice, src) {
 		co := int(math.Round((lattice.West - src.West) / src.DX))
 		ro := int(math.Round((src.North - lattice.North) / src.DY))
-		if co >= 0 && co+nx <= src.NX {
-			nan := float32(math.NaN())
-			for r := range lattice.NY {
-				d := dst[r*nx : (r+1)*nx]
-				sr := r + ro
-				if sr < 0 || sr >= src.NY {
-					for i := range d {
-						d[i] = nan
-					}
-					continue
+		nan := float32(math.NaN())
+		for r := range lattice.NY {
+			d := dst[r*nx : (r+1)*nx]
+			sr := r + ro
+			if sr < 0 || sr >= src.NY {
+				for i := range d {
+					d[i] = nan
 				}
-				copy(d, src.Data[sr*src.NX+co:sr*src.NX+co+nx])
+				continue
 			}
-			return dst
+			copy(d, src.Data[sr*src.NX+co:sr*src.NX+co+nx])
 		}
+		return dst
 	}
 	lons := make([]float64, nx)
 	for c := range lons {
@@ -418,6 +467,65 @@ func onto(dst []float32, lattice, src *geo.Grid) []float32 {
 		sm.Row(lattice.Lat(r), dst[r*nx:(r+1)*nx])
 	}
 	return dst
+}
+
+// byIndex reports whether onto copies src's values onto lattice by index (each value on the
+// lattice is one of src's, or NaN), rather than sampling them bilinearly.
+func byIndex(lattice, src *geo.Grid) bool {
+	if !sameLattice(lattice, src) {
+		return false
+	}
+	co := int(math.Round((lattice.West - src.West) / src.DX))
+	return co >= 0 && co+lattice.NX <= src.NX
+}
+
+// blockClean reports whether screenRows would refuse no value of a block of parameter id,
+// judged from the extremes of its inputs alone (rng: age, then the companions comp, as read),
+// so that the screen, and the inputs it alone needs on the output lattice, can be skipped
+// with the same result. It is true only when every input the screen would see has known
+// extremes within the screen's limits (screen: age 0 to MaxAgeMa, sediment 0 to MaxSedimentM,
+// observed depth at most MaxDepthM), a companion is read onto the block by index (its values
+// there are a subset of those read, or NaN), and no corrected depth would be screened: not
+// for corrected depth itself, nor with a crustal-thickness grid, nor when the greatest depth
+// plus the greatest sediment thickness could pass MaxDepthM (corrCanExceedRows' bound). NaN
+// passes every test of the screen, as in screen.
+func blockClean(fl *flagger, id string, blk *geo.Grid, comp *[4]*geo.Grid, rng *[5]valueRange, sense geo.VerticalSense, needCorr bool, want geo.Outputs) bool {
+	if id == PCorrectedDepth || !rng[0].known || rng[0].lo < 0 || float64(rng[0].hi) > MaxAgeMa {
+		return false
+	}
+	obsHi := math.Inf(-1) // greatest observed depth, m positive down
+	if comp[0] != nil && fl.need&inObs != 0 {
+		r := rng[1]
+		if !r.known || !byIndex(blk, comp[0]) {
+			return false
+		}
+		switch sense {
+		case geo.DepthPositiveDown:
+			obsHi = float64(r.hi)
+		case geo.ElevationPositiveUp:
+			obsHi = -float64(r.lo)
+		default:
+			return false
+		}
+		if obsHi > MaxDepthM {
+			return false
+		}
+	}
+	sedHi := math.Inf(-1)
+	if comp[1] != nil && fl.need&inSed != 0 {
+		r := rng[2]
+		if !r.known || !byIndex(blk, comp[1]) || r.lo < 0 || float64(r.hi) > MaxSedimentM {
+			return false
+		}
+		sedHi = float64(r.hi)
+	}
+	if comp[2] != nil && (needCorr || fl.need&inCrust != 0) {
+		return false
+	}
+	if needCorr && want&geo.OutCorrectedDepth == 0 && obsHi+max(sedHi, 0) > MaxDepthM {
+		return false
+	}
+	return true
 }
 
 // screenRows is screenGrids over one block of one parameter: vals[k] is refused (NaN) when the

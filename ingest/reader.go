@@ -55,7 +55,8 @@ func OpenReader(ctx context.Context, r Request, progress func(fraction float64))
 		return nil, err
 	}
 	name := displayName(r.Path)
-	d, err := gdal.Open(r.Path, gdal.ReadOptions{Variable: r.Variable, Registration: r.Registration})
+	// Uncompressed float32 GeoTIFFs are read straight into the caller's rows (gdal.ReadOptions.RawTiles).
+	d, err := gdal.Open(r.Path, gdal.ReadOptions{Variable: r.Variable, Registration: r.Registration, RawTiles: true})
 	if err != nil {
 		return nil, readFault(name, err)
 	}
@@ -189,10 +190,18 @@ func (r *Reader) ContentID() string {
 // ReadRows fills dst with len(dst)/NX whole rows from row0 (row 0 northernmost) in the stored
 // unit, no-data as NaN. Values outside the kind's plausible range are a fault.InvalidGrid.
 func (r *Reader) ReadRows(row0 int, dst []float32) error {
+	_, _, err := r.ReadRowsRange(row0, dst)
+	return err
+}
+
+// ReadRowsRange is ReadRows also returning the least and the greatest of the values read that
+// are not NaN, in the stored unit (lo = +Inf and hi = −Inf when every value is NaN): the value
+// check finds them anyway.
+func (r *Reader) ReadRowsRange(row0 int, dst []float32) (lo, hi float32, err error) {
 	if err := r.d.ReadRows(row0, dst); err != nil {
-		return readFault(r.name, err)
+		return 0, 0, readFault(r.name, err)
 	}
-	lo, hi := prepareRange(dst, r.factor)
+	lo, hi = prepareRange(dst, r.factor)
 	st := Stats{Min: float64(lo), Max: float64(hi)}
 	if math.IsInf(st.Max, 1) || math.IsInf(st.Min, -1) {
 		// An infinite value: Stats count them for checkRange's message.
@@ -200,7 +209,7 @@ func (r *Reader) ReadRows(row0 int, dst []float32) error {
 		st.Add(dst)
 	}
 	if err := checkRange(st, r.kind, r.unit, r.converted); err != nil {
-		return fault.New(fault.InvalidGrid, "file", "%s: %w", r.name, err)
+		return 0, 0, fault.New(fault.InvalidGrid, "file", "%s: %w", r.name, err)
 	}
 	nx := r.header.NX
 	n := len(dst) / nx
@@ -216,7 +225,7 @@ func (r *Reader) ReadRows(row0 int, dst []float32) error {
 	} else if r.digNext >= 0 && row0 > r.digNext {
 		r.digNext = -1 // a gap: no content id
 	}
-	return nil
+	return lo, hi, nil
 }
 
 // SkipContentID stops the content digest of the rows read from here on: ContentID stays ""
@@ -235,6 +244,18 @@ func (r *Reader) SkipContentID() {
 // infinite value shows as lo = −Inf or hi = +Inf. It is what ReadRows needs of Stats.Add
 // (checkRange reads Min, Max and Inf only), without its counts.
 func prepareRange(blk []float32, factor float64) (lo, hi float32) {
+	if factor == 1 && haveRangeAVX && len(blk) >= 8 {
+		// Eight values at a time (rangeAVX), then the rest.
+		n := len(blk) &^ 7
+		lo, hi = rangeAVX(blk[:n], float32(math.NaN()))
+		tlo, thi := prepareRangeGeneric(blk[n:], 1)
+		return min(lo, tlo), max(hi, thi) // no NaN among them
+	}
+	return prepareRangeGeneric(blk, factor)
+}
+
+// prepareRangeGeneric is prepareRange one value at a time.
+func prepareRangeGeneric(blk []float32, factor float64) (lo, hi float32) {
 	lo, hi = float32(math.Inf(1)), float32(math.Inf(-1))
 	nan := float32(math.NaN())
 	if factor == 1 {

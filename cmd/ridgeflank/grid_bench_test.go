@@ -97,11 +97,35 @@ func benchGlobal(b *testing.B, dir string, nx, ny int) (age, elev, sed string) {
 // 3.6; gdal_translate -of COG (deflate) 15–19 s, 0.46 GB. Profile of the in-place run (perf):
 // reading (kernel copies) 22%, the value check 15%, screening 13%, copies and sampling 18%, the
 // model 8%; the output write, 20% while rows of tiles went out as 22 MB pieces, is about 1% as
-// per-block pieces. The goal of ≤ 0.5× gdal_calc.py is NOT met: grid now takes about the CPU time of
-// gdal_calc.py (1.0–1.2× its wall time, at a quarter of its memory) while reading half as much
-// again (three inputs, each checked). What is left would have to come from running the
-// pipeline's stages (reading, computing, writing) on both cores at once, which this shared
-// machine never allowed: wall time was about CPU time in every run.
+// per-block pieces. The goal of ≤ 0.5× gdal_calc.py was then NOT met: grid took about the CPU
+// time of gdal_calc.py (1.0–1.2× its wall time, at a quarter of its memory) while reading half
+// as much again (three inputs, each checked).
+//
+// Since, CPU cut by half: float32 GeoTIFF inputs are read straight from the file into the
+// block buffers (gdal.ReadOptions.RawTiles: one preadv per tile, no copy by GDAL); the value
+// check runs eight values at a time (AVX) and gives each block's extremes, so that a block
+// whose inputs all lie within the screen's limits skips the per-cell screen and the copies of
+// its inputs onto the lattice; block buffers are allocated once, 2 MiB-aligned with huge pages
+// advised (page faults 38 000 → 5 600, of which about 5 000 are the program's start; a fault
+// costs about 12 µs of system time on this machine). Output bytes identical to before (cmp),
+// also with content ids. Measured at load average 3–4 (another process held about 1.7 of the
+// 2 cores), on the same day, the code before this pass from `git archive`: Go benchmark
+// (-benchtime 4x), grid-in-place.tif 0.43–0.77 s (before 1.32–1.40 s), gdal_calc.py
+// 3.5–4.3 s; paired-in-place-vs-gdal_calc ratio 0.17, 0.13, 0.13 (grid 0.53–0.65 s per
+// iteration), before 0.37 and 0.29 (grid 1.08–1.57 s). As binaries, alternating rounds,
+// /usr/bin/time: grid in place 0.68–0.87 s wall, 0.54–0.71 s CPU (0.25–0.30 user), 0.19 GB;
+// before 1.63–1.67 s wall, 1.43–1.53 s CPU, 0.21 GB; gdal_calc.py 3.64–3.76 s wall, 3.4–3.6 s
+// CPU (1.4–1.5 user, 2.0–2.2 system), 0.80 GB; ratio per round 0.18–0.24 (before 0.43–0.45).
+// perf stat: gdal_calc.py makes 188 000 page faults (its whole arrays), grid 5 600. CAUTION:
+// gdal_calc.py took 1.2–1.8 s on the earlier runs above and 3.6–4.3 s on these, its system
+// time (page faults) having grown on this machine; against its earlier times grid's 0.7–0.9 s
+// would be 0.4–0.7×. Grid's CPU time is now below gdal_calc.py's user time alone (0.5–0.7 s
+// against 1.4–1.5 s). Profile of the in-place run now (perf): the kernel copying the inputs
+// out of the page cache 23%, the residual kernel 13%, clearing fresh pages 12%, the value
+// check 3%; the program's start (dynamic linking of GDAL and its libraries) is about a third
+// of the CPU time (a 64 × 64 grid: 0.21 s wall, 0.18 s CPU). Wall time was about CPU time in every run (the other process held the second
+// core): the pipeline's stages overlap (a block read while the last is computed and the one
+// before written), but whether they fill two idle cores was not measurable here.
 func BenchmarkGridResidual(b *testing.B) {
 	dir := b.TempDir()
 	age, elev, sed := benchGlobal(b, dir, 10800, 5400)

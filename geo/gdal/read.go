@@ -65,6 +65,10 @@ type ReadOptions struct {
 	WarpToLonLat bool
 	// MaxCells bounds the size Read accepts (default DefaultMaxCells).
 	MaxCells int
+	// RawTiles lets ReadRows read an uncompressed single-band float32 GeoTIFF straight from
+	// its file into the caller's buffer, one copy less than through GDAL (see rawread.go);
+	// other files are read through GDAL as always. The values are the same.
+	RawTiles bool
 }
 
 // Meta describes a grid file: what Read found, or what Write* should record.
@@ -108,6 +112,7 @@ type Dataset struct {
 	offset    float64
 	meta      Meta
 	path      string
+	raw       *rawTiles // non-nil: ReadRows reads the file's blocks itself (ReadOptions.RawTiles)
 }
 
 func (d *Dataset) lock() {
@@ -266,6 +271,9 @@ func Open(path string, opt ReadOptions) (*Dataset, error) {
 	if err := d.setup(opt, forced, warn); err != nil {
 		d.closeLocked()
 		return nil, err
+	}
+	if opt.RawTiles && d.src == nil && !d.hdf && openPath == path {
+		d.raw, _ = newRawTiles(d.h, d.band, path) // errNoRaw: GDAL reads it
 	}
 	return d, nil
 }
@@ -629,11 +637,19 @@ func (d *Dataset) ReadRows(row0 int, dst []float32) error {
 		d.unlock()
 		return errors.New("read rows: dataset is closed")
 	}
-	var e C.rf_err
-	ok := C.rf_read_rows(d.h, C.int(d.band), C.int(src0), C.int(n), C.int(nx), (*C.float)(unsafe.Pointer(&dst[0])), &e)
-	d.unlock()
-	if ok == 0 {
-		return cErr(&e, "read grid "+d.path)
+	if d.raw != nil {
+		err := d.raw.read(src0, dst)
+		d.unlock()
+		if err != nil {
+			return fmt.Errorf("read grid %s: %w", d.path, err)
+		}
+	} else {
+		var e C.rf_err
+		ok := C.rf_read_rows(d.h, C.int(d.band), C.int(src0), C.int(n), C.int(nx), (*C.float)(unsafe.Pointer(&dst[0])), &e)
+		d.unlock()
+		if ok == 0 {
+			return cErr(&e, "read grid "+d.path)
+		}
 	}
 	if d.flip {
 		flipRows(dst, nx, n)
@@ -685,6 +701,8 @@ func (d *Dataset) Close() error {
 }
 
 func (d *Dataset) closeLocked() error {
+	d.raw.close()
+	d.raw = nil
 	var err error
 	if d.h != nil {
 		err = d.closeRaw(d.h)
