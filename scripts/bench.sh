@@ -28,6 +28,10 @@ bench ./geo/ 'BenchmarkResidualGlobal$' 3x -cpu 1,2
 bench ./evaluate/ 'BenchmarkStatistics10M$' 2x -cpu 1,2
 # Tiles at several zooms, areas against a plain read, the survey plan check.
 bench ./evaluate/ 'BenchmarkTileResidual$|BenchmarkAreaMillionCells$|BenchmarkCheckPlan$' 1s
+# The grid command against gdal_calc.py (whose Python needs GDAL's bindings and numpy),
+# alternating in each iteration.
+scripts/apt-ensure.sh python3-gdal python3-numpy || echo "bench: gdal_calc.py's Python modules are missing: that peer is skipped" >&2
+bench ./cmd/ridgeflank/ 'BenchmarkGridResidual$/^paired-in-place-vs-gdal_calc$' 4x
 # Position queries against a bare chi handler, and a tile through the HTTP stack.
 bench ./server/ 'BenchmarkPosition$|BenchmarkResidualTile$' 2s
 

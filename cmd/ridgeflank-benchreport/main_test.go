@@ -71,3 +71,32 @@ func TestServeRows(t *testing.T) {
 		t.Errorf("load line %q", l)
 	}
 }
+
+// TestRenderGridAgainstCalc: the paired grid ÷ gdal_calc.py result (its custom metrics, as
+// testing.B's ReportMetric prints them) becomes a sentence with both times, the ratio and the
+// verdict against the issue's goal (≤ 0.5); a run without it says it was not measured.
+func TestRenderGridAgainstCalc(t *testing.T) {
+	for _, tc := range []struct {
+		name, line string
+		want       []string
+	}{
+		{"met", "BenchmarkGridResidual/paired-in-place-vs-gdal_calc-2 \t 4\t 2900000000 ns/op\t 0.5 grid-s/op\t 2.4 gdal_calc-s/op\t 0.2083 ratio\t 100 B/op\t 1 allocs/op",
+			[]string{"grid 500.00 ms, gdal_calc.py 2.40 s per run, ratio 0.21 (goal ≤ 0.5: met)", "4 iterations"}},
+		{"not met", "BenchmarkGridResidual/paired-in-place-vs-gdal_calc-2 \t 2\t 2900000000 ns/op\t 1.2 grid-s/op\t 1.2 gdal_calc-s/op\t 1 ratio",
+			[]string{"ratio 1.00 (goal ≤ 0.5: **not met**)"}},
+		{"absent", "BenchmarkNoSuffix 10 100 ns/op", []string{"Not measured in this run (`gdal_calc.py`"}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			rs, err := parseBench(strings.NewReader("pkg: ridgeflank/cmd/ridgeflank\n" + tc.line + "\n"))
+			if err != nil {
+				t.Fatal(err)
+			}
+			out := render(rs, machineInfo{}, "", "", nil, "make bench")
+			for _, w := range tc.want {
+				if !strings.Contains(out, w) {
+					t.Errorf("report lacks %q:\n%s", w, out)
+				}
+			}
+		})
+	}
+}
