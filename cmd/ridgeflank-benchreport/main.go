@@ -317,7 +317,7 @@ func render(rs results, m machineInfo, load, loadStatus string, scales []scaleRe
 	b.WriteString("## `ridgeflank grid` against `gdal_calc.py`\n\n")
 	if r, ok := rs.get("GridResidual/paired-in-place-vs-gdal_calc", 0); ok {
 		ratio := r.Metrics["ratio"]
-		fmt.Fprintf(&b, "`cmd/ridgeflank` BenchmarkGridResidual: residual depth over a SYNTHETIC 10800 × 5400 global set (three uncompressed GeoTIFF inputs read and checked under import's rules, plate series through the lookup tables, sediment unloading, an uncompressed COG without overviews written in place) against `gdal_calc.py` computing the GDH1 fit residual (no series, no sediment; Stein & Stein 1992) from two of the files, alternating in each of %d iterations: grid %s, gdal_calc.py %s per run, ratio %.2f (goal ≤ 0.5: %s).\n\n",
+		fmt.Fprintf(&b, "`cmd/ridgeflank` BenchmarkGridResidual: residual depth over a SYNTHETIC 10800 × 5400 global set (three uncompressed GeoTIFF inputs read and checked under import's rules, plate series through the lookup tables, sediment unloading, an uncompressed COG without overviews written in place) against `gdal_calc.py` computing the GDH1 fit residual (no series, no sediment; Stein & Stein 1992) from two of the files, each a process of its own (program start counts), alternating in each of %d iterations: grid %s, gdal_calc.py %s per run, ratio %.2f (goal ≤ 0.5: %s).\n\n",
 			r.N, fmtDur(r.Metrics["grid-s/op"]*1e9), fmtDur(r.Metrics["gdal_calc-s/op"]*1e9), ratio, verdict(ratio <= 0.5))
 	} else {
 		b.WriteString("Not measured in this run (`gdal_calc.py` needs Debian's python3-gdal and python3-numpy).\n\n")
