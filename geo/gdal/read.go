@@ -763,3 +763,11 @@ func (d *Dataset) BlockRows() int {
 	}
 	return int(by)
 }
+
+// ReadsRaw reports whether ReadRows reads the file's blocks itself, without GDAL
+// (ReadOptions.RawTiles granted: an uncompressed float32 GeoTIFF).
+func (d *Dataset) ReadsRaw() bool {
+	d.lock()
+	defer d.unlock()
+	return d.raw != nil
+}
