@@ -364,16 +364,19 @@ type rowBlock struct {
 // blocks of rows: every tile is then decoded once, whatever the size of GDAL's block cache
 // (half-tile reads of a 15-arc-second grid decoded each tile twice with the default 64 MB
 // cache, measured on this project's machine). The channel closes after the last block or the
-// first failed one. stop (idempotent) ends the reading and waits for the goroutine; call it
-// before closing d.
+// first failed one. stop (idempotent) ends the reading, waits for the goroutine and frees the
+// buffers (outside the Go heap, rowBuffer): no block may be used after it; call it before
+// closing d.
 func readBlocks(d *gdal.Dataset, nx, ny, rows int) (<-chan rowBlock, func()) {
 	chunk := rows
 	if by := d.BlockRows(); by > rows && by%rows == 0 && int64(by)*int64(nx)*4 <= 2*int64(blockBytes) {
 		chunk = by
 	}
 	free := make(chan []float32, 2)
-	free <- make([]float32, chunk*nx)
-	free <- make([]float32, chunk*nx)
+	buf0, free0 := rowBuffer(chunk * nx)
+	buf1, free1 := rowBuffer(chunk * nx)
+	free <- buf0
+	free <- buf1
 	out := make(chan rowBlock)
 	quit, done := make(chan struct{}), make(chan struct{})
 	go func() {
@@ -424,6 +427,8 @@ func readBlocks(d *gdal.Dataset, nx, ny, rows int) (<-chan rowBlock, func()) {
 			once = true
 			close(quit)
 			<-done
+			free0()
+			free1()
 		}
 	}
 }

@@ -46,6 +46,7 @@ type tileRow struct {
 	height      int
 	row0, n     int
 	data        []float32
+	free        func() // unmaps data (rowBuffer)
 	initialised bool
 }
 
@@ -278,7 +279,7 @@ func (r *Reader) readSource(row0 int, dst []float32) error {
 			top := row / t.height * t.height
 			m := min(t.height, ny-top)
 			if t.data == nil {
-				t.data = make([]float32, t.height*nx)
+				t.data, t.free = rowBuffer(t.height * nx)
 			}
 			t.n = 0 // invalid until read
 			if err := r.d.ReadRows(top, t.data[:m*nx]); err != nil {
@@ -356,4 +357,12 @@ func prepareRangeGeneric(blk []float32, factor float64) (lo, hi float32) {
 }
 
 // Close releases the file.
-func (r *Reader) Close() error { return r.d.Close() }
+func (r *Reader) Close() error {
+	r.tiles.mu.Lock()
+	if r.tiles.free != nil {
+		r.tiles.free()
+		r.tiles.data, r.tiles.free, r.tiles.n = nil, nil, 0
+	}
+	r.tiles.mu.Unlock()
+	return r.d.Close()
+}
