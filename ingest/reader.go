@@ -257,6 +257,9 @@ func (r *Reader) ReadRowsRange(row0 int, dst []float32) (lo, hi float32, err err
 // maxTileRowBytes are read directly.
 func (r *Reader) readSource(row0 int, dst []float32) error {
 	nx := r.header.NX
+	if nx <= 0 || len(dst)%nx != 0 {
+		return r.d.ReadRows(row0, dst) // its error
+	}
 	n := len(dst) / nx
 	t := &r.tiles
 	t.mu.Lock()
@@ -267,7 +270,7 @@ func (r *Reader) readSource(row0 int, dst []float32) error {
 			t.height = by
 		}
 	}
-	if t.height == 0 || n >= t.height || nx == 0 || len(dst)%nx != 0 {
+	if t.height == 0 || n >= t.height {
 		return r.d.ReadRows(row0, dst)
 	}
 	ny := r.header.NY
