@@ -358,18 +358,16 @@ type rowBlock struct {
 
 // readBlocks reads d in blocks of rows (the last may be shorter) on a goroutine of its own,
 // with two buffers, so that reading overlaps the caller's work on the previous block. When the
-// source's storage blocks are taller than rows (d.BlockRows a multiple of rows, the row of
-// tiles at most twice blockBytes: with the default bound, the 512-row tiles of a 15-arc-second
-// global grid, 86400 columns, 169 MiB of float32), it reads a whole row of tiles at a time and hands it out in
-// blocks of rows: every tile is then decoded once, whatever the size of GDAL's block cache
-// (half-tile reads of a 15-arc-second grid decoded each tile twice with the default 64 MB
-// cache, measured on this project's machine). The channel closes after the last block or the
+// source's storage blocks are taller than rows (wholeTileRows, a multiple of rows), it reads a
+// whole row of tiles at a time and hands it out in blocks of rows: every tile is then decoded
+// once, whatever the size of GDAL's block cache (half-tile reads of a 15-arc-second grid
+// decoded each tile twice with the default 64 MB cache, measured on this project's machine). The channel closes after the last block or the
 // first failed one. stop (idempotent) ends the reading, waits for the goroutine and frees the
 // buffers (outside the Go heap, rowBuffer): no block may be used after it; call it before
 // closing d.
 func readBlocks(d *gdal.Dataset, nx, ny, rows int) (<-chan rowBlock, func()) {
 	chunk := rows
-	if by := d.BlockRows(); by > rows && by%rows == 0 && int64(by)*int64(nx)*4 <= 2*int64(blockBytes) {
+	if by := wholeTileRows(d, nx); by > rows && by%rows == 0 {
 		chunk = by
 	}
 	free := make(chan []float32, 2)

@@ -50,9 +50,21 @@ type tileRow struct {
 	initialised bool
 }
 
-// maxTileRowBytes bounds the row of storage blocks a Reader keeps: 256 MiB holds the 512-row
-// tiles of a 15-arc-second global grid (86400 columns, 169 MiB of float32).
+// maxTileRowBytes bounds a row of storage blocks read at once (wholeTileRows): 256 MiB holds
+// the 512-row tiles of a 15-arc-second global grid (86400 columns, 169 MiB of float32).
 const maxTileRowBytes = 256 << 20
+
+// wholeTileRows is the height of the rows of d's storage blocks (d.BlockRows) when a reader of
+// its nx columns should read them whole, so that GDAL decodes each block once: 0 when reads go
+// straight to the file (blocks one row tall, a file read raw, a row of blocks above
+// maxTileRowBytes). Import's reading (readBlocks) and a Reader's (readSource) follow it.
+func wholeTileRows(d *gdal.Dataset, nx int) int {
+	by := d.BlockRows()
+	if by <= 1 || d.ReadsRaw() || int64(by)*int64(nx)*4 > maxTileRowBytes {
+		return 0
+	}
+	return by
+}
 
 // OpenReader opens the file of r for reading in blocks of rows. r.Kind says what the grid
 // holds; r.Units and r.Registration are taken as Import takes them. For bathymetry (kind depth
@@ -252,9 +264,8 @@ func (r *Reader) ReadRowsRange(row0 int, dst []float32) (lo, hi float32, err err
 // whole blocks, and its multi-threaded reading of compressed GeoTIFF decodes them into the
 // caller's buffer without keeping them, so each partial read decoded the row of blocks again
 // (a 21600 × 10800 residual in blocks of 64 rows took 2.8 times the CPU time of blocks of 256,
-// with GDAL's block cache at 8 MB or 512 MB alike, measured on this project's machine). Files
-// read raw (gdal.ReadOptions.RawTiles), blocks of one row and rows of blocks above
-// maxTileRowBytes are read directly.
+// with GDAL's block cache at 8 MB or 512 MB alike, measured on this project's machine). Which
+// files are read so is wholeTileRows' rule.
 func (r *Reader) readSource(row0 int, dst []float32) error {
 	nx := r.header.NX
 	if nx <= 0 || len(dst)%nx != 0 {
@@ -266,9 +277,7 @@ func (r *Reader) readSource(row0 int, dst []float32) error {
 	defer t.mu.Unlock()
 	if !t.initialised {
 		t.initialised = true
-		if by := r.d.BlockRows(); by > 1 && !r.d.ReadsRaw() && int64(by)*int64(nx)*4 <= maxTileRowBytes {
-			t.height = by
-		}
+		t.height = wholeTileRows(r.d, nx)
 	}
 	if t.height == 0 || n >= t.height {
 		return r.d.ReadRows(row0, dst)
