@@ -16,9 +16,9 @@ import (
 	"ridgeflank/store"
 )
 
-// BenchmarkStatsAdd measures the one-pass statistics over a 2160-column row block of 256 rows
-// (a 10-arc-minute global grid's width), with a tenth of the cells no-data.
-func BenchmarkStatsAdd(b *testing.B) {
+// benchBlock is a 2160-column row block of 256 rows (a 10-arc-minute global grid's width) of
+// values from −2500 to 2499, a tenth of them no-data (NaN).
+func benchBlock() []float32 {
 	blk := make([]float32, 2160*256)
 	for i := range blk {
 		blk[i] = float32(i%5000) - 2500
@@ -26,6 +26,13 @@ func BenchmarkStatsAdd(b *testing.B) {
 			blk[i] = float32(math.NaN())
 		}
 	}
+	return blk
+}
+
+// BenchmarkStatsAdd measures the one-pass statistics over a 2160-column row block of 256 rows
+// (a 10-arc-minute global grid's width), with a tenth of the cells no-data.
+func BenchmarkStatsAdd(b *testing.B) {
+	blk := benchBlock()
 	b.SetBytes(int64(4 * len(blk)))
 	for b.Loop() {
 		var s Stats
@@ -37,13 +44,7 @@ func BenchmarkStatsAdd(b *testing.B) {
 // BenchmarkStatsAdd): prepare then Stats.Add (the two passes it made before) against
 // prepareRange (one pass, the extremes only). Compare ns/op of the two in one run.
 func BenchmarkReadRowsCheck(b *testing.B) {
-	src := make([]float32, 2160*256)
-	for i := range src {
-		src[i] = float32(i%5000) - 2500
-		if i%10 == 0 {
-			src[i] = float32(math.NaN())
-		}
-	}
+	src := benchBlock()
 	blk := make([]float32, len(src))
 	b.Run("prepare+Stats.Add", func(b *testing.B) {
 		b.ReportAllocs()

@@ -39,15 +39,14 @@ type Reader struct {
 }
 
 // tileRow is one whole row of a file's storage blocks, as read from the file (before unit
-// conversion): rows row0 .. row0+n−1. height is the blocks' height, 0 when reads go straight
-// to the file (see readSource).
+// conversion): rows row0 .. row0+n−1. height is the blocks' height, set at OpenReader by
+// wholeTileRows, 0 when reads go straight to the file (see readSource).
 type tileRow struct {
-	mu          sync.Mutex
-	height      int
-	row0, n     int
-	data        []float32
-	free        func() // unmaps data (rowBuffer)
-	initialised bool
+	mu      sync.Mutex
+	height  int
+	row0, n int
+	data    []float32
+	free    func() // unmaps data (rowBuffer)
 }
 
 // maxTileRowBytes bounds a row of storage blocks read at once (wholeTileRows): 256 MiB holds
@@ -96,6 +95,7 @@ func OpenReader(ctx context.Context, r Request, progress func(fraction float64))
 		return nil, err
 	}
 	rd := &Reader{d: d, name: name, header: g, kind: r.Kind, dig: newDigest()}
+	rd.tiles.height = wholeTileRows(d, g.NX)
 	fail := func(err error) (*Reader, error) {
 		d.Close()
 		return nil, err
@@ -275,10 +275,6 @@ func (r *Reader) readSource(row0 int, dst []float32) error {
 	t := &r.tiles
 	t.mu.Lock()
 	defer t.mu.Unlock()
-	if !t.initialised {
-		t.initialised = true
-		t.height = wholeTileRows(r.d, nx)
-	}
 	if t.height == 0 || n >= t.height {
 		return r.d.ReadRows(row0, dst)
 	}

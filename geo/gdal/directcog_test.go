@@ -168,10 +168,7 @@ func TestCOGStreamInPlaceElsewhere(t *testing.T) {
 			if err := s.Finish(context.Background(), out, Meta{Units: "m", Metadata: tc.md}, nil); err != nil {
 				t.Fatal(err)
 			}
-			b, mb, err := Read(out)
-			if err != nil {
-				t.Fatal(err)
-			}
+			b, mb := mustRead(t, out)
 			sameHeader(t, b, g)
 			sameData(t, b, g)
 			for k, v := range tc.md {

@@ -42,14 +42,8 @@ func TestNetCDFStreamMatchesWriteNetCDF(t *testing.T) {
 			if err := s.Finish(map[string]string{"ridgeflank_refused": "none"}); err != nil {
 				t.Fatal(err)
 			}
-			a, ma, err := Read(whole)
-			if err != nil {
-				t.Fatal(err)
-			}
-			b, mb, err := Read(path)
-			if err != nil {
-				t.Fatal(err)
-			}
+			a, ma := mustRead(t, whole)
+			b, mb := mustRead(t, path)
 			if a.NX != b.NX || a.NY != b.NY || a.West != b.West || a.North != b.North || a.DX != b.DX || a.DY != b.DY || a.Registration != b.Registration {
 				t.Fatalf("lattice %+v, want %+v", b, a)
 			}

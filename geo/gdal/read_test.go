@@ -78,6 +78,16 @@ func run(t testing.TB, name string, args ...string) string {
 	return string(out)
 }
 
+// mustRead is Read(path, opt...), failing the test on an error.
+func mustRead(t *testing.T, path string, opt ...ReadOptions) (*geo.Grid, Meta) {
+	t.Helper()
+	g, m, err := Read(path, opt...)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return g, m
+}
+
 func sameData(t *testing.T, got, want *geo.Grid) {
 	t.Helper()
 	if got.NX != want.NX || got.NY != want.NY {
@@ -135,10 +145,7 @@ func TestReadFormatsMadeByGDALTools(t *testing.T) {
 					run(t, "gdal_translate", append(append([]string{"-q"}, tc.args...), asc, path)...)
 				}
 			}
-			g, m, err := Read(path)
-			if err != nil {
-				t.Fatal(err)
-			}
+			g, m := mustRead(t, path)
 			w := want.Clone()
 			w.Registration = tc.reg
 			sameHeader(t, g, w)
@@ -164,10 +171,7 @@ func TestReadPackedNetCDF(t *testing.T) {
 	if !strings.Contains(out, "scale_factor = 0.5") || !strings.Contains(out, "add_offset = -1000.") {
 		t.Fatalf("gdal_translate did not pack:\n%s", out)
 	}
-	g, _, err := Read(p)
-	if err != nil {
-		t.Fatal(err)
-	}
+	g, _ := mustRead(t, p)
 	w := want.Clone()
 	w.Registration = geo.Node
 	for i, v := range w.Data {
@@ -197,10 +201,7 @@ func TestNetCDFRowOrder(t *testing.T) {
 	if err := WriteNetCDF(p, g, Meta{Name: "lat_value", Units: "degree_north"}); err != nil {
 		t.Fatal(err)
 	}
-	back, _, err := Read(p)
-	if err != nil {
-		t.Fatal(err)
-	}
+	back, _ := mustRead(t, p)
 	t.Run("row 0 is north after reading", func(t *testing.T) {
 		if back.North != 50 || back.At(0, 0) != 50 || back.At(0, back.NY-1) != 42 {
 			t.Errorf("north %g, row 0 = %g, last row = %g; want 50, 50, 42", back.North, back.At(0, 0), back.At(0, back.NY-1))
@@ -282,10 +283,7 @@ func TestRoundTrip(t *testing.T) {
 				if err := f.write(p, gc.g, meta); err != nil {
 					t.Fatal(err)
 				}
-				got, m, err := Read(p)
-				if err != nil {
-					t.Fatal(err)
-				}
+				got, m := mustRead(t, p)
 				sameHeader(t, got, gc.g)
 				sameData(t, got, gc.g)
 				if m.Name != meta.Name || m.Units != meta.Units || m.LongName != meta.LongName || m.Title != meta.Title ||
@@ -341,10 +339,7 @@ func TestRoundTrip(t *testing.T) {
 		if err := WriteCOG(p, g, Meta{NoData: &nd}); err != nil {
 			t.Fatal(err)
 		}
-		got, m, err := Read(p)
-		if err != nil {
-			t.Fatal(err)
-		}
+		got, m := mustRead(t, p)
 		if m.NoData == nil || *m.NoData != nd {
 			t.Errorf("nodata %v", m.NoData)
 		}
@@ -429,10 +424,7 @@ func TestMultiVariableNetCDF(t *testing.T) {
 		}
 	})
 	t.Run("variable option", func(t *testing.T) {
-		g, m, err := Read(nc, ReadOptions{Variable: "Band2"})
-		if err != nil {
-			t.Fatal(err)
-		}
+		g, m := mustRead(t, nc, ReadOptions{Variable: "Band2"})
 		sameHeader(t, g, want2)
 		sameData(t, g, want2)
 		if m.Name != "Band2" {
@@ -440,10 +432,7 @@ func TestMultiVariableNetCDF(t *testing.T) {
 		}
 	})
 	t.Run("NETCDF:file:variable form", func(t *testing.T) {
-		g, _, err := Read(`NETCDF:"` + nc + `":Band1`)
-		if err != nil {
-			t.Fatal(err)
-		}
+		g, _ := mustRead(t, `NETCDF:"`+nc+`":Band1`)
 		sameData(t, g, want)
 	})
 	t.Run("unknown variable", func(t *testing.T) {
@@ -472,20 +461,14 @@ func TestReadBAG(t *testing.T) {
 	asc, want := writeASC(t, dir)
 	bag := filepath.Join(dir, "survey.bag")
 	run(t, "gdal_translate", "-q", "-of", "BAG", "-a_srs", "EPSG:4326", asc, bag)
-	g, m, err := Read(bag)
-	if err != nil {
-		t.Fatal(err)
-	}
+	g, m := mustRead(t, bag)
 	want.Registration = geo.Node
 	sameHeader(t, g, want)
 	sameData(t, g, want)
 	if m.Driver != "BAG" || m.Sense != geo.ElevationPositiveUp || m.Name != "elevation" {
 		t.Errorf("driver %q sense %v name %q", m.Driver, m.Sense, m.Name)
 	}
-	u, _, err := Read(bag, ReadOptions{Band: 2})
-	if err != nil {
-		t.Fatal(err)
-	}
+	u, _ := mustRead(t, bag, ReadOptions{Band: 2})
 	for i, v := range u.Data {
 		if v == v {
 			t.Fatalf("uncertainty cell %d = %g, want no data (none was written)", i, v)
@@ -544,10 +527,7 @@ func TestReadRejects(t *testing.T) {
 		})
 	}
 	t.Run("projected CRS reprojected on request", func(t *testing.T) {
-		g, m, err := Read(utm, ReadOptions{WarpToLonLat: true})
-		if err != nil {
-			t.Fatal(err)
-		}
+		g, m := mustRead(t, utm, ReadOptions{WarpToLonLat: true})
 		// UTM zone 31's central meridian is 3°E (zone n: 6n − 183°; the UTM definition, NGA
 		// TR8358.2), so easting 500000 m is longitude 3° exactly. Northing 5000 km is about
 		// 45.1° N (from memory; tolerance 0.1°).

@@ -163,10 +163,7 @@ func TestCOGStreamMisuse(t *testing.T) {
 	if err := s.Finish(context.Background(), out, Meta{}, nil); err != nil {
 		t.Fatal(err)
 	}
-	back, _, err := Read(out)
-	if err != nil {
-		t.Fatal(err)
-	}
+	back, _ := mustRead(t, out)
 	sameData(t, back, g)
 }
 
@@ -212,14 +209,8 @@ func TestCOGStreamCancelledDuringCopy(t *testing.T) {
 // and holds g's values on g's lattice.
 func sameGridFile(t *testing.T, got, want string, g *geo.Grid) {
 	t.Helper()
-	a, ma, err := Read(want)
-	if err != nil {
-		t.Fatal(err)
-	}
-	b, mb, err := Read(got)
-	if err != nil {
-		t.Fatal(err)
-	}
+	a, ma := mustRead(t, want)
+	b, mb := mustRead(t, got)
 	sameHeader(t, b, a)
 	sameHeader(t, b, g)
 	sameData(t, b, g)
@@ -239,10 +230,7 @@ func sameGridFile(t *testing.T, got, want string, g *geo.Grid) {
 // sameAsGrid checks that the grid file path holds g: its lattice and its values.
 func sameAsGrid(t *testing.T, path string, g *geo.Grid) {
 	t.Helper()
-	got, _, err := Read(path)
-	if err != nil {
-		t.Fatal(err)
-	}
+	got, _ := mustRead(t, path)
 	sameHeader(t, got, g)
 	sameData(t, got, g)
 }
